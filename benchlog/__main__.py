@@ -1,0 +1,5 @@
+"""Allows `python -m benchlog`."""
+
+from benchlog.cli import main
+
+raise SystemExit(main())

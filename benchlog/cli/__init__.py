@@ -1,0 +1,67 @@
+"""The `benchlog` command: argument parsing, `--json` output and exit codes; the work is done by the packages.
+
+Exit codes: 0 success or `pass`; 1 a measurement or check that ran but did not
+succeed (`fail`, limit hit, fault, cancel); 2 bad input (file, argument or an
+instrument's nonsense reply), always as one line on stderr; 3 a `conditional`
+verdict; 130 interrupted by Ctrl-C.
+
+Each subcommand lives in its own module with a `register(subparsers)` function.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from benchlog import __version__
+from benchlog.badinput import BadInput
+
+from . import analysis_cmd, profiles_cmd, report_cmd, sim_cmd, sweep_cmd, ui_cmd
+
+EXIT_OK = 0
+EXIT_FAILED = 1
+EXIT_BAD_INPUT = 2
+EXIT_CONDITIONAL = 3
+EXIT_INTERRUPTED = 130
+
+_COMMAND_MODULES = (ui_cmd, sweep_cmd, analysis_cmd, report_cmd, sim_cmd, profiles_cmd)
+
+
+class OneLineParser(argparse.ArgumentParser):
+    """argparse that reports a wrong argument as one line and exit code 2."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        sys.stderr.write(f"{self.prog}: {message} (see '{self.prog} --help')\n")
+        raise SystemExit(EXIT_BAD_INPUT)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = OneLineParser(
+        prog="benchlog",
+        description=(
+            "Measure the reverse-polarity protection element of a board (rectifier, Schottky, "
+            "P-MOSFET) over SCPI, fit it, predict its loss from the part spec and give a verdict."
+        ),
+    )
+    parser.add_argument("--version", action="version", version=f"benchlog {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=OneLineParser)
+    for module in _COMMAND_MODULES:
+        module.register(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    handler = getattr(args, "handler", None)
+    if handler is None:
+        parser.print_help()
+        return EXIT_BAD_INPUT if argv or sys.argv[1:] else EXIT_OK
+    try:
+        return int(handler(args) or 0)
+    except BadInput as exc:
+        sys.stderr.write(f"benchlog: {exc.line()}\n")
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        sys.stderr.write("benchlog: interrupted; outputs were switched off\n")
+        return EXIT_INTERRUPTED

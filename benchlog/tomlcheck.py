@@ -1,0 +1,204 @@
+"""Reading our TOML files (profiles, bench, plan, spec, design) with errors that name file, key and expectation.
+
+TOML files here are data only: they are parsed with `tomllib`, never executed.
+A `Table` hands out typed values and raises `BadInput` naming `[table].key`, so
+each reader states its schema in a few plain lines.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import tomllib
+from pathlib import Path
+from typing import Any, Iterable
+
+from benchlog.badinput import BadInput
+
+_MISSING = object()
+
+
+def load_toml(path: str | Path) -> "Table":
+    """Parse a TOML file into its root `Table`; unreadable or malformed files raise `BadInput`."""
+    path = Path(path)
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise BadInput(path, "", "file not found", "an existing TOML file") from None
+    except OSError as exc:
+        raise BadInput(path, "", f"cannot be read ({exc.strerror})", "a readable file") from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise BadInput(path, f"byte {exc.start}", "is not UTF-8 text", "a UTF-8 TOML file") from None
+    return parse_toml(text, str(path))
+
+
+def parse_toml(text: str, source: str) -> "Table":
+    """Parse TOML text; `source` names it in errors."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        # tomllib puts "(at line N, column M)" in its message; keep it, it is the place.
+        raise BadInput(source, "", f"is not valid TOML: {exc}", "TOML syntax") from None
+    return Table(source, "", data)
+
+
+def _describe(value: Any) -> str:
+    text = repr(value)
+    return text if len(text) <= 40 else text[:37] + "..."
+
+
+class Table:
+    """One TOML table with typed accessors; `prefix` is how its keys are named in errors."""
+
+    def __init__(self, source: str, name: str, data: dict[str, Any]) -> None:
+        self.source = source
+        self.name = name
+        self.data = data
+
+    # -- places -------------------------------------------------------------
+    def where(self, key: str | None = None) -> str:
+        if key is None:
+            return f"[{self.name}]" if self.name else "top level"
+        return f"[{self.name}].{key}" if self.name else key
+
+    def fail(self, key: str | None, problem: str, expected: str = "") -> BadInput:
+        return BadInput(self.source, self.where(key), problem, expected)
+
+    # -- structure ----------------------------------------------------------
+    def has(self, key: str) -> bool:
+        return key in self.data
+
+    def keys(self) -> list[str]:
+        return list(self.data)
+
+    def table(self, key: str, required: bool = True) -> "Table | None":
+        name = f"{self.name}.{key}" if self.name else key
+        if key not in self.data:
+            if required:
+                raise BadInput(self.source, f"[{name}]", "table is missing", f"a [{name}] table")
+            return None
+        value = self.data[key]
+        if not isinstance(value, dict):
+            raise BadInput(self.source, self.where(key), f"is {_describe(value)}", f"a table [{name}]")
+        return Table(self.source, name, value)
+
+    def tables(self, key: str) -> list["Table"]:
+        """An array of tables (`[[key]]`), possibly empty."""
+        value = self.data.get(key, [])
+        name = f"{self.name}.{key}" if self.name else key
+        if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
+            raise self.fail(key, f"is {_describe(value)}", f"an array of tables [[{name}]]")
+        return [Table(self.source, f"{name}[{i}]", v) for i, v in enumerate(value)]
+
+    def only(self, allowed: Iterable[str]) -> None:
+        """Reject keys outside `allowed`, suggesting the nearest valid name (typos are common)."""
+        allowed = list(allowed)
+        for key in self.data:
+            if key not in allowed:
+                near = difflib.get_close_matches(key, allowed, n=1)
+                hint = f"did you mean '{near[0]}'?" if near else "one of " + ", ".join(allowed)
+                raise self.fail(key, "unknown key", hint)
+
+    # -- values -------------------------------------------------------------
+    def _get(self, key: str, default: Any) -> Any:
+        if key in self.data:
+            return self.data[key]
+        if default is _MISSING:
+            raise self.fail(key, "is missing", "a value for this key")
+        return default
+
+    def string(self, key: str, default: Any = _MISSING, choices: Iterable[str] | None = None) -> Any:
+        value = self._get(key, default)
+        if value is default and key not in self.data:
+            return value
+        if not isinstance(value, str):
+            raise self.fail(key, f"is {_describe(value)}", "a string in quotes")
+        if choices is not None:
+            choices = list(choices)
+            if value not in choices:
+                raise self.fail(key, f"is {value!r}", "one of " + ", ".join(repr(c) for c in choices))
+        return value
+
+    def boolean(self, key: str, default: Any = _MISSING) -> Any:
+        value = self._get(key, default)
+        if value is default and key not in self.data:
+            return value
+        if not isinstance(value, bool):
+            raise self.fail(key, f"is {_describe(value)}", "true or false")
+        return value
+
+    def number(
+        self,
+        key: str,
+        default: Any = _MISSING,
+        *,
+        min: float | None = None,
+        max: float | None = None,
+        positive: bool = False,
+        unit: str = "",
+    ) -> Any:
+        """A finite real number within bounds; integers are accepted as numbers."""
+        value = self._get(key, default)
+        if value is default and key not in self.data:
+            return value
+        return self._check_number(key, value, min, max, positive, unit)
+
+    def _check_number(self, key: str, value: Any, lo, hi, positive: bool, unit: str) -> float:
+        suffix = f" {unit}" if unit else ""
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise self.fail(key, f"is {_describe(value)}", f"a number{suffix}")
+        value = float(value)
+        if not math.isfinite(value):
+            raise self.fail(key, f"is {value}", f"a finite number{suffix}")
+        if positive and value <= 0:
+            raise self.fail(key, f"is {value:g}", f"a number above 0{suffix}")
+        if lo is not None and value < lo:
+            raise self.fail(key, f"is {value:g}", f"at least {lo:g}{suffix}")
+        if hi is not None and value > hi:
+            raise self.fail(key, f"is {value:g}", f"at most {hi:g}{suffix}")
+        return value
+
+    def integer(self, key: str, default: Any = _MISSING, *, min: int | None = None, max: int | None = None) -> Any:
+        value = self._get(key, default)
+        if value is default and key not in self.data:
+            return value
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise self.fail(key, f"is {_describe(value)}", "a whole number")
+        if min is not None and value < min:
+            raise self.fail(key, f"is {value}", f"at least {min}")
+        if max is not None and value > max:
+            raise self.fail(key, f"is {value}", f"at most {max}")
+        return value
+
+    def numbers(
+        self,
+        key: str,
+        default: Any = _MISSING,
+        *,
+        min: float | None = None,
+        max: float | None = None,
+        positive: bool = False,
+        unit: str = "",
+        nonempty: bool = True,
+    ) -> Any:
+        """A list of finite numbers, returned as a tuple."""
+        value = self._get(key, default)
+        if value is default and key not in self.data:
+            return value
+        if not isinstance(value, list):
+            raise self.fail(key, f"is {_describe(value)}", "a list of numbers such as [0.1, 0.5, 1.0]")
+        if nonempty and not value:
+            raise self.fail(key, "is an empty list", "at least one number")
+        return tuple(
+            self._check_number(f"{key}[{i}]", v, min, max, positive, unit) for i, v in enumerate(value)
+        )
+
+    def strings(self, key: str, default: Any = _MISSING) -> Any:
+        value = self._get(key, default)
+        if value is default and key not in self.data:
+            return value
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            raise self.fail(key, f"is {_describe(value)}", "a list of strings")
+        return tuple(value)
