@@ -1,0 +1,35 @@
+"""Figures (matplotlib) and the self-contained report (HTML or PDF) for one or more runs.
+
+    from benchlog.report import build_report, write_report
+    doc = build_report(["a.run", "b.run"], spec_path="part.toml")
+    write_report(doc, "report.html")      # or "report.pdf"
+
+`figures` draws from the small view values in `views`; `build` fills a
+`document.Document` from loaded runs and the analysis; `htmlfile` and `pdffile`
+render that one document.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
+from .htmlfile import render_html, write_html
+from .pdffile import plan_pages, write_pdf
+
+__all__ = [
+    "Document", "FigureBlock", "Paragraph", "Section", "Table", "VerdictBlock",
+    "render_html", "write_html", "plan_pages", "write_pdf", "write_report",
+]
+
+
+def write_report(doc: Document, path: str | Path) -> Path:
+    """Write `doc` as HTML (.html/.htm) or PDF (.pdf), picked by the file's suffix."""
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix in (".html", ".htm"):
+        return write_html(doc, path)
+    if suffix == ".pdf":
+        write_pdf(doc, path)
+        return path
+    raise ValueError(f"report file must end in .html or .pdf, not {suffix or 'nothing'!r}")
