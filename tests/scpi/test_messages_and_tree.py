@@ -79,7 +79,7 @@ def tree():
         ("CONF:VOLT;CONF:VOLT 1", None, [-113]),  # path rule: the second header is CONF:CONF:VOLT
         ("CONF:VOLT 1,2,3", None, [-108]),
         ("FAIL;VOLT?", "+0.000000E+00", [-221]),  # execution error: the rest still runs
-        ("VOLT 1 2;VOLT?", None, [-224]),
+        ("VOLT 1 2;VOLT?", "+0.000000E+00", [-224]),  # "1 2" is one bad value, not two
         ("NOPE;VOLT?", None, [-113]),  # command error: the parser stops
         ("VOLT?;VOLT?", "+0.000000E+00;+0.000000E+00", []),
     ],
