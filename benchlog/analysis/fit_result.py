@@ -1,0 +1,194 @@
+"""What a fit returns: parameters with GUM budgets, residuals, outlier flags, and the drop at any current.
+
+The meter's accuracy spec enters every fitted quantity the same way: each reading
+is modelled as  V_m = V·(1 + g_V) + o_V  and  I_m = I·(1 + g_I) + o_I  with the
+gains g and offsets o fixed over the sweep and rectangular within the spec
+(GUM 4.3.7). The drop the fitted curve f predicts at a true current I then has
+the first-order sensitivities (GUM 5.1.3)
+    ∂/∂g_V = f(I),   ∂/∂o_V = 1,   ∂/∂g_I = f'(I)·I,   ∂/∂o_I = f'(I),
+and these type B terms add in quadrature to the fit's own type A term
+gᵀ·C·g (g the gradient of f in the fitted parameters, C their covariance).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Mapping, Protocol
+
+import numpy as np
+
+from .uncertainty import Budget, Component, MeasurementAccuracy, combine
+
+#: Outlier rule: the Bonferroni outlier test on externally studentised residuals (Weisberg, "Applied
+#: Linear Regression", 3rd ed., §9.1.3; Cook & Weisberg 1982): a point is flagged when |t_i| exceeds the
+#: t quantile 1 − α/(2n) with ν − 1 degrees of freedom, so a clean sweep of any length is flagged with
+#: probability at most α. A fixed |t| > 3.5 would flag about one clean 25-point sweep in 20.
+OUTLIER_ALPHA = 0.01
+OUTLIER_RULE = f"Bonferroni outlier test: |externally studentised residual| > t(1 - {OUTLIER_ALPHA:g}/2n, n - p - 1)"
+
+
+def outlier_threshold(n: int, dof: int) -> float:
+    """Critical |t| of the Bonferroni outlier test for n points and ν = dof of the fit."""
+    from scipy import stats
+
+    if dof < 2:
+        return math.inf
+    return float(stats.t.isf(OUTLIER_ALPHA / (2.0 * n), dof - 1))
+
+
+class FitError(ValueError):
+    """The data cannot be fitted as asked (too few points, no spread in current, no convergence)."""
+
+
+class Curve(Protocol):
+    """A fitted drop-versus-current curve in its internal parameters."""
+
+    def value(self, current_a: np.ndarray) -> np.ndarray: ...
+
+    def slope(self, current_a: np.ndarray) -> np.ndarray: ...
+
+    def gradient(self, current_a: np.ndarray) -> np.ndarray: ...  # shape (n, p)
+
+
+@dataclass(frozen=True)
+class Line:
+    """V = v0 + r·I; internal parameters (v0, r)."""
+
+    v0_v: float
+    r_ohm: float
+
+    def value(self, current_a):
+        return self.v0_v + self.r_ohm * np.asarray(current_a, dtype=float)
+
+    def slope(self, current_a):
+        return np.full_like(np.asarray(current_a, dtype=float), self.r_ohm)
+
+    def gradient(self, current_a):
+        i = np.atleast_1d(np.asarray(current_a, dtype=float))
+        return np.column_stack([np.ones_like(i), i])
+
+
+@dataclass(frozen=True)
+class Shockley:
+    """V = n·Vt·ln(I/Is + 1) + Rs·I (Shockley diode law with series resistance).
+
+    Internal parameters are (n, ln Is, Rs): Is spans decades, its logarithm keeps
+    the fit well conditioned.
+    """
+
+    ideality: float
+    ln_i_s: float
+    r_s_ohm: float
+    vt_v: float
+
+    def value(self, current_a):
+        i = np.asarray(current_a, dtype=float)
+        return self.ideality * self.vt_v * np.log1p(i * np.exp(-self.ln_i_s)) + self.r_s_ohm * i
+
+    def slope(self, current_a):
+        i = np.asarray(current_a, dtype=float)
+        return self.ideality * self.vt_v / (i + np.exp(self.ln_i_s)) + self.r_s_ohm
+
+    def gradient(self, current_a):
+        i = np.atleast_1d(np.asarray(current_a, dtype=float))
+        x = i * np.exp(-self.ln_i_s)
+        return np.column_stack(
+            [self.vt_v * np.log1p(x), -self.ideality * self.vt_v * x / (1.0 + x), i]
+        )
+
+
+@dataclass(frozen=True, eq=False)
+class FitResult:
+    """One fitted model of a sweep.
+
+    `params` / `std_u` / `expanded_u` use SI-suffixed keys (`r_on_ohm`, `v0_v` |
+    `ideality`, `i_s_a`, `r_s_ohm` | `v_knee_v`, `r_d_ohm`); `budgets` holds the
+    GUM budget behind each. `residuals_v` and `outliers` are aligned with
+    `current_a` / `drop_v` / `point_index` (the points the fit used).
+    """
+
+    model: str
+    params: dict[str, float]
+    std_u: dict[str, float]
+    expanded_u: dict[str, float]
+    budgets: dict[str, Budget]
+    residuals_v: np.ndarray
+    outliers: np.ndarray
+    reason: str
+    notes: tuple[str, ...]
+    temperature_c: float | None
+    current_a: np.ndarray
+    drop_v: np.ndarray
+    point_index: np.ndarray
+    curve: Curve
+    covariance: np.ndarray  # type A covariance of the curve's internal parameters
+    dof: int  # points − parameters: the ν of every type A term
+    accuracy: MeasurementAccuracy | None = None
+    offset_removed: bool = False  # the zero-current offset was subtracted, so o_V has cancelled
+    k: float = 2.0
+    outlier_rule: str = OUTLIER_RULE
+    criterion: dict[str, float] = field(default_factory=dict)  # AICc per candidate, when chosen automatically
+    excluded: np.ndarray | None = None  # points left out of the refit (only when asked to)
+
+    @property
+    def points(self) -> int:
+        return int(self.current_a.size)
+
+    def drop_budget_at(self, current_a: float) -> Budget:
+        """The GUM budget of the drop at a true current (see the module docstring)."""
+        i = float(current_a)
+        value = float(self.curve.value(np.array([i]))[0])
+        slope = float(self.curve.slope(np.array([i]))[0])
+        g = self.curve.gradient(np.array([i]))[0]
+        u_a = math.sqrt(max(float(g @ self.covariance @ g), 0.0))
+        comps = [Component("fit residuals", "A", u_a, float(self.dof))]
+        comps += meter_components(self.accuracy, value, slope, i, self.offset_removed)
+        return combine(comps, self.k)
+
+    def drop_at(self, current_a: float) -> tuple[float, float]:
+        """(drop_v, standard uncertainty) of the element at `current_a`."""
+        value = float(self.curve.value(np.array([float(current_a)]))[0])
+        return value, self.drop_budget_at(current_a).u
+
+
+def meter_components(
+    accuracy: MeasurementAccuracy | None, value: float, slope: float, current_a: float, offset_removed: bool
+) -> list[Component]:
+    """Type B terms of a drop f(I) from the meters' gain and offset (module docstring)."""
+    if accuracy is None:
+        return []
+    comps: list[Component] = []
+    if accuracy.drop is not None:
+        comps.append(Component("drop meter gain", "B", abs(value) * accuracy.drop.gain_u))
+        if not offset_removed:
+            comps.append(Component("drop meter offset", "B", accuracy.drop.offset_u))
+    if accuracy.current is not None:
+        comps.append(Component("current meter gain", "B", abs(slope * current_a) * accuracy.current.gain_u))
+        comps.append(Component("current meter offset", "B", abs(slope) * accuracy.current.offset_u))
+    return comps
+
+
+def externally_studentised(residuals: np.ndarray, leverage: np.ndarray, weights, dof: int) -> np.ndarray:
+    """t_i = e_i·√w_i / (s_(i)·√(1−h_i)), s_(i) the scatter without point i (Belsley, Kuh & Welsch 1980).
+
+    Leaving the point out of its own scale keeps one gross outlier from hiding itself.
+    """
+    ew = residuals if weights is None else residuals * np.sqrt(weights)
+    one_minus_h = np.clip(1.0 - leverage, 1e-12, None)
+    sse = float(ew @ ew)
+    if dof < 2:
+        return np.zeros_like(residuals)
+    s2_i = (sse - ew * ew / one_minus_h) / (dof - 1)
+    s2_i = np.clip(s2_i, 1e-300, None)
+    return ew / np.sqrt(s2_i * one_minus_h)
+
+
+def outlier_flags(t: np.ndarray, dof: int) -> np.ndarray:
+    return np.abs(t) > outlier_threshold(t.size, dof)
+
+
+def budgets_to_dicts(budgets: Mapping[str, Budget]) -> tuple[dict[str, float], dict[str, float]]:
+    std_u = {key: b.u for key, b in budgets.items()}
+    expanded = {key: b.expanded_u for key, b in budgets.items()}
+    return std_u, expanded

@@ -1,0 +1,122 @@
+"""Fits of a sweep with GUM uncertainties: the public names, and `fit_run` over a loaded run.
+
+The work is split by model: `fit_resistive` (R_DS(on), knee line), `fit_diode`
+(Shockley with series resistance), `model_choice` (AICc), `self_heating`; the
+shared result type is in `fit_result`, the GUM arithmetic in `uncertainty`.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from benchlog.badinput import BadInput
+
+from .fit_diode import fit_diode, shockley_drop_v, thermal_voltage_v
+from .fit_resistive import fit_knee, fit_resistive, studentised_residuals
+from .fit_result import OUTLIER_RULE, FitError, FitResult
+from .model_choice import aicc, fit_auto
+from .self_heating import SelfHeating, detect_self_heating
+from .uncertainty import MeasurementAccuracy
+
+__all__ = [
+    "FitError",
+    "FitResult",
+    "MODELS",
+    "OUTLIER_RULE",
+    "SelfHeating",
+    "aicc",
+    "detect_self_heating",
+    "fit_auto",
+    "fit_diode",
+    "fit_knee",
+    "fit_resistive",
+    "fit_run",
+    "run_temperature_c",
+    "shockley_drop_v",
+    "studentised_residuals",
+    "thermal_voltage_v",
+    "usable_points",
+]
+
+MODELS = ("auto", "resistive", "diode", "knee")
+
+#: Temperature taken when a run records none at all (common practice: the datasheet reference).
+DEFAULT_TEMPERATURE_C = 25.0
+
+
+def usable_points(frame) -> tuple[np.ndarray, list[str]]:
+    """Rows that can be fitted: finite current and drop, no overload flag; and notes on the rest."""
+    current = frame["current_a"].to_numpy(dtype=float)
+    drop = frame["drop_v"].to_numpy(dtype=float)
+    rows = np.isfinite(current) & np.isfinite(drop)
+    notes = []
+    if "flags" in frame.columns:
+        flags = frame["flags"].fillna("").astype(str)
+        overload = flags.str.contains("overload", regex=False).to_numpy()
+        if (overload & rows).any():
+            notes.append(f"{int((overload & rows).sum())} overload point(s) left out")
+        rows &= ~overload
+        unsettled = flags.str.contains("unsettled", regex=False).to_numpy() & rows
+        if unsettled.any():
+            notes.append(f"{int(unsettled.sum())} unsettled point(s) kept in the fit")
+    dropped = int((~np.isfinite(current) | ~np.isfinite(drop)).sum())
+    if dropped:
+        notes.append(f"{dropped} point(s) without a reading left out")
+    return rows, notes
+
+
+def run_temperature_c(frame, meta) -> tuple[float, str]:
+    """The temperature a diode fit uses: recorded point temperatures, else the element's ambient, else 25 °C."""
+    if "temperature_c" in frame.columns:
+        t = frame["temperature_c"].to_numpy(dtype=float)
+        t = t[np.isfinite(t)]
+        if t.size:
+            return float(t.mean()), f"temperature {t.mean():.2f} °C: mean of {t.size} recorded point(s)"
+    ambient = (getattr(meta, "element", None) or {}).get("ambient_c")
+    if isinstance(ambient, (int, float)) and not isinstance(ambient, bool) and math.isfinite(ambient):
+        return float(ambient), f"temperature {float(ambient):.2f} °C: the element's recorded ambient"
+    return DEFAULT_TEMPERATURE_C, f"no temperature recorded: {DEFAULT_TEMPERATURE_C:g} °C assumed"
+
+
+def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False) -> FitResult:
+    """Fit a loaded run (`benchlog.runs.load`): header accuracy, element ambient, offset subtracted.
+
+    Raises BadInput naming the run file when the run cannot be fitted as asked.
+    """
+    source = str(getattr(meta, "path", "run"))
+    if model not in MODELS:
+        raise BadInput(source, "--model", f"unknown model {model!r}", " or ".join(MODELS))
+    header = getattr(meta, "header", None) or {}
+    accuracy = MeasurementAccuracy.from_header(header, source)
+    if accuracy.drop is None and accuracy.current is None:
+        accuracy = None
+    rows, notes = usable_points(frame)
+    current = frame["current_a"].to_numpy(dtype=float)[rows]
+    drop = frame["drop_v"].to_numpy(dtype=float)[rows]
+    index = frame["index"].to_numpy()[rows] if "index" in frame.columns else np.flatnonzero(rows)
+    offset = getattr(meta, "offset_v", None)
+    offset_removed = offset is not None and math.isfinite(float(offset))
+    if offset_removed:
+        drop = drop - float(offset)
+        notes.append(f"zero-current offset {float(offset) * 1e6:.4g} µV subtracted")
+    temperature_c, t_note = run_temperature_c(frame, meta)
+    common = dict(offset_removed=offset_removed, exclude_outliers=exclude_outliers, point_index=index)
+    try:
+        if model == "resistive":
+            fit = fit_resistive(current, drop, accuracy, temperature_c=temperature_c, **common)
+        elif model == "knee":
+            fit = fit_knee(current, drop, accuracy, temperature_c=temperature_c, **common)
+        elif model == "diode":
+            fit = fit_diode(current, drop, temperature_c, accuracy, **common)
+            notes.append(t_note)
+        else:
+            fit = fit_auto(current, drop, temperature_c, accuracy, **common)
+            if fit.model == "diode":
+                notes.append(t_note)
+    except FitError as exc:
+        raise BadInput(source, "points", str(exc), f"a sweep the {model} model can be fitted to") from exc
+    from dataclasses import replace
+
+    return replace(fit, notes=tuple(notes) + fit.notes)

@@ -1,0 +1,171 @@
+"""Self-heating: does the element warm up during the sweep enough to bend or split its curve?
+
+Two signs, each tested against the scatter of the data (the meters' gain and
+offset are common to every point, so only type A counts here):
+  1. hysteresis — on an up-then-down sweep the down pass is hotter at the same
+     current; the residuals at matched setpoints differ (paired t test on the
+     differences, scipy.stats.ttest_1samp);
+  2. trend — the junction rise follows the power, ΔT = θ·P with P = I·V, so the
+     excess drop grows as R·α·θ·P·I for a resistance (∝ I³: the apparent R rises
+     with I²) and as (dV/dT)·θ·P for a diode. The residuals are regressed on that
+     shape after removing what the fitted model can already absorb (Frisch–Waugh–
+     Lovell), and the slope is t-tested (scipy.stats.t).
+The sign must be the heating sign — R_DS(on) rises with temperature, Vf falls
+(common practice); a significant bend of the other sign is reported as a poor
+model, not as heating. With a known temperature coefficient (`tempco_per_k`:
+relative per K for a resistance, V/K for a diode's drop) the slope gives θ and
+the rise at the highest power, the hysteresis the extra heat of the down pass.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats
+
+from .fit_result import FitResult
+
+#: Significance of each test: a flag on a clean run should be a 1-in-1000 event.
+ALPHA = 0.001
+
+
+@dataclass(frozen=True)
+class SelfHeating:
+    detected: bool
+    reason: str
+    delta_t_c: float | None  # the best estimate of the temperature rise, when a tempco is known
+    updown_p: float | None = None
+    updown_shift_v: float | None = None  # mean (down − up) residual at matched setpoints
+    updown_delta_t_c: float | None = None
+    trend_p: float | None = None
+    trend_delta_t_c: float | None = None  # rise at the highest power, from the trend
+
+
+def _heating_sign(fit: FitResult, tempco_per_k: float | None) -> float:
+    if tempco_per_k:
+        return math.copysign(1.0, tempco_per_k)
+    return 1.0 if fit.model == "resistive" else -1.0
+
+
+def _directions(frame, fit: FitResult):
+    if frame is None or "direction" not in getattr(frame, "columns", ()) or "index" not in frame.columns:
+        return None, None
+    sub = frame.set_index("index").reindex(fit.point_index)
+    setpoint = sub["setpoint_a"].to_numpy(dtype=float) if "setpoint_a" in sub.columns else fit.current_a
+    return sub["direction"].astype(str).to_numpy(), setpoint
+
+
+def detect_self_heating(frame, fit: FitResult, tempco_per_k: float | None = None, *, alpha: float = ALPHA) -> SelfHeating:
+    """Test a fitted sweep for self-heating (module docstring); `frame` supplies direction and setpoint."""
+    keep = ~fit.outliers
+    if fit.excluded is not None:
+        keep &= ~fit.excluded
+    e = fit.residuals_v[keep]
+    i = fit.current_a[keep]
+    v = fit.drop_v[keep]
+    sign = _heating_sign(fit, tempco_per_k)
+    resistive = fit.model == "resistive"
+    r_value = fit.params.get("r_on_ohm", math.nan)
+    found: list[str] = []
+    quiet: list[str] = []
+    out: dict[str, float | None] = {}
+
+    direction, setpoint = _directions(frame, fit)
+    if direction is not None:
+        direction, setpoint = direction[keep], setpoint[keep]
+        _updown(e, i, direction, setpoint, sign, resistive, r_value, tempco_per_k, alpha, found, quiet, out)
+    else:
+        quiet.append("no direction column: hysteresis not tested")
+    _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco_per_k, alpha, found, quiet, out)
+
+    detected = bool(found)
+    delta = out.get("trend_delta_t_c")
+    if delta is None:
+        delta = out.get("updown_delta_t_c")
+    reason = "; ".join(found + quiet) if found else "no self-heating seen: " + "; ".join(quiet)
+    return SelfHeating(detected=detected, reason=reason, delta_t_c=delta if detected else None,
+                       updown_p=out.get("updown_p"), updown_shift_v=out.get("updown_shift_v"),
+                       updown_delta_t_c=out.get("updown_delta_t_c"), trend_p=out.get("trend_p"),
+                       trend_delta_t_c=out.get("trend_delta_t_c"))
+
+
+def _updown(e, i, direction, setpoint, sign, resistive, r_value, tempco, alpha, found, quiet, out):
+    up = direction == "up"
+    down = direction == "down"
+    if up.sum() < 3 or down.sum() < 3:
+        quiet.append("fewer than 3 points in each direction: hysteresis not tested")
+        return
+    key = np.round(setpoint, 9)
+    common = np.intersect1d(key[up], key[down])
+    if common.size < 3:
+        quiet.append("fewer than 3 setpoints met in both directions: hysteresis not tested")
+        return
+    # mean residual and current per setpoint and direction (bincount keeps it vectorised)
+    pos = np.searchsorted(common, key)
+    pos = np.clip(pos, 0, common.size - 1)
+    matched = common[pos] == key
+    diffs = np.zeros(common.size)
+    curr = np.zeros(common.size)
+    for mask, sgn in ((down & matched, 1.0), (up & matched, -1.0)):
+        cnt = np.bincount(pos[mask], minlength=common.size)
+        diffs += sgn * np.bincount(pos[mask], weights=e[mask], minlength=common.size) / cnt
+        curr += 0.5 * np.bincount(pos[mask], weights=i[mask], minlength=common.size) / cnt
+    test = stats.ttest_1samp(diffs, 0.0)
+    p = float(test.pvalue)
+    shift = float(diffs.mean())
+    out["updown_p"], out["updown_shift_v"] = p, shift
+    if tempco:
+        if resistive:
+            # Δ = R·α·δT·I at each setpoint: least squares for δT through the origin
+            out["updown_delta_t_c"] = float(diffs @ curr / (curr @ curr)) / (r_value * tempco)
+        else:
+            out["updown_delta_t_c"] = shift / tempco
+    text = f"down-sweep minus up-sweep {shift * 1e3:+.4g} mV over {common.size} setpoints (paired t test p = {p:.2g})"
+    if "updown_delta_t_c" in out:
+        text += f", the down pass {out['updown_delta_t_c']:.3g} K warmer"
+    if p < alpha and math.copysign(1.0, shift) == sign:
+        found.append("hysteresis: " + text)
+    elif p < alpha:
+        quiet.append("up/down differ with the sign opposite to heating: " + text)
+    else:
+        quiet.append("up/down agree within their scatter: " + text)
+
+
+def _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco, alpha, found, quiet, out):
+    n = e.size
+    p_params = fit.covariance.shape[0]
+    if n - p_params - 1 < 3:
+        quiet.append("too few points for the trend test")
+        return
+    power = i * v
+    z = power * i if resistive else power
+    basis = fit.curve.gradient(i)
+    coef, *_ = np.linalg.lstsq(basis, z, rcond=None)
+    z_perp = z - basis @ coef
+    szz = float(z_perp @ z_perp)
+    if not szz > 0:
+        quiet.append("the heating shape is already inside the model: trend not tested")
+        return
+    b = float(z_perp @ e) / szz
+    rest = e - b * z_perp
+    dof = n - p_params - 1
+    s2 = float(rest @ rest) / dof
+    se = math.sqrt(s2 / szz) if s2 > 0 else 0.0
+    t = b / se if se > 0 else math.inf
+    p = float(2.0 * stats.t.sf(abs(t), dof))
+    out["trend_p"] = p
+    if tempco:
+        theta = b / (r_value * tempco) if resistive else b / tempco  # K/W
+        out["trend_delta_t_c"] = float(theta * np.max(power))
+    shape = "I·P (apparent R rising with I²)" if resistive else "P = I·V"
+    text = f"residuals trend with {shape}: t = {t:.3g}, p = {p:.2g}"
+    if "trend_delta_t_c" in out:
+        text += f", rise at the highest power {out['trend_delta_t_c']:.3g} K"
+    if p < alpha and math.copysign(1.0, b) == sign:
+        found.append("trend: " + text)
+    elif p < alpha:
+        quiet.append("bend of the sign opposite to heating (model does not fit well): " + text)
+    else:
+        quiet.append("no trend with power: " + text)
