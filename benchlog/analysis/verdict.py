@@ -1,0 +1,255 @@
+"""Verdicts: a measured value with its expanded uncertainty against a spec limit, by a stated decision rule.
+
+Decision rule: ILAC-G8:09/2019 ("Guidelines on decision rules and statements
+of conformity"), simple acceptance with a guard band w = U (section 4.2.2,
+guarded acceptance / guarded rejection), U = k·u with k = 2:
+  upper limit L:  pass if x + U ≤ L;  fail if x − U > L;  otherwise conditional;
+  lower limit L:  pass if x − U ≥ L;  fail if x + U < L;  otherwise conditional.
+A value exactly on an acceptance limit is accepted; the zone between the
+acceptance and rejection limits is reported as conditional, never rounded off.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from benchlog.badinput import BadInput
+
+from .predict import OperatingPoint, Prediction, predict
+from .spec import PartSpec
+
+OUTCOMES = ("pass", "fail", "conditional")
+
+
+def rule_text(side: str, k: float) -> str:
+    if side == "upper":
+        test = "pass if x + U ≤ limit, fail if x − U > limit, otherwise conditional"
+    else:
+        test = "pass if x − U ≥ limit, fail if x + U < limit, otherwise conditional"
+    return f"ILAC-G8:09/2019 guard band w = U (U = k·u, k = {k:g}): {test}"
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """A decision and everything that produced it."""
+
+    outcome: str  # "pass" | "fail" | "conditional"
+    rule: str
+    quantity: str  # e.g. "loss_w", "drop_v", "r_on_ohm"
+    measured: float
+    expanded_u: float
+    k: float
+    limit: float | None  # None when no limit could be computed (the outcome is then conditional)
+    side: str  # "upper" | "lower"
+    limit_source: str
+
+    def explain(self) -> str:
+        if self.limit is None:
+            return f"{self.outcome}: no limit for {self.quantity} ({self.limit_source})"
+        op = "≤" if self.side == "upper" else "≥"
+        return (
+            f"{self.outcome}: {self.quantity} = {self.measured:.6g} ± {self.expanded_u:.3g} (k = {self.k:g}) "
+            f"against {'maximum' if self.side == 'upper' else 'minimum'} {self.limit:.6g} "
+            f"[{self.limit_source}]; needed x {'+' if self.side == 'upper' else '−'} U {op} limit to pass. "
+            f"Rule: {self.rule}"
+        )
+
+
+def _finite(name: str, value: float) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float, np.floating)) or not math.isfinite(value):
+        raise BadInput("argument", name, f"is {value!r}", "a finite number")
+    return float(value)
+
+
+def decide(
+    value: float,
+    expanded_u: float,
+    limit: float,
+    *,
+    side: str = "upper",
+    k: float = 2.0,
+    quantity: str = "value",
+    limit_source: str = "",
+) -> Verdict:
+    """Apply the guard-band rule (module docstring) to one value."""
+    value, expanded_u, limit = _finite("value", value), _finite("expanded_u", expanded_u), _finite("limit", limit)
+    if expanded_u < 0:
+        raise BadInput("argument", "expanded_u", f"is {expanded_u:g}", "an expanded uncertainty of at least 0")
+    if side not in ("upper", "lower"):
+        raise BadInput("argument", "side", f"is {side!r}", "'upper' or 'lower'")
+    outcome = str(decide_many(np.array([value]), np.array([expanded_u]), limit, side=side)[0])
+    return Verdict(outcome, rule_text(side, k), quantity, value, expanded_u, k, limit, side, limit_source)
+
+
+def decide_many(values: np.ndarray, expanded_u: np.ndarray, limit: float, *, side: str = "upper") -> np.ndarray:
+    """The same rule over arrays (lots of thousands of parts): an array of outcome strings."""
+    x = np.asarray(values, dtype=float)
+    u = np.asarray(expanded_u, dtype=float)
+    if side == "upper":
+        passed, failed = x + u <= limit, x - u > limit
+    else:
+        passed, failed = x - u >= limit, x + u < limit
+    return np.where(passed, "pass", np.where(failed, "fail", "conditional"))
+
+
+# --------------------------------------------------------------------------- a run against its spec
+@dataclass(frozen=True)
+class RunConditions:
+    """What the run says about the operating point: current, ambient, gate drive."""
+
+    current_a: float
+    current_source: str
+    ambient_c: float
+    vin_v: float | None
+    zener_v: float | None
+    body_diode: bool
+    notes: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Check:
+    """One run judged against its part spec at the operating current."""
+
+    part: str
+    run: str
+    current_a: float
+    current_source: str
+    ambient_c: float
+    model: str
+    measured_drop_v: float
+    drop_std_u_v: float
+    measured_loss_w: float
+    loss_std_u_w: float
+    k: float
+    predicted: Prediction
+    verdict: Verdict  # on the loss, against the maximum (or typical when the spec has no maximum)
+    drop_verdict: Verdict
+    typical_comparison: str
+    notes: tuple[str, ...]
+
+    @property
+    def outcome(self) -> str:
+        return self.verdict.outcome
+
+
+def _number(value) -> float | None:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return None
+    return float(value) if math.isfinite(value) else None
+
+
+def run_element(meta) -> dict:
+    """The element table of a run: the header's element merged over the plan's [element]."""
+    header = getattr(meta, "header", None) or {}
+    plan = header.get("plan") if isinstance(header.get("plan"), dict) else {}
+    merged = dict(plan.get("element") or {}) if isinstance(plan.get("element"), dict) else {}
+    merged.update(getattr(meta, "element", None) or header.get("element") or {})
+    return merged
+
+
+def run_conditions(frame, meta, spec: PartSpec, at_a: float | None = None) -> RunConditions:
+    """Operating current (argument, else the plan's operating_a, else the largest measured), ambient, gate drive."""
+    source = str(getattr(meta, "path", "run"))
+    element = run_element(meta)
+    notes: list[str] = []
+    if at_a is not None:
+        current = _finite("--at", at_a)
+        if current <= 0:
+            raise BadInput("argument", "--at", f"is {current:g} A", "a current above 0 A")
+        where = "given with --at"
+    elif _number(element.get("operating_a")) is not None:
+        current, where = _number(element["operating_a"]), "the plan's operating_a"
+    else:
+        measured = frame["current_a"].to_numpy(dtype=float)
+        measured = measured[np.isfinite(measured)]
+        if measured.size == 0:
+            raise BadInput(source, "points", "has no measured current", "a run with points")
+        current, where = float(measured.max()), "the largest measured current (no operating_a in the plan)"
+    ambient = _number(element.get("ambient_c"))
+    if ambient is None:
+        ambient = 25.0
+        notes.append("no ambient recorded for the element: 25 °C assumed")
+    kind = element.get("kind")
+    body = bool(spec.is_mosfet and element.get("measure") == "body_diode")
+    if isinstance(kind, str) and kind and kind != spec.kind and not (kind == "pmos" and spec.kind == "nmos"):
+        raise BadInput(spec.path or "spec", "kind", f"is '{spec.kind}' but the run measured a '{kind}'",
+                       "the spec of the part in the run")
+    vin, zener = None, _number(element.get("zener_v"))
+    if spec.is_mosfet and body:
+        vin = 0.0
+        notes.append("the run measured the body diode on purpose: gate off, body diode predicted")
+    elif spec.is_mosfet and element.get("gate", "return") == "return":
+        supply = frame["supply_v"].to_numpy(dtype=float) if "supply_v" in frame.columns else np.array([])
+        supply = supply[np.isfinite(supply)]
+        if supply.size:
+            vin = float(np.median(supply))
+            notes.append(f"gate to the return: |Vgs| from the median recorded supply voltage {vin:.4g} V")
+        else:
+            notes.append("gate to the return but no supply voltage recorded: gate taken as fully driven")
+    if zener is not None and vin is not None and not body:
+        notes.append(f"gate clamp zener {zener:g} V")
+    return RunConditions(current, where, ambient, vin, zener if not body else None, body, tuple(notes))
+
+
+def _fit_model(spec: PartSpec, body_diode: bool) -> str:
+    return "resistive" if (spec.kind in ("pmos", "nmos", "resistor") and not body_diode) else "auto"
+
+
+def _limit_source(p: Prediction, point: OperatingPoint, what: str) -> str:
+    named = "maximum" if point.variant == "max" else "typical (the spec gives no maximum)"
+    tj = f"Tj {point.tj_c:.1f} °C" if point.tj_c is not None else "Tj unknown"
+    return f"predicted {named} {what} at {p.current_a:.4g} A, ambient {p.ambient_c:g} °C, {tj} with self-heating"
+
+
+def _verdict_or_none(value, u, limit, k, quantity, source, note) -> Verdict:
+    if limit is None:
+        return Verdict("conditional", rule_text("upper", k), quantity, value, u, k, None, "upper",
+                       f"the prediction has no value: {note}")
+    return decide(value, u, limit, k=k, quantity=quantity, limit_source=source)
+
+
+def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
+    """Judge a loaded run against `spec`: measured loss and drop at the operating current vs the prediction."""
+    from .fits import fit_run  # the fit layer is imported late: a spec-only user never needs it
+
+    cond = run_conditions(frame, meta, spec, at_a)
+    fit = fit_run(frame, meta, _fit_model(spec, cond.body_diode))
+    drop, u_drop = fit.drop_at(cond.current_a)
+    k = float(fit.k)
+    # The current is where the curve is evaluated, not a reading: u(P) = I·u(V).
+    loss, u_loss = drop * cond.current_a, u_drop * cond.current_a
+    predicted = predict(spec, cond.current_a, cond.ambient_c, vin_v=cond.vin_v, zener_v=cond.zener_v)
+    limit = predicted.limit
+    msg = limit.message
+    verdict = _verdict_or_none(loss, k * u_loss, limit.loss_w, k, "loss_w",
+                               _limit_source(predicted, limit, "loss"), msg)
+    drop_verdict = _verdict_or_none(drop, k * u_drop, limit.drop_v, k, "drop_v",
+                                    _limit_source(predicted, limit, "drop"), msg)
+    notes = list(cond.notes) + list(predicted.notes) + list(fit.notes)
+    notes.append("the prediction assumes the element reached thermal steady state at each point")
+    measured = getattr(meta, "path", "")
+    return Check(
+        part=spec.name, run=str(measured), current_a=cond.current_a, current_source=cond.current_source,
+        ambient_c=cond.ambient_c, model=fit.model, measured_drop_v=drop, drop_std_u_v=u_drop,
+        measured_loss_w=loss, loss_std_u_w=u_loss, k=k, predicted=predicted, verdict=verdict,
+        drop_verdict=drop_verdict, typical_comparison=typical_comparison(loss, k * u_loss, predicted.typical),
+        notes=tuple(dict.fromkeys(notes)),
+    )
+
+
+def typical_comparison(loss_w: float, expanded_u_w: float, typical: OperatingPoint) -> str:
+    """How the measured loss sits against the typical prediction, in words."""
+    if typical.loss_w is None:
+        return f"no typical prediction ({typical.message})"
+    t = typical.loss_w
+    if t <= 0:
+        return f"typical predicted loss is {t:g} W"
+    rel = (loss_w - t) / t * 100.0
+    within = abs(loss_w - t) <= expanded_u_w
+    side = "above" if rel >= 0 else "below"
+    agree = "within" if within else "outside"
+    return (f"measured {loss_w:.4g} W is {abs(rel):.1f} % {side} the typical {t:.4g} W "
+            f"(the typical lies {agree} the measurement's ±U)")

@@ -1,0 +1,105 @@
+"""The ILAC-G8 guard-band decision rule, and a run judged against its spec."""
+
+from types import SimpleNamespace
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from benchlog.analysis.verdict import check_run, decide, decide_many
+from benchlog.badinput import BadInput
+
+from .spec_texts import PMOS, RECT, spec
+
+# ILAC-G8:09/2019 §4.2.2, guard band w = U, upper limit 1.0 and U = 0.25 (binary-exact numbers,
+# so the boundaries are tested exactly): acceptance limit 0.75, rejection limit 1.25.
+UPPER_TABLE = [
+    (0.50, "pass"),
+    (0.75, "pass"),  # x + U = limit: within, accepted
+    (0.76, "conditional"),
+    (1.00, "conditional"),  # on the limit itself: neither provable
+    (1.25, "conditional"),  # x − U = limit: not outside
+    (1.26, "fail"),
+    (2.00, "fail"),
+]
+
+
+@pytest.mark.parametrize("x, outcome", UPPER_TABLE)
+def test_upper_limit_rule_table(x, outcome):
+    v = decide(x, 0.25, 1.0, quantity="loss_w", limit_source="test")
+    assert v.outcome == outcome
+    assert "ILAC-G8:09/2019" in v.rule and "k = 2" in v.rule
+    assert (v.measured, v.expanded_u, v.limit, v.k, v.side) == (x, 0.25, 1.0, 2.0, "upper")
+    assert "test" in v.explain()
+
+
+@pytest.mark.parametrize("x, outcome", [(1.5, "pass"), (1.25, "pass"), (1.0, "conditional"),
+                                         (0.75, "conditional"), (0.74, "fail")])
+def test_lower_limit_mirrors_upper(x, outcome):
+    # Same rule with the inequalities reversed (ILAC-G8:09/2019 §4.2.2 applies to either limit).
+    assert decide(x, 0.25, 1.0, side="lower").outcome == outcome
+
+
+def test_zero_uncertainty_is_simple_acceptance():
+    # With U = 0 the guard band vanishes (ILAC-G8:09/2019 §4.2.1, simple acceptance).
+    assert decide(1.0, 0.0, 1.0).outcome == "pass"
+    assert decide(1.0000001, 0.0, 1.0).outcome == "fail"
+
+
+def test_vectorised_rule_equals_scalar_rule():
+    x = np.array([x for x, _ in UPPER_TABLE])
+    assert list(decide_many(x, np.full(x.size, 0.25), 1.0)) == [o for _, o in UPPER_TABLE]
+
+
+@pytest.mark.parametrize("args", [(float("nan"), 0.1, 1.0), (1.0, -0.1, 1.0), (1.0, 0.1, float("inf"))])
+def test_nonsense_is_bad_input(args):
+    with pytest.raises(BadInput):
+        decide(*args)
+
+
+# --------------------------------------------------------------------------- check_run
+def sweep(r_ohm, noise_v=20e-6, n=21, seed=1, operating_a=None, kind="pmos"):
+    """Invented demo data: a resistive drop with meter noise (dependency injection of a loaded run)."""
+    rng = np.random.default_rng(seed)
+    current = np.linspace(0.1, 3.0, n)
+    drop = r_ohm * current + rng.normal(0.0, noise_v, n)
+    frame = pd.DataFrame({"index": np.arange(n), "t_s": np.arange(n, dtype=float), "setpoint_a": current,
+                          "current_a": current, "drop_v": drop, "supply_v": np.nan, "supply_mode": "CC",
+                          "temperature_c": np.nan, "settle_reads": 1, "direction": "up", "flags": "",
+                          "power_w": current * drop})
+    element = {"id": "U1", "kind": kind, "serial": "S1", "lot": "L1", "ambient_c": 25.0}
+    plan = {"element": dict(element, operating_a=operating_a, gate="driven")}
+    meta = SimpleNamespace(path="demo.run", header={"plan": plan, "element": element}, element=element,
+                           offset_v=None, outcome="complete", complete=True)
+    return frame, meta
+
+
+MOS = spec(PMOS + "rds_on_max_ohm = 0.032\n", "pmos.toml")
+
+
+def test_check_pass_fail_conditional_against_max():
+    # Limit: 2 A through 32 mΩ max = 0.128 W (no thermal data, Tj = ambient): hand arithmetic.
+    ok = check_run(*sweep(0.026, operating_a=2.0), MOS)
+    assert ok.current_a == 2.0 and "operating_a" in ok.current_source
+    assert ok.verdict.limit == pytest.approx(0.128, rel=1e-6)
+    assert ok.measured_loss_w == pytest.approx(0.104, rel=2e-3)
+    assert ok.outcome == "pass" and ok.drop_verdict.outcome == "pass"
+    assert "typical" in ok.typical_comparison
+    bad = check_run(*sweep(0.045, operating_a=2.0), MOS)
+    assert bad.outcome == "fail"
+    # Right on the limit with noise large enough that U straddles it: conditional.
+    edge = check_run(*sweep(0.032, noise_v=2e-3, operating_a=2.0), MOS)
+    assert abs(edge.measured_loss_w - 0.128) < edge.verdict.expanded_u
+    assert edge.outcome == "conditional"
+
+
+def test_check_default_current_is_largest_measured():
+    c = check_run(*sweep(0.026), MOS)
+    assert c.current_a == pytest.approx(3.0) and "largest measured" in c.current_source
+    c = check_run(*sweep(0.026), MOS, at_a=1.5)
+    assert c.current_a == 1.5
+
+
+def test_check_refuses_a_spec_of_another_kind():
+    with pytest.raises(BadInput, match="kind"):
+        check_run(*sweep(0.026), spec(RECT, "rect.toml"))
