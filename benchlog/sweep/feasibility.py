@@ -1,0 +1,145 @@
+"""Checks made before any output is switched on: can this wiring measure what the plan asks, within every range?
+
+A refusal is `BadInput` naming the plan or bench key to change and why, so the
+operator fixes the setup instead of recording a curve of the wrong thing.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from benchlog.badinput import BadInput
+
+from .bench_file import BenchSetup
+from .plan import Plan
+
+#: Least voltage at which each kind carries a measurable forward current (well below
+#: the knee of a silicon rectifier, about 0.6-0.7 V, and of a Schottky, about 0.2-0.4 V;
+#: common practice, values from memory). A compliance below this cannot push any current.
+MIN_FORWARD_V = {"rectifier": 0.5, "schottky": 0.15, "pmos": 0.0, "resistor": 0.0}
+
+#: A P-MOSFET with its gate on the return needs the input to pull V_GS well past its
+#: threshold (logic-level parts are specified at |V_GS| = 4.5 V; common practice).
+PMOS_MIN_ENHANCE_V = 4.5
+
+
+def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
+    """Static checks from the two files; returns warnings, raises BadInput for a refusal."""
+    warnings: list[str] = []
+    e, w, lim = plan.element, bench.wiring, plan.limits
+    if e.kind == "pmos" and e.gate == "return" and e.measure == "channel" and w.force == "supply":
+        raise BadInput(
+            bench.source, "[wiring].force",
+            "a P-MOSFET with its gate tied to the return, forced by the supply into a near-short, cannot "
+            "enhance (V_GS is only minus the element drop), so its body diode would be measured instead",
+            "force = 'load' with input_v above the gate threshold, [element].gate = 'driven', or "
+            "[element].measure = 'body_diode' to measure the body diode on purpose",
+        )
+    if w.force == "supply":
+        if lim.compliance_v is None:
+            raise BadInput(plan.source, "[limits].compliance_v", "is missing",
+                           "the supply voltage limit when the supply forces the current (force = 'supply')")
+        floor = MIN_FORWARD_V["rectifier" if e.behaves_as_diode and e.kind == "pmos" else e.kind]
+        if lim.compliance_v < floor:
+            raise BadInput(plan.source, "[limits].compliance_v",
+                           f"is {lim.compliance_v:g} V, below the {floor:g} V a {e.kind} needs before any "
+                           "forward current flows: the supply would leave CC at once",
+                           f"a compliance above {floor:g} V and above the expected drop")
+    else:
+        if lim.compliance_v is not None and w.input_v > lim.compliance_v:
+            raise BadInput(bench.source, "[wiring].input_v",
+                           f"is {w.input_v:g} V, above the plan's compliance_v {lim.compliance_v:g} V",
+                           "an input voltage within [limits].compliance_v")
+        need = MIN_FORWARD_V["rectifier" if e.behaves_as_diode and e.kind == "pmos" else e.kind]
+        if w.input_v <= need:
+            raise BadInput(bench.source, "[wiring].input_v",
+                           f"is {w.input_v:g} V, not enough to drive current through a {e.kind}",
+                           f"an input voltage well above {need:g} V")
+        if e.kind == "pmos" and e.gate == "return" and e.measure == "channel":
+            if e.zener_v is not None and e.zener_v < PMOS_MIN_ENHANCE_V:
+                warnings.append(f"the gate clamp zener ({e.zener_v:g} V) limits |V_GS| below "
+                                f"{PMOS_MIN_ENHANCE_V:g} V: the channel may not enhance fully")
+            if w.input_v < PMOS_MIN_ENHANCE_V:
+                raise BadInput(bench.source, "[wiring].input_v",
+                               f"is {w.input_v:g} V: with the gate on the return, |V_GS| = input_v is too low "
+                               "to enhance the channel, so the body diode would carry the current",
+                               f"at least {PMOS_MIN_ENHANCE_V:g} V")
+    if plan.reverse is not None and plan.reverse.voltage_v > 0 and w.force == "load":
+        warnings.append("reverse step: the load's input is off during the reverse step; the reverse "
+                        "current is read from the supply")
+    return warnings
+
+
+def check_plan_on_rig(plan: Plan, rig: Any) -> list[str]:
+    """Checks against the opened instruments' profiles: every setpoint and setting inside their ranges."""
+    warnings: list[str] = []
+    lim, w, bench = plan.limits, rig.wiring, rig.setup
+    sup = rig.supply.profile
+    s_lim = sup.limits
+    if w.force == "supply":
+        if s_lim.max_current_a is not None and lim.max_current_a > s_lim.max_current_a:
+            raise _over(plan, "[limits].max_current_a", lim.max_current_a, "A", sup, s_lim.max_current_a)
+        if s_lim.max_voltage_v is not None and lim.compliance_v > s_lim.max_voltage_v:
+            raise _over(plan, "[limits].compliance_v", lim.compliance_v, "V", sup, s_lim.max_voltage_v)
+    else:
+        if s_lim.max_voltage_v is not None and w.input_v > s_lim.max_voltage_v:
+            raise BadInput(bench.source, "[wiring].input_v", f"is {w.input_v:g} V, above the supply profile "
+                           f"{sup.name!r} maximum {s_lim.max_voltage_v:g} V", "an input voltage the supply can set")
+        if s_lim.max_current_a is not None and lim.max_current_a > s_lim.max_current_a:
+            raise _over(plan, "[limits].max_current_a", lim.max_current_a, "A", sup, s_lim.max_current_a)
+        load = rig.load.profile
+        if load.limits.max_current_a is not None and lim.max_current_a > load.limits.max_current_a:
+            raise _over(plan, "[limits].max_current_a", lim.max_current_a, "A", load, load.limits.max_current_a)
+        if load.limits.max_voltage_v is not None and w.input_v > load.limits.max_voltage_v:
+            raise BadInput(bench.source, "[wiring].input_v", f"is {w.input_v:g} V, above the load profile "
+                           f"{load.name!r} maximum {load.limits.max_voltage_v:g} V", "an input the load can take")
+    meter = rig.meter.profile
+    ranges = tuple(meter.limits.voltage_ranges_v)
+    if plan.meter.range_v is not None and ranges and not any(math.isclose(plan.meter.range_v, r, rel_tol=1e-9) for r in ranges):
+        raise BadInput(plan.source, "[meter].range_v", f"is {plan.meter.range_v:g} V, not a range of meter profile "
+                       f"{meter.name!r}", "one of " + ", ".join(f"{r:g}" for r in ranges))
+    if plan.limits.max_drop_v is not None and ranges and plan.limits.max_drop_v > max(ranges):
+        warnings.append(f"max_drop_v {plan.limits.max_drop_v:g} V is above the meter's largest range; "
+                        "an overload reading stops the sweep first")
+    for role_name, role in (("meter", rig.meter), ("current_meter", rig.current_meter)):
+        if role is None:
+            continue
+        ml = role.profile.limits
+        if plan.meter.samples > ml.max_samples:
+            raise BadInput(plan.source, "[meter].samples", f"is {plan.meter.samples}, more than the {role_name} "
+                           f"profile {role.profile.name!r} takes ({ml.max_samples})",
+                           f"at most {ml.max_samples}, or average with [settle].consecutive instead")
+        _check_nplc(plan, role_name, role.profile)
+    if w.current_from == "meter" and rig.current_meter is not None:
+        if not rig.current_meter.profile.has("configure_current"):
+            raise BadInput(bench.source, "[wiring].current_from", "is 'meter', but the current_meter profile "
+                           f"{rig.current_meter.profile.name!r} has no DC current function",
+                           "current_from = 'shunt' with shunt_ohm, or a meter profile with configure_current")
+    if plan.reverse is not None:
+        if not getattr(rig.supply, "can_reverse", False):
+            raise BadInput(plan.source, "[reverse]",
+                           f"needs a supply that can reverse its polarity, but profile {sup.name!r} has no "
+                           "polarity_normal / polarity_reversed commands",
+                           "a supply profile with polarity commands (or a polarity relay it drives), "
+                           "or no [reverse] table")
+        if s_lim.max_voltage_v is not None and plan.reverse.voltage_v > s_lim.max_voltage_v:
+            raise _over(plan, "[reverse].voltage_v", plan.reverse.voltage_v, "V", sup, s_lim.max_voltage_v)
+    return warnings
+
+
+def _check_nplc(plan: Plan, role_name: str, profile: Any) -> None:
+    ml = profile.limits
+    nplc = plan.meter.nplc
+    if ml.nplc_choices:
+        if not any(math.isclose(nplc, c, rel_tol=1e-9) for c in ml.nplc_choices):
+            raise BadInput(plan.source, "[meter].nplc", f"is {nplc:g}, not offered by the {role_name} profile "
+                           f"{profile.name!r}", "one of " + ", ".join(f"{c:g}" for c in ml.nplc_choices))
+    elif ml.nplc_min is not None and not (ml.nplc_min <= nplc <= ml.nplc_max):
+        raise BadInput(plan.source, "[meter].nplc", f"is {nplc:g}, outside the {role_name} profile "
+                       f"{profile.name!r} range", f"{ml.nplc_min:g} to {ml.nplc_max:g}")
+
+
+def _over(plan: Plan, where: str, value: float, unit: str, profile: Any, most: float) -> BadInput:
+    return BadInput(plan.source, where, f"is {value:g} {unit}, above what profile {profile.name!r} allows "
+                    f"({most:g} {unit})", f"at most {most:g} {unit}, or another instrument")

@@ -1,0 +1,335 @@
+"""The plan file: what element is measured, how the current is stepped, and the limits that stop a sweep.
+
+A plan is data only (TOML read by `benchlog.tomlcheck`, never executed). Every
+table and key is checked here; a wrong value raises `BadInput` naming the file,
+`[table].key` and what would have been accepted. Unknown keys are refused with
+the nearest valid name, because a typo in a limit must not silently disable it.
+
+    [element]   id, kind, label, serial, lot, ambient_c, note, operating_a,
+                gate ("return" | "driven", pmos), zener_v, measure ("channel" | "body_diode", pmos)
+    [steps]     mode (linear | log | list | updown | adaptive), start_a, stop_a, count,
+                currents_a (list), spacing (updown: linear | log), target_rel_u (adaptive)
+    [settle]    dwell_s, tolerance_v, consecutive, timeout_s, max_reads
+    [meter]     nplc, range_v, samples
+    [record]    supply_v (read the supply voltage at each point)
+    [limits]    max_current_a, compliance_v, max_drop_v, max_power_w, max_time_s
+    [cooldown]  off_s
+    [offset]    enabled (zero-current reading of the drop before power is applied)
+    [reverse]   voltage_v, duration_s, max_current_a
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from benchlog.badinput import BadInput
+from benchlog.tomlcheck import Table, load_toml, parse_toml
+
+ELEMENT_KINDS = ("rectifier", "schottky", "pmos", "resistor")
+STEP_MODES = ("linear", "log", "list", "updown", "adaptive")
+DIODE_KINDS = ("rectifier", "schottky")
+
+_TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse")
+
+
+@dataclass(frozen=True)
+class Element:
+    """The part under test, as the operator identifies it."""
+
+    id: str
+    kind: str
+    label: str = ""
+    serial: str = ""
+    lot: str = ""
+    ambient_c: float = 25.0
+    note: str = ""
+    operating_a: float | None = None  # the current the verdict is given at
+    gate: str = "return"  # pmos: gate tied to the return (the usual protection circuit) or driven
+    zener_v: float | None = None  # pmos: gate clamp zener voltage, if fitted
+    measure: str = "channel"  # pmos: "body_diode" measures the body diode on purpose
+
+    @property
+    def behaves_as_diode(self) -> bool:
+        """A diode law describes the drop (rectifier, Schottky, or a P-MOSFET's body diode)."""
+        return self.kind in DIODE_KINDS or (self.kind == "pmos" and self.measure == "body_diode")
+
+
+@dataclass(frozen=True)
+class Steps:
+    mode: str
+    start_a: float | None = None
+    stop_a: float | None = None
+    count: int | None = None
+    currents_a: tuple[float, ...] = ()
+    spacing: str = "linear"
+    target_rel_u: float | None = None
+
+
+@dataclass(frozen=True)
+class Settle:
+    """Read until `consecutive` readings agree within `tolerance_v`, or flag the point after `timeout_s`."""
+
+    dwell_s: float = 0.05
+    tolerance_v: float = 1e-4
+    consecutive: int = 2
+    timeout_s: float = 2.0
+    max_reads: int = 200  # a bound that holds even if the clock stands still
+
+
+@dataclass(frozen=True)
+class MeterSettings:
+    nplc: float = 1.0
+    range_v: float | None = None  # None: the smallest range of the meter's profile that holds max_drop_v
+    samples: int = 1
+
+
+@dataclass(frozen=True)
+class Record:
+    supply_v: bool = True
+
+
+@dataclass(frozen=True)
+class Limits:
+    max_current_a: float
+    compliance_v: float | None = None
+    max_drop_v: float | None = None
+    max_power_w: float | None = None
+    max_time_s: float | None = None
+
+
+@dataclass(frozen=True)
+class Cooldown:
+    off_s: float = 0.0
+
+
+@dataclass(frozen=True)
+class OffsetReading:
+    enabled: bool = True
+
+
+@dataclass(frozen=True)
+class Reverse:
+    voltage_v: float
+    duration_s: float
+    max_current_a: float
+
+
+@dataclass(frozen=True)
+class Plan:
+    element: Element
+    steps: Steps
+    settle: Settle
+    meter: MeterSettings
+    record: Record
+    limits: Limits
+    cooldown: Cooldown
+    offset: OffsetReading
+    reverse: Reverse | None
+    source: str = "plan"
+
+    def to_dict(self) -> dict[str, Any]:
+        """The complete plan with every default filled in: what the run header records."""
+        data = dataclasses.asdict(self)
+        data.pop("source")
+        return _jsonable(data)
+
+
+def _jsonable(value: Any) -> Any:
+    if isinstance(value, dict):
+        return {k: _jsonable(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_jsonable(v) for v in value]
+    return value
+
+
+def load_plan(path: str | Path) -> Plan:
+    """Read and check a plan file."""
+    return plan_from_table(load_toml(path))
+
+
+def parse_plan(text: str, source: str = "plan") -> Plan:
+    """Read a plan from TOML text (tests, the UI's editor)."""
+    return plan_from_table(parse_toml(text, source))
+
+
+def plan_from_table(root: Table) -> Plan:
+    root.only(_TABLES)
+    limits = _limits(root.table("limits"))
+    element = _element(root.table("element"), limits)
+    steps = _steps(root.table("steps"), limits)
+    plan = Plan(
+        element=element,
+        steps=steps,
+        settle=_settle(root.table("settle", required=False)),
+        meter=_meter(root.table("meter", required=False)),
+        record=_record(root.table("record", required=False)),
+        limits=limits,
+        cooldown=_cooldown(root.table("cooldown", required=False)),
+        offset=_offset(root.table("offset", required=False)),
+        reverse=_reverse(root.table("reverse", required=False), limits),
+        source=root.source,
+    )
+    return plan
+
+
+def _text(t: Table, key: str, default: str = "") -> str:
+    return t.string(key, default)
+
+
+def _element(t: Table, limits: Limits) -> Element:
+    t.only(("id", "kind", "label", "serial", "lot", "ambient_c", "note", "operating_a", "gate", "zener_v", "measure"))
+    element_id = t.string("id")
+    if not element_id.strip():
+        raise t.fail("id", "is empty", "a name for the element, such as 'D1'")
+    kind = t.string("kind", choices=ELEMENT_KINDS)
+    operating_a = t.number("operating_a", None, positive=True, unit="A")
+    if operating_a is not None and operating_a > limits.max_current_a:
+        raise t.fail("operating_a", f"is {operating_a:g} A, above [limits].max_current_a {limits.max_current_a:g} A",
+                     "an operating current the sweep may reach")
+    gate = t.string("gate", "return", choices=("return", "driven"))
+    measure = t.string("measure", "channel", choices=("channel", "body_diode"))
+    zener_v = t.number("zener_v", None, positive=True, unit="V")
+    if kind != "pmos":
+        for key in ("gate", "measure", "zener_v"):
+            if t.has(key):
+                raise t.fail(key, f"only applies to a P-MOSFET, but kind is {kind!r}", "no such key for this kind")
+    return Element(
+        id=element_id,
+        kind=kind,
+        label=_text(t, "label"),
+        serial=_text(t, "serial"),
+        lot=_text(t, "lot"),
+        ambient_c=t.number("ambient_c", 25.0, min=-60.0, max=200.0, unit="°C"),
+        note=_text(t, "note"),
+        operating_a=operating_a,
+        gate=gate,
+        zener_v=zener_v,
+        measure=measure,
+    )
+
+
+def _steps(t: Table, limits: Limits) -> Steps:
+    t.only(("mode", "start_a", "stop_a", "count", "currents_a", "spacing", "target_rel_u"))
+    mode = t.string("mode", choices=STEP_MODES)
+    cap = limits.max_current_a
+
+    def current(key: str, *, positive: bool) -> float:
+        value = t.number(key, positive=positive, min=None if positive else 0.0, unit="A")
+        if value > cap:
+            raise t.fail(key, f"is {value:g} A, above [limits].max_current_a {cap:g} A",
+                         "a current within the plan's limit")
+        return value
+
+    if mode == "list":
+        for key in ("start_a", "stop_a", "count", "spacing", "target_rel_u"):
+            if t.has(key):
+                raise t.fail(key, "is not used with mode 'list'", "only currents_a")
+        currents = t.numbers("currents_a", min=0.0, unit="A")
+        for i, value in enumerate(currents):
+            if value > cap:
+                raise t.fail(f"currents_a[{i}]", f"is {value:g} A, above [limits].max_current_a {cap:g} A",
+                             "a current within the plan's limit")
+        return Steps(mode=mode, currents_a=currents)
+    if t.has("currents_a"):
+        raise t.fail("currents_a", f"is only used with mode 'list', not {mode!r}", "start_a, stop_a and count")
+    spacing = t.string("spacing", "linear", choices=("linear", "log"))
+    if t.has("spacing") and mode != "updown":
+        raise t.fail("spacing", f"is only used with mode 'updown', not {mode!r}", "mode 'linear' or 'log' instead")
+    positive = mode in ("log", "adaptive") or spacing == "log"
+    start = current("start_a", positive=positive)
+    stop = current("stop_a", positive=True)
+    if stop <= start:
+        raise t.fail("stop_a", f"is {stop:g} A, not above start_a {start:g} A", "stop_a > start_a")
+    if mode == "adaptive":
+        count = t.integer("count", 50, min=4, max=100_000)
+        target = t.number("target_rel_u", positive=True, max=0.5)
+        return Steps(mode=mode, start_a=start, stop_a=stop, count=count, target_rel_u=target)
+    if t.has("target_rel_u"):
+        raise t.fail("target_rel_u", f"is only used with mode 'adaptive', not {mode!r}", "mode = 'adaptive'")
+    count = t.integer("count", min=2, max=10_000_000)
+    return Steps(mode=mode, start_a=start, stop_a=stop, count=count, spacing=spacing)
+
+
+def _settle(t: Table | None) -> Settle:
+    if t is None:
+        return Settle()
+    t.only(("dwell_s", "tolerance_v", "consecutive", "timeout_s", "max_reads"))
+    d = Settle()
+    consecutive = t.integer("consecutive", d.consecutive, min=1, max=1000)
+    max_reads = t.integer("max_reads", max(d.max_reads, consecutive), min=1, max=1_000_000)
+    if max_reads < consecutive:
+        raise t.fail("max_reads", f"is {max_reads}, below consecutive {consecutive}", "max_reads >= consecutive")
+    return Settle(
+        dwell_s=t.number("dwell_s", d.dwell_s, min=0.0, max=3600.0, unit="s"),
+        tolerance_v=t.number("tolerance_v", d.tolerance_v, positive=True, unit="V"),
+        consecutive=consecutive,
+        timeout_s=t.number("timeout_s", d.timeout_s, min=0.0, max=3600.0, unit="s"),
+        max_reads=max_reads,
+    )
+
+
+def _meter(t: Table | None) -> MeterSettings:
+    if t is None:
+        return MeterSettings()
+    t.only(("nplc", "range_v", "samples"))
+    d = MeterSettings()
+    return MeterSettings(
+        nplc=t.number("nplc", d.nplc, positive=True, max=1000.0),
+        range_v=t.number("range_v", None, positive=True, unit="V"),
+        samples=t.integer("samples", d.samples, min=1, max=10_000),
+    )
+
+
+def _record(t: Table | None) -> Record:
+    if t is None:
+        return Record()
+    t.only(("supply_v",))
+    return Record(supply_v=t.boolean("supply_v", True))
+
+
+def _limits(t: Table) -> Limits:
+    t.only(("max_current_a", "compliance_v", "max_drop_v", "max_power_w", "max_time_s"))
+    return Limits(
+        max_current_a=t.number("max_current_a", positive=True, unit="A"),
+        compliance_v=t.number("compliance_v", None, positive=True, unit="V"),
+        max_drop_v=t.number("max_drop_v", None, positive=True, unit="V"),
+        max_power_w=t.number("max_power_w", None, positive=True, unit="W"),
+        max_time_s=t.number("max_time_s", None, positive=True, unit="s"),
+    )
+
+
+def _cooldown(t: Table | None) -> Cooldown:
+    if t is None:
+        return Cooldown()
+    t.only(("off_s",))
+    return Cooldown(off_s=t.number("off_s", 0.0, min=0.0, max=3600.0, unit="s"))
+
+
+def _offset(t: Table | None) -> OffsetReading:
+    if t is None:
+        return OffsetReading()
+    t.only(("enabled",))
+    return OffsetReading(enabled=t.boolean("enabled", True))
+
+
+def _reverse(t: Table | None, limits: Limits) -> Reverse | None:
+    if t is None:
+        return None
+    t.only(("voltage_v", "duration_s", "max_current_a"))
+    reverse = Reverse(
+        voltage_v=t.number("voltage_v", positive=True, unit="V"),
+        duration_s=t.number("duration_s", positive=True, max=3600.0, unit="s"),
+        max_current_a=t.number("max_current_a", positive=True, unit="A"),
+    )
+    if reverse.max_current_a > limits.max_current_a:
+        raise t.fail("max_current_a", f"is {reverse.max_current_a:g} A, above [limits].max_current_a "
+                     f"{limits.max_current_a:g} A", "a reverse-current limit within the plan's limit")
+    return reverse
+
+
+def require(plan: Plan, where: str, problem: str, expected: str = "") -> BadInput:
+    """A plan-level refusal (feasibility) in the same one-line form as a key error."""
+    return BadInput(plan.source, where, problem, expected)

@@ -1,0 +1,250 @@
+"""The connected bench, wired as the bench file says: set the element current, read drop and current.
+
+Two ways to force the current (Kelvin sense: the meter reads the drop at the
+element's own terminals, so lead resistance stays out of the reading):
+
+* force = "supply": the element sits across the supply; the supply's voltage is
+  set to the plan's compliance and its current limit to the step, so it runs in
+  CC and the current is the setpoint. Leaving CC (into CV) means the element
+  needs more voltage than the compliance allows.
+* force = "load": the supply holds the input voltage in CV (its current limit at
+  the plan's max current), the element sits between supply and an electronic
+  load in CC mode, the load sets the current. This is how the element sits on a
+  board, so a P-MOSFET with its gate on the return sees V_GS = -input_v.
+
+The current is read back from the supply, from the load, from a second meter in
+DC current mode, or from a shunt's voltage read by that second meter.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+from .bench_file import BenchSetup, Wiring
+from .plan import Plan
+
+
+@dataclass
+class Rig:
+    """The opened roles of one bench (any object with the role methods will do in pure tests)."""
+
+    setup: BenchSetup
+    meter: Any
+    supply: Any = None
+    load: Any = None
+    current_meter: Any = None
+    #: role name -> range the meter was configured on, filled by `configure`
+    ranges: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def wiring(self) -> Wiring:
+        return self.setup.wiring
+
+    def roles(self) -> tuple[Any, ...]:
+        """Every opened role, the power sources first (the order the safe state reaches them)."""
+        return tuple(r for r in (self.supply, self.load, self.meter, self.current_meter) if r is not None)
+
+    def named_roles(self) -> dict[str, Any]:
+        named = {"supply": self.supply, "load": self.load, "meter": self.meter, "current_meter": self.current_meter}
+        return {k: v for k, v in named.items() if v is not None}
+
+    def close(self) -> None:
+        for role in self.roles():
+            transport = getattr(role, "transport", None) or getattr(role, "_transport", None)
+            close = getattr(role, "close", None) or getattr(transport, "close", None)
+            if close is not None:
+                try:
+                    close()
+                except Exception:  # closing after a fault must not hide the fault
+                    pass
+
+    # -- configuration (no power) -------------------------------------------
+    def configure(self, plan: Plan, first_setpoint_a: float) -> None:
+        """Put every instrument in its measuring state with the outputs still off."""
+        w = self.wiring
+        m = plan.meter
+        drop_range = drop_range_v(plan, self.meter.profile)
+        self.meter.configure_voltage(drop_range, m.nplc)
+        if m.samples > 1 or _has(self.meter, "set_samples"):
+            self.meter.set_samples(m.samples)
+        self.ranges["meter"] = drop_range
+        if self.current_meter is not None and w.current_from in ("meter", "shunt"):
+            if w.current_from == "meter":
+                rng = current_range_a(plan, self.current_meter.profile)
+                self.current_meter.configure_current(rng, m.nplc)
+            else:
+                rng = shunt_range_v(plan, w, self.current_meter.profile)
+                self.current_meter.configure_voltage(rng, m.nplc)
+            if m.samples > 1 or _has(self.current_meter, "set_samples"):
+                self.current_meter.set_samples(m.samples)
+            self.ranges["current_meter"] = rng
+        supply = self.supply
+        supply.set_output(False)
+        if w.force == "supply":
+            supply.set_voltage(plan.limits.compliance_v)
+            supply.set_current_limit(first_setpoint_a)
+            if self.load is not None:
+                self.load.set_input(False)
+        else:
+            supply.set_voltage(w.input_v)
+            supply.set_current_limit(plan.limits.max_current_a)
+            self.load.set_input(False)
+            set_mode = getattr(self.load, "set_mode_cc", None)
+            if set_mode is not None:
+                set_mode()
+            self.load.set_current(first_setpoint_a)
+
+    def check_errors(self, after: str) -> None:
+        """Drain every role's error queue (a checkpoint, not a per-point query)."""
+        for role in self.roles():
+            role.check_errors(after)
+
+    # -- power ---------------------------------------------------------------
+    def power_on(self) -> None:
+        self.supply.set_output(True)
+        if self.wiring.force == "load":
+            self.load.set_input(True)
+
+    def element_off(self) -> None:
+        """Stop the element current (cool-down): the forcing instrument off, the rest as it was."""
+        if self.wiring.force == "supply":
+            self.supply.set_output(False)
+        else:
+            self.load.set_input(False)
+
+    def element_on(self) -> None:
+        if self.wiring.force == "supply":
+            self.supply.set_output(True)
+        else:
+            self.load.set_input(True)
+
+    def set_current(self, current_a: float) -> None:
+        if self.wiring.force == "supply":
+            self.supply.set_current_limit(current_a)
+        else:
+            self.load.set_current(current_a)
+
+    # -- readings ------------------------------------------------------------
+    def read_drop(self) -> tuple[float | None, ...]:
+        return self.meter.read()
+
+    def read_current(self) -> float | None:
+        """The element current from the source the bench file names (None: overload)."""
+        source = self.wiring.current_from
+        if source == "supply":
+            return self.supply.measure_current()
+        if source == "load":
+            return self.load.measure_current()
+        samples = self.current_meter.read()
+        if not samples or any(s is None for s in samples):
+            return None
+        value = sum(samples) / len(samples)
+        return value if source == "meter" else value / self.wiring.shunt_ohm
+
+    def expected_mode(self) -> str:
+        """CC when the supply forces the current, CV when it holds the input for a load."""
+        return "CC" if self.wiring.force == "supply" else "CV"
+
+
+def _has(role: Any, operation: str) -> bool:
+    profile = getattr(role, "profile", None)
+    has = getattr(profile, "has", None)
+    return bool(has(operation)) if has is not None else False
+
+
+# -- ranges and accuracy ------------------------------------------------------
+
+
+def _smallest_range(ranges: tuple[float, ...], needed: float) -> float | None:
+    fits = [r for r in ranges if r >= needed * (1 - 1e-9)]
+    return min(fits) if fits else None
+
+
+def drop_range_v(plan: Plan, meter_profile: Any) -> float:
+    """The plan's meter range, or the smallest range holding max_drop_v (or the compliance)."""
+    if plan.meter.range_v is not None:
+        return plan.meter.range_v
+    ranges = tuple(getattr(getattr(meter_profile, "limits", None), "voltage_ranges_v", ()) or ())
+    needed = plan.limits.max_drop_v or plan.limits.compliance_v or 1.0
+    chosen = _smallest_range(ranges, needed)
+    if chosen is None:
+        chosen = max(ranges) if ranges else needed
+    return chosen
+
+
+def current_range_a(plan: Plan, meter_profile: Any) -> float:
+    ranges = tuple(getattr(getattr(meter_profile, "limits", None), "current_ranges_a", ()) or ())
+    chosen = _smallest_range(ranges, plan.limits.max_current_a)
+    return chosen if chosen is not None else (max(ranges) if ranges else plan.limits.max_current_a)
+
+
+def shunt_range_v(plan: Plan, wiring: Wiring, meter_profile: Any) -> float:
+    ranges = tuple(getattr(getattr(meter_profile, "limits", None), "voltage_ranges_v", ()) or ())
+    needed = plan.limits.max_current_a * wiring.shunt_ohm
+    chosen = _smallest_range(ranges, needed)
+    return chosen if chosen is not None else (max(ranges) if ranges else needed)
+
+
+def _spec_for(profile: Any, function: str, value: float) -> Any:
+    """The accuracy entry for `function` whose range is the smallest that holds `value`."""
+    specs = [s for s in getattr(profile, "accuracy", ()) if s.function == function]
+    if not specs:
+        return None
+    fits = [s for s in specs if s.range >= value * (1 - 1e-9)]
+    return min(fits, key=lambda s: s.range) if fits else max(specs, key=lambda s: s.range)
+
+
+def accuracy_block(rig: Rig, plan: Plan) -> dict[str, Any]:
+    """The header's accuracy of the drop and current readings, from the profiles and ranges used."""
+    block: dict[str, Any] = {}
+    drop_range = rig.ranges.get("meter") or drop_range_v(plan, rig.meter.profile)
+    spec = _spec_for(rig.meter.profile, "dc_voltage", drop_range)
+    if spec is not None:
+        block["drop"] = {"reading_pct": spec.reading_pct, "range_pct": spec.range_pct, "range_v": spec.range}
+    w = rig.wiring
+    cur = None
+    if w.current_from == "supply":
+        cur = _spec_for(rig.supply.profile, "readback_current", plan.limits.max_current_a)
+        if cur is not None:
+            block["current"] = {"reading_pct": cur.reading_pct, "range_pct": cur.range_pct, "range_a": cur.range}
+    elif w.current_from == "load":
+        cur = _spec_for(rig.load.profile, "readback_current", plan.limits.max_current_a)
+        if cur is not None:
+            block["current"] = {"reading_pct": cur.reading_pct, "range_pct": cur.range_pct, "range_a": cur.range}
+    elif w.current_from == "meter":
+        rng = rig.ranges.get("current_meter") or current_range_a(plan, rig.current_meter.profile)
+        cur = _spec_for(rig.current_meter.profile, "dc_current", rng)
+        if cur is not None:
+            block["current"] = {"reading_pct": cur.reading_pct, "range_pct": cur.range_pct, "range_a": cur.range}
+    else:
+        # I = V/R_shunt: the meter's % of range becomes a current through the shunt; the
+        # shunt's own tolerance is not known here and is left to the operator's budget.
+        rng = rig.ranges.get("current_meter") or shunt_range_v(plan, w, rig.current_meter.profile)
+        cur = _spec_for(rig.current_meter.profile, "dc_voltage", rng)
+        if cur is not None:
+            block["current"] = {"reading_pct": cur.reading_pct, "range_pct": cur.range_pct,
+                                "range_a": cur.range / w.shunt_ohm}
+    return block
+
+
+def finite(value: float | None) -> bool:
+    return value is not None and math.isfinite(value)
+
+
+def open_rig(setup: BenchSetup, *, timeout_s: float | None = None) -> Rig:
+    """Connect every role of the bench (no output is switched on); closes what it opened on failure."""
+    from benchlog.instruments.connect import open_role
+
+    opened: dict[str, Any] = {}
+    try:
+        for name, spec in setup.roles.items():
+            role = "meter" if name == "current_meter" else name
+            opened[name] = open_role(role, spec.resource, spec.profile, backend=spec.backend, timeout_s=timeout_s)
+    except BaseException:
+        Rig(setup, meter=None, **{k: v for k, v in opened.items() if k != "meter"}).close()
+        if "meter" in opened:
+            opened["meter"].close()
+        raise
+    return Rig(setup, **opened)

@@ -1,0 +1,461 @@
+"""The sweep runner: step the current, let the drop settle, record it, and stop safely on any limit, fault or cancel.
+
+Events (`benchlog.runs.events`) go out in time order: RunStarted (the header),
+Offset, Point..., Note, ReverseResult, RunFinished. Each is handed to the
+`RunWriter` first (it returns at once; its thread makes the record durable),
+then to the consumer. The outputs are off before the final Note and RunFinished
+are emitted, whatever ended the run.
+
+Per point the runner makes only the exchanges the plan needs: one setpoint
+write, the settle reads, one current read-back, the supply mode (the only way to
+see compliance) and, if `[record].supply_v`, the supply voltage. Error queues
+are drained at checkpoints (after configuration, every `CHECKPOINT_S`, at the end).
+"""
+
+from __future__ import annotations
+
+import math
+import socket
+import threading
+import time
+from datetime import datetime, timezone
+from typing import Any, Callable, Iterator
+
+from benchlog import __version__
+from benchlog.runs.events import (
+    SCHEMA_VERSION,
+    FLAG_COMPLIANCE,
+    FLAG_UNSETTLED,
+    Event,
+    Note,
+    Offset,
+    Point,
+    ReverseResult,
+    RunFinished,
+    RunStarted,
+)
+
+from .plan import Plan
+from .rig import Rig, accuracy_block, drop_range_v
+from .settle import Interrupted, Overload, settle
+from .steps import StepSource, step_source
+
+#: Drain the instruments' error queues at least this often during a long sweep.
+CHECKPOINT_S = 5.0
+#: A read-back current may exceed max_current_a by this fraction before it counts as a
+#: limit hit: the read-back's own accuracy (a few 0.1 % plus counts) must not stop a
+#: sweep whose setpoints are all within the limit.
+CURRENT_READBACK_MARGIN = 0.02
+
+
+class _Stop(Exception):
+    """Ends the measurement loop with an outcome and the note that explains it."""
+
+    def __init__(self, outcome: str, kind: str, message: str) -> None:
+        super().__init__(message)
+        self.outcome = outcome
+        self.kind = kind
+        self.message = message
+
+
+def idn_text(idn: Any) -> str:
+    """`*IDN?` as the instrument sent it (an Idn record is joined back with commas)."""
+    if idn is None:
+        return ""
+    if isinstance(idn, str):
+        return idn
+    fields = [getattr(idn, k, None) for k in ("manufacturer", "model", "serial", "firmware")]
+    if all(f is not None for f in fields):
+        return ",".join(str(f) for f in fields)
+    return str(idn)
+
+
+def _default_guard():
+    from benchlog.instruments.guard import safe_state_guard
+
+    return safe_state_guard
+
+
+class SweepRunner:
+    """One sweep of one plan on one rig.
+
+    `before_power_on()` is called once, just before the first output is switched
+    on (the CLI prints its caution there); returning False cancels the run with
+    the outputs never on. `warnings` are recorded as notes after the header.
+    """
+
+    def __init__(
+        self,
+        plan: Plan,
+        roles: Rig,
+        *,
+        clock: Callable[[], float] = time.monotonic,
+        sleep: Callable[[float], None] = time.sleep,
+        writer: Any = None,
+        before_power_on: Callable[[], bool | None] | None = None,
+        warnings: tuple[str, ...] | list[str] = (),
+        guard: Callable[..., Any] | None = None,
+        steps: StepSource | None = None,
+    ) -> None:
+        self.plan = plan
+        self.rig = roles
+        self.writer = writer
+        self._clock = clock
+        self._sleep = sleep
+        self._before_power_on = before_power_on
+        self._warnings = tuple(warnings)
+        self._guard = guard
+        self._cancel = threading.Event()
+        self.steps = steps if steps is not None else step_source(plan)
+        self.points: list[Point] = []
+        self.outcome: str | None = None
+        self.fault: BaseException | None = None
+        self.message = ""
+        self.power_applied = False
+        self._header: dict[str, Any] | None = None
+        self._t0 = 0.0
+        self._last_checkpoint = 0.0
+
+    # -- public --------------------------------------------------------------
+    @property
+    def planned(self) -> int:
+        """Points to expect (an upper bound for adaptive stepping)."""
+        return self.steps.planned
+
+    def cancel(self) -> None:
+        """Ask the sweep to stop; safe from any thread. The safe state follows within one step."""
+        self._cancel.set()
+
+    @property
+    def cancelled(self) -> bool:
+        return self._cancel.is_set()
+
+    @property
+    def header(self) -> dict[str, Any]:
+        if self._header is None:
+            self._header = self._build_header()
+        return self._header
+
+    def run(self, on_event: Callable[[Event], None] | None = None) -> str:
+        """Run to the end, handing each event to `on_event`; returns the outcome.
+
+        Ctrl-C inside `on_event` is passed into the sweep, which records the
+        cancel with the outputs off and then lets the KeyboardInterrupt go on.
+        """
+        gen = self.events()
+        pending: BaseException | None = None
+        while True:
+            try:
+                event = gen.throw(pending) if pending is not None else next(gen)
+            except StopIteration:
+                break
+            pending = None
+            if on_event is not None:
+                try:
+                    on_event(event)
+                except KeyboardInterrupt as exc:
+                    pending = exc
+        return self.outcome or "fault"
+
+    def events(self) -> Iterator[Event]:
+        """The sweep as an event stream; closing the iterator early cancels the sweep safely."""
+        guard = self._guard or _default_guard()
+        self._t0 = self._clock()
+        self._last_checkpoint = self._t0
+        yield self._emit(RunStarted(self.header))
+        use_accuracy = getattr(self.steps, "use_accuracy", None)
+        if use_accuracy is not None:
+            from benchlog.analysis.uncertainty import MeasurementAccuracy
+
+            use_accuracy(MeasurementAccuracy.from_header(self.header))
+        for text in self._warnings:
+            yield self._emit(Note(self._t(), "warning", text))
+        stop: _Stop
+        reraise: BaseException | None = None
+        try:
+            with guard(*self.rig.roles()):
+                yield from self._measure()
+                stop = _Stop("complete", "", "")
+        except _Stop as exc:
+            stop = exc
+        except GeneratorExit:
+            self._finish_unyielded("cancel", "cancelled: the event stream was closed")
+            raise
+        except (KeyboardInterrupt, SystemExit) as exc:
+            stop = _Stop("cancelled", "cancel", "cancelled by interrupt; outputs switched off")
+            reraise = exc
+        except Exception as exc:  # noqa: BLE001 -- every failure must end with outputs off and a record
+            stop = self._classify(exc)
+            self.fault = exc
+            if not self._is_bench_error(exc) and not isinstance(exc, _safety_limit_type()):
+                reraise = exc
+        self.outcome = stop.outcome
+        self.message = stop.message
+        if stop.kind:
+            yield self._emit(Note(self._t(), stop.kind, stop.message))
+        yield self._emit(RunFinished(self._t(), stop.outcome, len(self.points), stop.message))
+        if reraise is not None:
+            raise reraise
+
+    # -- the measurement -----------------------------------------------------
+    def _measure(self) -> Iterator[Event]:
+        plan, rig = self.plan, self.rig
+        first = self.steps.next_step(self.points)
+        if first is None:
+            return
+        rig.configure(plan, first.setpoint_a)
+        rig.check_errors("configuration")
+        if plan.offset.enabled:
+            yield from self._offset()
+        self._check_cancel()
+        if self._before_power_on is not None and self._before_power_on() is False:
+            raise _Stop("cancelled", "cancel", "cancelled before power was applied")
+        self._check_cancel()
+        rig.power_on()
+        self.power_applied = True
+        step = first
+        index = 0
+        while step is not None:
+            if index > 0:
+                self._check_cancel()
+                self._check_time()
+                rig.set_current(step.setpoint_a)
+                if plan.cooldown.off_s > 0:
+                    rig.element_on()
+            self._pause(plan.settle.dwell_s)
+            self._check_cancel()
+            point, stop = self._read_point(index, step)
+            if point is not None:
+                self.points.append(point)
+                yield self._emit(point)
+            if stop is not None:
+                raise stop
+            self._checkpoint()
+            index += 1
+            step = self.steps.next_step(self.points)
+            if plan.cooldown.off_s > 0:
+                rig.element_off()
+                self._pause(plan.cooldown.off_s)
+        state = getattr(self.steps, "state", None)
+        if state is not None:
+            yield self._emit(Note(self._t(), "info", f"adaptive stepping: {state.reason}"))
+        rig.check_errors("sweep")
+        if plan.reverse is not None:
+            yield from self._reverse()
+            rig.check_errors("reverse step")
+
+    def _offset(self) -> Iterator[Event]:
+        try:
+            reading = settle(self.rig.read_drop, self.plan.settle, self._clock, self._cancel.is_set)
+        except Overload:
+            yield self._emit(Note(self._t(), "warning", "zero-current offset: meter overload, no offset recorded"))
+            return
+        except Interrupted:
+            raise _Stop("cancelled", "cancel", "cancelled by the operator before power was applied") from None
+        yield self._emit(Offset(self._t(), reading.value))
+
+    def _read_point(self, index: int, step) -> tuple[Point | None, _Stop | None]:
+        plan, rig, lim = self.plan, self.rig, self.plan.limits
+        try:
+            reading = settle(rig.read_drop, plan.settle, self._clock, self._cancel.is_set)
+        except Overload:
+            rig.element_off()
+            rng = rig.ranges.get("meter", 0.0)
+            return None, _Stop("limit", "limit", f"meter overload at {step.setpoint_a:g} A: the drop is beyond "
+                               f"the {rng:g} V range (no reading)")
+        except Interrupted:
+            raise self._cancel_stop() from None
+        current = rig.read_current()
+        mode = rig.supply.mode()
+        supply_v = rig.supply.measure_voltage() if plan.record.supply_v else None
+        t_s = self._t()
+        flags: list[str] = []
+        if not reading.settled:
+            flags.append(FLAG_UNSETTLED)
+        if mode == "OFF":
+            rig.element_off()
+            tripped = _safe_call(getattr(rig.supply, "tripped", None))
+            cause = "its protection tripped" if tripped else "output found off"
+            return None, _Stop("fault", "fault", f"supply output went off during the sweep ({cause}) at "
+                               f"{step.setpoint_a:g} A; point not recorded")
+        stop: _Stop | None = None
+        expected = rig.expected_mode()
+        if mode in ("CV", "CC") and mode != expected:
+            flags.append(FLAG_COMPLIANCE)
+            if expected == "CC":
+                stop = _Stop("limit", "limit", f"compliance_v: the supply left CC at {step.setpoint_a:g} A "
+                             f"(CV at {lim.compliance_v:g} V limit; drop {reading.value:.6g} V)")
+            else:
+                stop = _Stop("limit", "limit", f"max_current_a: the supply reached its current limit "
+                             f"{lim.max_current_a:g} A and left CV at {step.setpoint_a:g} A")
+        if current is None or not math.isfinite(current):
+            rig.element_off()
+            return None, _Stop("limit", "limit", f"current reading overload at {step.setpoint_a:g} A (no reading)")
+        if stop is None and current > lim.max_current_a * (1 + CURRENT_READBACK_MARGIN):
+            stop = _Stop("limit", "limit", f"max_current_a: measured {current:.6g} A, above the "
+                         f"{lim.max_current_a:g} A limit")
+        if stop is None and lim.max_drop_v is not None and reading.value > lim.max_drop_v:
+            stop = _Stop("limit", "limit", f"max_drop_v: element drop {reading.value:.6g} V at {current:.6g} A, "
+                         f"above the {lim.max_drop_v:g} V limit")
+        power_w = current * reading.value
+        if stop is None and lim.max_power_w is not None and power_w > lim.max_power_w:
+            stop = _Stop("limit", "limit", f"max_power_w: element power {power_w:.6g} W "
+                         f"({current:.6g} A x {reading.value:.6g} V), above the {lim.max_power_w:g} W limit")
+        if stop is not None:
+            rig.element_off()
+        point = Point(
+            index=index,
+            t_s=t_s,
+            setpoint_a=step.setpoint_a,
+            current_a=current,
+            drop_v=reading.value,
+            supply_v=supply_v,
+            supply_mode=mode,
+            settle_reads=reading.reads,
+            direction=step.direction,
+            flags=tuple(flags),
+        )
+        return point, stop
+
+    def _reverse(self) -> Iterator[Event]:
+        """Reverse the supply across the element at voltage_v for duration_s and read the reverse current."""
+        rev, rig, supply = self.plan.reverse, self.rig, self.rig.supply
+        rig.element_off()
+        if rig.wiring.force == "load":
+            supply.set_output(False)
+        # The current limit sits above the pass limit so a failed (leaky or shorted) element
+        # reads above it instead of being held exactly at it, but never above the plan's limit.
+        limit_a = min(self.plan.limits.max_current_a, 1.5 * rev.max_current_a)
+        supply.set_voltage(0.0)
+        supply.set_reversed(True)
+        try:
+            supply.set_current_limit(limit_a)
+            supply.set_voltage(rev.voltage_v)
+            supply.set_output(True)
+            self._pause(rev.duration_s)
+            self._check_cancel()
+            current = abs(supply.measure_current())
+            mode = supply.mode()
+            supply.set_output(False)
+        finally:
+            _safe_call(lambda: supply.set_output(False))
+            _safe_call(lambda: supply.set_voltage(0.0))
+            _safe_call(lambda: supply.set_reversed(False))
+        held = mode == "CC"  # current held at the supply's limit: the element conducts in reverse
+        passed = current <= rev.max_current_a and not held
+        yield self._emit(ReverseResult(self._t(), rev.voltage_v, rev.duration_s, current, rev.max_current_a, passed))
+
+    # -- helpers -------------------------------------------------------------
+    def _emit(self, event: Event) -> Event:
+        if self.writer is not None:
+            self.writer.write(event)
+        return event
+
+    def _finish_unyielded(self, kind: str, message: str) -> None:
+        self.outcome = "cancelled"
+        self.message = message
+        self._emit(Note(self._t(), kind, message))
+        self._emit(RunFinished(self._t(), "cancelled", len(self.points), message))
+
+    def _t(self) -> float:
+        return self._clock() - self._t0
+
+    def _pause(self, seconds: float) -> None:
+        if seconds <= 0:
+            return
+        if self._sleep is time.sleep:
+            self._cancel.wait(seconds)  # wakes at once on cancel
+        else:
+            self._sleep(seconds)
+
+    def _cancel_stop(self) -> _Stop:
+        return _Stop("cancelled", "cancel", f"cancelled by the operator after {len(self.points)} points; "
+                     "outputs switched off")
+
+    def _check_cancel(self) -> None:
+        if self._cancel.is_set():
+            raise self._cancel_stop()
+
+    def _check_time(self) -> None:
+        limit = self.plan.limits.max_time_s
+        if limit is not None and self._t() > limit:
+            raise _Stop("limit", "limit", f"max_time_s: the sweep ran {self._t():.3g} s, past the {limit:g} s "
+                        f"limit, after {len(self.points)} points")
+
+    def _checkpoint(self) -> None:
+        now = self._clock()
+        if now - self._last_checkpoint >= CHECKPOINT_S:
+            self._last_checkpoint = now
+            self.rig.check_errors(f"point {len(self.points) - 1}")
+
+    @staticmethod
+    def _is_bench_error(exc: BaseException) -> bool:
+        try:
+            from benchlog.instruments.errors import BenchError
+        except ImportError:  # pragma: no cover - the instrument layer is part of the package
+            return False
+        return isinstance(exc, BenchError)
+
+    def _classify(self, exc: BaseException) -> _Stop:
+        if isinstance(exc, _safety_limit_type()):
+            return _Stop("limit", "limit", f"setpoint refused by the instrument profile: {exc}")
+        if self._is_bench_error(exc):
+            line = exc.line() if hasattr(exc, "line") else str(exc)
+            return _Stop("fault", "fault", f"instrument fault: {line}; outputs switched off")
+        return _Stop("fault", "fault", f"internal error: {type(exc).__name__}: {exc}; outputs switched off")
+
+    # -- header --------------------------------------------------------------
+    def _build_header(self) -> dict[str, Any]:
+        plan, rig = self.plan, self.rig
+        instruments = {}
+        for name, role in rig.named_roles().items():
+            profile = role.profile
+            instruments[name] = {
+                "resource": getattr(role, "resource", ""),
+                "idn": idn_text(getattr(role, "idn", None)),
+                "profile": getattr(profile, "name", str(profile)),
+                "profile_sha256": getattr(profile, "sha256", ""),
+            }
+        e = plan.element
+        element = {
+            "id": e.id, "kind": e.kind, "label": e.label, "lot": e.lot, "serial": e.serial,
+            "ambient_c": e.ambient_c, "note": e.note, "operating_a": e.operating_a,
+        }
+        if e.kind == "pmos":
+            element.update({"gate": e.gate, "zener_v": e.zener_v, "measure": e.measure})
+        from benchlog.runs.format import FORMAT_NAME, POINT_COLUMNS
+
+        now = datetime.now(timezone.utc)
+        return {
+            "format": FORMAT_NAME,
+            "schema": SCHEMA_VERSION,
+            "tool_version": __version__,
+            "started_utc": now.strftime("%Y-%m-%dT%H:%M:%S.") + f"{now.microsecond // 1000:03d}Z",
+            "host": socket.gethostname(),
+            "instruments": instruments,
+            "bench": rig.setup.to_dict(),
+            "plan": plan.to_dict(),
+            "element": element,
+            "accuracy": accuracy_block(rig, plan),
+            "meter": {"nplc": plan.meter.nplc, "samples": plan.meter.samples,
+                      "range_v": drop_range_v(plan, rig.meter.profile)},
+            "line_frequency_hz": rig.setup.line_frequency_hz,
+            "point_columns": list(POINT_COLUMNS),
+        }
+
+
+def _safety_limit_type() -> type:
+    try:
+        from benchlog.instruments.errors import SafetyLimit
+    except ImportError:  # pragma: no cover
+        return type("NoSafetyLimit", (Exception,), {})
+    return SafetyLimit
+
+
+def _safe_call(fn: Callable[[], Any] | None) -> Any:
+    if fn is None:
+        return None
+    try:
+        return fn()
+    except Exception:  # noqa: BLE001 -- best effort on the way to the safe state
+        return None
