@@ -1,7 +1,76 @@
-"""Subcommands: (being built)."""
+"""Subcommand `report`: one self-contained HTML or PDF file from one or more runs, optionally against a part spec."""
 
 from __future__ import annotations
+
+import math
+import sys
+from pathlib import Path
+
+from benchlog.badinput import BadInput
+
+SUFFIXES = (".html", ".htm", ".pdf")
+MODELS = ("auto", "resistive", "diode", "knee")
+
+
+def _current(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise BadInput("argument", "--at", f"is {text!r}", "a current in amperes, e.g. 2.0") from None
+    if not math.isfinite(value) or value <= 0:
+        raise BadInput("argument", "--at", f"is {text!r}", "a finite current above 0 A")
+    return value
 
 
 def register(sub) -> None:
     """Add this module's subcommands to the `benchlog` parser."""
+    p = sub.add_parser(
+        "report",
+        help="write a self-contained HTML or PDF report of one or more runs",
+        description=(
+            "Write one file (HTML with inline figures, or PDF) holding each run's metadata, the fit with "
+            "its uncertainty, the verdict against the part spec with its decision rule, events, limit hits "
+            "and figures. Several runs add an overlay and a comparison table; runs of one lot add the lot "
+            "summary. Incomplete runs are reported as incomplete."
+        ),
+    )
+    p.add_argument("runs", nargs="+", metavar="RUN", help="run files (.run)")
+    p.add_argument("--spec", metavar="SPEC.toml", help="part spec to predict and judge against")
+    p.add_argument("-o", "--output", required=True, metavar="FILE",
+                   help="report file to write: FILE.html or FILE.pdf")
+    p.add_argument("--at", metavar="AMPS", help="operating current for the verdict (default: the plan's, "
+                   "else the largest measured)")
+    p.add_argument("--model", choices=MODELS, default="auto", help="fit model (default: auto, or the "
+                   "model the verdict uses when --spec is given)")
+    p.add_argument("--figures", metavar="DIR", help="also write every figure as PNG and SVG into DIR")
+    p.set_defaults(handler=run)
+
+
+def run(args) -> int:
+    out = Path(args.output)
+    if out.suffix.lower() not in SUFFIXES:
+        raise BadInput("argument", "-o", f"'{out}' has no report suffix", "a file name ending in .html or .pdf")
+    if not out.parent.is_dir():
+        raise BadInput("argument", "-o", f"folder '{out.parent}' does not exist", "an existing folder")
+    at_a = _current(args.at) if args.at is not None else None
+    for path in args.runs:
+        if not Path(path).is_file():
+            raise BadInput(path, "", "file not found", "an existing .run file")
+    if args.spec is not None and not Path(args.spec).is_file():
+        raise BadInput(args.spec, "", "file not found", "an existing part spec (.toml)")
+
+    # imported here so that `benchlog --help` stays fast (matplotlib loads only for a report)
+    from benchlog.report import write_report
+    from benchlog.report.build import build_report
+    from benchlog.report.figures import save
+
+    doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a)
+    write_report(doc, out)
+    if args.figures:
+        folder = Path(args.figures)
+        folder.mkdir(parents=True, exist_ok=True)
+        for n, block in enumerate(doc.figures(), start=1):
+            for fmt in ("png", "svg"):
+                save(block.figure, folder / f"figure{n:02d}-{block.name}.{fmt}")
+    sys.stdout.write(f"{out}\n")
+    return 0

@@ -173,7 +173,7 @@ def residuals_figure(residuals: Residuals, *, title: str = "") -> Figure:
     if residuals.u_v is not None and np.isfinite(residuals.u_v):
         lim = residuals.k * residuals.u_v * 1e3
         ax.axhline(lim, **style.PREDICTED_TYPICAL.line_kwargs(), linewidth=0.9,
-                   label=f"± k·u of one reading (k = {residuals.k:g})")
+                   label=plain(f"± k·{residuals.u_label} (k = {residuals.k:g})"))
         ax.axhline(-lim, **style.PREDICTED_TYPICAL.line_kwargs(), linewidth=0.9)
     ax.set_xlabel(CURRENT_LABEL)
     ax.set_ylabel("Residual, measured − fit (mV)")

@@ -95,6 +95,7 @@ class Residuals:
     outlier: np.ndarray | None = None
     u_v: float | None = None  # a typical standard uncertainty of one reading
     k: float = 2.0
+    u_label: str = "u of one reading"
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "current_a", _arr(self.current_a))

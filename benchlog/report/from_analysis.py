@@ -1,0 +1,99 @@
+"""Views for the figures made from the analysis' own results (FitResult, Prediction, lot and design reviews).
+
+These are the only places where the report reads analysis objects for drawing;
+the figures themselves stay free of them.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from benchlog.analysis.fit_result import FitResult
+from benchlog.analysis.predict import predict
+from benchlog.analysis.spec import PartSpec
+
+from .views import FitCurve, MeasuredSeries, OperatingPoint, Residuals, SpecCurve
+from .text import unit_of, with_uncertainty
+
+GRID_POINTS = 60
+
+
+def current_grid(max_current_a: float, points: int = GRID_POINTS) -> np.ndarray:
+    """Currents from a small fraction of the top current up to 5 % beyond it (0 A is not a valid prediction)."""
+    top = max(float(max_current_a), 1e-6) * 1.05
+    return np.linspace(top / points, top, points)
+
+
+def fit_label(fit: FitResult) -> str:
+    """The headline parameter of a fit, e.g. "resistive, r_on_ohm = 0.02612 ± 0.00026 Ω (k = 2)"."""
+    key = {"resistive": "r_on_ohm", "knee": "r_d_ohm", "diode": "ideality"}.get(fit.model)
+    if key is None or key not in fit.params:
+        return fit.model
+    return f"{fit.model}, {key} = {with_uncertainty(fit.params[key], fit.expanded_u.get(key), unit_of(key))} (k = {fit.k:g})"
+
+
+def measured_series(frame, fit: FitResult | None, label: str, offset_v: float | None = None) -> MeasuredSeries:
+    """All recorded points (offset-corrected like the fit), with the fit's outlier flags mapped onto them."""
+    current = frame["current_a"].to_numpy(dtype=float)
+    drop = frame["drop_v"].to_numpy(dtype=float)
+    if fit is not None and fit.offset_removed and offset_v is not None and math.isfinite(offset_v):
+        drop = drop - offset_v
+    keep = np.isfinite(current) & np.isfinite(drop)
+    outlier = np.zeros(current.shape, dtype=bool)
+    if fit is not None and "index" in frame.columns and fit.outliers.any():
+        flagged = set(np.asarray(fit.point_index)[np.asarray(fit.outliers, dtype=bool)].tolist())
+        outlier = frame["index"].isin(flagged).to_numpy()
+    return MeasuredSeries(label, current[keep], drop[keep], outlier=outlier[keep])
+
+
+def fit_curve(fit: FitResult, grid: np.ndarray) -> FitCurve:
+    """The fitted drop and its ±k·u band over `grid`, u the combined standard uncertainty (GUM) at each current."""
+    values, us = zip(*(fit.drop_at(float(i)) for i in grid))
+    values = np.asarray(values)
+    half = fit.k * np.asarray(us)
+    return FitCurve(fit_label(fit), grid, values, values - half, values + half, k=fit.k)
+
+
+def residuals(fit: FitResult, label: str) -> Residuals:
+    """Residuals of the points the fit used, with the residual scatter s = √(Σe²/ν) as the ± line."""
+    e = np.asarray(fit.residuals_v, dtype=float)
+    s = math.sqrt(float(e @ e) / fit.dof) if fit.dof > 0 else None
+    return Residuals(label, fit.current_a, e, fit.outliers, u_v=s, k=fit.k, u_label="residual scatter s")
+
+
+def spec_curves(spec: PartSpec, grid: np.ndarray, ambient_c: float, vin_v: float | None,
+                zener_v: float | None = None) -> tuple[SpecCurve, SpecCurve]:
+    """Predicted drop and loss, typical and maximum, over `grid` (each point with its own thermal loop)."""
+    typ_v, max_v, typ_w, max_w = [], [], [], []
+    for i in grid:
+        p = predict(spec, float(i), ambient_c=ambient_c, vin_v=vin_v, zener_v=zener_v)
+        typ_v.append(_num(p.typical.drop_v))
+        typ_w.append(_num(p.typical.loss_w))
+        if p.maximum is not None:
+            max_v.append(_num(p.maximum.drop_v))
+            max_w.append(_num(p.maximum.loss_w))
+    has_max = len(max_v) == len(grid)
+    label = spec.name
+    return (
+        SpecCurve(label, grid, typ_v, max_v if has_max else None, quantity="drop"),
+        SpecCurve(label, grid, typ_w, max_w if has_max else None, quantity="loss"),
+    )
+
+
+def operating_point(fit: FitResult | None, current_a: float, prediction=None) -> OperatingPoint:
+    """Measured loss at the operating current from the fit (P = I·V, U = k·I·u(V)) and the predicted ones."""
+    measured = u_w = None
+    if fit is not None:
+        v, u = fit.drop_at(current_a)
+        measured, u_w = current_a * v, fit.k * current_a * u
+    typ = mx = None
+    if prediction is not None:
+        typ = prediction.typical.loss_w
+        mx = prediction.maximum.loss_w if prediction.maximum is not None else None
+    return OperatingPoint(current_a, measured, u_w, typ, mx)
+
+
+def _num(value) -> float:
+    return float("nan") if value is None else float(value)

@@ -1,0 +1,25 @@
+"""The verdict of `analysis.verdict.check_run` as a report block: the word, the rule, and the numbers."""
+
+from __future__ import annotations
+
+from benchlog.analysis.verdict import Check
+
+from .document import VerdictBlock
+from .text import number, with_uncertainty
+
+
+def verdict_block(check: Check) -> VerdictBlock:
+    v = check.verdict
+    measured = with_uncertainty(v.measured, v.expanded_u, "W" if v.quantity.endswith("_w") else "V")
+    limit = "no limit" if v.limit is None else number(v.limit, "W" if v.quantity.endswith("_w") else "V")
+    headline = (f"{check.part} at {number(check.current_a, 'A')}: measured {v.quantity} {measured} "
+                f"(k = {v.k:g}) against the limit {limit}")
+    details = [
+        f"Loss: {v.explain()}",
+        f"Drop: {check.drop_verdict.explain()}",
+        f"Against the typical prediction: {check.typical_comparison}",
+        f"Operating current {number(check.current_a, 'A')} from {check.current_source}; "
+        f"ambient {number(check.ambient_c, '°C')}; fit model {check.model}",
+    ]
+    details += [f"Note: {n}" for n in check.notes]
+    return VerdictBlock(v.outcome, headline, v.rule, tuple(details))
