@@ -1,0 +1,282 @@
+"""Incoming inspection of a lot: one value per part (R_on or Vf), its spread, capability, outliers and a lot verdict.
+
+Statistics, all vectorised so a lot of 10,000 parts is summarised in milliseconds:
+- mean, sample standard deviation σ (ddof = 1), min, max;
+- process capability (ISO 22514-2; AIAG SPC manual): Cpk = min(USL − μ, μ − LSL)/(3σ)
+  with both limits, Cpu = (USL − μ)/(3σ) for a one-sided maximum, Cpl = (μ − LSL)/(3σ);
+- outliers by Rosner's generalized ESD test (Technometrics 25, 1983; NIST/SEMATECH
+  e-Handbook §1.3.5.17.3) at α = 0.05, critical values from Student's t
+  (`scipy.stats.t`). Outliers are reported, never dropped: the statistics use every part;
+- per-part verdicts by the ILAC-G8 guard band (`verdict.decide_many`).
+Lot verdict: pass when every part passes and the capability index is at least 1.33
+(the usual minimum for a capable process, common practice, e.g. AIAG PPAP); fail when
+any part fails; otherwise conditional.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from pathlib import Path
+from typing import Sequence
+
+import numpy as np
+from scipy import stats
+
+from benchlog.badinput import BadInput
+
+from .predict import predict
+from .spec import PartSpec
+from .verdict import decide_many, rule_text, run_conditions
+
+CAPABILITY_MIN = 1.33
+ESD_ALPHA = 0.05
+
+
+def outlier_rule_text(max_outliers: int) -> str:
+    return (f"generalized ESD (Rosner 1983), α = {ESD_ALPHA:g}, up to {max_outliers} outlier(s); "
+            "flagged, not removed")
+
+
+LOT_RULE = (f"lot passes when every part passes and the capability index ≥ {CAPABILITY_MIN:g}; "
+            "fails when any part fails; otherwise conditional")
+
+
+def capability(mean: float, sigma: float, usl: float | None = None, lsl: float | None = None) -> tuple[str, float | None]:
+    """(name, value) of the capability index for the limits given: Cpk, Cpu or Cpl (module docstring)."""
+    if usl is None and lsl is None:
+        return "none", None
+    if not (sigma > 0 and math.isfinite(sigma)):
+        return ("Cpk" if usl is not None and lsl is not None else "Cpu" if usl is not None else "Cpl"), None
+    cpu = (usl - mean) / (3 * sigma) if usl is not None else None
+    cpl = (mean - lsl) / (3 * sigma) if lsl is not None else None
+    if cpu is not None and cpl is not None:
+        return "Cpk", min(cpu, cpl)
+    return ("Cpu", cpu) if cpu is not None else ("Cpl", cpl)
+
+
+def generalized_esd(values: np.ndarray, max_outliers: int | None = None, alpha: float = ESD_ALPHA) -> tuple[np.ndarray, int]:
+    """Boolean mask of outliers by Rosner's generalized ESD test, and the upper bound r used.
+
+    R_i = max|x − mean|/s over the remaining values after removing the i−1 most extreme;
+    λ_i = (n−i)·t_{p, n−i−1} / √((n−i−1 + t²)(n−i+1)), p = 1 − α/(2(n−i+1));
+    the number of outliers is the largest i with R_i > λ_i.
+    """
+    x = np.asarray(values, dtype=float)
+    n = x.size
+    if n:
+        x = x - np.median(x)  # centred, so the running sums below lose no digits
+    if max_outliers is None:
+        max_outliers = max(1, min(n // 10, 100))
+    r = min(max_outliers, n - 2)
+    mask = np.zeros(n, dtype=bool)
+    if r < 1:
+        return mask, max(r, 0)
+    # Removing the most extreme value each time keeps running sums, so each step is O(n)
+    # for the arg-max only.
+    alive = np.ones(n, dtype=bool)
+    s1, s2 = x.sum(), (x * x).sum()
+    order = np.empty(r, dtype=int)
+    found = 0
+    for i in range(1, r + 1):
+        m = n - i + 1  # values still in
+        mean = s1 / m
+        var = (s2 - m * mean * mean) / (m - 1)
+        sd = math.sqrt(max(var, 0.0))
+        dev = np.where(alive, np.abs(x - mean), -1.0)
+        j = int(np.argmax(dev))
+        big_r = dev[j] / sd if sd > 0 else 0.0
+        p = 1.0 - alpha / (2.0 * (n - i + 1))
+        t = stats.t.ppf(p, n - i - 1)
+        lam = (n - i) * t / math.sqrt((n - i - 1 + t * t) * (n - i + 1))
+        if big_r > lam:
+            found = i
+        order[i - 1] = j
+        alive[j] = False
+        s1 -= x[j]
+        s2 -= x[j] * x[j]
+    mask[order[:found]] = True
+    return mask, r
+
+
+@dataclass(frozen=True)
+class LotPart:
+    serial: str
+    run: str
+    value: float
+    std_u: float
+    expanded_u: float
+    outcome: str
+    outlier: bool
+
+
+@dataclass(frozen=True)
+class LotSummary:
+    part: str
+    quantity: str  # "r_on_ohm" or "drop_v"
+    n: int
+    mean: float
+    std: float | None  # sample standard deviation, ddof = 1
+    min: float
+    max: float
+    usl: float | None
+    lsl: float | None
+    limit_source: str
+    capability_name: str  # "Cpk" | "Cpu" | "Cpl" | "none"
+    capability: float | None
+    outlier_rule: str
+    outliers: int
+    counts: dict[str, int]
+    outcome: str
+    rule: str
+    part_rule: str
+    parts: tuple[LotPart, ...]
+    notes: tuple[str, ...]
+
+
+def summarize(
+    values: Sequence[float],
+    std_u: Sequence[float],
+    *,
+    usl: float | None = None,
+    lsl: float | None = None,
+    k: float = 2.0,
+    serials: Sequence[str] | None = None,
+    runs: Sequence[str] | None = None,
+    part: str = "",
+    quantity: str = "value",
+    limit_source: str = "",
+    notes: Sequence[str] = (),
+) -> LotSummary:
+    """Summarise one value per part against the spec limits (module docstring)."""
+    x = np.asarray(values, dtype=float)
+    u = np.asarray(std_u, dtype=float)
+    if x.ndim != 1 or x.size == 0 or u.shape != x.shape:
+        raise BadInput("lot", "values", f"{x.size} value(s) and {u.size} uncertainties", "one value and one u per part")
+    if not (np.isfinite(x).all() and np.isfinite(u).all()) or (u < 0).any():
+        raise BadInput("lot", "values", "contain a non-finite value or a negative uncertainty", "finite numbers")
+    n = x.size
+    mean = float(x.mean())
+    sd = float(x.std(ddof=1)) if n >= 2 else None
+    name, cap = capability(mean, sd if sd is not None else math.nan, usl, lsl)
+    big_u = k * u
+    outcome = np.full(n, "pass", dtype=object)
+    for limit, side in ((usl, "upper"), (lsl, "lower")):
+        if limit is None:
+            continue
+        o = decide_many(x, big_u, limit, side=side)
+        outcome = np.where(o == "fail", "fail", np.where((o == "conditional") & (outcome != "fail"), "conditional", outcome))
+    outliers, r = generalized_esd(x)
+    counts = {c: int((outcome == c).sum()) for c in ("pass", "fail", "conditional")}
+    more = list(notes)
+    if usl is None and lsl is None:
+        more.append("no spec limit: parts and lot cannot pass")
+        lot = "conditional"
+    elif counts["fail"]:
+        lot = "fail"
+    elif counts["conditional"] or cap is None or cap < CAPABILITY_MIN:
+        lot = "conditional"
+    else:
+        lot = "pass"
+    if n < 2:
+        more.append("one part only: no spread, no capability")
+    serials = list(serials) if serials is not None else [str(i + 1) for i in range(n)]
+    runs = list(runs) if runs is not None else [""] * n
+    parts = tuple(
+        LotPart(s, r_, float(v), float(uu), float(bu), str(o), bool(f))
+        for s, r_, v, uu, bu, o, f in zip(serials, runs, x, u, big_u, outcome, outliers)
+    )
+    side = "upper" if usl is not None else "lower"
+    return LotSummary(
+        part=part, quantity=quantity, n=n, mean=mean, std=sd, min=float(x.min()), max=float(x.max()),
+        usl=usl, lsl=lsl, limit_source=limit_source, capability_name=name, capability=cap,
+        outlier_rule=outlier_rule_text(r), outliers=int(outliers.sum()), counts=counts, outcome=lot,
+        rule=LOT_RULE, part_rule=rule_text(side, k), parts=parts, notes=tuple(more),
+    )
+
+
+# --------------------------------------------------------------------------- from run files
+def lot_quantity(spec: PartSpec, body_diode: bool = False) -> str:
+    """Vf at the operating current for diodes (and a body diode measured on purpose), else R_on."""
+    return "drop_v" if spec.is_diode or body_diode else "r_on_ohm"
+
+
+def _min_variant_spec(spec: PartSpec) -> PartSpec | None:
+    """The spec with its minimum in the place of the maximum, so `predict` gives the lower limit."""
+    if spec.diode is not None and spec.diode.vf_min_v is not None:
+        return replace(spec, diode=replace(spec.diode, vf_max_v=spec.diode.vf_min_v))
+    if spec.mosfet is not None and spec.mosfet.rds_on_min_ohm is not None:
+        return replace(spec, mosfet=replace(spec.mosfet, rds_on_max_ohm=spec.mosfet.rds_on_min_ohm, vgs_th_max_v=None))
+    if spec.resistor is not None and spec.resistor.resistance_min_ohm is not None:
+        return replace(spec, resistor=replace(spec.resistor, resistance_max_ohm=spec.resistor.resistance_min_ohm))
+    return None
+
+
+def lot_limits(
+    spec: PartSpec, current_a: float, ambient_c: float, vin_v=None, zener_v=None, quantity: str | None = None
+) -> tuple[float | None, float | None, str, list[str]]:
+    """USL (and LSL where the spec has a minimum) of the lot quantity at the operating point."""
+    quantity = quantity or lot_quantity(spec)
+    notes: list[str] = []
+
+    def value(s: PartSpec) -> tuple[float | None, str]:
+        p = predict(s, current_a, ambient_c, vin_v=vin_v, zener_v=zener_v)
+        point = p.limit
+        v = point.drop_v if quantity == "drop_v" else point.resistance_ohm
+        tj = f"{point.tj_c:.1f} °C" if point.tj_c is not None else "unknown"
+        return v, f"at {current_a:.4g} A, ambient {ambient_c:g} °C, Tj {tj}"
+
+    usl, where = value(spec)
+    if not spec.has_max:
+        notes.append("the spec gives no maximum: the typical value is used as the upper limit")
+    low = _min_variant_spec(spec)
+    lsl = value(low)[0] if low is not None else None
+    named = "maximum" if spec.has_max else "typical"
+    source = f"spec {named}{' and minimum' if lsl is not None else ''} of {quantity} {where} with self-heating"
+    return usl, lsl, source, notes
+
+
+def lot_from_runs(paths: Sequence[str | Path], spec: PartSpec, at_a: float | None = None) -> LotSummary:
+    """Load and fit each run, then `summarize` against the spec's limits at the lot's operating point.
+
+    One limit applies to the whole lot: it is computed at the median ambient of the runs
+    and the operating current of the first run (every run of a lot should share both).
+    """
+    from benchlog.runs import load
+
+    from .fits import fit_run
+
+    quantity = None
+    values, us, serials, names, ambients, ks = [], [], [], [], [], []
+    first = None
+    for path in paths:
+        frame, meta = load(path)
+        cond = run_conditions(frame, meta, spec, at_a)
+        first = first or cond
+        quantity = quantity or lot_quantity(spec, cond.body_diode)
+        model = "resistive" if quantity == "r_on_ohm" else "auto"
+        fit = fit_run(frame, meta, model)
+        if quantity == "r_on_ohm":
+            values.append(fit.params["r_on_ohm"])
+            us.append(fit.std_u["r_on_ohm"])
+        else:
+            v, u = fit.drop_at(first.current_a)
+            values.append(v)
+            us.append(u)
+        ks.append(float(fit.k))
+        element = getattr(meta, "element", None) or {}
+        serials.append(str(element.get("serial") or element.get("id") or Path(path).stem))
+        names.append(str(path))
+        ambients.append(cond.ambient_c)
+    if first is None:
+        raise BadInput("argument", "RUN", "no run files given", "one or more run files")
+    ambient = float(np.median(ambients))
+    usl, lsl, source, notes = lot_limits(spec, first.current_a, ambient, first.vin_v, first.zener_v, quantity)
+    if quantity == "r_on_ohm":
+        notes.append("R_on is the slope of each run's resistive fit, compared with the predicted R_DS(on) "
+                     "at the operating point's junction temperature")
+    if max(ambients) - min(ambients) > 5.0:
+        notes.append(f"ambients of the runs span {min(ambients):g}–{max(ambients):g} °C; "
+                     "the limit is at their median")
+    return summarize(values, us, usl=usl, lsl=lsl, k=max(ks), serials=serials, runs=names, part=spec.name,
+                     quantity=quantity, limit_source=source, notes=notes)
