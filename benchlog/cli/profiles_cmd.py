@@ -1,7 +1,132 @@
-"""Subcommands: (being built)."""
+"""Subcommands `benchlog profiles list | check FILE... | probe RESOURCE`: instrument profiles and identification.
+
+Exit codes: `check` 0 when every file is a valid profile, 2 otherwise (one line
+per broken file: file, key, problem, expectation). `probe` 0 when the resource
+answered `*IDN?` (whether or not a profile matches), 1 when it could not be
+reached or did not answer in time, 2 for a malformed resource string or a reply
+that is not a four-field `*IDN?`.
+"""
 
 from __future__ import annotations
 
+import sys
+
+from benchlog.badinput import BadInput
+
+from .output import print_json
+
+EXIT_OK, EXIT_FAILED, EXIT_BAD_INPUT = 0, 1, 2
+
 
 def register(sub) -> None:
-    """Add this module's subcommands to the `benchlog` parser."""
+    """Add `profiles` and its subcommands to the `benchlog` parser."""
+    parser = sub.add_parser("profiles", help="list, check and match instrument profiles")
+    parser.set_defaults(handler=lambda args: (parser.print_help(), EXIT_BAD_INPUT)[1])
+    actions = parser.add_subparsers(dest="profiles_command", metavar="ACTION", parser_class=type(parser))
+
+    listing = actions.add_parser("list", help="list the profiles found (name, role, file)")
+    listing.add_argument("--json", action="store_true", help="print JSON instead of a table")
+    listing.set_defaults(handler=_list)
+
+    check = actions.add_parser("check", help="validate profile files")
+    check.add_argument("files", nargs="+", metavar="FILE", help="profile file(s) to check")
+    check.add_argument("--json", action="store_true", help="print JSON results")
+    check.set_defaults(handler=_check)
+
+    probe = actions.add_parser("probe", help="ask a resource for *IDN? and name the profiles that match")
+    probe.add_argument("resource", metavar="RESOURCE", help="VISA resource, e.g. TCPIP0::127.0.0.1::5025::SOCKET")
+    probe.add_argument("--backend", default="@py", help="pyvisa backend (default @py = pyvisa-py)")
+    probe.add_argument("--timeout", type=float, default=2.0, metavar="S", help="reply timeout in seconds (default 2)")
+    probe.add_argument("--json", action="store_true", help="print JSON instead of text")
+    probe.set_defaults(handler=_probe)
+
+
+def _list(args) -> int:
+    from benchlog.instruments.profile import list_profiles
+
+    profiles = list_profiles()
+    if args.json:
+        print_json([{"name": p.name, "role": p.role, "generic": p.generic, "file": str(p.path)} for p in profiles])
+        return EXIT_OK
+    if not profiles:
+        sys.stderr.write("benchlog: no instrument profiles found\n")
+        return EXIT_FAILED
+    width = max(len(p.name) for p in profiles)
+    for p in profiles:
+        print(f"{p.name:<{width}}  {p.role:<6}  {p.path}")
+    return EXIT_OK
+
+
+def _check(args) -> int:
+    from benchlog.instruments.profile import read_profile
+
+    results = []
+    for file in args.files:
+        try:
+            profile = read_profile(file)
+        except BadInput as exc:
+            results.append({"file": file, "ok": False, "error": exc.line()})
+            if not args.json:
+                sys.stderr.write(f"benchlog: {exc.line()}\n")
+            continue
+        results.append({"file": file, "ok": True, "name": profile.name, "role": profile.role,
+                        "sha256": profile.sha256})
+        if not args.json:
+            print(f"ok: {profile.name} ({profile.role})")
+    if args.json:
+        print_json(results)
+    return EXIT_OK if all(r["ok"] for r in results) else EXIT_BAD_INPUT
+
+
+def _probe(args) -> int:
+    from benchlog.instruments.connect import probe
+    from benchlog.instruments.errors import TransportError
+
+    _check_resource(args.resource)
+    if not 0.05 <= args.timeout <= 600:
+        raise BadInput("argument", "--timeout", f"is {args.timeout:g}", "seconds between 0.05 and 600")
+    try:
+        result = probe(args.resource, backend=args.backend, timeout_s=args.timeout)
+    except TransportError as exc:
+        sys.stderr.write(f"benchlog: {exc} (is the instrument on, and is the address right?)\n")
+        return EXIT_FAILED
+    if args.json:
+        print_json({
+            "resource": result.resource,
+            "idn": {"manufacturer": result.idn.manufacturer, "model": result.idn.model,
+                    "serial": result.idn.serial, "firmware": result.idn.firmware},
+            "matches": [{"name": p.name, "role": p.role, "generic": p.generic, "file": str(p.path)}
+                        for p in result.matches],
+        })
+        return EXIT_OK
+    print(f"resource      {result.resource}")
+    print(f"manufacturer  {result.idn.manufacturer}")
+    print(f"model         {result.idn.model}")
+    print(f"serial        {result.idn.serial}")
+    print(f"firmware      {result.idn.firmware}")
+    specific = [p for p in result.matches if not p.generic]
+    generic = [p for p in result.matches if p.generic]
+    if specific:
+        print("matches       " + ", ".join(f"{p.name} ({p.role})" for p in specific))
+    if generic:
+        print("generic       " + ", ".join(f"{p.name} ({p.role})" for p in generic))
+    if not result.matches:
+        print("matches       none; write a profile for it (see docs/adding-a-profile.md)")
+    return EXIT_OK
+
+
+def _check_resource(resource: str) -> None:
+    """A malformed VISA resource string is bad input (exit 2), not an unreachable instrument."""
+    try:
+        from pyvisa import rname
+
+        parsed = rname.ResourceName.from_string(resource)
+        port = getattr(parsed, "port", None)
+        if port is not None and not (str(port).isdigit() and 0 < int(port) < 65536):
+            raise ValueError(f"port {port!r} is not a number 1..65535")
+    except ImportError:  # pragma: no cover - pyvisa is a hard dependency
+        return
+    except Exception as exc:  # pyvisa raises InvalidResourceName (a ValueError) for malformed names
+        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise BadInput("argument", "RESOURCE", f"{resource!r} is not a VISA resource string ({first})",
+                       "a form such as TCPIP0::192.168.1.10::5025::SOCKET") from None

@@ -1,0 +1,537 @@
+"""Instrument profiles: TOML data that says how to recognise, drive and trust one instrument role.
+
+A profile is read with `tomllib` and validated here; nothing in it is ever executed.
+Command templates are SCPI text with named placeholders (`VOLT {voltage_v}`) that
+are filled only by `benchlog.scpi.fill_template`, so a value can never add SCPI text.
+Every fault is a `ProfileError` naming file, key, problem and what was expected.
+The format is described key by key in `docs/adding-a-profile.md`.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import os
+import re
+import string
+from dataclasses import dataclass
+from pathlib import Path
+from types import MappingProxyType
+from typing import Mapping
+
+from benchlog.badinput import BadInput
+from benchlog.scpi.errors import ScpiError
+from benchlog.scpi.numbers import fill_template
+from benchlog.tomlcheck import Table, parse_toml
+
+from .errors import ProfileError
+
+SCHEMA = 1
+ROLES = ("supply", "load", "meter")
+PROFILE_PATH_ENV = "BENCHLOG_PROFILE_PATH"
+
+# What may appear in a template: printable ASCII only, so no newline, no control
+# character and no terminator can be written into a profile's command text.
+_PRINTABLE = re.compile(r"^[\x20-\x7e]+$")
+_NAME = re.compile(r"^[a-z0-9][a-z0-9-]{0,63}$")
+_MAX_TEMPLATE = 200
+
+
+@dataclass(frozen=True)
+class Operation:
+    """One operation a role can ask of its instrument and the placeholders its template may use."""
+
+    query: bool
+    required: frozenset[str] = frozenset()
+    optional: frozenset[str] = frozenset()
+
+
+def _op(query: bool, required: tuple[str, ...] = (), optional: tuple[str, ...] = ()) -> Operation:
+    return Operation(query, frozenset(required), frozenset(optional))
+
+
+# role -> operation name -> (Operation, required?)
+OPERATIONS: Mapping[str, Mapping[str, tuple[Operation, bool]]] = MappingProxyType(
+    {
+        "supply": MappingProxyType(
+            {
+                "set_voltage": (_op(False, ("voltage_v",)), True),
+                "set_current_limit": (_op(False, ("current_a",)), True),
+                "output_on": (_op(False), True),
+                "output_off": (_op(False), True),
+                "measure_voltage": (_op(True), True),
+                "measure_current": (_op(True), True),
+                "protection_tripped": (_op(True), False),
+                "protection_clear": (_op(False), False),
+                "polarity_normal": (_op(False), False),
+                "polarity_reversed": (_op(False), False),
+                "error_query": (_op(True), False),
+            }
+        ),
+        "load": MappingProxyType(
+            {
+                "set_mode_cc": (_op(False), False),
+                "set_current": (_op(False, ("current_a",)), True),
+                "input_on": (_op(False), True),
+                "input_off": (_op(False), True),
+                "measure_voltage": (_op(True), True),
+                "measure_current": (_op(True), True),
+                "error_query": (_op(True), False),
+            }
+        ),
+        "meter": MappingProxyType(
+            {
+                "configure_voltage": (_op(False, ("range_v", "nplc")), True),
+                "configure_current": (_op(False, ("range_a", "nplc")), False),
+                "set_samples": (_op(False, ("count",)), False),
+                "trigger": (_op(False), False),
+                "read": (_op(True), True),
+                "measure_voltage": (_op(True, (), ("range_v",)), False),
+                "measure_current": (_op(True, (), ("range_a",)), False),
+                "error_query": (_op(True), False),
+            }
+        ),
+    }
+)
+
+DEFAULT_ERROR_QUERY = "SYST:ERR?"
+
+ACCURACY_FUNCTIONS: Mapping[str, tuple[str, ...]] = MappingProxyType(
+    {
+        "supply": ("readback_voltage", "readback_current"),
+        "load": ("readback_voltage", "readback_current"),
+        "meter": ("dc_voltage", "dc_current"),
+    }
+)
+
+# Sample values used to dry-run every template through fill_template at load time.
+_SAMPLE_VALUES = {"voltage_v": 1.5, "current_a": 0.25, "range_v": 10.0, "range_a": 1.0, "nplc": 1.0, "count": 4}
+
+
+@dataclass(frozen=True)
+class AccuracySpec:
+    """±(reading_pct % of reading + range_pct % of range) for one function and range (the datasheet form)."""
+
+    function: str
+    range: float
+    reading_pct: float
+    range_pct: float
+
+    def half_width(self, value: float) -> float:
+        """Half-width a of the rectangular interval for one reading (GUM 4.3.7 uses a/√3 as u)."""
+        return self.reading_pct / 100.0 * abs(value) + self.range_pct / 100.0 * self.range
+
+
+@dataclass(frozen=True)
+class ModeDecoding:
+    """How to tell CV from CC: bits of an integer status register, or fixed reply texts."""
+
+    query: str
+    cv_bit: int | None = None
+    cc_bit: int | None = None
+    cv_text: str | None = None
+    cc_text: str | None = None
+    off_text: str | None = None
+
+    @property
+    def uses_register(self) -> bool:
+        return self.cv_bit is not None
+
+
+@dataclass(frozen=True)
+class Limits:
+    """What the bench may ask of this instrument; setpoints outside are refused before sending."""
+
+    max_voltage_v: float | None = None
+    max_current_a: float | None = None
+    voltage_ranges_v: tuple[float, ...] = ()
+    current_ranges_a: tuple[float, ...] = ()
+    nplc_choices: tuple[float, ...] = ()
+    nplc_min: float | None = None
+    nplc_max: float | None = None
+    max_samples: int = 1
+
+
+@dataclass(frozen=True)
+class Profile:
+    """One validated instrument profile."""
+
+    name: str
+    role: str
+    description: str
+    idn_pattern: str
+    generic: bool
+    read_termination: str
+    write_termination: str
+    timeout_s: float
+    connect_commands: tuple[str, ...]
+    commands: Mapping[str, str]
+    mode: ModeDecoding | None
+    limits: Limits
+    accuracy: tuple[AccuracySpec, ...]
+    path: Path | None
+    sha256: str
+
+    def has(self, operation: str) -> bool:
+        return operation in self.commands
+
+    def matches_idn(self, idn_text: str) -> bool:
+        """`idn_pattern` is searched (Python `re.search`) in the *IDN? reply with outer whitespace removed."""
+        return re.search(self.idn_pattern, idn_text.strip()) is not None
+
+    @property
+    def error_query(self) -> str:
+        return self.commands.get("error_query", DEFAULT_ERROR_QUERY)
+
+    @property
+    def source(self) -> str:
+        return str(self.path) if self.path else self.name
+
+    def accuracy_for(self, function: str, range_: float) -> AccuracySpec:
+        """The spec for `function` on `range_` (ranges compared to 1 part in 10^9)."""
+        for spec in self.accuracy:
+            if spec.function == function and math.isclose(spec.range, range_, rel_tol=1e-9):
+                return spec
+        listed = ", ".join(f"{s.range:g}" for s in self.accuracy if s.function == function) or "none"
+        raise ProfileError(
+            self.source, "[[accuracy]]", f"no {function} spec for range {range_:g}", f"one of: {listed}"
+        )
+
+
+# -- reading ---------------------------------------------------------------
+
+
+def load_profile(name_or_path: str | Path) -> Profile:
+    """A profile by file path, or by name from `profile_dirs()`."""
+    text = str(name_or_path)
+    path = Path(text)
+    if text.endswith(".toml") or os.sep in text or "/" in text or path.is_file():
+        return read_profile(path)
+    for directory in profile_dirs():
+        candidate = directory / f"{text}.toml"
+        if candidate.is_file():
+            return read_profile(candidate)
+    for profile in list_profiles():
+        if profile.name == text:
+            return profile
+    known = ", ".join(sorted({p.name for p in list_profiles()})) or "none found"
+    raise ProfileError("profile", text, "no profile of this name", f"a profile file or one of: {known}")
+
+
+def read_profile(path: str | Path) -> Profile:
+    """Read and validate one profile file."""
+    path = Path(path)
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise ProfileError(path, "", "file not found", "an existing profile file (.toml)") from None
+    except OSError as exc:
+        raise ProfileError(path, "", f"cannot be read ({exc.strerror})", "a readable file") from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise ProfileError(path, f"byte {exc.start}", "is not UTF-8 text", "a UTF-8 TOML file") from None
+    return parse_profile(text, str(path), path=path, sha256=hashlib.sha256(raw).hexdigest())
+
+
+def parse_profile(text: str, source: str = "<profile>", *, path: Path | None = None, sha256: str = "") -> Profile:
+    """Validate profile TOML text; `source` names it in errors."""
+    try:
+        root = parse_toml(text, source)
+        return _build(root, path, sha256 or hashlib.sha256(text.encode("utf-8")).hexdigest())
+    except ProfileError:
+        raise
+    except BadInput as exc:  # tomlcheck's errors, re-typed so callers can catch profile faults alone
+        raise ProfileError(exc.source, exc.where, exc.problem, exc.expected) from None
+
+
+def profile_dirs() -> list[Path]:
+    """Where profiles are looked for: $BENCHLOG_PROFILE_PATH entries, then the shipped folder."""
+    dirs: list[Path] = []
+    for entry in os.environ.get(PROFILE_PATH_ENV, "").split(os.pathsep):
+        if entry:
+            dirs.append(Path(entry))
+    package = Path(__file__).resolve().parent.parent  # benchlog/
+    dirs.append(package / "instrument_profiles")  # installed wheel
+    dirs.append(package.parent / "instrument_profiles")  # source checkout
+    seen: list[Path] = []
+    for d in dirs:
+        if d.is_dir() and d.resolve() not in [s.resolve() for s in seen]:
+            seen.append(d)
+    return seen
+
+
+def list_profiles() -> list[Profile]:
+    """Every valid profile found, first directory wins on a name clash; broken files are skipped."""
+    found: dict[str, Profile] = {}
+    for directory in profile_dirs():
+        for file in sorted(directory.glob("*.toml")):
+            try:
+                profile = read_profile(file)
+            except ProfileError:
+                continue
+            found.setdefault(profile.name, profile)
+    return list(found.values())
+
+
+def match_idn(idn_text: str, role: str | None = None) -> list[Profile]:
+    """Profiles whose `idn_pattern` matches this *IDN? reply; specific ones before generic ones."""
+    hits = [p for p in list_profiles() if p.matches_idn(idn_text) and (role is None or p.role == role)]
+    return sorted(hits, key=lambda p: p.generic)
+
+
+# -- validation ------------------------------------------------------------
+
+
+def _build(root: Table, path: Path | None, sha256: str) -> Profile:
+    root.only(("schema", "name", "role", "description", "idn_pattern", "generic",
+               "link", "commands", "mode", "limits", "accuracy"))  # fmt: skip
+    schema = root.integer("schema")
+    if schema != SCHEMA:
+        raise root.fail("schema", f"is {schema}", f"{SCHEMA} (the profile format this benchlog reads)")
+    name = root.string("name")
+    if not _NAME.match(name):
+        raise root.fail("name", f"is {name!r}", "lower-case letters, digits and '-', such as 'generic-dmm'")
+    role = root.string("role", choices=ROLES)
+    description = root.string("description", "")
+    idn_pattern = _idn_pattern(root)
+    generic = root.boolean("generic", False)
+
+    link = root.table("link")
+    link.only(("read_termination", "write_termination", "timeout_s", "connect_commands"))
+    terminations = ("\n", "\r\n", "\r")
+    read_term = link.string("read_termination", "\n")
+    write_term = link.string("write_termination", "\n")
+    for key, value in (("read_termination", read_term), ("write_termination", write_term)):
+        if value not in terminations:
+            raise link.fail(key, f"is {value!r}", 'one of "\\n", "\\r\\n", "\\r"')
+    timeout_s = link.number("timeout_s", 2.0, min=0.05, max=600.0, unit="s")
+    connect = link.strings("connect_commands", ())
+    for i, command in enumerate(connect):
+        _check_text(link, f"connect_commands[{i}]", command)
+        if "{" in command or "}" in command:
+            raise link.fail(f"connect_commands[{i}]", f"has a placeholder in {command!r}", "fixed command text")
+
+    commands = _commands(root.table("commands"), role)
+    mode = _mode(root, role)
+    limits = _limits(root.table("limits"), role, commands)
+    accuracy = _accuracy(root, role, limits, commands)
+
+    return Profile(
+        name=name,
+        role=role,
+        description=description,
+        idn_pattern=idn_pattern,
+        generic=generic,
+        read_termination=read_term,
+        write_termination=write_term,
+        timeout_s=timeout_s,
+        connect_commands=tuple(connect),
+        commands=MappingProxyType(commands),
+        mode=mode,
+        limits=limits,
+        accuracy=accuracy,
+        path=path,
+        sha256=sha256,
+    )
+
+
+def _idn_pattern(root: Table) -> str:
+    pattern = root.string("idn_pattern")
+    if not pattern or len(pattern) > 200:
+        raise root.fail("idn_pattern", "is empty or longer than 200 characters", "a regular expression")
+    try:
+        re.compile(pattern)
+    except re.error as exc:
+        raise root.fail("idn_pattern", f"is not a valid regular expression ({exc})", "a Python regular expression") from None
+    return pattern
+
+
+def _check_text(table: Table, key: str, text: str) -> None:
+    if not text.strip():
+        raise table.fail(key, "is empty", "SCPI command text")
+    if len(text) > _MAX_TEMPLATE:
+        raise table.fail(key, f"is {len(text)} characters long", f"at most {_MAX_TEMPLATE}")
+    if not _PRINTABLE.match(text):
+        raise table.fail(key, f"contains a newline or control character in {text!r}", "printable ASCII on one line")
+
+
+def _placeholders(table: Table, key: str, template: str) -> set[str]:
+    names: set[str] = set()
+    try:
+        parts = list(string.Formatter().parse(template))
+    except ValueError as exc:
+        raise table.fail(key, f"has unbalanced braces ({exc})", "placeholders written as {name}") from None
+    for _, field, spec, conversion in parts:
+        if field is None:
+            continue
+        if not field.isidentifier() or spec or conversion:
+            raise table.fail(key, f"has placeholder {{{field}{'!' + conversion if conversion else ''}"
+                             f"{':' + spec if spec else ''}}}", "a plain {name} without format or index")
+        names.add(field)
+    return names
+
+
+def _commands(table: Table, role: str) -> dict[str, str]:
+    ops = OPERATIONS[role]
+    table.only(ops)
+    commands: dict[str, str] = {}
+    for op_name, (op, required) in ops.items():
+        if not table.has(op_name):
+            if required:
+                raise table.fail(op_name, "is missing", f"a command template for {op_name} (a {role} needs it)")
+            continue
+        template = table.string(op_name)
+        _check_text(table, op_name, template)
+        names = _placeholders(table, op_name, template)
+        unknown = names - op.required - op.optional
+        if unknown:
+            allowed = ", ".join("{" + n + "}" for n in sorted(op.required | op.optional)) or "no placeholders"
+            raise table.fail(op_name, "has unknown placeholder " + ", ".join("{" + n + "}" for n in sorted(unknown)),
+                             f"only {allowed}")
+        missing = op.required - names
+        if missing:
+            raise table.fail(op_name, "lacks placeholder " + ", ".join("{" + n + "}" for n in sorted(missing)),
+                             f"a template such as {_example(op_name)!r}")
+        if op.query and "?" not in template:
+            raise table.fail(op_name, f"is {template!r}, which asks nothing", "a query (a header ending in '?')")
+        if not op.query and "?" in template:
+            raise table.fail(op_name, f"is {template!r}, a query", "a command that sends no reply (no '?')")
+        try:
+            fill_template(template, **{n: _SAMPLE_VALUES[n] for n in names})
+        except ScpiError as exc:
+            raise table.fail(op_name, f"cannot be filled ({exc})", "a template fill_template accepts") from None
+        commands[op_name] = template
+    if role == "supply" and ("polarity_normal" in commands) != ("polarity_reversed" in commands):
+        absent = "polarity_reversed" if "polarity_normal" in commands else "polarity_normal"
+        raise table.fail(absent, "is missing", "both polarity_normal and polarity_reversed, or neither")
+    return commands
+
+
+def _example(op_name: str) -> str:
+    return {
+        "set_voltage": "VOLT {voltage_v}",
+        "set_current_limit": "CURR {current_a}",
+        "set_current": "CURR {current_a}",
+        "configure_voltage": "CONF:VOLT:DC {range_v};:VOLT:DC:NPLC {nplc}",
+        "configure_current": "CONF:CURR:DC {range_a};:CURR:DC:NPLC {nplc}",
+        "set_samples": "SAMP:COUN {count}",
+    }.get(op_name, "")
+
+
+def _mode(root: Table, role: str) -> ModeDecoding | None:
+    table = root.table("mode", required=False)
+    if table is None:
+        return None
+    if role != "supply":
+        raise root.fail("mode", f"is given for a {role}", "a [mode] table only in supply profiles")
+    table.only(("query", "cv_bit", "cc_bit", "cv_text", "cc_text", "off_text"))
+    query = table.string("query")
+    _check_text(table, "query", query)
+    if "?" not in query or "{" in query:
+        raise table.fail("query", f"is {query!r}", "a fixed query such as 'STAT:OPER:COND?'")
+    bits = [k for k in ("cv_bit", "cc_bit") if table.has(k)]
+    texts = [k for k in ("cv_text", "cc_text", "off_text") if table.has(k)]
+    if bits and texts:
+        raise table.fail(texts[0], "mixes reply texts with register bits", "either cv_bit and cc_bit, or cv_text and cc_text")
+    if bits or not texts:
+        cv = table.integer("cv_bit", min=0, max=15)
+        cc = table.integer("cc_bit", min=0, max=15)
+        if cv == cc:
+            raise table.fail("cc_bit", f"is {cc}, the same as cv_bit", "two different bit numbers (0..15)")
+        return ModeDecoding(query=query, cv_bit=cv, cc_bit=cc)
+    cv_text = table.string("cv_text")
+    cc_text = table.string("cc_text")
+    off_text = table.string("off_text", None)
+    given = [t.strip().upper() for t in (cv_text, cc_text, off_text) if t is not None]
+    if any(not t for t in given) or len(set(given)) != len(given):
+        raise table.fail("cc_text", "reply texts are empty or not distinct", "different words such as 'CV', 'CC', 'OFF'")
+    return ModeDecoding(query=query, cv_text=cv_text, cc_text=cc_text, off_text=off_text)
+
+
+def _limits(table: Table, role: str, commands: dict[str, str]) -> Limits:
+    if role == "supply":
+        table.only(("max_voltage_v", "max_current_a"))
+        return Limits(
+            max_voltage_v=table.number("max_voltage_v", positive=True, max=1e4, unit="V"),
+            max_current_a=table.number("max_current_a", positive=True, max=1e4, unit="A"),
+        )
+    if role == "load":
+        table.only(("max_voltage_v", "max_current_a"))
+        return Limits(
+            max_voltage_v=table.number("max_voltage_v", None, positive=True, max=1e4, unit="V"),
+            max_current_a=table.number("max_current_a", positive=True, max=1e4, unit="A"),
+        )
+    table.only(("voltage_ranges_v", "current_ranges_a", "nplc_choices", "nplc_min", "nplc_max", "max_samples"))
+    voltage_ranges = _ranges(table, "voltage_ranges_v", "V", required=True)
+    current_ranges = _ranges(table, "current_ranges_a", "A", required="configure_current" in commands)
+    if current_ranges and "configure_current" not in commands:
+        raise table.fail("current_ranges_a", "is given but [commands].configure_current is not",
+                         "both, or neither")
+    choices = table.numbers("nplc_choices", (), positive=True, max=1000.0)
+    nplc_min = table.number("nplc_min", None, positive=True, max=1000.0)
+    nplc_max = table.number("nplc_max", None, positive=True, max=1000.0)
+    if choices and (nplc_min is not None or nplc_max is not None):
+        raise table.fail("nplc_min", "is given together with nplc_choices", "either a list of choices or a min/max range")
+    if not choices:
+        if nplc_min is None:
+            raise table.fail("nplc_choices", "is missing", "nplc_choices = [...] or nplc_min and nplc_max")
+        if nplc_max is None:
+            raise table.fail("nplc_max", "is missing", "nplc_max together with nplc_min")
+        if nplc_max < nplc_min:
+            raise table.fail("nplc_max", f"is {nplc_max:g}, below nplc_min {nplc_min:g}", "nplc_max >= nplc_min")
+    if "set_samples" in commands:
+        max_samples = table.integer("max_samples", min=1, max=1_000_000)
+    elif table.has("max_samples"):
+        raise table.fail("max_samples", "is given but [commands].set_samples is not", "both, or neither")
+    else:
+        max_samples = 1
+    return Limits(
+        voltage_ranges_v=voltage_ranges,
+        current_ranges_a=current_ranges,
+        nplc_choices=tuple(sorted(choices)),
+        nplc_min=nplc_min,
+        nplc_max=nplc_max,
+        max_samples=max_samples,
+    )
+
+
+def _ranges(table: Table, key: str, unit: str, required: bool) -> tuple[float, ...]:
+    values = table.numbers(key) if required else table.numbers(key, ())
+    for i, v in enumerate(values):
+        if not 0 < v <= 1e4:
+            raise table.fail(f"{key}[{i}]", f"is {v:g}", f"a range above 0 and at most 10000 {unit}")
+    if list(values) != sorted(set(values)):
+        raise table.fail(key, "is not in rising order without repeats", f"ranges such as [0.1, 1, 10] {unit}")
+    return values
+
+
+def _accuracy(root: Table, role: str, limits: Limits, commands: dict[str, str]) -> tuple[AccuracySpec, ...]:
+    allowed = ACCURACY_FUNCTIONS[role]
+    specs: list[AccuracySpec] = []
+    for entry in root.tables("accuracy"):
+        entry.only(("function", "range", "reading_pct", "range_pct"))
+        spec = AccuracySpec(
+            function=entry.string("function", choices=allowed),
+            range=entry.number("range", positive=True, max=1e4),
+            reading_pct=entry.number("reading_pct", min=0.0, max=100.0, unit="%"),
+            range_pct=entry.number("range_pct", min=0.0, max=100.0, unit="%"),
+        )
+        for earlier in specs:
+            if earlier.function == spec.function and math.isclose(earlier.range, spec.range, rel_tol=1e-9):
+                raise entry.fail("range", f"repeats {spec.function} range {spec.range:g}", "one entry per function and range")
+        if role == "meter":
+            listed = limits.voltage_ranges_v if spec.function == "dc_voltage" else limits.current_ranges_a
+            if not any(math.isclose(spec.range, r, rel_tol=1e-9) for r in listed):
+                key = "voltage_ranges_v" if spec.function == "dc_voltage" else "current_ranges_a"
+                raise entry.fail("range", f"is {spec.range:g}, not a range in [limits].{key}",
+                                 "one of " + (", ".join(f"{r:g}" for r in listed) or "(none listed)"))
+        specs.append(spec)
+    if role == "meter":
+        # The uncertainty budget needs a spec for every range the sweep may use.
+        for function, ranges in (("dc_voltage", limits.voltage_ranges_v), ("dc_current", limits.current_ranges_a)):
+            for r in ranges:
+                if not any(s.function == function and math.isclose(s.range, r, rel_tol=1e-9) for s in specs):
+                    raise root.fail("accuracy", f"has no {function} entry for range {r:g}",
+                                    "one [[accuracy]] entry per meter range")
+    return tuple(specs)

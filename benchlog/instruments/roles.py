@@ -1,0 +1,492 @@
+"""The three instrument roles on the bench (Supply, Load, Meter), each driven through its profile.
+
+A role never builds SCPI text itself: it fills the profile's templates with
+`benchlog.scpi.fill_template`, after checking every setpoint against the profile's
+limits (`SafetyLimit`, nothing sent). Replies are parsed by `benchlog.scpi`; a reply
+that does not parse is a `NonsenseReply`. Setpoint writes are not followed by an
+error-queue read (that would double the exchanges per point); callers drain the queue
+at checkpoints with `check_errors()`, and `set_output(True)` / `set_input(True)` drain
+it before switching power on, so a rejected setpoint never goes live.
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+from typing import Callable
+
+from benchlog.scpi.errors import ScpiError, ScpiReplyError
+from benchlog.scpi.numbers import fill_template
+from benchlog.scpi.replies import Idn, parse_bool, parse_error_entry, parse_idn, parse_int, parse_number, parse_numbers
+
+from .errors import (
+    InstrumentError,
+    NonsenseReply,
+    ProfileError,
+    SafeStateFailed,
+    SafetyLimit,
+    TransportError,
+    WrongInstrument,
+)
+from .profile import AccuracySpec, Profile
+from .transport import Transport
+
+# SYSTem:ERRor? is read at most this often per check: a queue that never empties is itself a fault.
+MAX_ERROR_READS = 32
+# Integration time per reading is NPLC / line frequency; 50 Hz is the longer power-line cycle (20 ms).
+_LONGEST_PLC_S = 0.020
+# Allowance for autozero and settling per reading, as a factor on the integration time (common practice: ~2x).
+_READ_OVERHEAD = 2.0
+
+Failure = tuple[str, str, BaseException]
+
+
+def _ok_number(value: object) -> bool:
+    return isinstance(value, numbers.Real) and not isinstance(value, bool)
+
+
+class Role:
+    """Common part of every role: identity, command sending, error queue, safe state."""
+
+    role_name = ""
+
+    def __init__(self, transport: Transport, profile: Profile, *, check_idn: bool = True) -> None:
+        if profile.role != self.role_name:
+            raise ProfileError(profile.source, "role", f"is {profile.role!r}", f"{self.role_name!r} for a {type(self).__name__}")
+        self.transport = transport
+        self.profile = profile
+        self.resource = getattr(transport, "resource", "")
+        self._pending: list[str] = []  # commands written since the error queue was last drained
+        self.idn_text = self._query("*IDN?")
+        try:
+            self.idn: Idn = parse_idn(self.idn_text)
+        except ScpiReplyError:
+            raise NonsenseReply("*IDN?", self.idn_text, "four comma-separated fields", resource=self.resource) from None
+        if check_idn and not profile.matches_idn(self.idn_text):
+            raise WrongInstrument(self.idn_text, profile.name, profile.idn_pattern, resource=self.resource)
+        # Errors queued before we connected are not ours; keep them for the log instead of blaming our commands.
+        self.earlier_errors = self._drain_errors()[0]
+        for command in profile.connect_commands:
+            self._write(command)
+        self._after_connect()
+        self.check_errors()
+
+    def _after_connect(self) -> None:
+        pass
+
+    # -- plumbing ---------------------------------------------------------------------
+    def _write(self, command: str) -> None:
+        self.transport.write(command)
+        self._pending.append(command)
+        del self._pending[:-8]
+
+    def _query(self, command: str, timeout_s: float | None = None) -> str:
+        if timeout_s is None:
+            return self.transport.query(command)
+        return self.transport.query(command, timeout_s=timeout_s)
+
+    def _template(self, operation: str) -> str:
+        template = self.profile.commands.get(operation)
+        if template is None:
+            raise ProfileError(self.profile.source, f"[commands].{operation}", "is not in this profile",
+                               f"a template for {operation} to use this feature")
+        return template
+
+    def _command(self, operation: str, **values: float) -> str:
+        try:
+            return fill_template(self._template(operation), **values)
+        except ScpiError as exc:  # the range checks come first; this is the last line of defence
+            raise SafetyLimit(f"{operation} refused: {exc}", resource=self.resource) from None
+
+    def _setpoint(self, name: str, value: object, limit: float | None, unit: str, key: str) -> float:
+        if not _ok_number(value):
+            raise SafetyLimit(f"{name} {value!r} refused: not a number", resource=self.resource, name=name, value=value)
+        v = float(value)  # type: ignore[arg-type]
+        if not math.isfinite(v):
+            raise SafetyLimit(f"{name} {v} refused: not a finite number", resource=self.resource, name=name, value=value)
+        if v < 0:
+            raise SafetyLimit(f"{name} {v:g} {unit} refused: below 0", resource=self.resource, name=name, value=v)
+        if limit is not None and v > limit:
+            raise SafetyLimit(
+                f"{name} {v:g} {unit} refused: above {limit:g} {unit} ({self.profile.name} {key})",
+                resource=self.resource, name=name, value=v,
+            )
+        return v
+
+    def _number(self, command: str, timeout_s: float | None = None) -> float | None:
+        reply = self._query(command, timeout_s)
+        try:
+            return parse_number(reply)
+        except ScpiReplyError:
+            raise NonsenseReply(command, reply, "a number", resource=self.resource) from None
+
+    def _reading(self, operation: str) -> float:
+        command = self._command(operation)
+        value = self._number(command)
+        if value is None:
+            raise NonsenseReply(command, "overload", "a reading within range", resource=self.resource)
+        return value
+
+    # -- error queue ------------------------------------------------------------------
+    def _drain_errors(self) -> tuple[tuple, int]:
+        entries = []
+        command = self.profile.error_query
+        for _ in range(MAX_ERROR_READS):
+            reply = self._query(command)
+            try:
+                entry = parse_error_entry(reply)
+            except ScpiReplyError:
+                raise NonsenseReply(command, reply, 'an error entry such as +0,"No error"', resource=self.resource) from None
+            if not entry.is_error:
+                return tuple(entries), 0
+            entries.append(entry)
+        return tuple(entries), 1  # still not empty after MAX_ERROR_READS
+
+    def check_errors(self, after: str | None = None) -> None:
+        """Drain SYSTem:ERRor?; the first non-zero entry becomes an InstrumentError naming the command."""
+        command = after if after is not None else (" ; ".join(self._pending) or "(no command since the last check)")
+        entries, not_empty = self._drain_errors()
+        self._pending.clear()
+        if entries:
+            first = entries[0]
+            raise InstrumentError(first.code, first.text, command, resource=self.resource,
+                                  more=len(entries) - 1 + not_empty)
+
+    # -- safe state -------------------------------------------------------------------
+    @property
+    def label(self) -> str:
+        return f"{self.role_name} {self.resource}".strip()
+
+    def _safe_steps_off(self) -> list[tuple[str, Callable[[], None]]]:
+        return []
+
+    def _safe_steps_zero(self) -> list[tuple[str, Callable[[], None]]]:
+        return []
+
+    def _run_safe(self, steps: list[tuple[str, Callable[[], None]]]) -> list[Failure]:
+        failures: list[Failure] = []
+        for step, action in steps:
+            try:
+                try:
+                    action()
+                except TransportError:
+                    # A lost or confused link leaves the output as it was: open a fresh link and try once more.
+                    self.transport.reopen()
+                    action()
+            except Exception as exc:  # every failure is collected and reported; the next step still runs
+                failures.append((self.label, step, exc))
+        return failures
+
+    def safe_off(self) -> list[Failure]:
+        """Output or input off; returns the failures instead of raising, so the guard can go on."""
+        return self._run_safe(self._safe_steps_off())
+
+    def safe_zero(self) -> list[Failure]:
+        """Setpoints to zero (after everything is off)."""
+        return self._run_safe(self._safe_steps_zero())
+
+    def safe_confirm(self) -> list[Failure]:
+        """Read the error queue once the safe state was commanded: a rejected 'off' must not pass unseen."""
+        if not self._safe_steps_off() and not self._safe_steps_zero():
+            return []
+        return self._run_safe([("error queue after safe state", lambda: self.check_errors())])
+
+    def safe_state(self) -> None:
+        """Output/input off, then setpoints to zero, then the error queue; raises SafeStateFailed if any step failed."""
+        failures = self.safe_off() + self.safe_zero() + self.safe_confirm()
+        if failures:
+            raise SafeStateFailed(failures)
+
+    # -- life cycle -------------------------------------------------------------------
+    def close(self) -> None:
+        self.transport.close()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def __repr__(self) -> str:
+        return f"<{type(self).__name__} {self.resource} profile={self.profile.name}>"
+
+
+class Supply(Role):
+    """A programmable DC supply: voltage setpoint, current limit, output, readback, CV/CC mode."""
+
+    role_name = "supply"
+
+    def __init__(self, transport: Transport, profile: Profile, *, check_idn: bool = True) -> None:
+        self.output_on = False
+        self.reversed = False
+        super().__init__(transport, profile, check_idn=check_idn)
+
+    def set_voltage(self, voltage_v: float) -> None:
+        v = self._setpoint("voltage_v", voltage_v, self.profile.limits.max_voltage_v, "V", "[limits].max_voltage_v")
+        self._write(self._command("set_voltage", voltage_v=v))
+
+    def set_current_limit(self, current_a: float) -> None:
+        a = self._setpoint("current_a", current_a, self.profile.limits.max_current_a, "A", "[limits].max_current_a")
+        self._write(self._command("set_current_limit", current_a=a))
+
+    def set_output(self, on: bool) -> None:
+        if on:
+            self.check_errors()  # never switch on over a setpoint the instrument rejected
+            command = self._command("output_on")
+            self._write(command)
+            self.output_on = True
+            self.check_errors(after=command)
+        else:
+            self._write(self._command("output_off"))
+            self.output_on = False
+
+    def measure_voltage(self) -> float:
+        return self._reading("measure_voltage")
+
+    def measure_current(self) -> float:
+        return self._reading("measure_current")
+
+    @property
+    def can_report_mode(self) -> bool:
+        return self.profile.mode is not None
+
+    def mode(self) -> str:
+        """'CV', 'CC', 'OFF' or 'UNKNOWN' (no [mode] in the profile, both bits, or neither bit while on)."""
+        decoding = self.profile.mode
+        if decoding is None:
+            return "UNKNOWN"
+        reply = self._query(decoding.query)
+        if decoding.uses_register:
+            try:
+                bits = parse_int(reply)
+            except ScpiReplyError:
+                bits = -1
+            if not 0 <= bits < 2**16:
+                raise NonsenseReply(decoding.query, reply, "a status register value 0..65535", resource=self.resource)
+            cv = bool(bits >> decoding.cv_bit & 1)  # type: ignore[operator]
+            cc = bool(bits >> decoding.cc_bit & 1)  # type: ignore[operator]
+            if cv != cc:
+                return "CV" if cv else "CC"
+            if not cv and not self.output_on:
+                return "OFF"
+            return "UNKNOWN"
+        word = reply.strip().strip('"').strip().upper()
+        table = {decoding.cv_text: "CV", decoding.cc_text: "CC", decoding.off_text: "OFF"}
+        for text, mode in table.items():
+            if text is not None and word == text.strip().upper():
+                return mode
+        expected = " or ".join(repr(t) for t in table if t is not None)
+        raise NonsenseReply(decoding.query, reply, expected, resource=self.resource)
+
+    @property
+    def can_detect_trip(self) -> bool:
+        return self.profile.has("protection_tripped")
+
+    def tripped(self) -> bool:
+        """True when the supply's protection has switched the output off (False if the profile cannot tell)."""
+        if not self.can_detect_trip:
+            return False
+        command = self._command("protection_tripped")
+        reply = self._query(command)
+        try:
+            return parse_bool(reply)
+        except ScpiReplyError:
+            value = None
+            try:
+                value = parse_number(reply)
+            except ScpiReplyError:
+                pass
+            if value in (0.0, 1.0):
+                return bool(value)
+            raise NonsenseReply(command, reply, "0 or 1", resource=self.resource) from None
+
+    def clear_protection(self) -> None:
+        self._write(self._command("protection_clear"))
+        self.check_errors()
+
+    @property
+    def can_reverse(self) -> bool:
+        return self.profile.has("polarity_reversed")
+
+    def set_reversed(self, on: bool) -> None:
+        """Reverse the output polarity (a polarity relay); refused while the output is on."""
+        if self.output_on:
+            raise SafetyLimit("polarity change refused: switch the output off first", resource=self.resource)
+        self._write(self._command("polarity_reversed" if on else "polarity_normal"))
+        self.check_errors()
+        self.reversed = bool(on)
+
+    def _safe_steps_off(self):
+        def off() -> None:
+            self._write(self._command("output_off"))
+            self.output_on = False
+
+        return [("output off", off)]
+
+    def _safe_steps_zero(self):
+        return [
+            ("voltage to 0", lambda: self._write(self._command("set_voltage", voltage_v=0.0))),
+            ("current limit to 0", lambda: self._write(self._command("set_current_limit", current_a=0.0))),
+        ]
+
+
+class Load(Role):
+    """An electronic load in constant current (CC)."""
+
+    role_name = "load"
+
+    def __init__(self, transport: Transport, profile: Profile, *, check_idn: bool = True) -> None:
+        self.input_on = False
+        super().__init__(transport, profile, check_idn=check_idn)
+
+    def _after_connect(self) -> None:
+        if self.profile.has("set_mode_cc"):
+            self._write(self._command("set_mode_cc"))
+
+    def set_current(self, current_a: float) -> None:
+        a = self._setpoint("current_a", current_a, self.profile.limits.max_current_a, "A", "[limits].max_current_a")
+        self._write(self._command("set_current", current_a=a))
+
+    def set_input(self, on: bool) -> None:
+        if on:
+            self.check_errors()
+            command = self._command("input_on")
+            self._write(command)
+            self.input_on = True
+            self.check_errors(after=command)
+        else:
+            self._write(self._command("input_off"))
+            self.input_on = False
+
+    def measure_voltage(self) -> float:
+        return self._reading("measure_voltage")
+
+    def measure_current(self) -> float:
+        return self._reading("measure_current")
+
+    def _safe_steps_off(self):
+        def off() -> None:
+            self._write(self._command("input_off"))
+            self.input_on = False
+
+        return [("input off", off)]
+
+    def _safe_steps_zero(self):
+        return [("current to 0", lambda: self._write(self._command("set_current", current_a=0.0)))]
+
+
+class Meter(Role):
+    """A DC multimeter: function, range and NPLC configured once, then `read()` per point."""
+
+    role_name = "meter"
+
+    def __init__(self, transport: Transport, profile: Profile, *, check_idn: bool = True) -> None:
+        self.function: str | None = None
+        self.range: float | None = None
+        self.nplc: float | None = None
+        self.samples = 1
+        super().__init__(transport, profile, check_idn=check_idn)
+
+    def _check_range(self, value: object, ranges: tuple[float, ...], name: str, unit: str) -> float:
+        if not _ok_number(value) or not math.isfinite(float(value)):  # type: ignore[arg-type]
+            raise SafetyLimit(f"{name} {value!r} refused: not a finite number", resource=self.resource, name=name, value=value)
+        for r in ranges:
+            if math.isclose(float(value), r, rel_tol=1e-9):  # type: ignore[arg-type]
+                return r
+        listed = ", ".join(f"{r:g}" for r in ranges) or "none"
+        raise SafetyLimit(f"{name} {value!r} {unit} refused: not a range of {self.profile.name} (ranges: {listed})",
+                          resource=self.resource, name=name, value=value)
+
+    def _check_nplc(self, nplc: object) -> float:
+        limits = self.profile.limits
+        if not _ok_number(nplc) or not math.isfinite(float(nplc)):  # type: ignore[arg-type]
+            raise SafetyLimit(f"nplc {nplc!r} refused: not a finite number", resource=self.resource, name="nplc", value=nplc)
+        n = float(nplc)  # type: ignore[arg-type]
+        if limits.nplc_choices:
+            for choice in limits.nplc_choices:
+                if math.isclose(n, choice, rel_tol=1e-9):
+                    return choice
+            listed = ", ".join(f"{c:g}" for c in limits.nplc_choices)
+            raise SafetyLimit(f"nplc {n:g} refused: {self.profile.name} offers {listed}", resource=self.resource,
+                              name="nplc", value=n)
+        assert limits.nplc_min is not None and limits.nplc_max is not None
+        if not limits.nplc_min <= n <= limits.nplc_max:
+            raise SafetyLimit(f"nplc {n:g} refused: outside {limits.nplc_min:g}..{limits.nplc_max:g}",
+                              resource=self.resource, name="nplc", value=n)
+        return n
+
+    def configure_voltage(self, range_v: float, nplc: float) -> None:
+        r = self._check_range(range_v, self.profile.limits.voltage_ranges_v, "range_v", "V")
+        n = self._check_nplc(nplc)
+        command = self._command("configure_voltage", range_v=r, nplc=n)
+        self._write(command)
+        self.check_errors(after=command)
+        self.function, self.range, self.nplc = "dc_voltage", r, n
+        self._reapply_samples()
+
+    def configure_current(self, range_a: float, nplc: float) -> None:
+        r = self._check_range(range_a, self.profile.limits.current_ranges_a, "range_a", "A")
+        n = self._check_nplc(nplc)
+        command = self._command("configure_current", range_a=r, nplc=n)
+        self._write(command)
+        self.check_errors(after=command)
+        self.function, self.range, self.nplc = "dc_current", r, n
+        self._reapply_samples()
+
+    def _reapply_samples(self) -> None:
+        # Common practice: CONFigure presets trigger and sample settings on many meters, so send the count again.
+        if self.samples != 1 and self.profile.has("set_samples"):
+            self.set_samples(self.samples)
+
+    def set_samples(self, count: int) -> None:
+        """Readings per `read()`; a meter without a sample-count command reads one at a time."""
+        limit = self.profile.limits.max_samples
+        if isinstance(count, bool) or not isinstance(count, numbers.Integral) or not 1 <= int(count) <= limit:
+            raise SafetyLimit(f"sample count {count!r} refused: expected a whole number 1..{limit}",
+                              resource=self.resource, name="count", value=count)
+        count = int(count)
+        if self.profile.has("set_samples"):
+            command = self._command("set_samples", count=count)
+            self._write(command)
+            self.check_errors(after=command)
+        self.samples = count
+
+    def read_timeout_s(self) -> float:
+        """Profile timeout plus the integration time of the configured readings at the longer (50 Hz) cycle."""
+        nplc = self.nplc if self.nplc is not None else 1.0
+        return self.profile.timeout_s + self.samples * nplc * _LONGEST_PLC_S * _READ_OVERHEAD
+
+    def read(self) -> tuple[float | None, ...]:
+        """Trigger (if the profile needs it) and read `samples` readings; None marks an overload."""
+        if self.profile.has("trigger"):
+            self._write(self._command("trigger"))
+        command = self._command("read")
+        reply = self._query(command, self.read_timeout_s())
+        try:
+            values = parse_numbers(reply)
+        except ScpiReplyError:
+            raise NonsenseReply(command, reply, f"{self.samples} comma-separated numbers", resource=self.resource) from None
+        if len(values) != self.samples:
+            raise NonsenseReply(command, reply, f"{self.samples} readings, got {len(values)}", resource=self.resource)
+        return values
+
+    def measure_voltage(self, range_v: float | None = None) -> float | None:
+        """One reading with the profile's one-shot MEASure form (not every meter has one)."""
+        values = {}
+        if range_v is not None and "{range_v}" in self._template("measure_voltage"):
+            values["range_v"] = self._check_range(range_v, self.profile.limits.voltage_ranges_v, "range_v", "V")
+        return self._number(self._command("measure_voltage", **values), self.profile.timeout_s)
+
+    def accuracy(self, function: str, range_: float) -> AccuracySpec:
+        return self.profile.accuracy_for(function, range_)
+
+    def range_for(self, function: str, magnitude: float) -> float:
+        """The smallest range that holds |magnitude| (the top range if none does)."""
+        ranges = self.profile.limits.voltage_ranges_v if function == "dc_voltage" else self.profile.limits.current_ranges_a
+        for r in ranges:
+            if abs(magnitude) <= r:
+                return r
+        return ranges[-1]
+
+
+ROLE_CLASSES: dict[str, type[Role]] = {"supply": Supply, "load": Load, "meter": Meter}

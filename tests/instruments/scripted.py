@@ -1,0 +1,44 @@
+"""A scripted Transport for pure unit tests of the roles and the guard (dependency injection, not a pyvisa mock)."""
+
+from __future__ import annotations
+
+from benchlog.instruments.errors import ConnectionLost
+from benchlog.instruments.transport import Transport
+
+
+class ScriptedTransport(Transport):
+    """Records every write; answers queries from `replies` (exact text) and an error queue list."""
+
+    def __init__(self, idn: str, replies: dict[str, str] | None = None, *, resource: str = "SCRIPTED::1") -> None:
+        self.resource = resource
+        self.idn = idn
+        self.replies = dict(replies or {})
+        self.errors: list[str] = []  # entries still in the instrument's queue, oldest first
+        self.sent: list[str] = []  # every write and query, in order
+        self.fail_writes: set[str] = set()  # commands that raise ConnectionLost when written
+        self.lost = False
+        self.reopened = 0
+        self.closed = False
+
+    def write(self, command: str) -> None:
+        if self.lost or command in self.fail_writes:
+            raise ConnectionLost(f"scripted loss at {command!r}", resource=self.resource)
+        self.sent.append(command)
+
+    def query(self, command: str, *, timeout_s: float | None = None) -> str:
+        if self.lost:
+            raise ConnectionLost(f"scripted loss at {command!r}", resource=self.resource)
+        self.sent.append(command)
+        if command == "*IDN?":
+            return self.idn
+        if command.startswith("SYST") and "ERR" in command:
+            return self.errors.pop(0) if self.errors else '+0,"No error"'
+        return self.replies[command]
+
+    def reopen(self) -> None:
+        self.reopened += 1
+        self.lost = False
+        self.fail_writes.clear()
+
+    def close(self) -> None:
+        self.closed = True
