@@ -30,11 +30,11 @@ OUTLIER_RULE = f"Bonferroni outlier test: |externally studentised residual| > t(
 
 def outlier_threshold(n: int, dof: int) -> float:
     """Critical |t| of the Bonferroni outlier test for n points and ν = dof of the fit."""
-    from scipy import stats
+    from scipy import special  # stdtrit is the inverse t CDF behind scipy.stats.t.isf
 
     if dof < 2:
         return math.inf
-    return float(stats.t.isf(OUTLIER_ALPHA / (2.0 * n), dof - 1))
+    return float(special.stdtrit(dof - 1, 1.0 - OUTLIER_ALPHA / (2.0 * n)))
 
 
 class FitError(ValueError):

@@ -157,7 +157,10 @@ def _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco, alpha, found, q
     p = float(2.0 * stats.t.sf(abs(t), dof))
     out["trend_p"] = p
     if tempco:
-        theta = b / (r_value * tempco) if resistive else b / tempco  # K/W
+        # in the joint model V = V0 + R₀·I + b·I·P the unheated R₀ is the fitted R less what
+        # the heating term lent it (Frisch–Waugh–Lovell): R₀ = R − b·(coefficient of I in z)
+        r_cold = r_value - b * float(coef[1]) if resistive else math.nan
+        theta = b / (r_cold * tempco) if resistive else b / tempco  # K/W
         out["trend_delta_t_c"] = float(theta * np.max(power))
     shape = "I·P (apparent R rising with I²)" if resistive else "P = I·V"
     text = f"residuals trend with {shape}: t = {t:.3g}, p = {p:.2g}"
