@@ -31,6 +31,7 @@ from benchlog.runs import load
 from . import figures
 from . import from_analysis as fa
 from .from_verdict import verdict_block
+from .lot_section import lot_section
 from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
 from .safety import SAFETY_NOTE
 from .text import flatten, number, unit_of, with_uncertainty
@@ -386,18 +387,25 @@ def comparison_section(runs: Sequence[RunAnalysis]) -> Section:
 # ----------------------------------------------------------------------------- lots
 
 
-def lot_sections(runs: Sequence[RunAnalysis], spec: PartSpec) -> list[Section]:
-    """One section per lot id shared by two or more runs (filled in by `report.lot_section`)."""
-    try:
-        from .lot_section import lot_section
-    except ImportError:  # the lot summary is not available in this build
-        return []
+def lot_sections(runs: Sequence[RunAnalysis], spec: PartSpec, at_a: float | None = None) -> list[Section]:
+    """One section per lot id shared by two or more runs that can be fitted (`report.lot_section`)."""
     groups: dict[str, list[RunAnalysis]] = {}
     for ra in runs:
         lot = ra.element.get("lot")
         if isinstance(lot, str) and lot.strip():
             groups.setdefault(lot, []).append(ra)
-    return [lot_section(lot, members, spec) for lot, members in groups.items() if len(members) >= 2]
+    sections = []
+    for lot, members in groups.items():
+        usable = [ra for ra in members if ra.fit is not None]
+        if len(usable) < 2:
+            continue
+        sections.append(lot_section(lot, usable, spec, at_a))
+        left_out = [ra.path.name for ra in members if ra.fit is None]
+        if left_out:
+            sections[-1] = Section(sections[-1].title, (Paragraph(
+                "Left out of the lot statistics (no fit): " + ", ".join(left_out), "warning"),)
+                + sections[-1].blocks, sections[-1].subsections, sections[-1].status)
+    return sections
 
 
 # ----------------------------------------------------------------------------- the document
@@ -429,7 +437,7 @@ def build_report(
     if len(runs) > 1:
         sections.append(comparison_section(runs))
     if spec is not None:
-        sections += lot_sections(runs, spec)
+        sections += lot_sections(runs, spec, at_a)
     sections += [run_section(ra, spec) for ra in runs]
     sections.append(Section("Safety", (Paragraph(SAFETY_NOTE, "safety"),)))
     if len(runs) == 1:

@@ -1,0 +1,180 @@
+"""`benchlog report`: real run files in, one self-contained HTML or PDF out; bad input is one line and exit 2."""
+
+from __future__ import annotations
+
+import re
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from benchlog.analysis.fits import fit_run
+from benchlog.analysis.lot import lot_from_runs
+from benchlog.analysis.spec import load_spec
+from benchlog.analysis.verdict import check_run
+from benchlog.cli import main
+from benchlog.report import pdffile
+from benchlog.report.build import build_report
+from benchlog.report.text import with_uncertainty
+from benchlog.runs import load
+
+from . import runfiles
+from .htmlcheck import external_references, inventory
+from .samples import HOSTILE
+from .test_pdf import pdf_page_count
+
+
+def _text(page: str) -> str:
+    return " ".join(inventory(page).text)
+
+
+def test_single_run_report_shows_metadata_fit_verdict_and_escaped_user_text(tmp_path, capsys):
+    run = runfiles.hostile_run(tmp_path)
+    spec = runfiles.spec_file(tmp_path)
+    out = tmp_path / "r.html"
+    assert main(["report", str(run), "--spec", str(spec), "-o", str(out), "--at", "2"]) == 0
+    assert capsys.readouterr().out.strip() == str(out)
+    page = out.read_text(encoding="utf-8")
+    inv = inventory(page)
+    text = _text(page)
+
+    # user text from the serial, the operator note, the *IDN? reply and a limit note: text, never a tag
+    assert "script" not in inv.tags
+    for shown in (HOSTILE, f"operator says {HOSTILE}", f"BENCHLOG,{HOSTILE},0,1", f"drop above {HOSTILE}"):
+        assert shown in text
+    assert external_references(page) == []
+
+    # figures: V–I, loss, residuals, inline
+    assert inv.tags.count("svg") == 3
+    assert inv.tags.count("figure") == 3
+
+    # metadata: instruments with profile hashes, plan, element, ambient, times
+    for item in ("BENCHLOG,SIM-SUPPLY,0001,1.0", "a" * 64, "generic-dmm", "steps.count", "23.5 °C",
+                 "2025-01-31T09:15:02Z", "sweep done"):
+        assert item in text
+
+    # the verdict and the fit are the analysis' own numbers
+    frame, meta = load(run)
+    check = check_run(frame, meta, load_spec(spec), at_a=2.0)
+    verdict_divs = re.findall(r'<div class="verdict verdict-(\w+)">', page)
+    assert verdict_divs == [check.verdict.outcome]
+    assert check.verdict.rule in text
+    fit = fit_run(frame, meta, check.model)
+    assert with_uncertainty(fit.params["r_on_ohm"], fit.expanded_u["r_on_ohm"], "Ω") in text
+
+    # events, limit hits and the safety note
+    assert "1 limit hit(s) during this run" in text
+    assert "unsettled" in text
+    assert "local codes" in text and "safety rules" in text
+
+
+def test_several_runs_add_overlay_and_comparison_and_show_incomplete(tmp_path):
+    runs = [runfiles.pfet_run(tmp_path, "a.run", seed=1),
+            runfiles.pfet_run(tmp_path, "b.run", r_ohm=0.031, seed=2),
+            runfiles.pfet_run(tmp_path, "killed.run", seed=3, finished=False)]
+    out = tmp_path / "many.html"
+    assert main(["report", *map(str, runs), "-o", str(out)]) == 0
+    page = out.read_text(encoding="utf-8")
+    assert 'data-name="overlay"' in page
+    comparison = page[page.index("Runs side by side"):]
+    comparison = comparison[:comparison.index("</table>")]
+    assert comparison.count("<tr>") == 1 + 3  # header + one row per run
+    assert "INCOMPLETE" in comparison
+    text = _text(page)
+    assert "INCOMPLETE RUN" in text and "no end record" in text
+    assert re.search(r"Run killed\.run.*?<span class=\"status\">incomplete</span>", page)
+    # the incomplete run is analysed, not hidden: its figures are there too
+    assert page.count('data-name="vi"') == 3
+
+
+def test_lot_summary_for_runs_sharing_a_lot_id(tmp_path):
+    runs = [runfiles.pfet_run(tmp_path, f"p{i}.run", r_ohm=0.026 + 0.0004 * (i % 4), seed=i,
+                              hdr=runfiles.header(serial=f"S-{i:03d}", lot="L-7")) for i in range(6)]
+    spec = runfiles.spec_file(tmp_path)
+    doc = build_report(runs, spec_path=spec)
+    lot = next(s for s in doc.sections if s.title == "Lot L-7")
+    summary = lot_from_runs(runs, load_spec(spec))
+    names = [type(b).__name__ for b in lot.blocks]
+    assert names[:3] == ["VerdictBlock", "Table", "FigureBlock"]
+    assert lot.blocks[0].outcome == summary.outcome
+    stats = dict(lot.blocks[1].rows)
+    assert stats[summary.capability_name] == f"{summary.capability:.3g}"
+    assert stats["parts"] == "6"
+    parts = next(b for b in lot.blocks if isinstance(b, type(lot.blocks[1])) and b.caption == "Parts of the lot")
+    assert [r[0] for r in parts.rows] == [f"S-{i:03d}" for i in range(6)]
+
+
+def test_pdf_has_the_same_content_as_pages(tmp_path):
+    run = runfiles.pfet_run(tmp_path)
+    spec = runfiles.spec_file(tmp_path)
+    out = tmp_path / "r.pdf"
+    assert main(["report", str(run), "--spec", str(spec), "-o", str(out)]) == 0
+    data = out.read_bytes()
+    assert data.startswith(b"%PDF")
+    plan = pdffile.plan_pages(build_report([run], spec_path=spec))
+    assert sum(isinstance(p, pdffile.FigurePage) for p in plan) == 3
+    assert pdf_page_count(data) == len(plan)
+
+
+def test_figures_folder_gets_png_and_svg(tmp_path):
+    run = runfiles.pfet_run(tmp_path)
+    out = tmp_path / "r.html"
+    assert main(["report", str(run), "-o", str(out), "--figures", str(tmp_path / "figs")]) == 0
+    names = sorted(p.name for p in (tmp_path / "figs").iterdir())
+    assert names == ["figure01-vi.png", "figure01-vi.svg", "figure02-loss.png", "figure02-loss.svg",
+                     "figure03-residuals.png", "figure03-residuals.svg"]
+
+
+def test_diode_run_without_spec(tmp_path):
+    current, drop = runfiles.diode_points()
+    run = runfiles.write_run(tmp_path / "d.run", current, drop, hdr=runfiles.header(kind="schottky"))
+    doc = build_report([run])
+    text = " ".join(str(b) for s in doc.sections for sec in s.walk() for b in sec.blocks)
+    assert "Without a part spec" in text
+    assert "ideality" in text
+
+
+@pytest.mark.parametrize(
+    "argv_tail, needle",
+    [
+        (["MISSING.run", "-o", "r.html"], "MISSING.run: file not found"),
+        (["bad.run", "-o", "r.html"], "bad.run: line 1"),
+        (["good.run", "-o", "r.txt"], "-o"),
+        (["good.run", "-o", "nofolder/r.html"], "does not exist"),
+        (["good.run", "-o", "r.html", "--at", "-1"], "--at"),
+        (["good.run", "-o", "r.html", "--at", "lots"], "--at"),
+        (["good.run", "-o", "r.html", "--spec", "bad.toml"], "bad.toml"),
+        (["good.run", "-o", "r.html", "--model", "cubic"], "--model"),
+        (["good.run"], "-o"),
+    ],
+)
+def test_bad_input_is_one_line_and_exit_2(tmp_path, argv_tail, needle, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "bad.run").write_text("this is not a run file\n", encoding="utf-8")
+    (tmp_path / "bad.toml").write_text('name = "X"\nkind = "valve"\n', encoding="utf-8")
+    runfiles.pfet_run(tmp_path, "good.run")
+    rc = _exit_code(["report", *argv_tail])
+    err = capsys.readouterr().err
+    assert rc == 2
+    assert len(err.strip().splitlines()) == 1 and needle in err
+    assert "Traceback" not in err
+    assert not (tmp_path / "r.html").exists()
+
+
+def _exit_code(argv: list[str]) -> int:
+    """The exit code `benchlog ARGV` ends with, whether argparse exits or the handler returns."""
+    try:
+        return main(argv)
+    except SystemExit as exc:
+        return int(exc.code)
+
+
+def test_bad_run_file_in_a_real_process(tmp_path):
+    bad = tmp_path / "torn.run"
+    bad.write_text('{"record": "header", "format": "benchlog-run", "schema": 99}\n', encoding="utf-8")
+    proc = subprocess.run([sys.executable, "-m", "benchlog", "report", str(bad), "-o", str(tmp_path / "r.html")],
+                          capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 2
+    assert len(proc.stderr.strip().splitlines()) == 1 and str(bad) in proc.stderr
+    assert proc.stdout == ""
