@@ -296,3 +296,27 @@ def test_cli_probe_bad_resource_and_unreachable():
     gone = _cli("profiles", "probe", f"TCPIP0::127.0.0.1::{port}::SOCKET", "--timeout", "0.5")
     assert gone.returncode == 1, gone.stderr
     assert len(gone.stderr.strip().splitlines()) == 1 and "Traceback" not in gone.stderr
+
+
+def test_sim_profiles_copy_the_simulator_specs():
+    # The sim draws its gain/offset errors within benchlog/sim/specs.py; the profiles must state the same
+    # accuracy, or a GUM type-B budget computed from the profile would not be honest against the sim.
+    from benchlog.sim import specs
+
+    def pairs(items):
+        return sorted((s.function, s.range, s.reading_pct, s.range_pct) for s in items)
+
+    for name in ("sim-meter", "sim-meter-no-measure"):
+        meter = load_profile(name)
+        assert pairs(meter.accuracy) == pairs(specs.METER_DCV + specs.METER_DCI)
+        assert meter.limits.voltage_ranges_v == tuple(s.range for s in specs.METER_DCV)
+        assert meter.limits.current_ranges_a == tuple(s.range for s in specs.METER_DCI)
+        assert (meter.limits.nplc_min, meter.limits.nplc_max) == (specs.METER_NPLC_MIN, specs.METER_NPLC_MAX)
+        assert meter.limits.max_samples == specs.METER_SAMPLE_COUNT_MAX
+    supply = load_profile("sim-supply")
+    assert pairs(supply.accuracy) == pairs(specs.SUPPLY_READBACK)
+    assert (supply.limits.max_voltage_v, supply.limits.max_current_a) == (
+        specs.SUPPLY_MAX_VOLTAGE_V, specs.SUPPLY_MAX_CURRENT_A)
+    load = load_profile("sim-load")
+    assert pairs(load.accuracy) == pairs(specs.LOAD_READBACK)
+    assert (load.limits.max_voltage_v, load.limits.max_current_a) == (specs.LOAD_MAX_VOLTAGE_V, specs.LOAD_MAX_CURRENT_A)
