@@ -1,0 +1,127 @@
+"""The whole simulated bench in one process: instruments, element, wiring and junction temperature.
+
+All instruments share one lock, because they share one circuit. The junction
+temperature advances with the clock (real, or injected by tests) each time an
+instrument is spoken to, using the power at the operating point that held
+since the last message.
+"""
+
+from __future__ import annotations
+
+import math
+import random
+import threading
+import time
+from typing import Callable
+
+from . import specs
+from .circuit import Drive, OperatingPoint, solve
+from .config import SimConfig
+from .elements import build_element, T0_C
+from .load import LoadSim
+from .meter import MeterSim
+from .supply import SupplySim
+from .thermal import step_junction_c
+
+SERIAL_PREFIX = {"supply": "S", "load": "L", "meter": "M", "current_meter": "C"}
+
+
+class SimBench:
+    def __init__(self, config: SimConfig, clock: Callable[[], float] = time.monotonic) -> None:
+        self.config = config
+        self.clock = clock
+        self.lock = threading.RLock()
+        self.element = build_element(config.element, self.stream("element"), config.element_params)
+        self.junction_c = float(config.ambient_c)
+        self._last_t = clock()
+        self._op: OperatingPoint | None = None
+        self._op_key: tuple | None = None
+        self.supply = SupplySim(self, "supply", self._serial("supply"))
+        self.load = LoadSim(self, "load", self._serial("load"))
+        self.meter = MeterSim(self, "meter", self._serial("meter"), wiring="element",
+                              has_measure=config.meter_has_measure, shunt_ohm=config.shunt_ohm)
+        self.current_meter = (
+            MeterSim(self, "current_meter", self._serial("current_meter"), wiring="series",
+                     has_measure=config.meter_has_measure, shunt_ohm=config.shunt_ohm)
+            if config.current_meter else None
+        )
+
+    def _serial(self, role: str) -> str:
+        return f"{SERIAL_PREFIX[role]}{self.config.seed:06d}"
+
+    def stream(self, name: str) -> random.Random:
+        """An independent, seeded random stream, so one instrument's use never shifts another's."""
+        return random.Random(f"benchlog-sim/{self.config.seed}/{name}")
+
+    def devices(self) -> dict:
+        found = {"supply": self.supply, "load": self.load, "meter": self.meter}
+        if self.current_meter is not None:
+            found["current_meter"] = self.current_meter
+        return found
+
+    # -- circuit ----------------------------------------------------------------------------------
+    def drive(self) -> Drive:
+        s, l = self.supply, self.load
+        return Drive(
+            output_on=s.output_on, inverted=s.inverted, voltage_v=s.actual_voltage_v,
+            current_limit_a=s.actual_current_limit_a, load_on=l.input_on, load_current_a=l.actual_current_a,
+            lead_ohm=self.config.lead_resistance_ohm, load_min_ohm=specs.LOAD_MIN_RESISTANCE_OHM,
+        )
+
+    def changed(self) -> None:
+        """A setting is about to change: bring the temperature up to now under the old operating point."""
+        self.advance()
+        self._op_key = None
+
+    def operating_point(self) -> OperatingPoint:
+        with self.lock:
+            drive = self.drive()
+            key = (drive, self.junction_c)
+            if self._op_key != key:
+                self._op = solve(self.element, drive, self.junction_c)
+                self._op_key = key
+            return self._op  # type: ignore[return-value]
+
+    # -- heat ---------------------------------------------------------------------------------------
+    def advance(self, now: float | None = None) -> None:
+        """Integrate Tj from the last update to `now` (sub-stepped so P(Tj) is followed)."""
+        with self.lock:
+            now = self.clock() if now is None else now
+            dt = now - self._last_t
+            self._last_t = now
+            if dt <= 0:
+                return
+            tau = self.element.thermal.tau_s
+            steps = min(400, max(1, math.ceil(dt / (tau / 20.0))))
+            h = dt / steps
+            for _ in range(steps):
+                power = self.operating_point().power_w
+                if power == 0.0 and abs(self.junction_c - self.config.ambient_c) < 1e-9:
+                    self.junction_c = float(self.config.ambient_c)
+                    break
+                self.junction_c = step_junction_c(self.junction_c, self.config.ambient_c, power,
+                                                  self.element.thermal, h)
+            if steps == 400 and dt > 400 * tau / 20.0:
+                # a very long jump: the remaining transient has died out; settle on the fixed point
+                for _ in range(50):
+                    power = self.operating_point().power_w
+                    target = self.config.ambient_c + power * self.element.thermal.rth_ja_k_per_w
+                    if abs(target - self.junction_c) < 1e-9:
+                        break
+                    self.junction_c = target
+
+    # -- truth ------------------------------------------------------------------------------------
+    def truth(self) -> dict:
+        """The element's true parameters (at 25 °C and full enhancement) and the bench's wiring."""
+        data = dict(self.element.truth())
+        data.update({
+            "at_c": T0_C,
+            "ambient_c": self.config.ambient_c,
+            "seed": self.config.seed,
+            "lead_resistance_ohm": self.config.lead_resistance_ohm,
+            "meter_thermal_emf_v": self.meter.emf_v,
+            "line_frequency_hz": self.config.line_frequency_hz,
+        })
+        if self.current_meter is not None:
+            data["shunt_ohm"] = self.config.shunt_ohm
+        return data

@@ -1,0 +1,217 @@
+"""The simulated multimeter: DC volts across the element (Kelvin), or DC current in series.
+
+Noise model (used by the estimator-efficiency benchmark for the Cramér–Rao
+bound). One reading is the true value plus:
+- a fixed gain error g and offset o per range, drawn once (seeded) uniformly
+  within the accuracy spec: |g| <= reading_pct/100, |o| <= range_pct/100·range;
+- a fixed thermal EMF (DCV only), uniform within ±THERMAL_EMF_MAX_V;
+- independent Gaussian noise with standard deviation `reading_noise_v`.
+
+Integration time t = NPLC / line frequency (1 PLC = 20 ms at 50 Hz, 16.667 ms
+at 60 Hz). White noise averaged over t falls as 1/sqrt(t), so
+
+    σ(range, NPLC, f) = sqrt( (k·range)^2 · t_ref/t + σ_floor^2 ),
+    k = METER_NOISE_RANGE_FRACTION_1PLC, t_ref = 20 ms, t = NPLC/f.
+
+A reading beyond METER_OVERLOAD_FRACTION of its range is the overload value
+±9.9E37 (SCPI-99 vol. 1 7.2.1).
+"""
+
+from __future__ import annotations
+
+import math
+
+from benchlog.scpi.replies import OVERLOAD
+from benchlog.scpi.tree import CommandError, CommandTree, bool_param, choice_param, number_param
+
+from . import specs
+from .device import ScpiDevice, fmt
+from .specs import RangeSpec, range_for
+
+
+def integration_time_s(nplc: float, line_frequency_hz: float) -> float:
+    """t = NPLC / f_line."""
+    return nplc / line_frequency_hz
+
+
+def _noise(range_value: float, nplc: float, line_frequency_hz: float, floor: float) -> float:
+    t = integration_time_s(nplc, line_frequency_hz)
+    white = specs.METER_NOISE_RANGE_FRACTION_1PLC * range_value
+    return math.sqrt(white * white * specs.METER_NOISE_REFERENCE_S / t + floor * floor)
+
+
+def reading_noise_v(range_v: float, nplc: float, line_frequency_hz: float) -> float:
+    """Standard deviation of one DC-volts reading on `range_v` at `nplc` (see module docstring)."""
+    return _noise(range_v, nplc, line_frequency_hz, specs.METER_NOISE_FLOOR_V)
+
+
+def reading_noise_a(range_a: float, nplc: float, line_frequency_hz: float) -> float:
+    """Standard deviation of one DC-current reading, same law with the current floor."""
+    return _noise(range_a, nplc, line_frequency_hz, specs.METER_NOISE_FLOOR_A)
+
+
+FUNCTIONS = {"VOLT": specs.METER_DCV, "CURR": specs.METER_DCI}
+
+
+class MeterSim(ScpiDevice):
+    """A DMM. `wiring` is "element" (senses across the element) or "series" (carries the loop current)."""
+
+    model = "SIM-METER"
+
+    def __init__(self, bench, role: str, serial: str, *, wiring: str, has_measure: bool, shunt_ohm: float) -> None:
+        self.wiring = wiring
+        self.has_measure = has_measure
+        self.shunt_ohm = shunt_ohm
+        rng = bench.stream(f"{role}/errors")
+        self.gain = {}
+        self.offset = {}
+        for function, table in FUNCTIONS.items():
+            for spec in table:
+                self.gain[(function, spec.range)] = rng.uniform(-1, 1) * spec.reading_pct / 100.0
+                self.offset[(function, spec.range)] = rng.uniform(-1, 1) * spec.range_pct / 100.0 * spec.range
+        self.emf_v = rng.uniform(-1, 1) * specs.THERMAL_EMF_MAX_V
+        self.noise = bench.stream(f"{role}/noise")
+        super().__init__(bench, role, serial)
+
+    def reset(self) -> None:
+        self.function = "VOLT"
+        self.range = {"VOLT": 10.0, "CURR": 1.0}
+        self.auto = {"VOLT": True, "CURR": True}
+        self.nplc = {"VOLT": specs.METER_DEFAULT_NPLC, "CURR": specs.METER_DEFAULT_NPLC}
+        self.sample_count = 1
+        self.trigger_source = "IMMediate"
+        self.readings: list[float] | None = None
+
+    # -- physics -----------------------------------------------------------------------------------
+    def true_value(self) -> float:
+        op = self.bench.operating_point()
+        if self.wiring == "element":
+            return op.element_v + self.emf_v if self.function == "VOLT" else 0.0
+        if self.function == "VOLT":
+            return op.current_a * self.shunt_ohm + self.emf_v
+        return op.current_a
+
+    def _range_spec(self, value: float) -> RangeSpec:
+        table = FUNCTIONS[self.function]
+        if self.auto[self.function]:
+            return range_for(table, value)
+        return next(s for s in table if s.range == self.range[self.function])
+
+    def take_readings(self) -> list[float]:
+        line = self.bench.config.line_frequency_hz
+        nplc = self.nplc[self.function]
+        value = self.true_value()
+        spec = self._range_spec(value)
+        key = (self.function, spec.range)
+        sigma = (reading_noise_v if self.function == "VOLT" else reading_noise_a)(spec.range, nplc, line)
+        centre = value * (1.0 + self.gain[key]) + self.offset[key]
+        out = []
+        for _ in range(self.sample_count):
+            reading = centre + self.noise.gauss(0.0, sigma)
+            if abs(reading) > specs.METER_OVERLOAD_FRACTION * spec.range:
+                reading = math.copysign(OVERLOAD, reading)
+            out.append(reading)
+        if self.bench.config.meter_integration_delay:
+            self.reply_delay_s += self.sample_count * integration_time_s(nplc, line)
+        return out
+
+    # -- SCPI --------------------------------------------------------------------------------------
+    def build(self, tree: CommandTree) -> None:
+        for function, name in (("VOLT", "VOLTage"), ("CURR", "CURRent")):
+            tree.command(f"CONFigure[:SCALar]:{name}[:DC]", self._configure(function), (0, 2))
+            tree.command(f"[SENSe:]{name}[:DC]:RANGe[:UPPer]", self._set_range(function), 1)
+            tree.query(f"[SENSe:]{name}[:DC]:RANGe[:UPPer]?", self._get_range(function))
+            tree.command(f"[SENSe:]{name}[:DC]:RANGe:AUTO", self._set_auto(function), 1)
+            tree.query(f"[SENSe:]{name}[:DC]:RANGe:AUTO?", lambda f=function: "1" if self.auto[f] else "0")
+            tree.command(f"[SENSe:]{name}[:DC]:NPLCycles", self._set_nplc(function), 1)
+            tree.query(f"[SENSe:]{name}[:DC]:NPLCycles?", lambda f=function: fmt(self.nplc[f]))
+            if self.has_measure:
+                tree.query(f"MEASure[:SCALar]:{name}[:DC]?", self._measure(function), (0, 2))
+        tree.query("CONFigure?", lambda: f"\"{self.function} {fmt(self.range[self.function])}\"")
+        tree.command("[SENSe:]FUNCtion[:ON]", self._set_function, 1)
+        tree.query("[SENSe:]FUNCtion[:ON]?", lambda: f"\"{self.function}\"")
+        tree.command("SAMPle:COUNt", self._set_count, 1)
+        tree.query("SAMPle:COUNt?", lambda: str(self.sample_count))
+        tree.command("TRIGger[:SEQuence]:SOURce", self._set_trigger, 1)
+        tree.query("TRIGger[:SEQuence]:SOURce?", lambda: self.trigger_source[:3].upper())
+        tree.command("INITiate[:IMMediate]", self._initiate)
+        tree.query("FETCh?", self._fetch)
+        tree.query("READ?", self._read)
+
+    def _pick_range(self, function: str, text: str) -> None:
+        table = FUNCTIONS[function]
+        word = text.strip().upper()
+        if word in ("AUTO",):
+            self.auto[function] = True
+            return
+        top = table[-1].range
+        value = number_param(text, lo=0.0, hi=top, default=top if function == "VOLT" else table[2].range,
+                             name="range")
+        self.auto[function] = False
+        self.range[function] = range_for(table, value).range
+
+    def _configure(self, function: str):
+        def handler(range_text: str = "AUTO", _resolution: str | None = None) -> None:
+            self._pick_range(function, range_text)
+            self.function = function
+            self.readings = None
+        return handler
+
+    def _set_range(self, function: str):
+        return lambda text: self._pick_range(function, text)
+
+    def _get_range(self, function: str):
+        def handler() -> str:
+            if self.auto[function]:
+                value = self.true_value() if function == self.function else 0.0
+                return fmt(range_for(FUNCTIONS[function], value).range)
+            return fmt(self.range[function])
+        return handler
+
+    def _set_auto(self, function: str):
+        def handler(text: str) -> None:
+            self.auto[function] = bool_param(text, "autorange")
+        return handler
+
+    def _set_nplc(self, function: str):
+        def handler(text: str) -> None:
+            self.nplc[function] = number_param(text, lo=specs.METER_NPLC_MIN, hi=specs.METER_NPLC_MAX,
+                                               default=specs.METER_DEFAULT_NPLC, name="NPLC")
+        return handler
+
+    def _measure(self, function: str):
+        def handler(range_text: str = "AUTO", _resolution: str | None = None) -> str:
+            self._configure(function)(range_text)
+            return self._read()
+        return handler
+
+    def _set_function(self, text: str) -> None:
+        word = text.strip().strip("\"'").upper()
+        for function, name in (("VOLT", "VOLTage"), ("CURR", "CURRent")):
+            if word in (function, name.upper(), f"{function}:DC", f"{name.upper()}:DC"):
+                self.function = function
+                self.readings = None
+                return
+        raise CommandError(-224, f"function {text.strip()!r} is not VOLT or CURR")
+
+    def _set_count(self, text: str) -> None:
+        self.sample_count = int(round(number_param(text, lo=1, hi=specs.METER_SAMPLE_COUNT_MAX, default=1,
+                                                   name="sample count")))
+
+    def _set_trigger(self, text: str) -> None:
+        source = choice_param(text, ("IMMediate", "BUS", "EXTernal"), "trigger source")
+        if source != "IMMediate":
+            raise CommandError(-221, f"trigger source {source} is not wired on this bench; use IMMediate")
+        self.trigger_source = source
+
+    def _initiate(self) -> None:
+        self.readings = self.take_readings()
+
+    def _fetch(self) -> str:
+        if self.readings is None:
+            raise CommandError(-230, "no readings; send INITiate first")
+        return ",".join(fmt(r, 9) for r in self.readings)
+
+    def _read(self) -> str:
+        self._initiate()
+        return self._fetch()

@@ -1,0 +1,119 @@
+"""The simulated DC supply: CV/CC crossover, programming and readback error, protection trip, polarity switch.
+
+STATus:OPERation:CONDition? reports bit 8 (256) in CV and bit 10 (1024) in CC,
+0 with the output off. Readback is the magnitude at the supply's own
+terminals, before the polarity switch (as with a polarity relay on the output).
+"""
+
+from __future__ import annotations
+
+from benchlog.scpi.tree import CommandError, CommandTree, bool_param, choice_param, number_param
+
+from . import specs
+from .device import ScpiDevice, fmt
+from .specs import spec_for
+
+CV_BIT = 256
+CC_BIT = 1024
+VOLTAGE = "[SOURce:]VOLTage[:LEVel][:IMMediate][:AMPLitude]"
+CURRENT = "[SOURce:]CURRent[:LEVel][:IMMediate][:AMPLitude]"
+
+
+class SupplySim(ScpiDevice):
+    model = "SIM-SUPPLY"
+
+    def __init__(self, bench, role: str, serial: str) -> None:
+        rng = bench.stream(f"{role}/errors")
+
+        def draw(spec):
+            return rng.uniform(-1, 1) * spec.reading_pct / 100.0, rng.uniform(-1, 1) * spec.range_pct / 100.0 * spec.range
+
+        self.program_v = draw(spec_for(specs.SUPPLY_PROGRAMMING, "program_voltage"))
+        self.program_a = draw(spec_for(specs.SUPPLY_PROGRAMMING, "program_current"))
+        self.readback_v = draw(spec_for(specs.SUPPLY_READBACK, "readback_voltage"))
+        self.readback_a = draw(spec_for(specs.SUPPLY_READBACK, "readback_current"))
+        self.noise = bench.stream(f"{role}/noise")
+        self.tripped = False
+        super().__init__(bench, role, serial)
+
+    def reset(self) -> None:
+        self.voltage_set_v = 0.0
+        self.current_set_a = 0.1
+        self.output_on = False
+        self.inverted = False
+
+    # -- actual output (with programming error) ---------------------------------------------------
+    @property
+    def actual_voltage_v(self) -> float:
+        gain, offset = self.program_v
+        return max(0.0, self.voltage_set_v * (1 + gain) + offset) if self.voltage_set_v > 0 else 0.0
+
+    @property
+    def actual_current_limit_a(self) -> float:
+        gain, offset = self.program_a
+        return max(0.0, self.current_set_a * (1 + gain) + offset) if self.current_set_a > 0 else 0.0
+
+    def trip(self) -> None:
+        """Protection trip: output off until OUTPut:PROTection:CLEar."""
+        self.bench.changed()
+        self.tripped = True
+        self.output_on = False
+
+    # -- SCPI ---------------------------------------------------------------------------------------
+    def build(self, tree: CommandTree) -> None:
+        tree.command(VOLTAGE, self._set_voltage, 1)
+        tree.query(VOLTAGE + "?", lambda: fmt(self.voltage_set_v))
+        tree.command(CURRENT, self._set_current, 1)
+        tree.query(CURRENT + "?", lambda: fmt(self.current_set_a))
+        tree.command("OUTPut[:STATe]", self._set_output, 1)
+        tree.query("OUTPut[:STATe]?", lambda: "1" if self.output_on else "0")
+        tree.query("MEASure[:SCALar]:VOLTage[:DC]?", self._measure_voltage)
+        tree.query("MEASure[:SCALar]:CURRent[:DC]?", self._measure_current)
+        tree.query("STATus:OPERation:CONDition?", self._condition)
+        tree.query("OUTPut:PROTection:TRIPped?", lambda: "1" if self.tripped else "0")
+        tree.command("OUTPut:PROTection:CLEar", self._clear_protection)
+        tree.command("OUTPut:POLarity", self._set_polarity, 1)
+        tree.query("OUTPut:POLarity?", lambda: "INV" if self.inverted else "NORM")
+
+    def _set_voltage(self, text: str) -> None:
+        self.bench.changed()
+        self.voltage_set_v = number_param(text, lo=0.0, hi=specs.SUPPLY_MAX_VOLTAGE_V, default=0.0,
+                                          name="voltage", unit=" V")
+
+    def _set_current(self, text: str) -> None:
+        self.bench.changed()
+        self.current_set_a = number_param(text, lo=0.0, hi=specs.SUPPLY_MAX_CURRENT_A, default=0.1,
+                                          name="current limit", unit=" A")
+
+    def _set_output(self, text: str) -> None:
+        on = bool_param(text, "output")
+        if on and self.tripped:
+            raise CommandError(-200, "output protection tripped; send OUTPut:PROTection:CLEar first")
+        self.bench.changed()
+        self.output_on = on
+
+    def _clear_protection(self) -> None:
+        self.tripped = False
+
+    def _set_polarity(self, text: str) -> None:
+        inverted = choice_param(text, ("NORMal", "INVerted"), "polarity") == "INVerted"
+        if inverted != self.inverted and self.output_on:
+            raise CommandError(-221, "polarity can only change with the output off")
+        self.bench.changed()
+        self.inverted = inverted
+
+    def _measure_voltage(self) -> str:
+        op = self.bench.operating_point()
+        gain, offset = self.readback_v
+        value = op.supply_v * (1 + gain) + offset + self.noise.gauss(0.0, specs.SUPPLY_READBACK_NOISE_V)
+        return fmt(value)
+
+    def _measure_current(self) -> str:
+        op = self.bench.operating_point()
+        gain, offset = self.readback_a
+        value = abs(op.current_a) * (1 + gain) + offset + self.noise.gauss(0.0, specs.SUPPLY_READBACK_NOISE_A)
+        return fmt(value)
+
+    def _condition(self) -> str:
+        mode = self.bench.operating_point().supply_mode
+        return str({"CV": CV_BIT, "CC": CC_BIT}.get(mode, 0))

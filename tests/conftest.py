@@ -1,0 +1,34 @@
+"""Shared fixtures: the simulated bench on ephemeral loopback ports, talked to through real pyvisa-py."""
+
+from __future__ import annotations
+
+import time
+
+import pytest
+
+from benchlog.sim.config import SimConfig
+from benchlog.sim.server import RunningBench, serve_bench
+
+
+@pytest.fixture
+def sim_bench():
+    """Factory: ``sim_bench(element="pmos", seed=1, **SimConfig overrides) -> RunningBench``.
+
+    Every bench is served on port 0 (ephemeral, one port per instrument) on
+    127.0.0.1 and stopped at teardown. Pass ``clock=`` (a callable returning
+    seconds) to drive the thermal model with an injected clock.
+    Example: ``bench = sim_bench("rectifier", seed=3, latency_s=0.002)``;
+    ``bench.resources["supply"]`` is ``TCPIP0::127.0.0.1::<port>::SOCKET``.
+    """
+    started: list[RunningBench] = []
+
+    def start(element: str = "pmos", seed: int = 1, *, clock=None, **overrides) -> RunningBench:
+        overrides.setdefault("port", 0)
+        config = SimConfig(element=element, seed=seed, **overrides)
+        running = serve_bench(config, clock=clock or time.monotonic)
+        started.append(running)
+        return running
+
+    yield start
+    for running in started:
+        running.stop()
