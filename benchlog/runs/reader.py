@@ -1,0 +1,381 @@
+"""The validating run-file reader: every record checked, every fault reported as `file: line N: what (expected ...)`.
+
+Whatever bytes it is given, this reader either yields events or raises
+`BadInput`; nothing else escapes (the tests fuzz it). A last line without its
+newline is a torn write from a killed process and is skipped (`is_torn`).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import re
+from collections.abc import Iterator
+from datetime import datetime
+from typing import Any
+
+from benchlog.badinput import BadInput
+
+from .events import Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
+from .format import (
+    ABSOLUTE_ZERO_C,
+    DIRECTIONS,
+    ELEMENT_STRINGS,
+    END_OUTCOMES,
+    FLAG_PATTERN,
+    FORMAT_NAME,
+    HEADER_REQUIRED,
+    HEADER_STRINGS,
+    HEADER_TABLES,
+    MAX_INDEX,
+    MAX_MAGNITUDE,
+    NOTE_KINDS,
+    POINT_COLUMNS,
+    POINT_FLOAT_COLUMNS,
+    POINT_INTEGER_COLUMNS,
+    POINT_READING_COLUMNS,
+    POINT_TAG,
+    SUPPLY_MODES,
+    SUPPORTED_SCHEMAS,
+)
+
+# A decimal number as the writer writes it; surrounding blanks are tolerated
+# because the pandas fast path tolerates them too.
+_NUMBER = re.compile(r"\s*[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?\s*\Z")
+
+_RECORD_KEYS: dict[str, tuple[str, ...]] = {
+    "offset": ("record", "t_s", "drop_v"),
+    "note": ("record", "t_s", "kind", "message"),
+    "reverse": ("record", "t_s", "voltage_v", "duration_s", "current_a", "limit_a", "passed"),
+    "end": ("record", "t_s", "outcome", "points", "message"),
+}
+
+
+class _Line:
+    """Where we are, for error messages."""
+
+    __slots__ = ("source", "number")
+
+    def __init__(self, source: str, number: int) -> None:
+        self.source = source
+        self.number = number
+
+    def bad(self, problem: str, expected: str = "") -> BadInput:
+        return BadInput(self.source, f"line {self.number}", problem, expected)
+
+
+def _short(text: str, limit: int = 40) -> str:
+    text = repr(text)
+    return text if len(text) <= limit else text[: limit - 4] + "...'"
+
+
+# --- JSON records -----------------------------------------------------------------------------
+
+
+class _NotFinite(ValueError):
+    pass
+
+
+def _parse_float(text: str) -> float:
+    value = float(text)
+    if not math.isfinite(value):
+        raise _NotFinite(f"number {text[:30]} is too large for a float")
+    return value
+
+
+def _parse_constant(name: str) -> float:
+    raise _NotFinite(f"{name} is not a number (JSON has no NaN or Infinity)")
+
+
+def parse_json_object(text: str, at: _Line) -> dict[str, Any]:
+    try:
+        value = json.loads(text, parse_float=_parse_float, parse_constant=_parse_constant)
+    except _NotFinite as exc:
+        raise at.bad(str(exc), "finite numbers") from None
+    except RecursionError:
+        raise at.bad("JSON nested too deeply", "one JSON object per line") from None
+    except ValueError as exc:  # JSONDecodeError, or an integer with too many digits
+        raise at.bad(f"not valid JSON ({exc})", "one JSON object per line") from None
+    if not isinstance(value, dict):
+        raise at.bad(f"JSON {type(value).__name__} where a record object belongs",
+                     'a JSON object with a "record" key')
+    return value
+
+
+def _number(obj: dict[str, Any], key: str, kind: str, at: _Line) -> float:
+    if key not in obj:
+        raise at.bad(f"{kind} record has no {key!r}", f"{key} as a number")
+    value = obj[key]
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise at.bad(f"{kind} {key} is {_short(json.dumps(value))}", "a number")
+    x = float(value) if not isinstance(value, int) or abs(value) <= MAX_MAGNITUDE else math.inf
+    if not math.isfinite(x) or abs(x) > MAX_MAGNITUDE:
+        raise at.bad(f"{kind} {key} = {value!r:.30} is out of range", f"|{key}| <= {MAX_MAGNITUDE:g}")
+    return x
+
+
+def _string(obj: dict[str, Any], key: str, kind: str, at: _Line, choices: tuple[str, ...] = ()) -> str:
+    value = obj.get(key)
+    if not isinstance(value, str):
+        raise at.bad(f"{kind} record has {key} = {_short(json.dumps(value))}",
+                     f"{key} as a string" if not choices else f"{key} one of {', '.join(choices)}")
+    if choices and value not in choices:
+        raise at.bad(f"{kind} {key} is {_short(value)}", f"one of {', '.join(choices)}")
+    return value
+
+
+def _check_keys(obj: dict[str, Any], kind: str, at: _Line) -> None:
+    allowed = _RECORD_KEYS[kind]
+    for key in obj:
+        if key not in allowed:
+            raise at.bad(f"unexpected key {_short(key)} in {kind} record", f"only {', '.join(allowed)}")
+
+
+def decode_record(obj: dict[str, Any], at: _Line) -> Event:
+    """A JSON record other than the header, as its event."""
+    kind = obj.get("record")
+    if kind == "header":
+        raise at.bad("a second header record", "the header only on line 1")
+    if not isinstance(kind, str) or kind not in _RECORD_KEYS:
+        raise at.bad(f"unknown record kind {_short(json.dumps(kind))}",
+                     "record one of " + ", ".join(_RECORD_KEYS))
+    _check_keys(obj, kind, at)
+    t_s = _number(obj, "t_s", kind, at)
+    if kind == "offset":
+        return Offset(t_s=t_s, drop_v=_number(obj, "drop_v", kind, at))
+    if kind == "note":
+        return Note(t_s=t_s, kind=_string(obj, "kind", kind, at, NOTE_KINDS),  # type: ignore[arg-type]
+                    message=_string(obj, "message", kind, at))
+    if kind == "reverse":
+        passed = obj.get("passed")
+        if not isinstance(passed, bool):
+            raise at.bad(f"reverse passed is {_short(json.dumps(passed))}", "true or false")
+        return ReverseResult(
+            t_s=t_s,
+            voltage_v=_number(obj, "voltage_v", kind, at),
+            duration_s=_number(obj, "duration_s", kind, at),
+            current_a=_number(obj, "current_a", kind, at),
+            limit_a=_number(obj, "limit_a", kind, at),
+            passed=passed,
+        )
+    points = obj.get("points")
+    if isinstance(points, bool) or not isinstance(points, int) or not 0 <= points <= MAX_INDEX:
+        raise at.bad(f"end points is {_short(json.dumps(points))}", "a whole number >= 0")
+    return RunFinished(t_s=t_s, outcome=_string(obj, "outcome", kind, at, END_OUTCOMES),  # type: ignore[arg-type]
+                       points=points, message=_string(obj, "message", kind, at))
+
+
+# --- the header -------------------------------------------------------------------------------
+
+
+def decode_header(text: str, at: _Line) -> RunStarted:
+    """Line 1: the JSON header, checked for the keys and types the program relies on."""
+    if text.startswith(POINT_TAG + "\t") or not text.lstrip().startswith("{"):
+        raise at.bad(f"line starts {_short(text[:20])} where the header belongs",
+                     f'the JSON header {{"record": "header", "format": "{FORMAT_NAME}", ...}}')
+    obj = parse_json_object(text, at)
+    if obj.get("format") != FORMAT_NAME or obj.get("record") != "header":
+        raise at.bad(f"not a {FORMAT_NAME} header (format {_short(json.dumps(obj.get('format')))})",
+                     f'"record": "header" and "format": "{FORMAT_NAME}"')
+    schema = obj.get("schema")
+    supported = ", ".join(str(s) for s in SUPPORTED_SCHEMAS)
+    if isinstance(schema, bool) or not isinstance(schema, int):
+        raise at.bad(f"schema is {_short(json.dumps(schema))}", f"an integer schema version ({supported})")
+    if schema not in SUPPORTED_SCHEMAS:
+        newer = "newer than this program reads" if schema > max(SUPPORTED_SCHEMAS) else "unknown"
+        raise at.bad(f"schema version {schema} is {newer}",
+                     f"schema {supported} (a newer benchlog may read this file)")
+    for key in HEADER_REQUIRED:
+        if key not in obj:
+            raise at.bad(f"header has no {key!r}", "every key of " + ", ".join(HEADER_REQUIRED))
+    for key in HEADER_STRINGS:
+        if key in obj and not isinstance(obj[key], str):
+            raise at.bad(f"header {key} is {_short(json.dumps(obj[key]))}", "a string")
+    for key in HEADER_TABLES:
+        if key in obj and not isinstance(obj[key], dict):
+            raise at.bad(f"header {key} is {_short(json.dumps(obj[key]))}", "a JSON object")
+    started = obj["started_utc"]
+    try:
+        if not started.endswith("Z"):
+            raise ValueError
+        datetime.fromisoformat(started[:-1] + "+00:00")
+    except ValueError:
+        raise at.bad(f"header started_utc {_short(started)} is not a UTC time",
+                     "ISO 8601 ending in Z, e.g. 2025-01-31T09:15:02Z") from None
+    columns = obj["point_columns"]
+    if (not isinstance(columns, list) or not all(isinstance(c, str) for c in columns)
+            or sorted(columns) != sorted(POINT_COLUMNS)):
+        raise at.bad(f"header point_columns is {_short(json.dumps(columns), 60)}",
+                     "each of " + ", ".join(POINT_COLUMNS) + " once")
+    element = obj["element"]
+    for key in ELEMENT_STRINGS:
+        if element.get(key) is not None and not isinstance(element.get(key), str):
+            raise at.bad(f"header element.{key} is {_short(json.dumps(element[key]))}", "a string")
+    if not isinstance(element.get("id"), str) or not element["id"]:
+        raise at.bad("header element has no id", "element.id as a non-empty string")
+    ambient = element.get("ambient_c")
+    if ambient is not None and (isinstance(ambient, bool) or not isinstance(ambient, (int, float))
+                                or not ABSOLUTE_ZERO_C <= ambient <= MAX_MAGNITUDE):
+        raise at.bad(f"header element.ambient_c is {_short(json.dumps(ambient))}",
+                     "a temperature in °C or null")
+    frequency = obj.get("line_frequency_hz")
+    if frequency is not None and (isinstance(frequency, bool) or not isinstance(frequency, (int, float))
+                                  or not 0 < frequency <= MAX_MAGNITUDE):
+        raise at.bad(f"header line_frequency_hz is {_short(json.dumps(frequency))}",
+                     "a frequency > 0 in Hz")
+    header = {k: v for k, v in obj.items() if k != "record"}
+    return RunStarted(header=header)
+
+
+# --- point lines ------------------------------------------------------------------------------
+
+
+class PointDecoder:
+    """Decode P lines in the column order of one file's header."""
+
+    def __init__(self, columns: list[str] | tuple[str, ...]) -> None:
+        self.columns = tuple(columns)
+        self.width = len(self.columns)
+
+    def decode(self, text: str, at: _Line) -> Point:
+        fields = text.split("\t")[1:]
+        if len(fields) > self.width:
+            raise at.bad(f"point has {len(fields)} fields", f"{self.width} tab-separated fields after P")
+        fields += [""] * (self.width - len(fields))  # empty trailing fields may be left off
+        raw = dict(zip(self.columns, fields))
+        flags_text = raw["flags"].strip()
+        flags = tuple(flags_text.split("|")) if flags_text else ()
+        for flag in flags:
+            if not FLAG_PATTERN.match(flag):
+                raise at.bad(f"point flag {_short(flag)}", "lower-case words joined by |")
+        values: dict[str, Any] = {"flags": flags}
+        for name in POINT_FLOAT_COLUMNS + POINT_INTEGER_COLUMNS:
+            token = raw[name]
+            if token.strip() == "":
+                if name in ("supply_v", "temperature_c"):
+                    values[name] = None
+                    continue
+                if name in POINT_READING_COLUMNS and "overload" in flags:
+                    values[name] = math.nan
+                    continue
+                raise at.bad(f"point {name} is empty", f"{name} as a number")
+            if not _NUMBER.match(token):
+                raise at.bad(f"point {name} is {_short(token)}", f"{name} as a decimal number")
+            x = float(token)
+            if not math.isfinite(x) or abs(x) > MAX_MAGNITUDE * (MAX_INDEX if name == "index" else 1):
+                raise at.bad(f"point {name} = {token[:30]} is out of range", "a finite bench value")
+            if name in POINT_INTEGER_COLUMNS:
+                if x != int(x) or not 0 <= x <= MAX_INDEX:
+                    raise at.bad(f"point {name} is {_short(token)}", "a whole number >= 0")
+                values[name] = int(x)
+            else:
+                values[name] = x
+        if values["temperature_c"] is not None and values["temperature_c"] < ABSOLUTE_ZERO_C:
+            raise at.bad(f"point temperature_c {values['temperature_c']} is below absolute zero",
+                         "a temperature in °C")
+        mode = raw["supply_mode"].strip()
+        if mode and mode not in SUPPLY_MODES:
+            raise at.bad(f"point supply_mode is {_short(mode)}", "one of " + ", ".join(SUPPLY_MODES))
+        direction = raw["direction"].strip()
+        if direction not in DIRECTIONS:
+            raise at.bad(f"point direction is {_short(direction)}", "up or down")
+        return Point(
+            index=values["index"],
+            t_s=values["t_s"],
+            setpoint_a=values["setpoint_a"],
+            current_a=values["current_a"],
+            drop_v=values["drop_v"],
+            supply_v=values["supply_v"],
+            supply_mode=mode or None,
+            temperature_c=values["temperature_c"],
+            settle_reads=values["settle_reads"],
+            direction=direction,  # type: ignore[arg-type]
+            flags=flags,
+        )
+
+
+# --- the file ---------------------------------------------------------------------------------
+
+
+def is_torn(path: str | os.PathLike[str]) -> bool:
+    """True when the file's last line has no newline (a write cut short by a kill)."""
+    try:
+        with open(path, "rb") as f:
+            f.seek(0, os.SEEK_END)
+            if f.tell() == 0:
+                return False
+            f.seek(-1, os.SEEK_END)
+            return f.read(1) != b"\n"
+    except OSError as exc:
+        raise BadInput(str(path), "", f"cannot read the run file ({exc.strerror or exc})",
+                       "a readable run file") from None
+
+
+def _open(path: str | os.PathLike[str]):
+    try:
+        return open(path, "rb")
+    except OSError as exc:
+        raise BadInput(str(path), "", f"cannot read the run file ({exc.strerror or exc})",
+                       "a readable run file") from None
+
+
+def iter_lines(path: str | os.PathLike[str]) -> Iterator[tuple[int, str]]:
+    """(line number, text without newline) for each complete line; a torn last line is skipped."""
+    source = str(path)
+    with _open(path) as f:
+        number = 0
+        for raw in f:
+            number += 1
+            if not raw.endswith(b"\n"):
+                return  # torn write: the process died inside this line
+            try:
+                text = raw[:-1].decode("utf-8")
+            except UnicodeDecodeError as exc:
+                raise _Line(source, number).bad(f"byte {exc.start + 1} of the line is not UTF-8",
+                                                "UTF-8 text") from None
+            yield number, text
+
+
+def read_records(path: str | os.PathLike[str]) -> Iterator[tuple[int, Event]]:
+    """(line number, event) for every record, each validated, in file order."""
+    source = str(path)
+    decoder: PointDecoder | None = None
+    last_index: int | None = None
+    finished_at = 0
+    for number, text in iter_lines(path):
+        at = _Line(source, number)
+        if decoder is None:
+            started = decode_header(text, at)
+            decoder = PointDecoder(started.header["point_columns"])
+            yield number, started
+            continue
+        if finished_at:
+            raise at.bad(f"a record after the end record of line {finished_at}",
+                         "the end record last")
+        if text.startswith(POINT_TAG + "\t"):
+            point = decoder.decode(text, at)
+            if last_index is not None and point.index <= last_index:
+                raise at.bad(f"point index {point.index} does not increase (previous {last_index})",
+                             "point indices increasing down the file")
+            last_index = point.index
+            yield number, point
+        elif text.startswith("{"):
+            event = decode_record(parse_json_object(text, at), at)
+            if isinstance(event, RunFinished):
+                finished_at = number
+            yield number, event
+        elif text.strip() == "":
+            raise at.bad("empty line", "one record per line")
+        else:
+            raise at.bad(f"line starts {_short(text[:12])}", "a P point line or a JSON record")
+    if decoder is None:
+        raise _Line(source, 1).bad(
+            "no complete header (the file is empty or ends inside its first line)",
+            f"a JSON header line ending in a newline, format {FORMAT_NAME}")
+
+
+def read_events(path: str | os.PathLike[str]) -> Iterator[Event]:
+    """Every event recorded in the run file, validated; BadInput names the line at fault."""
+    for _, event in read_records(path):
+        yield event
