@@ -1,0 +1,477 @@
+"""The benchlog terminal app: one mode per view, shared state on the app, instrument I/O in thread workers.
+
+Threads: probes, sweeps, replays and analysis run in `@work(thread=True)`
+workers. A sweep's events go into an `EventFeed`; a 15 Hz timer on the UI
+thread drains it and redraws once per batch. Endings come back as messages.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable, Sequence
+
+from textual import work
+from textual.app import App
+from textual.binding import Binding
+from textual.message import Message
+
+from .feed import EventFeed
+from .findings import MODELS, RunFindings, study_run
+from .liverun import LiveRun
+from .session import BenchSession, RoleStatus, SweepOutcome
+from .views import VIEWS
+
+REDRAW_HZ = 15.0
+
+VIEW_KEYS = (
+    ("1", "instruments", "Bench"),
+    ("2", "setup", "Set-up"),
+    ("3", "live", "Live"),
+    ("4", "results", "Results"),
+    ("5", "lot", "Lot"),
+    ("6", "archive", "Archive"),
+)
+
+
+@dataclass
+class LotEntry:
+    serial: str
+    run_path: Path | None
+    value: float | None = None
+    std_u: float | None = None
+    verdict: str | None = None
+    outcome: str = ""
+    message: str = ""
+    quantity: str = "value"
+    unit: str = ""
+
+
+@dataclass
+class Workbench:
+    """What the views share: the plan and spec in use, the live run, the findings, the lot so far."""
+
+    plans: list[Path] = field(default_factory=list)
+    specs: list[Path] = field(default_factory=list)
+    plan_path: Path | None = None
+    plan_text: str = ""  # the plan as edited in the set-up view (TOML)
+    spec_path: Path | None = None
+    model: str = "auto"
+    live: LiveRun = field(default_factory=LiveRun)
+    sweep_state: str = "idle"  # idle | running | stopping | finished | replaying
+    last_outcome: SweepOutcome | None = None
+    findings: RunFindings | None = None
+    findings_busy: bool = False
+    roles: list[RoleStatus] = field(default_factory=list)
+    lot: list[LotEntry] = field(default_factory=list)
+    lot_pending_serial: str | None = None
+    lot_summary: Any = None  # benchlog.analysis.lot.LotSummary
+    lot_summary_error: str = ""
+    caution_confirmed: bool = False
+    replay_speed: float | None = 10.0
+
+
+class SweepEnded(Message):
+    def __init__(self, generation: int, outcome: SweepOutcome) -> None:
+        super().__init__()
+        self.generation = generation
+        self.outcome = outcome
+
+
+class FindingsReady(Message):
+    def __init__(self, findings: RunFindings | None, error: str = "") -> None:
+        super().__init__()
+        self.findings = findings
+        self.error = error
+
+
+class RoleProbed(Message):
+    def __init__(self, status: RoleStatus) -> None:
+        super().__init__()
+        self.status = status
+
+
+class BenchApp(App):
+    """Keyboard-first bench UI; `session` is the bench (None: archive and replay only)."""
+
+    CSS_PATH = "benchlog.tcss"
+    TITLE = "benchlog"
+    ENABLE_COMMAND_PALETTE = False
+    MODES = VIEWS
+
+    BINDINGS = [
+        *(Binding(key, f"view('{mode}')", label) for key, mode, label in VIEW_KEYS),
+        Binding("question_mark", "view('help')", "Help", key_display="?"),
+        Binding("s", "stop", "STOP", key_display="s"),
+        Binding("q", "quit_safely", "Quit"),
+        Binding("ctrl+c", "quit_safely", "Quit", show=False, priority=True),
+    ]
+
+    def __init__(
+        self,
+        session: BenchSession | None = None,
+        *,
+        runs_dir: Path | str = "runs",
+        plans: Sequence[Path] = (),
+        specs: Sequence[Path] = (),
+        plan: Path | None = None,
+        spec: Path | None = None,
+        start_view: str = "instruments",
+        clock: Callable[[], float] = time.monotonic,
+        replay: Path | None = None,
+        replay_speed: float | None = 10.0,
+        probe_on_start: bool = True,
+    ) -> None:
+        super().__init__()
+        self.session = session
+        self.runs_dir = Path(runs_dir)
+        self.clock = clock
+        self.feed = EventFeed()
+        self.state = Workbench(plans=[Path(p) for p in plans], specs=[Path(s) for s in specs])
+        self.state.replay_speed = replay_speed
+        if plan is not None:
+            self.state.plan_path = Path(plan)
+            if self.state.plan_path not in self.state.plans:
+                self.state.plans.insert(0, self.state.plan_path)
+        elif self.state.plans:
+            self.state.plan_path = self.state.plans[0]
+        if self.state.plan_path is not None:
+            self.state.plan_text = _read_text(self.state.plan_path)
+        if spec is not None:
+            self.state.spec_path = Path(spec)
+            if self.state.spec_path not in self.state.specs:
+                self.state.specs.insert(0, self.state.spec_path)
+        elif self.state.specs:
+            self.state.spec_path = self.state.specs[0]
+        if session is not None:
+            self.state.roles = session.roles()
+        self._start_view = start_view
+        self._replay_at_start = Path(replay) if replay else None
+        self._probe_on_start = probe_on_start and session is not None
+        self._sweep_started_at: float | None = None
+        self._generation = 0
+        self.messages: list[str] = []  # every message shown, for tests and the help view's log
+
+    # -- modes ----------------------------------------------------------------
+    def on_mount(self) -> None:
+        self.set_interval(1.0 / REDRAW_HZ, self._pump)
+        self.switch_mode(self._start_view)
+        if self._probe_on_start:
+            self.probe_all()
+        if self._replay_at_start is not None:
+            self.start_replay(self._replay_at_start)
+
+    def action_view(self, mode: str) -> None:
+        if self.current_mode != mode:
+            self.switch_mode(mode)
+
+    def redraw(self) -> None:
+        """Ask the visible view to show the shared state again."""
+        from textual.css.query import NoMatches
+
+        refresh = getattr(self.screen, "refresh_view", None)
+        if refresh is not None:
+            try:
+                refresh()
+            except NoMatches:
+                pass  # the view is still being composed; it draws itself when mounted
+
+    def say(self, text: str, *, severity: str = "information") -> None:
+        """A message for the user: kept on the status line of the views and shown as a toast."""
+        self.messages.append(text)
+        if severity != "information":
+            self.notify(text, severity=severity, timeout=8)
+        self.redraw()
+
+    # -- the event pump (UI thread) -------------------------------------------
+    def _pump(self) -> None:
+        events = self.feed.drain()
+        if events:
+            self.state.live.apply(events)
+        if events or self.state.sweep_state in ("running", "stopping", "replaying"):
+            if self.current_mode == "live":
+                self.redraw()
+
+    def elapsed_s(self) -> float | None:
+        if self._sweep_started_at is None:
+            return None
+        if self.state.sweep_state in ("running", "stopping"):
+            return self.clock() - self._sweep_started_at
+        return None
+
+    # -- probing ---------------------------------------------------------------
+    def probe_all(self) -> None:
+        if self.session is None:
+            return
+        for status in self.session.roles():
+            self.probe_role(status.role)
+
+    @work(thread=True, group="probe")
+    def probe_role(self, role: str) -> None:
+        status = self.session.probe(role)
+        self.post_message(RoleProbed(status))
+
+    def on_role_probed(self, message: RoleProbed) -> None:
+        roles = [message.status if r.role == message.status.role else r for r in self.state.roles]
+        self.state.roles = roles
+        if message.status.state != "connected":
+            self.say(f"{message.status.role}: {message.status.message or message.status.state}", severity="warning")
+        self.redraw()
+
+    # -- sweeps ------------------------------------------------------------------
+    def current_plan(self):
+        """The plan as edited in the set-up view, checked; raises BadInput."""
+        from benchlog.badinput import BadInput
+        from benchlog.sweep.plan import parse_plan
+
+        if not self.state.plan_text.strip():
+            raise BadInput("plan", "", "no plan is loaded", "a plan picked in the set-up view")
+        source = str(self.state.plan_path) if self.state.plan_path else "edited plan"
+        return parse_plan(self.state.plan_text, source)
+
+    def request_sweep(self, serial: str | None = None) -> None:
+        """Start a sweep of the current plan, after the safety caution the first time in a session."""
+        from benchlog.badinput import BadInput
+
+        if self.session is None:
+            self.say("No bench is connected: start with --bench BENCH.toml, or use `benchlog demo`.", severity="error")
+            return
+        if self.state.sweep_state in ("running", "stopping", "replaying"):
+            self.say("A run is in progress; stop it first (s).", severity="warning")
+            return
+        try:
+            plan = self.current_plan()
+            if serial is not None:
+                plan = _with_serial(plan, serial)
+        except BadInput as exc:
+            self.say(f"Plan refused: {exc.line()}", severity="error")
+            return
+        if self.state.caution_confirmed:
+            self._start_sweep(plan)
+            return
+        from .views.caution import CautionScreen
+
+        def answered(confirmed: bool | None) -> None:
+            if confirmed:
+                self.state.caution_confirmed = True
+                self._start_sweep(plan)
+            else:
+                self.state.lot_pending_serial = None
+                self.say("Run not started: the caution was not confirmed.")
+
+        self.push_screen(CautionScreen(), answered)
+
+    def _start_sweep(self, plan) -> None:
+        self._generation = self.feed.reset()
+        self.state.live = LiveRun(source="live")
+        self.state.sweep_state = "running"
+        self.state.last_outcome = None
+        self._sweep_started_at = self.clock()
+        self.switch_mode("live") if self.current_mode != "lot" else None
+        self._sweep_worker(plan, self._generation)
+        self.redraw()
+
+    @work(thread=True, exclusive=True, group="sweep")
+    def _sweep_worker(self, plan, generation: int) -> None:
+        push = self.feed.push
+        try:
+            outcome = self.session.sweep(plan, lambda event: push(event, generation))
+        except Exception as exc:  # BadInput, BenchError or anything else: a sentence, never a traceback
+            outcome = SweepOutcome("fault", None, 0, _sentence(exc))
+        self.post_message(SweepEnded(generation, outcome))
+
+    def on_sweep_ended(self, message: SweepEnded) -> None:
+        if message.generation != self._generation:
+            return
+        self.state.live.apply(self.feed.drain())
+        outcome = message.outcome
+        self.state.last_outcome = outcome
+        self.state.sweep_state = "finished"
+        text = {
+            "complete": "Run complete; outputs are off.",
+            "cancelled": "Run stopped by you; outputs are off.",
+            "limit": "Run stopped at a limit; outputs are off.",
+            "fault": "Run stopped by an instrument fault; outputs are off.",
+        }.get(outcome.outcome, f"Run ended ({outcome.outcome}); outputs are off.")
+        detail = f" {outcome.message}" if outcome.message else ""
+        self.say(text + detail, severity="information" if outcome.outcome == "complete" else "warning")
+        if outcome.run_path is not None:
+            self.analyse(outcome.run_path)
+        if self.state.lot_pending_serial is not None:
+            self._lot_part_done(outcome)
+        self.redraw()
+
+    def action_stop(self) -> None:
+        if self.state.sweep_state == "running" and self.session is not None:
+            self.state.sweep_state = "stopping"
+            self.session.cancel()
+            self.say("Stopping: outputs go off within one step.", severity="warning")
+        elif self.state.sweep_state == "replaying":
+            self.feed.reset()
+            self.workers.cancel_group(self, "replay")
+            self.state.sweep_state = "finished"
+            self.say("Replay stopped.")
+        self.redraw()
+
+    # -- replay --------------------------------------------------------------------
+    def start_replay(self, path: Path, speed: float | None | str = "default") -> None:
+        if self.state.sweep_state in ("running", "stopping"):
+            self.say("A run is in progress; stop it first (s).", severity="warning")
+            return
+        if speed == "default":
+            speed = self.state.replay_speed
+        self._generation = self.feed.reset()
+        self.state.live = LiveRun(source="replay")
+        self.state.sweep_state = "replaying"
+        self._sweep_started_at = None
+        self.switch_mode("live")
+        self._replay_worker(Path(path), speed, self._generation)
+
+    @work(thread=True, exclusive=True, group="replay")
+    def _replay_worker(self, path: Path, speed: float | None, generation: int) -> None:
+        from textual.worker import get_current_worker
+
+        from benchlog.runs import replay
+
+        worker = get_current_worker()
+        points = 0
+        try:
+            def sleep(seconds: float) -> None:
+                end = time.monotonic() + seconds
+                while not worker.is_cancelled and time.monotonic() < end:
+                    time.sleep(min(0.05, max(0.0, end - time.monotonic())))
+
+            for event in replay(path, speed=speed, sleep=sleep):
+                if worker.is_cancelled:
+                    return
+                self.feed.push(event, generation)
+                points += 1
+            outcome = SweepOutcome("replayed", path, points, f"Replay of {path.name} finished.")
+        except Exception as exc:
+            outcome = SweepOutcome("fault", None, 0, f"Replay failed: {_sentence(exc)}")
+        self.post_message(ReplayEnded(generation, outcome))
+
+    def on_replay_ended(self, message: "ReplayEnded") -> None:
+        if message.generation != self._generation:
+            return
+        self.state.live.apply(self.feed.drain())
+        self.state.sweep_state = "finished"
+        self.say(message.outcome.message)
+        if message.outcome.run_path is not None:
+            self.analyse(message.outcome.run_path)
+        self.redraw()
+
+    # -- analysis --------------------------------------------------------------------
+    def analyse(self, path: Path, *, model: str | None = None, spec: Path | None | str = "current") -> None:
+        self.state.findings_busy = True
+        model = model or self.state.model
+        spec_path = self.state.spec_path if spec == "current" else spec
+        self._analysis_worker(Path(path), spec_path, model)
+
+    @work(thread=True, exclusive=True, group="analysis")
+    def _analysis_worker(self, path: Path, spec_path: Path | None, model: str) -> None:
+        try:
+            findings = study_run(path, spec_path, model)
+            self.post_message(FindingsReady(findings))
+        except Exception as exc:
+            self.post_message(FindingsReady(None, f"{path.name}: {_sentence(exc)}"))
+
+    def on_findings_ready(self, message: FindingsReady) -> None:
+        self.state.findings_busy = False
+        if message.findings is None:
+            self.say(f"Cannot analyse the run: {message.error}", severity="error")
+            return
+        self.state.findings = message.findings
+        self.redraw()
+
+    def next_model(self) -> str:
+        index = (MODELS.index(self.state.model) + 1) % len(MODELS) if self.state.model in MODELS else 0
+        self.state.model = MODELS[index]
+        return self.state.model
+
+    def next_spec(self) -> Path | None:
+        specs = self.state.specs
+        if not specs:
+            return None
+        index = (specs.index(self.state.spec_path) + 1) % len(specs) if self.state.spec_path in specs else 0
+        self.state.spec_path = specs[index]
+        return self.state.spec_path
+
+    # -- lot -------------------------------------------------------------------------
+    def run_lot_part(self, serial: str) -> None:
+        serial = serial.strip()
+        if not serial:
+            self.say("Type the part's serial first.", severity="warning")
+            return
+        if any(entry.serial == serial for entry in self.state.lot):
+            self.say(f"Serial {serial} is already in this lot.", severity="warning")
+            return
+        self.state.lot_pending_serial = serial
+        self.request_sweep(serial=serial)
+
+    def _lot_part_done(self, outcome: SweepOutcome) -> None:
+        serial = self.state.lot_pending_serial
+        self.state.lot_pending_serial = None
+        entry = LotEntry(serial, outcome.run_path, outcome=outcome.outcome, message=outcome.message)
+        self.state.lot.append(entry)
+        if outcome.run_path is not None:
+            self._lot_worker(entry, self.state.spec_path)
+
+    @work(thread=True, exclusive=True, group="lot")
+    def _lot_worker(self, entry: LotEntry, spec_path: Path | None) -> None:
+        from .lotview import judge_part, summarise
+
+        judge_part(entry, spec_path)
+        runs = [e.run_path for e in self.state.lot if e.run_path is not None and e.value is not None]
+        try:
+            summary, error = summarise(runs, spec_path), ""
+        except Exception as exc:  # a sentence on the screen, never a traceback
+            summary, error = None, _sentence(exc)
+        self.call_from_thread(self._lot_summarised, summary, error)
+
+    def _lot_summarised(self, summary, error: str) -> None:
+        self.state.lot_summary = summary
+        self.state.lot_summary_error = error
+        self.redraw()
+
+    # -- leaving ------------------------------------------------------------------------
+    async def action_quit_safely(self) -> None:
+        if self.session is not None and self.state.sweep_state in ("running", "stopping"):
+            self.session.cancel()
+            self.say("Stopping the run before quitting: outputs go off.", severity="warning")
+            for worker in list(self.workers):
+                if worker.group == "sweep":
+                    await worker.wait()
+        self.exit()
+
+    def on_unmount(self) -> None:
+        if self.session is not None:
+            self.session.cancel()
+
+
+class ReplayEnded(Message):
+    def __init__(self, generation: int, outcome: SweepOutcome) -> None:
+        super().__init__()
+        self.generation = generation
+        self.outcome = outcome
+
+
+def _with_serial(plan, serial: str):
+    import dataclasses
+
+    return dataclasses.replace(plan, element=dataclasses.replace(plan.element, serial=serial))
+
+
+def _read_text(path: Path) -> str:
+    try:
+        return Path(path).read_text(encoding="utf-8")
+    except OSError:
+        return ""
+
+
+def _sentence(exc: BaseException) -> str:
+    line = getattr(exc, "line", None)
+    if callable(line):
+        return line()
+    return (str(exc).strip() or type(exc).__name__).splitlines()[0]

@@ -1,0 +1,86 @@
+"""A recorded run read back and judged: the fit, the spec's prediction, the verdict, self-heating.
+
+Runs on a worker thread (a diode fit of many points takes a moment); each step's
+failure is kept as a sentence, so the results view can show what did work.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+MODELS = ("auto", "resistive", "diode", "knee")
+
+
+@dataclass(frozen=True)
+class RunFindings:
+    path: Path
+    frame: Any  # pandas.DataFrame from benchlog.runs.load
+    meta: Any  # benchlog.runs.load.RunMeta
+    model: str = "auto"
+    fit: Any = None  # benchlog.analysis FitResult
+    fit_error: str = ""
+    spec: Any = None
+    spec_path: Path | None = None
+    check: Any = None
+    check_error: str = ""
+    self_heating: Any = None
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def verdict(self) -> str | None:
+        """"pass" | "fail" | "conditional" | None (no spec or no check)."""
+        if self.check is None:
+            return None
+        for name in ("outcome", "verdict"):
+            value = getattr(self.check, name, None)
+            if isinstance(value, str):
+                return value
+            inner = getattr(value, "outcome", None)
+            if isinstance(inner, str):
+                return inner
+        return None
+
+
+def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") -> RunFindings:
+    """Load `path`, fit it with `model`, and judge it against the spec when one is given."""
+    from benchlog.runs import load
+
+    frame, meta = load(path)
+    fit = None
+    fit_error = ""
+    self_heating = None
+    try:
+        from benchlog.analysis.fits import fit_run
+
+        fit = fit_run(frame, meta, model=model)
+    except Exception as exc:
+        fit_error = _sentence(exc)
+    if fit is not None:
+        try:
+            from benchlog.analysis.fits import detect_self_heating
+
+            self_heating = detect_self_heating(frame, fit)
+        except Exception:
+            self_heating = None
+    spec = None
+    check = None
+    check_error = ""
+    if spec_path is not None:
+        try:
+            from benchlog.analysis.spec import load_spec
+            from benchlog.analysis.verdict import check_run
+
+            spec = load_spec(spec_path)
+            check = check_run(frame, meta, spec)
+        except Exception as exc:
+            check_error = _sentence(exc)
+    return RunFindings(path, frame, meta, model, fit, fit_error, spec, spec_path, check, check_error, self_heating)
+
+
+def _sentence(exc: BaseException) -> str:
+    line = getattr(exc, "line", None)
+    if callable(line):
+        return line()
+    return (str(exc).strip() or type(exc).__name__).splitlines()[0]

@@ -1,0 +1,123 @@
+"""Starting the UI from the command line: `benchlog ui`, `benchlog replay` and `benchlog demo`.
+
+Imported lazily by the CLI, so the headless commands never load textual.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import benchlog
+
+DEMO_DIR = Path(benchlog.__file__).parent / "demo"
+
+
+def demo_plans() -> list[Path]:
+    return sorted((DEMO_DIR / "plans").glob("*.toml"))
+
+
+def demo_specs() -> list[Path]:
+    return sorted((DEMO_DIR / "specs").glob("*.toml"))
+
+
+def spec_for_kind(kind: str, specs: list[Path]) -> Path | None:
+    """The first spec of the same element kind (the demo has one spec per kind)."""
+    from benchlog.analysis.spec import load_spec
+
+    for path in specs:
+        try:
+            if getattr(load_spec(path), "kind", None) == kind:
+                return path
+        except Exception:  # a broken spec is reported when picked, not here
+            continue
+    return specs[0] if specs else None
+
+
+def demo_plan(name: str) -> Path:
+    from benchlog.badinput import BadInput
+
+    candidate = Path(name)
+    if name.endswith(".toml") or candidate.is_file():
+        if not candidate.is_file():
+            raise BadInput("argument", "--plan", f"no plan file {name}", "an existing plan file")
+        return candidate
+    path = DEMO_DIR / "plans" / f"{name}.toml"
+    if not path.is_file():
+        known = ", ".join(p.stem for p in demo_plans()) or "none"
+        raise BadInput("argument", "--plan", f"no demo plan {name!r}", f"one of: {known}")
+    return path
+
+
+def build_demo_app(plan_name: str = "pmos-prototype", out: str | Path = "runs", seed: int = 0):
+    """The app on the built-in simulated bench, with the demo's plans and a matching spec loaded."""
+    from benchlog.sweep.plan import load_plan
+
+    from .app import BenchApp
+    from .session import BenchSession
+
+    plan_path = demo_plan(plan_name)
+    plan = load_plan(plan_path)
+    session = BenchSession.simulated(plan.element, runs_dir=Path(out), seed=seed)
+    specs = demo_specs()
+    plans = demo_plans()
+    return BenchApp(session, runs_dir=Path(out), plans=plans, specs=specs, plan=plan_path,
+                    spec=spec_for_kind(plan.element.kind, specs))
+
+
+def run_demo_ui(args) -> int:
+    """`benchlog demo` without --headless: the UI on the simulated bench; outputs off when it closes."""
+    app = build_demo_app(getattr(args, "plan", "pmos-prototype"), getattr(args, "out", "runs"),
+                         getattr(args, "seed", 0))
+    try:
+        app.run()
+    finally:
+        if app.session is not None:
+            app.session.close()
+    return 0
+
+
+def run_ui(args) -> int:
+    """`benchlog ui [--bench BENCH.toml] [--runs DIR]`."""
+    from .app import BenchApp
+    from .session import BenchSession
+
+    runs = Path(args.runs)
+    session = BenchSession.from_file(Path(args.bench), runs_dir=runs) if args.bench else None
+    plans = [Path(p) for p in (args.plan or [])] or demo_plans()
+    specs = [Path(p) for p in (args.spec or [])] or demo_specs()
+    app = BenchApp(session, runs_dir=runs, plans=plans, specs=specs,
+                   start_view="instruments" if session is not None else "archive")
+    try:
+        app.run()
+    finally:
+        if session is not None:
+            session.close()
+    return 0
+
+
+def run_replay(args) -> int:
+    """`benchlog replay RUN [--speed X]`: the run played in the live view as if it were happening."""
+    from benchlog.badinput import BadInput
+
+    from .app import BenchApp
+
+    run = Path(args.run)
+    if not run.is_file():
+        raise BadInput(run, "", "file not found", "a run file (*.run)")
+    speed = None if args.speed in ("max", "0") else _speed(args.speed)
+    specs = [Path(p) for p in (args.spec or [])] or demo_specs()
+    app = BenchApp(None, runs_dir=run.parent, specs=specs, start_view="live", replay=run, replay_speed=speed)
+    app.run()
+    return 0
+
+
+def _speed(text: str) -> float:
+    from benchlog.badinput import BadInput
+
+    try:
+        value = float(text)
+    except ValueError:
+        value = float("nan")
+    if not (value > 0 and value < 1e6):
+        raise BadInput("argument", "--speed", f"{text!r}", "a factor > 0 (1 = real time) or 'max'")
+    return value

@@ -1,0 +1,54 @@
+"""Judging one part of a lot and summing the lot up (the statistics themselves come from `analysis.lot`)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any, Sequence
+
+from .findings import study_run
+
+
+def part_quantity(findings) -> tuple[str, str, float | None, float | None]:
+    """The number a lot is judged on: R_on for a channel, else the drop at the operating current (Vf)."""
+    fit = findings.fit
+    if fit is None:
+        return ("value", "", None, None)
+    if "r_on_ohm" in fit.params:
+        return ("R_on", "Ω", fit.params["r_on_ohm"], fit.std_u.get("r_on_ohm"))
+    from .views.results import operating_current
+
+    at = operating_current(findings)
+    if at is None:
+        return ("Vf", "V", None, None)
+    value, u = fit.drop_at(at)
+    return ("Vf", "V", float(value), float(u))
+
+
+def judge_part(entry: Any, spec_path: Path | None) -> None:
+    """Fill a `LotEntry` from its run file (worker thread)."""
+    try:
+        findings = study_run(entry.run_path, spec_path)
+    except Exception as exc:
+        entry.message = exc.line() if hasattr(exc, "line") else str(exc)
+        return
+    name, unit, value, u = part_quantity(findings)
+    entry.quantity = name
+    entry.unit = unit
+    entry.value = value
+    entry.std_u = u
+    entry.verdict = findings.verdict
+    if findings.fit_error:
+        entry.message = findings.fit_error
+
+
+QUANTITY_NAMES = {"r_on_ohm": ("R_on", "Ω"), "drop_v": ("Vf", "V")}
+
+
+def summarise(run_paths: Sequence[Path], spec_path: Path | None):
+    """The lot summary of `benchlog.analysis.lot` (mean, σ, Cpk, per-part outcomes); None without a spec."""
+    if spec_path is None or not run_paths:
+        return None
+    from benchlog.analysis.lot import lot_from_runs
+    from benchlog.analysis.spec import load_spec
+
+    return lot_from_runs([str(p) for p in run_paths], load_spec(spec_path))

@@ -1,0 +1,146 @@
+"""The bench as the UI sees it: its roles, a probe of each, and sweeps run on it.
+
+Every method here blocks on instrument I/O, so the app calls them only from
+thread workers. The session owns the simulated bench when it started one, so a
+test can look at the simulator's in-process state (`session.sim.bench`).
+"""
+
+from __future__ import annotations
+
+import threading
+import time
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Callable
+
+from benchlog.runs.events import Event
+
+
+@dataclass(frozen=True)
+class RoleStatus:
+    """One instrument as the instruments view lists it."""
+
+    role: str
+    resource: str
+    profile: str
+    idn: str = ""
+    state: str = "not probed"  # "connected" | "not probed" | "no answer"
+    message: str = ""
+
+
+@dataclass(frozen=True)
+class SweepOutcome:
+    """How a sweep ended, as the runner reported it: outcome, the run file and a sentence for the user."""
+
+    outcome: str  # complete | cancelled | limit | fault
+    run_path: Path | None
+    points: int
+    message: str = ""
+
+
+class BenchSession:
+    """A bench set up from a bench file (or the built-in simulated one) that the UI may probe and sweep."""
+
+    def __init__(self, setup: Any, *, runs_dir: Path, sim: Any = None, label: str = "",
+                 clock: Callable[[], float] = time.monotonic, sleep: Callable[[float], None] = time.sleep) -> None:
+        self.setup = setup
+        self.sim = sim
+        self.runs_dir = Path(runs_dir)
+        self.label = label or (f"simulated bench" if sim is not None else str(getattr(setup, "source", "bench")))
+        self.clock = clock
+        self.sleep = sleep
+        self._runner = None
+        self._lock = threading.Lock()
+        self._cancelled = False
+
+    @classmethod
+    def simulated(cls, element: str, *, runs_dir: Path, seed: int = 1, **kwargs: Any) -> "BenchSession":
+        """Start the built-in simulated bench for `element` and wrap it."""
+        from benchlog.sweep.simbench import builtin_bench
+
+        setup, running = builtin_bench(element, seed)
+        return cls(setup, runs_dir=runs_dir, sim=running, label=f"simulated bench ({element})", **kwargs)
+
+    @classmethod
+    def from_file(cls, path: Path, *, runs_dir: Path, **kwargs: Any) -> "BenchSession":
+        from benchlog.sweep.bench_file import load_bench
+
+        return cls(load_bench(path), runs_dir=runs_dir, label=str(path), **kwargs)
+
+    # -- no I/O -------------------------------------------------------------
+    def roles(self) -> list[RoleStatus]:
+        return [RoleStatus(name, spec.resource, str(spec.profile)) for name, spec in self.setup.roles.items()]
+
+    # -- blocking I/O (workers only) -----------------------------------------
+    def probe(self, role: str) -> RoleStatus:
+        """Open the role, read `*IDN?`, match it to its profile, leave it in its safe state and close it."""
+        from benchlog.instruments.connect import open_role
+
+        spec = self.setup.roles[role]
+        try:
+            instrument = open_role(role, spec.resource, spec.profile, backend=spec.backend)
+        except Exception as exc:  # shown to the user as a sentence, never a traceback
+            return RoleStatus(role, spec.resource, str(spec.profile), state="no answer", message=_sentence(exc))
+        try:
+            idn = instrument.idn
+            idn_text = ",".join((idn.manufacturer, idn.model, idn.serial, idn.firmware)) if hasattr(idn, "model") else str(idn)
+            profile = getattr(instrument.profile, "name", str(spec.profile))
+            return RoleStatus(role, spec.resource, profile, idn_text, "connected")
+        finally:
+            _close(instrument)
+
+    def sweep(self, plan: Any, on_event: Callable[[Event], None]) -> SweepOutcome:
+        """Run one sweep to its end (or cancel); every event goes to `on_event` as it happens.
+
+        `sweep.session.run_sweep` is the same path the CLI takes: the feasibility
+        checks before power, the durable run file, and the runner's safe-state
+        guard that switches every output off however the run ends.
+        """
+        from benchlog.sweep.session import run_sweep
+
+        with self._lock:
+            self._cancelled = False
+        try:
+            result = run_sweep(plan, self.setup, self.runs_dir, on_event=on_event, on_runner=self._hold_runner)
+        finally:
+            with self._lock:
+                self._runner = None
+        return SweepOutcome(result.outcome, result.run_file, result.points, result.message)
+
+    def _hold_runner(self, runner: Any) -> None:
+        with self._lock:
+            self._runner = runner
+            cancel_now = self._cancelled
+        if cancel_now:
+            runner.cancel()
+
+    def cancel(self) -> None:
+        """Ask the running sweep to stop; the runner reaches the safe state within one step. Thread-safe."""
+        with self._lock:
+            self._cancelled = True
+            runner = self._runner
+        if runner is not None:
+            runner.cancel()
+
+    def close(self) -> None:
+        self.cancel()
+        if self.sim is not None:
+            self.sim.stop()
+
+
+def _sentence(exc: BaseException) -> str:
+    line = getattr(exc, "line", None)
+    if callable(line):
+        return line()
+    text = str(exc).strip() or type(exc).__name__
+    return text.splitlines()[0]
+
+
+def _close(instrument: Any) -> None:
+    for name in ("close",):
+        fn = getattr(instrument, name, None) or getattr(getattr(instrument, "transport", None), name, None)
+        if fn is not None:
+            try:
+                fn()
+            except Exception:
+                pass

@@ -1,0 +1,56 @@
+"""Numbers for people: SI prefixes, values with their uncertainty, short durations.
+
+The uncertainty is shown as `value ± U (k=2)` with U rounded to two significant
+digits and the value to the same decimal place, as JCGM 100:2008 (GUM) 7.2.6 advises
+("the numerical values ... should not be given with an excessive number of digits").
+"""
+
+from __future__ import annotations
+
+import math
+
+_PREFIXES = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "µ"), (1e-9, "n"), (1e-12, "p"))
+
+
+def prefix_for(magnitude: float) -> tuple[float, str]:
+    """The SI prefix (scale, symbol) that puts `magnitude` in [1, 1000)."""
+    magnitude = abs(magnitude)
+    if not math.isfinite(magnitude) or magnitude == 0.0:
+        return 1.0, ""
+    for scale, symbol in _PREFIXES:
+        if magnitude >= scale * 0.9995:
+            return scale, symbol
+    return _PREFIXES[-1]
+
+
+def si(value: float | None, unit: str, digits: int = 4) -> str:
+    """`0.02612` Ω -> `26.12 mΩ`; None or non-finite -> `—`."""
+    if value is None or not math.isfinite(value):
+        return "—"
+    scale, symbol = prefix_for(value)
+    scaled = value / scale
+    decimals = max(0, digits - 1 - int(math.floor(math.log10(abs(scaled))))) if scaled else digits - 1
+    return f"{scaled:.{decimals}f} {symbol}{unit}"
+
+
+def with_uncertainty(value: float, std_u: float, unit: str, k: float = 2.0) -> str:
+    """`value ± k·u unit (k=2)`, both in the value's prefix; U to two significant digits (GUM 7.2.6)."""
+    if value is None or not math.isfinite(value):
+        return "—"
+    expanded = k * std_u if std_u is not None and math.isfinite(std_u) else None
+    scale, symbol = prefix_for(value if value else (expanded or 0.0))
+    if expanded is None or expanded <= 0.0:
+        return f"{si(value, unit)} (no uncertainty)"
+    scaled_u = expanded / scale
+    decimals = max(0, 1 - int(math.floor(math.log10(scaled_u))))
+    return f"{value / scale:.{decimals}f} ± {scaled_u:.{decimals}f} {symbol}{unit} (k={k:g})"
+
+
+def duration(seconds: float | None) -> str:
+    """`75.4` -> `1:15`; hours as `1:02:03`; None -> `—`."""
+    if seconds is None or not math.isfinite(seconds) or seconds < 0:
+        return "—"
+    whole = int(round(seconds))
+    hours, rest = divmod(whole, 3600)
+    minutes, secs = divmod(rest, 60)
+    return f"{hours}:{minutes:02d}:{secs:02d}" if hours else f"{minutes}:{secs:02d}"

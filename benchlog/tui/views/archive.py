@@ -1,0 +1,260 @@
+"""The archive view: the run files in a folder; open one, replay it, re-judge it, overlay two."""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from pathlib import Path
+
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.screen import Screen
+from textual.widgets import DataTable, Static
+
+from ..plotting import Axis, Series
+from ..widgets import CurvePlot, KeyBar
+from .base import View
+from .results import VERDICT_WORDS
+
+SPEEDS = (1.0, 10.0, 100.0, None)  # None: as fast as possible
+
+
+def speed_text(speed: float | None) -> str:
+    return "max" if speed is None else f"{speed:g}×"
+
+
+@dataclass(frozen=True)
+class RunEntry:
+    """One run file as the archive lists it (read from its first and last records only)."""
+
+    path: Path
+    started_utc: str
+    element: str
+    kind: str
+    serial: str
+    outcome: str
+
+
+def scan_run(path: Path) -> RunEntry:
+    """Header and end record of a run file, cheaply: the archive must list hundreds of runs at once."""
+    started = element = kind = serial = ""
+    outcome = "incomplete"
+    with open(path, "rb") as handle:
+        first = handle.readline()
+        try:
+            header = json.loads(first)
+            started = str(header.get("started_utc", ""))
+            el = header.get("element") or {}
+            element, kind, serial = str(el.get("id", "")), str(el.get("kind", "")), str(el.get("serial", ""))
+        except (ValueError, AttributeError):
+            outcome = "unreadable"
+        handle.seek(0, 2)
+        size = handle.tell()
+        handle.seek(max(0, size - 4096))
+        tail = handle.read().split(b"\n")
+    for line in reversed(tail):
+        if line.startswith(b"{") and b'"end"' in line:
+            try:
+                outcome = str(json.loads(line).get("outcome", outcome))
+            except ValueError:
+                pass
+            break
+    return RunEntry(path, started, element, kind, serial, outcome)
+
+
+def list_runs(folder: Path) -> list[RunEntry]:
+    entries = []
+    for path in sorted(folder.rglob("*.run")):
+        try:
+            entries.append(scan_run(path))
+        except OSError:
+            continue
+    return sorted(entries, key=lambda e: (e.started_utc, str(e.path)), reverse=True)
+
+
+class ArchiveView(View):
+    TITLE_TEXT = "Archive"
+    BINDINGS = [
+        Binding("o", "open_run", "Open"),
+        Binding("p", "replay", "Replay"),
+        Binding("right_square_bracket", "faster", "Faster", key_display="]"),
+        Binding("left_square_bracket", "slower", "Slower", key_display="["),
+        Binding("a", "mark('a')", "Mark A"),
+        Binding("b", "mark('b')", "Mark B"),
+        Binding("v", "overlay", "Overlay A+B"),
+        Binding("m", "refit_model", "Re-fit model"),
+        Binding("k", "refit_spec", "Re-judge spec"),
+        Binding("g", "rescan", "Rescan"),
+    ]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.entries: list[RunEntry] = []
+        self.verdicts: dict[tuple[Path, Path | None], str] = {}
+        self.marks: dict[str, Path] = {}
+
+    def body(self) -> ComposeResult:
+        yield Static("", id="archive-head")
+        table = DataTable(id="runs", cursor_type="row")
+        table.add_columns("date (UTC)", "element", "serial", "outcome", "verdict", "file")
+        yield table
+
+    def on_mount(self) -> None:
+        self.rescan()
+        super().on_mount()
+
+    def rescan(self) -> None:
+        folder = self.app.runs_dir
+        self.entries = list_runs(folder) if folder.is_dir() else []
+        self._fill()
+        self._judge_all(list(self.entries), self.app.state.spec_path)
+
+    @work(thread=True, exclusive=True, group="archive-verdicts")
+    def _judge_all(self, entries: list[RunEntry], spec: Path | None) -> None:
+        if spec is None:
+            return
+        from textual.worker import get_current_worker
+
+        from ..findings import study_run
+
+        worker = get_current_worker()
+        for entry in entries:
+            if worker.is_cancelled:
+                return
+            key = (entry.path, spec)
+            if key in self.verdicts:
+                continue
+            try:
+                verdict = study_run(entry.path, spec).verdict or "—"
+            except Exception:
+                verdict = "unreadable"
+            self.verdicts[key] = verdict
+            self.app.call_from_thread(self._fill)
+
+    def _fill(self) -> None:
+        table = self.query_one("#runs", DataTable)
+        row = table.cursor_row
+        table.clear()
+        spec = self.app.state.spec_path
+        for entry in self.entries:
+            marks = "".join(k.upper() for k, p in sorted(self.marks.items()) if p == entry.path)
+            verdict = self.verdicts.get((entry.path, spec), "…" if spec else "—")
+            table.add_row(entry.started_utc.replace("T", " ")[:19], f"{entry.element} {entry.kind}"[:18],
+                          entry.serial or "—", entry.outcome, VERDICT_WORDS.get(verdict, verdict),
+                          (f"[{marks}] " if marks else "") + entry.path.name, key=str(entry.path))
+        if self.entries:
+            table.move_cursor(row=min(max(row, 0), len(self.entries) - 1))
+        self._head()
+
+    def _head(self) -> None:
+        state = self.app.state
+        spec = state.spec_path.name if state.spec_path else "none"
+        marks = "  ".join(f"{k.upper()}={p.name}" for k, p in sorted(self.marks.items())) or "none"
+        self.query_one("#archive-head", Static).update(
+            f" folder {self.app.runs_dir} · {len(self.entries)} runs · replay speed {speed_text(state.replay_speed)}"
+            f"\n spec {spec} · model {state.model} · marked {marks}")
+
+    def refresh_view(self) -> None:
+        super().refresh_view()
+        if self.is_mounted:
+            self._fill()
+
+    def selected(self) -> RunEntry | None:
+        if not self.entries:
+            return None
+        table = self.query_one("#runs", DataTable)
+        return self.entries[min(max(table.cursor_row, 0), len(self.entries) - 1)]
+
+    def action_open_run(self) -> None:
+        entry = self.selected()
+        if entry is None:
+            self.app.say("No runs in this folder.")
+            return
+        self.app.state.findings = None
+        self.app.analyse(entry.path)
+        self.app.switch_mode("results")
+
+    def on_data_table_row_selected(self, _event) -> None:
+        self.action_open_run()
+
+    def action_replay(self) -> None:
+        entry = self.selected()
+        if entry is not None:
+            self.app.say(f"Replaying {entry.path.name} at {speed_text(self.app.state.replay_speed)} …")
+            self.app.start_replay(entry.path)
+
+    def _step_speed(self, step: int) -> None:
+        state = self.app.state
+        index = SPEEDS.index(state.replay_speed) if state.replay_speed in SPEEDS else 1
+        state.replay_speed = SPEEDS[max(0, min(len(SPEEDS) - 1, index + step))]
+        self._head()
+
+    def action_faster(self) -> None:
+        self._step_speed(+1)
+
+    def action_slower(self) -> None:
+        self._step_speed(-1)
+
+    def action_mark(self, which: str) -> None:
+        entry = self.selected()
+        if entry is not None:
+            self.marks[which] = entry.path
+            self._fill()
+
+    def action_overlay(self) -> None:
+        if len(self.marks) < 2:
+            self.app.say("Mark two runs first: a on one, b on another, then v.")
+            return
+        self.app.push_screen(OverlayScreen(self.marks["a"], self.marks["b"]))
+
+    def action_refit_model(self) -> None:
+        entry = self.selected()
+        if entry is not None:
+            model = self.app.next_model()
+            self.app.say(f"Re-fitting {entry.path.name} with the {model} model …")
+            self.app.analyse(entry.path, model=model)
+            self.app.switch_mode("results")
+
+    def action_refit_spec(self) -> None:
+        entry = self.selected()
+        spec = self.app.next_spec()
+        if spec is None:
+            self.app.say("No part specs to pick from.")
+            return
+        self._fill()
+        self._judge_all(list(self.entries), spec)
+
+    def action_rescan(self) -> None:
+        self.rescan()
+
+
+class OverlayScreen(Screen):
+    """Two runs on one V–I plot: A as braille dots, B as `+` marks, named in the legend."""
+
+    BINDINGS = [Binding("escape,v", "app.pop_screen", "Back")]
+
+    def __init__(self, a: Path, b: Path) -> None:
+        super().__init__()
+        self.paths = (a, b)
+
+    def compose(self) -> ComposeResult:
+        yield Static(f" benchlog ▸ Overlay   │ A = {self.paths[0].name}   B = {self.paths[1].name}", id="view-title")
+        yield CurvePlot(Axis("current", "A"), Axis("drop", "V"), id="overlay-plot")
+        yield Static("", id="status-line")
+        yield KeyBar(id="keybar")
+
+    def on_mount(self) -> None:
+        from benchlog.runs import load
+
+        series = []
+        for label, path, kind in (("A", self.paths[0], "dots"), ("B", self.paths[1], "marks")):
+            try:
+                frame, _meta = load(path)
+            except Exception as exc:
+                self.query_one("#status-line", Static).update(f" {label}: {exc}")
+                continue
+            series.append(Series(f"{label} {path.stem}", frame["current_a"].to_numpy(float),
+                                 frame["drop_v"].to_numpy(float), kind=kind, glyph="+",
+                                 style="series-a" if kind == "dots" else "series-b"))
+        self.query_one("#overlay-plot", CurvePlot).show(series)

@@ -1,0 +1,107 @@
+"""The live view: the curves growing as points arrive, the latest points, progress, supply state and limits.
+
+It draws from the app's `LiveRun` when the app's timer says a batch arrived, so
+redraws stay at ~15 per second however fast the points come.
+"""
+
+from __future__ import annotations
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.widgets import DataTable, Static
+
+from ..plotting import Axis, Series
+from ..units import duration, si
+from ..widgets import CurvePlot, bar
+from .base import View
+
+LATEST_ROWS = 8
+
+
+class LiveView(View):
+    TITLE_TEXT = "Live sweep"
+    BINDINGS = [
+        Binding("r", "run", "Run again"),
+        Binding("escape", "app.stop", "Stop", show=False),
+    ]
+
+    def body(self) -> ComposeResult:
+        yield Static("", id="live-head")
+        with Horizontal(id="live-body"):
+            with Vertical(id="live-plots"):
+                yield CurvePlot(Axis("current", "A"), Axis("drop", "V"), id="plot-vi")
+                yield CurvePlot(Axis("current", "A"), Axis("loss", "W"), id="plot-loss")
+            with Vertical(id="live-side"):
+                yield Static("", id="live-limits")
+                table = DataTable(id="latest", show_cursor=False)
+                table.add_columns("#", "I", "drop", "mode")
+                yield table
+        yield Static("", id="live-alert")
+
+    def refresh_view(self) -> None:
+        super().refresh_view()
+        app = self.app
+        live = app.state.live
+        elapsed = app.elapsed_s()
+        progress = live.progress(elapsed)
+        element = live.element
+        if not live.started:
+            head = " No run yet: r starts one (set-up view: 2), an archived run replays from 6."
+        else:
+            who = f"{element.get('id', '?')} {element.get('kind', '')}"
+            if element.get("serial"):
+                who += f" #{element['serial']}"
+            planned = f"/{progress.planned}" if progress.planned else ""
+            kind = "replay" if live.source == "replay" else "live"
+            head = (f" {who} │ {kind} │ supply {live.supply_mode()} │ elapsed {duration(progress.elapsed_s)}"
+                    f" │ ETA {duration(progress.eta_s)}\n"
+                    f" {bar(progress.fraction, 24)} {progress.done}{planned} points")
+        self.query_one("#live-head", Static).update(head)
+
+        data = live.arrays()
+        self.query_one("#plot-vi", CurvePlot).show([Series("drop (measured)", data["current_a"], data["drop_v"])])
+        self.query_one("#plot-loss", CurvePlot).show([Series("loss I·V", data["current_a"], data["power_w"],
+                                                             kind="marks", glyph="•", style="series-b")])
+        self._show_limits(live, elapsed)
+        self._show_latest(live)
+        self._show_alert(live)
+
+    def _show_limits(self, live, elapsed) -> None:
+        lines = ["limits (used)"]
+        for use in live.limits(elapsed):
+            pct = use.fraction * 100
+            mark = "‼" if pct >= 100 else ("!" if pct >= 80 else " ")
+            if use.unit == "s":
+                value = f"{duration(use.worst)}/{duration(use.limit)}"
+            else:
+                value = f"{si(use.worst, use.unit, 3)}/{si(use.limit, use.unit, 3)}"
+            lines.append(f"{mark}{use.what:<8} {pct:3.0f}% {value}")
+        if len(lines) == 1:
+            lines.append(" (none recorded)")
+        self.query_one("#live-limits", Static).update("\n".join(lines))
+
+    def _show_latest(self, live) -> None:
+        table = self.query_one("#latest", DataTable)
+        table.clear()
+        for p in live.points[-LATEST_ROWS:][::-1]:
+            flags = "*" if p.flags else ""
+            table.add_row(str(p.index), si(p.current_a, "A", 3), si(p.drop_v, "V", 4) + flags, p.supply_mode or "—")
+
+    def _show_alert(self, live) -> None:
+        alert = self.query_one("#live-alert", Static)
+        serious = [n for n in live.notes if n.kind in ("limit", "fault", "cancel")]
+        outcome = self.app.state.last_outcome
+        if serious:
+            note = serious[-1]
+            alert.update(f" {note.kind.upper()}: {note.message} — outputs are off.")
+        elif outcome is not None and outcome.outcome not in ("complete",) and outcome.message:
+            alert.update(f" {outcome.outcome.upper()}: {outcome.message} — outputs are off.")
+        elif live.finished is not None:
+            alert.update(f" Run {live.finished.outcome}: {live.finished.points} points. Results: 4.")
+        else:
+            alert.update("")
+        alert.set_class(bool(serious) or (outcome is not None and outcome.outcome in ("fault", "limit")), "bad")
+
+    def action_run(self) -> None:
+        self.app.request_sweep()

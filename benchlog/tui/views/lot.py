@@ -1,0 +1,110 @@
+"""The lot view: incoming inspection — type the next serial, run it, see each part's verdict and the lot's spread."""
+
+from __future__ import annotations
+
+import math
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.widgets import DataTable, Input, Static
+
+from ..plotting import Axis
+from ..units import si, with_uncertainty
+from ..lotview import QUANTITY_NAMES
+from ..widgets import HistogramPlot
+from .base import View
+from .results import VERDICT_WORDS
+
+
+class LotView(View):
+    TITLE_TEXT = "Lot"
+    AUTO_FOCUS = None  # n moves to the serial box; after Enter the keys belong to the view again (s stops)
+    BINDINGS = [
+        Binding("n", "focus_serial", "Next serial"),
+        Binding("escape", "leave_field", "Leave field", show=False),
+    ]
+
+    def body(self) -> ComposeResult:
+        with Horizontal(id="lot-entry"):
+            yield Static(" next serial ▸", id="lot-prompt")
+            yield Input(placeholder="n, then type the serial; Enter runs it", id="lot-serial", compact=True)
+        with Horizontal(id="lot-body"):
+            table = DataTable(id="lot-parts", cursor_type="row")
+            table.add_columns("serial", "value ± U", "verdict")
+            yield table
+            with Vertical(id="lot-side"):
+                yield Static("", id="lot-stats")
+                yield HistogramPlot(Axis("value", ""), id="lot-histogram")
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        if event.input.id == "lot-serial":
+            serial = event.value
+            event.input.value = ""
+            self.set_focus(None)  # keys (s to stop) belong to the view while the part is measured
+            self.app.run_lot_part(serial)
+
+    def action_focus_serial(self) -> None:
+        self.query_one("#lot-serial", Input).focus()
+
+    def action_leave_field(self) -> None:
+        self.set_focus(None)
+
+    def refresh_view(self) -> None:
+        super().refresh_view()
+        state = self.app.state
+        summary = state.lot_summary
+        by_run = {str(part.run): part for part in getattr(summary, "parts", ())}
+        table = self.query_one("#lot-parts", DataTable)
+        table.clear()
+        for entry in state.lot:
+            part = by_run.get(str(entry.run_path)) if entry.run_path else None
+            if entry.value is None:
+                value = entry.message[:30] if entry.message else ("…" if entry.run_path else "no run")
+            else:
+                value = with_uncertainty(entry.value, entry.std_u or 0.0, entry.unit).replace(" (k=2)", "")
+            outcome = part.outcome if part is not None else entry.verdict
+            verdict = VERDICT_WORDS.get(outcome or "", "—" if entry.outcome == "complete" else entry.outcome)
+            if part is not None and part.outlier:
+                verdict += " ‼outlier"
+            table.add_row(entry.serial, value, verdict)
+        if state.lot_pending_serial:
+            table.add_row(state.lot_pending_serial, "measuring …", "")
+        self._show_stats()
+
+    def _show_stats(self) -> None:
+        state = self.app.state
+        summary = state.lot_summary
+        stats = self.query_one("#lot-stats", Static)
+        histogram = self.query_one("#lot-histogram", HistogramPlot)
+        measured = [e for e in state.lot if e.value is not None]
+        lines = [f" parts {len(state.lot)} measured {len(measured)}"]
+        if summary is None:
+            if state.lot_summary_error:
+                lines.append(f" ✘ {state.lot_summary_error}")
+            elif state.spec_path is None:
+                lines.append(" no part spec (k in set-up): no limits, no Cpk")
+            else:
+                lines.append(" type a serial, Enter measures it")
+            unit = measured[0].unit if measured else ""
+            name = measured[0].quantity if measured else "value"
+            stats.update("\n".join(lines))
+            histogram.show([e.value for e in measured], Axis(name, unit), None, None)
+            return
+        name, unit = QUANTITY_NAMES.get(summary.quantity, (summary.quantity, ""))
+        c = summary.counts
+        lines[0] += f": PASS {c.get('pass', 0)} FAIL {c.get('fail', 0)} COND {c.get('conditional', 0)}"
+        lines.append(f" {name} mean {si(summary.mean, unit)}  σ {si(summary.std, unit, 3)}")
+        lines.append(f" min {si(summary.min, unit)}  max {si(summary.max, unit)}")
+        limits = "  ".join(f"{label} {si(v, unit)}" for label, v in (("LSL", summary.lsl), ("USL", summary.usl))
+                           if v is not None)
+        if limits:
+            lines.append(f" {limits}")
+        if summary.capability is not None:
+            lines.append(f" {summary.capability_name} {summary.capability:.2f}   outliers {summary.outliers}")
+        else:
+            lines.append(f" capability: none yet   outliers {summary.outliers}")
+        lines.append(f" LOT: {VERDICT_WORDS.get(summary.outcome, summary.outcome.upper())}")
+        lines.extend(f" · {note}" for note in summary.notes[:2])
+        stats.update("\n".join(lines))
+        histogram.show([p.value for p in summary.parts], Axis(name, unit), summary.lsl, summary.usl)

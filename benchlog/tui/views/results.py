@@ -1,0 +1,230 @@
+"""The results view: fitted parameters with uncertainty, measured against predicted loss, the verdict and its rule."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.widgets import Static
+
+from ..findings import RunFindings
+from ..plotting import Axis, Series, line_series
+from ..units import si, with_uncertainty
+from ..widgets import CurvePlot
+from .base import View
+
+#: Fitted parameter keys: the name people use and the unit.
+PARAM_NAMES = {
+    "r_on_ohm": ("R_on", "Ω"), "v0_v": ("V0", "V"), "ideality": ("n", ""), "i_s_a": ("Is", "A"),
+    "r_s_ohm": ("Rs", "Ω"), "v_knee_v": ("V_knee", "V"), "r_d_ohm": ("r_d", "Ω"),
+}
+
+VERDICT_WORDS = {"pass": "PASS ✔", "fail": "FAIL ✘", "conditional": "COND ◆"}
+
+
+def operating_current(findings: RunFindings) -> float | None:
+    """The current the verdict is given at: the check's, the plan's operating_a, else the largest measured."""
+    for name in ("at_a", "current_a", "operating_a"):
+        value = getattr(findings.check, name, None) if findings.check is not None else None
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            return float(value)
+    element = findings.meta.header.get("plan", {}).get("element", {}) if findings.meta is not None else {}
+    if element.get("operating_a"):
+        return float(element["operating_a"])
+    if findings.frame is not None and len(findings.frame):
+        return float(np.nanmax(findings.frame["current_a"].to_numpy()))
+    return None
+
+
+def check_lines(check) -> list[str]:
+    """What the verdict's check says, field by field, in words: measured, predicted, limit, rule."""
+    lines = []
+    for attr, label, unit in (("measured_loss_w", "measured loss", "W"), ("measured_drop_v", "measured drop", "V"),
+                              ("predicted_loss_w", "predicted loss (typ)", "W"),
+                              ("predicted_max_loss_w", "predicted loss (max)", "W"), ("limit_w", "limit", "W"),
+                              ("tj_c", "Tj predicted", "°C")):
+        value = getattr(check, attr, None)
+        if isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value):
+            shown = f"{value:.1f} °C" if unit == "°C" else si(value, unit)
+            lines.append(f"  {label:<22}{shown}")
+    return lines
+
+
+def verdict_rule(check) -> str:
+    for holder in (check, getattr(check, "verdict", None)):
+        rule = getattr(holder, "rule", None)
+        if isinstance(rule, str) and rule:
+            return rule
+    return ""
+
+
+class ResultsView(View):
+    TITLE_TEXT = "Results"
+    BINDINGS = [
+        Binding("t", "toggle_plot", "Curve/residuals"),
+        Binding("m", "next_model", "Model"),
+        Binding("k", "next_spec", "Spec"),
+        Binding("e", "export", "Export report"),
+    ]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.show_residuals = False
+
+    def body(self) -> ComposeResult:
+        with Horizontal(id="results-body"):
+            with VerticalScroll(id="results-text"):
+                yield Static("", id="verdict")
+                yield Static("", id="fit-table")
+                yield Static("", id="operating")
+                yield Static("", id="warnings")
+            with Vertical(id="results-plot-box"):
+                yield CurvePlot(Axis("current", "A"), Axis("drop", "V"), id="results-plot")
+
+    def refresh_view(self) -> None:
+        super().refresh_view()
+        findings = self.app.state.findings
+        verdict = self.query_one("#verdict", Static)
+        if findings is None:
+            waiting = "analysing the run …" if self.app.state.findings_busy else "no run analysed yet"
+            verdict.update(f" {waiting}\n Run a sweep (2 then r) or open one from the archive (6).")
+            for name in ("#fit-table", "#operating", "#warnings"):
+                self.query_one(name, Static).update("")
+            self.query_one("#results-plot", CurvePlot).show([])
+            return
+        self._show_verdict(findings)
+        self._show_fit(findings)
+        self._show_operating(findings)
+        self._show_warnings(findings)
+        self._show_plot(findings)
+
+    def _show_verdict(self, f: RunFindings) -> None:
+        box = self.query_one("#verdict", Static)
+        outcome = f.verdict
+        for cls in ("pass", "fail", "conditional"):
+            box.set_class(outcome == cls, f"verdict-{cls}")
+        element = f.meta.element or {}
+        who = f"{element.get('id', '?')} #{element.get('serial') or '—'}"
+        if outcome is None:
+            why = f.check_error or ("no part spec picked (k)" if f.spec_path is None else "no verdict")
+            box.update(f" VERDICT: none — {why}\n run {f.path.name} · {who} · {f.meta.outcome}")
+            return
+        rule = verdict_rule(f.check)
+        spec_name = f.spec_path.name if f.spec_path else ""
+        box.update(f" VERDICT: {VERDICT_WORDS.get(outcome, outcome.upper())}  against {spec_name}\n"
+                   f" rule: {rule or 'as stated by the check'}\n run {f.path.name} · {who} · {f.meta.outcome}")
+
+    def _show_fit(self, f: RunFindings) -> None:
+        box = self.query_one("#fit-table", Static)
+        if f.fit is None:
+            box.update(f" fit ({f.model}): ✘ {f.fit_error or 'not possible'}")
+            return
+        fit = f.fit
+        lines = [f" fit: {fit.model} model (asked: {f.model}), {fit.points} points",
+                 f"  why: {fit.reason}"]
+        k = getattr(fit, "k", 2.0)
+        for key, value in fit.params.items():
+            name, unit = PARAM_NAMES.get(key, (key, ""))
+            u = fit.std_u.get(key)
+            shown = with_uncertainty(value, u, unit, k) if u is not None else si(value, unit)
+            if not unit:
+                shown = f"{value:.4g} ± {k * u:.2g} (k={k:g})" if u is not None else f"{value:.4g}"
+            lines.append(f"  {name:<7}{shown}")
+        outliers = int(np.count_nonzero(fit.outliers)) if fit.outliers is not None else 0
+        lines.append(f"  outliers: {outliers} flagged (kept in the file)")
+        box.update("\n".join(lines))
+
+    def _show_operating(self, f: RunFindings) -> None:
+        box = self.query_one("#operating", Static)
+        at = operating_current(f)
+        lines = []
+        if at is not None and f.fit is not None:
+            drop, u_drop = f.fit.drop_at(at)
+            lines.append(f" at {si(at, 'A')} (operating point)")
+            lines.append(f"  drop (fit)            {with_uncertainty(drop, u_drop, 'V')}")
+            lines.append(f"  loss measured         {with_uncertainty(drop * at, u_drop * at, 'W')}")
+        if f.check is not None:
+            lines.extend(check_lines(f.check))
+        elif f.check_error:
+            lines.append(f"  prediction: ✘ {f.check_error}")
+        box.update("\n".join(lines))
+
+    def _show_warnings(self, f: RunFindings) -> None:
+        box = self.query_one("#warnings", Static)
+        lines = []
+        sh = f.self_heating
+        if sh is not None and getattr(sh, "detected", False):
+            rise = getattr(sh, "delta_t_c", None)
+            lines.append(f" ⚠ SELF-HEATING: {sh.reason}" + (f" (about +{rise:.1f} K)" if rise else ""))
+        for note in getattr(f.meta, "notes", ()) or ():
+            if getattr(note, "kind", "") in ("limit", "fault", "warning", "cancel"):
+                lines.append(f" ⚠ {note.kind}: {note.message}")
+        if f.fit is not None:
+            lines.extend(f" · {n}" for n in f.fit.notes)
+        box.update("\n".join(lines))
+
+    def _show_plot(self, f: RunFindings) -> None:
+        plot = self.query_one("#results-plot", CurvePlot)
+        if f.fit is None:
+            current = f.frame["current_a"].to_numpy(float)
+            plot.show([Series("measured", current, f.frame["drop_v"].to_numpy(float))])
+            return
+        fit = f.fit
+        if self.show_residuals:
+            plot.show([Series("residual", np.asarray(fit.current_a), np.asarray(fit.residuals_v), kind="marks",
+                              glyph="×", style="series-a")],
+                      x_axis=Axis("current", "A"), y_axis=Axis("residual", "V"))
+            return
+        current = np.asarray(fit.current_a, dtype=float)
+        hi = float(np.nanmax(current)) if current.size else 1.0
+        curve = fit.curve
+        model = line_series(f"{fit.model} fit", 0.0 if fit.model == "resistive" else hi * 0.01, hi,
+                            lambda i: float(curve.value(np.array([i]))[0]))
+        plot.show([model, Series("measured", current, np.asarray(fit.drop_v, dtype=float))],
+                  x_axis=Axis("current", "A"), y_axis=Axis("drop", "V"))
+
+    def action_toggle_plot(self) -> None:
+        self.show_residuals = not self.show_residuals
+        self.refresh_view()
+
+    def action_next_model(self) -> None:
+        findings = self.app.state.findings
+        model = self.app.next_model()
+        if findings is not None:
+            self.app.say(f"Re-fitting {findings.path.name} with the {model} model …")
+            self.app.analyse(findings.path, model=model)
+
+    def action_next_spec(self) -> None:
+        findings = self.app.state.findings
+        spec = self.app.next_spec()
+        if spec is None:
+            self.app.say("No part specs to pick from.")
+        elif findings is not None:
+            self.app.say(f"Judging {findings.path.name} against {spec.name} …")
+            self.app.analyse(findings.path)
+
+    def action_export(self) -> None:
+        findings = self.app.state.findings
+        if findings is None:
+            self.app.say("Nothing to export yet.")
+            return
+        target = findings.path.with_suffix(".html")
+        self.app.say(f"Writing the report to {target} …")
+        self._export(findings.path, findings.spec_path, target)
+
+    @work(thread=True, group="export")
+    def _export(self, run: Path, spec: Path | None, target: Path) -> None:
+        try:
+            from benchlog.report import build_report, write_report
+
+            doc = build_report([run], spec_path=spec)
+            write_report(doc, target)
+            self.app.call_from_thread(self.app.say, f"Report written: {target}")
+        except Exception as exc:
+            text = exc.line() if hasattr(exc, "line") else (str(exc) or type(exc).__name__)
+            self.app.call_from_thread(self.app.say, f"Report not written: {text}", severity="error")

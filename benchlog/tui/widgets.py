@@ -1,0 +1,137 @@
+"""Small widgets the views share: the key bar, the view title line, a curve plot and a histogram."""
+
+from __future__ import annotations
+
+from typing import Sequence
+
+from rich.style import Style
+from rich.text import Text
+from textual.widget import Widget
+from textual.widgets import Static
+
+from .histogram import render_histogram
+from .plotting import Axis, PlotStyles, Series, render_plot
+
+
+class KeyBar(Static):
+    """Every key that works here, wrapped over as many lines as the width needs (textual's footer scrolls instead)."""
+
+    DEFAULT_CSS = "KeyBar { height: auto; }"
+
+    def on_mount(self) -> None:
+        self.screen.bindings_updated_signal.subscribe(self, self._bindings_changed)
+        self.call_after_refresh(self._draw)
+
+    def on_unmount(self) -> None:
+        self.screen.bindings_updated_signal.unsubscribe(self)
+
+    def _bindings_changed(self, _screen) -> None:
+        self.call_after_refresh(self._draw)
+
+    def on_resize(self) -> None:
+        self._draw()
+
+    def _draw(self) -> None:
+        if not self.is_attached:
+            return
+        key_style = self.get_component_rich_style("keybar--key")
+        text_style = self.get_component_rich_style("keybar--text")
+        current_style = self.get_component_rich_style("keybar--current")
+        seen: set[str] = set()
+        app_items: list[tuple[str, str, bool]] = []
+        view_items: list[tuple[str, str, bool]] = []
+        current = f"view('{getattr(self.app, 'current_mode', '')}')"
+        for _key, active in self.screen.active_bindings.items():
+            binding = active.binding
+            if not binding.show or binding.action in seen or not active.enabled:
+                continue
+            seen.add(binding.action)
+            target = app_items if active.node is self.app else view_items
+            target.append((self.app.get_key_display(binding), binding.description, binding.action == current))
+        items = view_items + app_items
+        width = max(20, self.size.width or 80)
+        line_len = 0
+        text = Text(no_wrap=True)
+        for key, description, here in items:
+            if here:
+                description = f"[{description}]"
+            piece_len = len(key) + len(description) + 3
+            if line_len and line_len + piece_len > width:
+                text.append("\n")
+                line_len = 0
+            text.append(f" {key} ", key_style)
+            text.append(f"{description} ", current_style if here else text_style)
+            line_len += piece_len
+        self.update(text)
+
+    COMPONENT_CLASSES = {"keybar--key", "keybar--text", "keybar--current"}
+
+
+class CurvePlot(Widget):
+    """A braille plot that redraws only when told (`show`), so a flood of points costs one draw per batch."""
+
+    COMPONENT_CLASSES = {"plot--axis", "plot--label", "plot--series-a", "plot--series-b", "plot--model", "plot--limit"}
+    DEFAULT_CSS = "CurvePlot { height: 1fr; min-height: 6; }"
+
+    def __init__(self, x_axis: Axis, y_axis: Axis, *, id: str | None = None, classes: str | None = None) -> None:
+        super().__init__(id=id, classes=classes)
+        self.x_axis = x_axis
+        self.y_axis = y_axis
+        self.series: list[Series] = []
+        self.empty_text = "waiting for points"
+
+    def show(self, series: Sequence[Series], x_axis: Axis | None = None, y_axis: Axis | None = None) -> None:
+        self.series = list(series)
+        if x_axis:
+            self.x_axis = x_axis
+        if y_axis:
+            self.y_axis = y_axis
+        self.refresh()
+
+    def render(self) -> Text:
+        if not any(len(s.x) for s in self.series):
+            return Text(f"{self.y_axis.quantity} vs {self.x_axis.quantity}: {self.empty_text}",
+                        self.get_component_rich_style("plot--label"))
+        styles = PlotStyles(
+            axis=self.get_component_rich_style("plot--axis"),
+            label=self.get_component_rich_style("plot--label"),
+            series={name: self.get_component_rich_style(f"plot--{name}") for name in ("series-a", "series-b", "model", "limit")},
+        )
+        return render_plot(self.series, self.size.width, self.size.height, self.x_axis, self.y_axis, styles)
+
+
+class HistogramPlot(Widget):
+    COMPONENT_CLASSES = {"plot--series-a", "plot--limit"}
+    DEFAULT_CSS = "HistogramPlot { height: 1fr; min-height: 6; }"
+
+    def __init__(self, axis: Axis, *, id: str | None = None) -> None:
+        super().__init__(id=id)
+        self.axis = axis
+        self.values: list[float] = []
+        self.lower: float | None = None
+        self.upper: float | None = None
+
+    def show(self, values: Sequence[float], axis: Axis, lower: float | None, upper: float | None) -> None:
+        self.values, self.axis, self.lower, self.upper = list(values), axis, lower, upper
+        self.refresh()
+
+    def render(self) -> Text:
+        return render_histogram(self.values, self.size.width, self.size.height, self.axis, self.lower, self.upper,
+                                self.get_component_rich_style("plot--series-a"),
+                                self.get_component_rich_style("plot--limit"))
+
+
+def bar(fraction: float | None, width: int) -> str:
+    """A text progress bar `[#####.....]`: its meaning is in the characters, not in colour."""
+    if fraction is None:
+        return "[" + "?" * width + "]"
+    filled = int(round(max(0.0, min(1.0, fraction)) * width))
+    return "[" + "█" * filled + "·" * (width - filled) + "]"
+
+
+def badge(outcome: str | None) -> Text:
+    """A verdict as a word and a symbol, so it reads the same in monochrome."""
+    words = {"pass": ("PASS ✔", "verdict-pass"), "fail": ("FAIL ✘", "verdict-fail"),
+             "conditional": ("COND ◆", "verdict-cond")}
+    word, cls = words.get(outcome or "", ("—", "verdict-none"))
+    return Text(word, style=cls)

@@ -1,0 +1,58 @@
+"""The live view's fold of the event stream: progress, ETA, how close the run is to each limit."""
+
+from __future__ import annotations
+
+import pytest
+
+from benchlog.runs.events import Point, RunFinished, RunStarted
+from benchlog.sweep.plan import parse_plan
+from benchlog.sweep.steps import schedule
+from benchlog.tui.feed import EventFeed
+from benchlog.tui.liverun import LiveRun, planned_points
+
+from .synthetic import PLAN_TEXT, events, header
+
+
+@pytest.mark.parametrize("steps", [
+    'mode = "linear"\nstart_a = 0.1\nstop_a = 3.0\ncount = 30',
+    'mode = "log"\nstart_a = 0.01\nstop_a = 3.0\ncount = 12',
+    'mode = "updown"\nstart_a = 0.1\nstop_a = 3.0\ncount = 10',
+    'mode = "list"\ncurrents_a = [0.5, 1.0, 2.0]',
+])
+def test_planned_points_match_the_sweep_schedule(steps):
+    text = PLAN_TEXT.replace('mode = "linear"\nstart_a = 0.1\nstop_a = 3.0\ncount = 30', steps)
+    plan = parse_plan(text, "plan")
+    assert planned_points({"plan": plan.to_dict()}) == len(schedule(plan.steps))
+
+
+def test_progress_and_eta_from_point_times():
+    live = LiveRun()
+    evs = events(n=30)
+    live.apply(evs[:12])  # header, offset, 10 points at 0.25 s spacing
+    progress = live.progress()
+    assert progress.done == 10 and progress.planned == 30
+    assert progress.eta_s == pytest.approx(20 * 0.25)
+    live.apply(evs[12:])
+    assert live.progress().eta_s == 0.0 and live.finished is not None
+
+
+def test_limit_use_is_the_worst_value_over_the_limit():
+    live = LiveRun()
+    live.apply([RunStarted(header()),
+                Point(0, 1.0, 1.0, 1.0, 0.1, supply_v=2.5, supply_mode="CC"),
+                Point(1, 2.0, 1.6, 1.6, 0.2, supply_v=1.0, supply_mode="CC")])
+    uses = {u.key: u for u in live.limits()}
+    assert uses["max_current_a"].fraction == pytest.approx(1.6 / 3.2)
+    assert uses["compliance_v"].fraction == pytest.approx(2.5 / 5.0)
+    assert uses["max_power_w"].fraction == pytest.approx(0.32 / 1.0)
+    assert uses["max_time_s"].worst == pytest.approx(2.0)
+
+
+def test_feed_drops_events_of_a_superseded_run():
+    feed = EventFeed()
+    old = feed.reset()
+    new = feed.reset()
+    feed.push(RunFinished(1.0, "complete", 0), old)
+    feed.push(RunFinished(2.0, "complete", 0), new)
+    assert [e.t_s for e in feed.drain()] == [2.0]
+    assert feed.drain() == []
