@@ -34,7 +34,7 @@ def register(sub) -> None:
             "summary. Incomplete runs are reported as incomplete."
         ),
     )
-    p.add_argument("runs", nargs="+", metavar="RUN", help="run files (.run)")
+    p.add_argument("runs", nargs="*", metavar="RUN", help="run files (.run)")
     p.add_argument("--spec", metavar="SPEC.toml", help="part spec to predict and judge against")
     p.add_argument("-o", "--output", required=True, metavar="FILE",
                    help="report file to write: FILE.html or FILE.pdf")
@@ -42,6 +42,7 @@ def register(sub) -> None:
                    "else the largest measured)")
     p.add_argument("--model", choices=MODELS, default="auto", help="fit model (default: auto, or the "
                    "model the verdict uses when --spec is given)")
+    p.add_argument("--design", metavar="DESIGN.toml", help="add the design review of this design file")
     p.add_argument("--figures", metavar="DIR", help="also write every figure as PNG and SVG into DIR")
     p.set_defaults(handler=run)
 
@@ -56,6 +57,10 @@ def run(args) -> int:
     for path in args.runs:
         if not Path(path).is_file():
             raise BadInput(path, "", "file not found", "an existing .run file")
+    if not args.runs and args.design is None:
+        raise BadInput("argument", "RUN", "no run file given", "one or more .run files, or --design DESIGN.toml")
+    if args.design is not None and not Path(args.design).is_file():
+        raise BadInput(args.design, "", "file not found", "an existing design file (.toml)")
     if args.spec is not None and not Path(args.spec).is_file():
         raise BadInput(args.spec, "", "file not found", "an existing part spec (.toml)")
 
@@ -64,7 +69,7 @@ def run(args) -> int:
     from benchlog.report.build import build_report
     from benchlog.report.figures import save
 
-    doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a)
+    doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a, design_path=args.design)
     write_report(doc, out)
     if args.figures:
         folder = Path(args.figures)

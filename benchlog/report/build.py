@@ -21,6 +21,8 @@ from typing import Any, Sequence
 import numpy as np
 
 import benchlog
+from benchlog.analysis.design import load_design
+from benchlog.analysis.design import review as design_review
 from benchlog.analysis.fits import detect_self_heating, fit_run
 from benchlog.analysis.predict import predict
 from benchlog.analysis.spec import PartSpec, load_spec
@@ -30,6 +32,7 @@ from benchlog.runs import load
 
 from . import figures
 from . import from_analysis as fa
+from .design_section import design_section
 from .from_verdict import verdict_block
 from .lot_section import lot_section
 from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
@@ -417,12 +420,17 @@ def build_report(
     spec_path: str | Path | None = None,
     model: str = "auto",
     at_a: float | None = None,
+    design_path: str | Path | None = None,
     generated_utc: str | None = None,
 ) -> Document:
-    """Analyse the runs and lay out the report; bad run or spec files raise BadInput."""
-    if not run_paths:
-        raise BadInput("argument", "RUN", "no run file given", "one or more .run files")
+    """Analyse the runs (and review the design, when given) and lay out the report.
+
+    Bad run, spec or design files raise BadInput.
+    """
+    if not run_paths and design_path is None:
+        raise BadInput("argument", "RUN", "no run file given", "one or more .run files, or --design")
     spec = load_spec(spec_path) if spec_path is not None else None
+    review = design_review(load_design(design_path)) if design_path is not None else None
     runs = [analyse_run(p, spec, model=model, at_a=at_a) for p in run_paths]
     when = generated_utc or datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     sections: list[Section] = []
@@ -431,16 +439,22 @@ def build_report(
         f"{len(runs)} run(s)" + (f", {len(incomplete)} of them incomplete" if incomplete else "")
         + (f"; judged against the part spec {spec.name} ({spec_path})" if spec is not None else "; no part spec given")
         + ". Read the safety note at the end before repeating any measurement.")]
-    if spec is None:
+    if spec is None and runs:
         summary.append(Paragraph("Without a part spec (--spec) there is no prediction and no verdict.", "note"))
+    if review is not None:
+        summary.append(Paragraph(f"Design review of {review.design.name}: {review.recommendation}."))
     sections.append(Section("Summary", tuple(summary)))
+    if review is not None:
+        sections.append(design_section(review))
     if len(runs) > 1:
         sections.append(comparison_section(runs))
     if spec is not None:
         sections += lot_sections(runs, spec, at_a)
     sections += [run_section(ra, spec) for ra in runs]
     sections.append(Section("Safety", (Paragraph(SAFETY_NOTE, "safety"),)))
-    if len(runs) == 1:
+    if not runs:
+        title = f"benchlog report: design review of {review.design.name}"
+    elif len(runs) == 1:
         title = f"benchlog report: {runs[0].label}"
     else:
         title = f"benchlog report: {len(runs)} runs"

@@ -226,7 +226,7 @@ def design_figure(candidates: Sequence[CandidateView], *, title: str = "") -> Fi
     ax = axes[0]
     ax.bar(x, [c.loss_w for c in candidates], color="#d9d9d9", edgecolor="#000000", hatch=hatches)
     ax.set_ylabel("Loss P (W)")
-    ax.set_title("Loss")
+    ax.set_title("Worst-case loss")
 
     ax = axes[1]
     tj = [np.nan if c.tj_c is None else c.tj_c for c in candidates]
@@ -249,10 +249,13 @@ def design_figure(candidates: Sequence[CandidateView], *, title: str = "") -> Fi
         ax.bar(x + (j - (len(labels) - 1) / 2) * width, vals, width=width, color="#ffffff",
                edgecolor="#000000", hatch=style.HATCHES[j % len(style.HATCHES)], label=plain(label))
     ax.axhline(0.0, color="#000000", linewidth=0.8)
+    all_margins = [v for c in candidates for _, v in c.margins_pct if np.isfinite(v)]
+    if all_margins:
+        ax.set_ylim(min(0.0, min(all_margins) * 1.2), max(max(all_margins), 1.0) * 1.35)
     ax.set_ylabel("Margin to rating (%)")
     ax.set_title("Margins (< 0: exceeded)")
     if labels:
-        ax.legend(fontsize="x-small", loc="best")
+        ax.legend(fontsize="x-small", loc="upper left")
 
     for ax in axes:
         ax.set_xticks(x, names, rotation=20, ha="right", fontsize="small")

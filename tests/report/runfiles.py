@@ -110,3 +110,70 @@ def spec_file(tmp: Path) -> Path:
     return path
 
 
+
+
+RECT_SPEC = """\
+name = "DEMO-RECT-3A"
+kind = "rectifier"
+vf_v = 0.85
+vf_max_v = 1.0
+vf_at_a = 2.0
+vr_max_v = 100.0
+ir_max_a = 5e-6
+ir_at_v = 100.0
+rth_ja_k_per_w = 40.0
+tj_max_c = 150.0
+"""
+
+SCHOTTKY_SPEC = """\
+name = "DEMO-SKY-3A"
+kind = "schottky"
+vf_v = 0.55
+vf_max_v = 0.62
+vf_at_a = 2.0
+vr_max_v = 40.0
+ir_max_a = 50e-6
+ir_at_v = 40.0
+rth_ja_k_per_w = 40.0
+tj_max_c = 125.0
+"""
+
+DESIGN = """\
+name = "DEMO-LAMP controller <b>bold</b>"
+application = "other"
+note = "invented product"
+
+[input]
+nominal_v = 12.0
+min_v = 9.0
+max_v = 16.0
+reverse_v = 14.0
+
+[load]
+nominal_a = 2.0
+max_a = 2.5
+
+[ambient]
+max_c = 60.0
+
+[[candidate]]
+spec = "rect.toml"
+label = "rectifier"
+
+[[candidate]]
+spec = "sky.toml"
+label = "schottky"
+
+[[candidate]]
+spec = "pfet.toml"
+label = "p-mosfet"
+"""
+
+
+def design_file(tmp: Path) -> Path:
+    spec_file(tmp)
+    (tmp / "rect.toml").write_text(RECT_SPEC, encoding="utf-8")
+    (tmp / "sky.toml").write_text(SCHOTTKY_SPEC, encoding="utf-8")
+    path = tmp / "design.toml"
+    path.write_text(DESIGN, encoding="utf-8")
+    return path

@@ -178,3 +178,31 @@ def test_bad_run_file_in_a_real_process(tmp_path):
     assert proc.returncode == 2
     assert len(proc.stderr.strip().splitlines()) == 1 and str(bad) in proc.stderr
     assert proc.stdout == ""
+
+
+def test_design_review_section_and_figure(tmp_path):
+    from benchlog.analysis.design import review_file
+
+    design = runfiles.design_file(tmp_path)
+    run = runfiles.pfet_run(tmp_path)
+    out = tmp_path / "d.html"
+    assert main(["report", str(run), "--design", str(design), "-o", str(out)]) == 0
+    page = out.read_text(encoding="utf-8")
+    inv = inventory(page)
+    assert "b" not in inv.tags  # the design's name "<b>bold</b>" stays text
+    assert 'data-name="design"' in page
+    review = review_file(design)
+    text = _text(page)
+    assert review.recommendation[1:] in text
+    table = page[page.index("Candidates side by side"):]
+    table = table[:table.index("</table>")]
+    assert table.count("<tr>") == 1 + len(review.candidates)
+    for reminder in review.reminders:
+        assert reminder in text
+
+
+def test_design_alone_needs_no_run(tmp_path):
+    out = tmp_path / "d.pdf"
+    assert main(["report", "--design", str(runfiles.design_file(tmp_path)), "-o", str(out)]) == 0
+    assert out.read_bytes().startswith(b"%PDF")
+    assert _exit_code(["report", "-o", str(tmp_path / "x.html")]) == 2
