@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import pandas as pd
 
 from benchlog.badinput import BadInput
 
@@ -46,25 +47,33 @@ MODELS = ("auto", "resistive", "diode", "knee")
 DEFAULT_TEMPERATURE_C = 25.0
 
 
+def _has_flag(column, flag: str) -> np.ndarray:
+    """Rows whose "|"-joined flags hold `flag`; a loaded run's flags are categorical, so test the categories."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        names = [str(c).split("|") for c in column.cat.categories]
+        hits = np.flatnonzero([flag in parts for parts in names])
+        return np.isin(column.cat.codes.to_numpy(), hits)
+    return np.array([flag in str(x).split("|") for x in column.fillna("")], dtype=bool)
+
+
 def usable_points(frame) -> tuple[np.ndarray, list[str]]:
     """Rows that can be fitted: finite current and drop, no overload flag; and notes on the rest."""
     current = frame["current_a"].to_numpy(dtype=float)
     drop = frame["drop_v"].to_numpy(dtype=float)
     rows = np.isfinite(current) & np.isfinite(drop)
+    overload = np.zeros(rows.shape, dtype=bool)
     notes = []
     if "flags" in frame.columns:
-        flags = frame["flags"].fillna("").astype(str)
-        overload = flags.str.contains("overload", regex=False).to_numpy()
-        if (overload & rows).any():
-            notes.append(f"{int((overload & rows).sum())} overload point(s) left out")
-        rows &= ~overload
-        unsettled = flags.str.contains("unsettled", regex=False).to_numpy() & rows
+        overload = _has_flag(frame["flags"], "overload")
+        unsettled = _has_flag(frame["flags"], "unsettled") & rows & ~overload
+        if overload.any():
+            notes.append(f"{int(overload.sum())} overload point(s) left out")
         if unsettled.any():
             notes.append(f"{int(unsettled.sum())} unsettled point(s) kept in the fit")
-    dropped = int((~np.isfinite(current) | ~np.isfinite(drop)).sum())
-    if dropped:
-        notes.append(f"{dropped} point(s) without a reading left out")
-    return rows, notes
+    missing = int((~rows & ~overload).sum())
+    if missing:
+        notes.append(f"{missing} point(s) without a reading left out")
+    return rows & ~overload, notes
 
 
 def run_temperature_c(frame, meta) -> tuple[float, str]:
@@ -93,9 +102,12 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
     if accuracy.drop is None and accuracy.current is None:
         accuracy = None
     rows, notes = usable_points(frame)
-    current = frame["current_a"].to_numpy(dtype=float)[rows]
-    drop = frame["drop_v"].to_numpy(dtype=float)[rows]
-    index = frame["index"].to_numpy()[rows] if "index" in frame.columns else np.flatnonzero(rows)
+    every = bool(rows.all())  # the usual case: no copies of a long run
+    current = frame["current_a"].to_numpy(dtype=float)
+    drop = frame["drop_v"].to_numpy(dtype=float)
+    index = frame["index"].to_numpy() if "index" in frame.columns else np.arange(rows.size)
+    if not every:
+        current, drop, index = current[rows], drop[rows], index[rows]
     offset = getattr(meta, "offset_v", None)
     offset_removed = offset is not None and math.isfinite(float(offset))
     if offset_removed:

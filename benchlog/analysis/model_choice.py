@@ -27,6 +27,8 @@ from .uncertainty import MeasurementAccuracy
 #: AICc difference below which two models are taken as equally supported (Burnham & Anderson 2002, §2.6).
 AICC_TIE = 2.0
 IDEALITY_RANGE = (0.5, 10.0)
+#: Most points the choice is scored on; longer runs are thinned by an even stride for the choice only.
+CHOICE_POINTS = 5000
 
 
 def aicc(residuals_v: np.ndarray, parameters: int, weights=None) -> float:
@@ -41,13 +43,6 @@ def aicc(residuals_v: np.ndarray, parameters: int, weights=None) -> float:
     return n * math.log(rss / n) + 2 * k + 2 * k * (k + 1) / (n - k - 1)
 
 
-def _weights(u_drop_v, shape, rows):
-    if u_drop_v is None:
-        return None
-    u = np.broadcast_to(np.asarray(u_drop_v, dtype=float), shape)[rows]
-    return 1.0 / (u * u)
-
-
 def fit_auto(
     current_a,
     drop_v,
@@ -60,12 +55,19 @@ def fit_auto(
     point_index=None,
 ) -> FitResult:
     """Fit both models, keep the one with the lower AICc (ties to resistive); `reason` says why."""
-    i = np.asarray(current_a, dtype=float).ravel()
-    v = np.asarray(drop_v, dtype=float).ravel()
+    i_all = np.asarray(current_a, dtype=float).ravel()
+    v_all = np.asarray(drop_v, dtype=float).ravel()
     common = dict(u_drop_v=u_drop_v, offset_removed=offset_removed, exclude_outliers=exclude_outliers,
                   point_index=point_index)
-    positive = i > 0
-    w = _weights(u_drop_v, i.shape, positive)
+    u_all = None if u_drop_v is None else np.broadcast_to(np.asarray(u_drop_v, float), i_all.shape)
+    # Both models are scored on the points with I > 0; a long run is scored on an even
+    # stride of them (the choice needs the shape, not a million points), then refitted in full.
+    positive = np.flatnonzero(i_all > 0)
+    stride = max(1, -(-positive.size // CHOICE_POINTS))
+    rows = positive[::stride]
+    i, v = i_all[rows], v_all[rows]
+    u_rows = None if u_all is None else u_all[rows]
+    w = None if u_rows is None else 1.0 / (u_rows * u_rows)
     scores: dict[str, float] = {}
     why_not_diode = ""
     diode = None
@@ -73,35 +75,34 @@ def fit_auto(
         why_not_diode = "no temperature recorded, the diode law cannot be evaluated"
     else:
         try:
-            diode = fit_diode(i, v, temperature_c, accuracy, **common)
+            diode = fit_diode(i, v, temperature_c, None, u_drop_v=u_rows)
         except FitError as exc:
             why_not_diode = f"diode fit failed: {exc}"
-    # the resistive score on the same points as the diode's (I > 0)
-    line_pos = fit_resistive(i[positive], v[positive], None, u_drop_v=None if u_drop_v is None
-                             else np.broadcast_to(np.asarray(u_drop_v, float), i.shape)[positive])
-    scores["resistive"] = aicc(line_pos.residuals_v, 2, w)
+    line = fit_resistive(i, v, None, u_drop_v=u_rows)
+    scores["resistive"] = aicc(line.residuals_v, 2, w)
     if diode is not None:
-        scores["diode"] = aicc(v[positive] - diode.curve.value(i[positive]), 3, w)
+        scores["diode"] = aicc(diode.residuals_v, 3, w)
         n_fit, i_s = diode.params["ideality"], diode.params["i_s_a"]
         if i_s >= float(np.max(i)):
             why_not_diode = f"the diode fit's Is = {i_s:.3g} A exceeds the largest current: no exponential region"
         elif not IDEALITY_RANGE[0] <= n_fit <= IDEALITY_RANGE[1]:
             why_not_diode = f"the diode fit's ideality {n_fit:.3g} is outside {IDEALITY_RANGE[0]}–{IDEALITY_RANGE[1]}"
-    head = f"AICc on {int(positive.sum())} points: resistive {scores['resistive']:.1f}"
+    where = f"{rows.size} points" if stride == 1 else f"{rows.size} of {positive.size} points (every {stride}th)"
+    head = f"AICc on {where}: resistive {scores['resistive']:.1f}"
     if "diode" in scores:
         head += f", diode {scores['diode']:.1f}"
     if diode is not None and not why_not_diode:
         delta = scores["resistive"] - scores["diode"]
         if delta >= AICC_TIE:
-            reason = f"{head}; diode lower by {delta:.1f} (>= {AICC_TIE:g}): diode"
-            return _with(diode, reason, scores)
+            reason = f"{head}; diode lower by {delta:.1f} (>= {AICC_TIE:g}) -> diode"
+            return _with(fit_diode(i_all, v_all, temperature_c, accuracy, **common), reason, scores)
         if delta > 0:
-            reason = f"{head}; diode lower by only {delta:.1f} (< {AICC_TIE:g}, no real support): simpler resistive kept"
+            reason = f"{head}; diode lower by only {delta:.1f} (< {AICC_TIE:g}, no real support) -> the simpler resistive"
         else:
-            reason = f"{head}; resistive lower by {-delta:.1f}: resistive"
+            reason = f"{head}; resistive lower by {-delta:.1f} -> resistive"
     else:
-        reason = f"{head}; {why_not_diode}: resistive"
-    return _with(fit_resistive(i, v, accuracy, temperature_c=temperature_c, **common), reason, scores)
+        reason = f"{head}; {why_not_diode} -> resistive"
+    return _with(fit_resistive(i_all, v_all, accuracy, temperature_c=temperature_c, **common), reason, scores)
 
 
 def _with(fit: FitResult, reason: str, scores: dict[str, float]) -> FitResult:

@@ -23,6 +23,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 from scipy import stats
 
 from .fit_result import FitResult
@@ -52,9 +53,18 @@ def _heating_sign(fit: FitResult, tempco_per_k: float | None) -> float:
 def _directions(frame, fit: FitResult):
     if frame is None or "direction" not in getattr(frame, "columns", ()) or "index" not in frame.columns:
         return None, None
-    sub = frame.set_index("index").reindex(fit.point_index)
-    setpoint = sub["setpoint_a"].to_numpy(dtype=float) if "setpoint_a" in sub.columns else fit.current_a
-    return sub["direction"].astype(str).to_numpy(), setpoint
+    index = frame["index"].to_numpy()
+    pos = np.searchsorted(index, fit.point_index)  # a run's index increases strictly (runs/format.py)
+    if pos.size and (pos.max() >= index.size or not np.array_equal(index[pos], fit.point_index)):
+        return None, None
+    column = frame["direction"]
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        names = np.asarray([str(c) for c in column.cat.categories] + ["nan"])
+        direction = names[column.cat.codes.to_numpy()[pos]]  # code −1 (missing) picks "nan"
+    else:
+        direction = column.astype(str).to_numpy()[pos]
+    setpoint = frame["setpoint_a"].to_numpy(dtype=float)[pos] if "setpoint_a" in frame.columns else fit.current_a
+    return direction, setpoint
 
 
 def detect_self_heating(frame, fit: FitResult, tempco_per_k: float | None = None, *, alpha: float = ALPHA) -> SelfHeating:
@@ -141,8 +151,12 @@ def _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco, alpha, found, q
         return
     power = i * v
     z = power * i if resistive else power
+    # projection on the model's own directions by scaled normal equations (p <= 3 columns, cheap at 1e6 points)
     basis = fit.curve.gradient(i)
-    coef, *_ = np.linalg.lstsq(basis, z, rcond=None)
+    norms = np.sqrt(np.einsum("ij,ij->j", basis, basis))
+    norms[norms == 0] = 1.0
+    scaled = basis / norms
+    coef = np.linalg.solve(scaled.T @ scaled, scaled.T @ z) / norms
     z_perp = z - basis @ coef
     szz = float(z_perp @ z_perp)
     if not szz > 0:

@@ -1,0 +1,154 @@
+"""Subcommand `benchlog fit RUN`: fit a recorded sweep and print the parameters with their GUM uncertainties."""
+
+from __future__ import annotations
+
+import argparse
+import math
+from typing import Any
+
+from benchlog.badinput import BadInput
+
+MODELS = ("auto", "resistive", "diode", "knee")
+
+# what each parameter is called for people, and the unit it is printed in
+_LABELS = {
+    "r_on_ohm": ("R_on", "ohm"),
+    "v0_v": ("V0", "V"),
+    "ideality": ("n", ""),
+    "i_s_a": ("Is", "A"),
+    "r_s_ohm": ("Rs", "ohm"),
+    "v_knee_v": ("V_knee", "V"),
+    "r_d_ohm": ("r_d", "ohm"),
+}
+
+
+def register(sub) -> None:
+    """Add `fit` to the `benchlog` parser."""
+    p = sub.add_parser(
+        "fit",
+        help="fit a recorded run: R_DS(on) or the diode law, with GUM uncertainties",
+        description=(
+            "Fit the drop-versus-current points of a run file: V = V0 + R·I (resistive), the Shockley "
+            "law with series resistance (diode), or the straight line above the knee (knee). 'auto' "
+            "picks resistive or diode by AICc and says why. Uncertainties follow the GUM: type A from "
+            "the fit, type B from the meters' accuracy in the run header; expanded with k = 2."
+        ),
+    )
+    p.add_argument("run", metavar="RUN", help="run file (*.run)")
+    p.add_argument("--model", choices=MODELS, default="auto", help="model to fit (default: auto)")
+    p.add_argument("--json", action="store_true", help="print one JSON document (SI keys) for scripts")
+    p.add_argument("--at", metavar="AMPS", type=float, action="append", default=[],
+                   help="also give the drop at this current (repeatable)")
+    p.add_argument("--tempco", metavar="PER_K", type=float, default=None,
+                   help="temperature coefficient for the self-heating estimate: relative per K for "
+                        "a resistance (0.004 = 0.4 %%/K), V/K for a diode drop (-0.002)")
+    p.add_argument("--exclude-outliers", action="store_true",
+                   help="refit without the flagged outliers (they are still reported)")
+    p.set_defaults(handler=run_fit)
+
+
+def _check_args(args: argparse.Namespace) -> None:
+    for value in args.at:
+        if not math.isfinite(value) or value < 0:
+            raise BadInput("argument", "--at", f"is {value!r}", "a finite current >= 0 in A")
+    if args.tempco is not None and (not math.isfinite(args.tempco) or args.tempco == 0):
+        raise BadInput("argument", "--tempco", f"is {args.tempco!r}", "a finite, non-zero coefficient")
+
+
+def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
+    """Fit the run and build the JSON-ready result (also what the human output prints from)."""
+    from benchlog.analysis.fits import detect_self_heating, fit_knee, fit_run
+
+    fit = fit_run(frame, meta, args.model, exclude_outliers=args.exclude_outliers)
+    heating = detect_self_heating(frame, fit, args.tempco)
+    payload: dict[str, Any] = {
+        "run": str(meta.path),
+        "model": fit.model,
+        "params": dict(fit.params),
+        "std_u": dict(fit.std_u),
+        "k": fit.k,
+        "expanded_u": dict(fit.expanded_u),
+        "dof_eff": {key: b.dof for key, b in fit.budgets.items()},
+        "k_t": {key: b.k_t for key, b in fit.budgets.items()},
+        "budget": {
+            key: [{"name": c.name, "type": c.kind, "u": c.u, "dof": c.dof} for c in b.components]
+            for key, b in fit.budgets.items()
+        },
+        "reason": fit.reason,
+        "criterion_aicc": dict(fit.criterion),
+        "outliers": [int(x) for x in fit.point_index[fit.outliers]],
+        "outlier_rule": fit.outlier_rule,
+        "self_heating": {
+            "detected": heating.detected,
+            "reason": heating.reason,
+            "delta_t_c": heating.delta_t_c,
+            "updown_p": heating.updown_p,
+            "updown_shift_v": heating.updown_shift_v,
+            "trend_p": heating.trend_p,
+        },
+        "points": fit.points,
+        "temperature_c": fit.temperature_c,
+        "notes": list(fit.notes),
+        "drop_at": [],
+    }
+    for current in args.at:
+        budget = fit.drop_budget_at(current)
+        value, _ = fit.drop_at(current)
+        payload["drop_at"].append({"current_a": current, "drop_v": value, "std_u_v": budget.u,
+                                   "expanded_u_v": budget.expanded_u, "loss_w": value * current})
+    if fit.model == "diode":
+        # the straight-line form for the operating range, beside the diode law (issue 4, item 1)
+        knee = fit_knee(fit.current_a, fit.drop_v, fit.accuracy, offset_removed=fit.offset_removed,
+                        point_index=fit.point_index)
+        payload["knee"] = {"params": dict(knee.params), "std_u": dict(knee.std_u),
+                           "expanded_u": dict(knee.expanded_u), "points": knee.points,
+                           "above_a": float(knee.current_a.min())}
+    return payload
+
+
+def _value(key: str, value: float, u: float | None = None, expanded: float | None = None) -> str:
+    label, unit = _LABELS.get(key, (key, ""))
+    text = f"{label:<7}= {value:.6g}"
+    if expanded is not None:
+        text += f" ± {expanded:.2g}"
+    if unit:
+        text += f" {unit}"
+    if u is not None:
+        text += f"   (u = {u:.2g}, k = 2)"
+    return text
+
+
+def print_human(payload: dict[str, Any]) -> None:
+    print(f"{payload['run']}: {payload['model']} fit of {payload['points']} points")
+    for key, value in payload["params"].items():
+        print("  " + _value(key, value, payload["std_u"][key], payload["expanded_u"][key]))
+    print(f"  model: {payload['reason']}")
+    outliers = payload["outliers"]
+    print(f"  outliers: {', '.join(map(str, outliers)) if outliers else 'none'} ({payload['outlier_rule']})")
+    heating = payload["self_heating"]
+    print(f"  self-heating: {'yes' if heating['detected'] else 'no'} - {heating['reason']}")
+    for row in payload["drop_at"]:
+        print(f"  at {row['current_a']:.6g} A: drop {row['drop_v']:.6g} ± {row['expanded_u_v']:.2g} V (k = 2), "
+              f"loss {row['loss_w']:.4g} W")
+    if "knee" in payload:
+        knee = payload["knee"]
+        print(f"  knee line above {knee['above_a']:.4g} A:")
+        for key, value in knee["params"].items():
+            print("    " + _value(key, value, knee["std_u"][key], knee["expanded_u"][key]))
+    for note in payload["notes"]:
+        print(f"  note: {note}")
+
+
+def run_fit(args: argparse.Namespace) -> int:
+    _check_args(args)
+    from benchlog.runs import load
+
+    frame, meta = load(args.run)
+    payload = fit_payload(frame, meta, args)
+    if args.json:
+        from .output import print_json
+
+        print_json(payload)
+    else:
+        print_human(payload)
+    return 0
