@@ -134,16 +134,17 @@ ELEMENT_STRINGS = ("id", "kind", "label", "lot", "serial", "note")
 def complete_header(header: dict[str, Any]) -> dict[str, Any]:
     """The header as written: the caller's keys plus the ones that describe this file's encoding.
 
-    A reader gives back exactly this dictionary (without ``"record"``) as
-    `RunStarted.header`.
+    A reader gives back exactly this dictionary as `RunStarted.header`; the
+    line itself also carries ``"record": "header"``.
     """
-    out = {"record": "header", "format": FORMAT_NAME, "schema": SCHEMA_VERSION,
-           "point_columns": list(POINT_COLUMNS)}
+    out: dict[str, Any] = {"format": FORMAT_NAME, "schema": SCHEMA_VERSION,
+                           "point_columns": list(POINT_COLUMNS)}
     for key, value in header.items():
+        if key == "record":
+            continue
         if key == "point_columns" and isinstance(value, (list, tuple)):
             value = list(value)
-        if key in out and key != "record" and value != out[key]:
+        if key in out and value != out[key]:
             raise ValueError(f"header key {key!r} is set by the run file writer, got {value!r}")
-        if key != "record":
-            out[key] = value
+        out[key] = value
     return out

@@ -70,6 +70,15 @@ def _short(text: str, limit: int = 40) -> str:
     return text if len(text) <= limit else text[: limit - 4] + "...'"
 
 
+def _shown(value: Any, limit: int = 40) -> str:
+    """A JSON value as the file spells it, cut short."""
+    try:
+        text = json.dumps(value, ensure_ascii=False)
+    except (TypeError, ValueError):
+        text = repr(value)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
 # --- JSON records -----------------------------------------------------------------------------
 
 
@@ -108,7 +117,7 @@ def _number(obj: dict[str, Any], key: str, kind: str, at: _Line) -> float:
         raise at.bad(f"{kind} record has no {key!r}", f"{key} as a number")
     value = obj[key]
     if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise at.bad(f"{kind} {key} is {_short(json.dumps(value))}", "a number")
+        raise at.bad(f"{kind} {key} is {_shown(value)}", "a number")
     x = float(value) if not isinstance(value, int) or abs(value) <= MAX_MAGNITUDE else math.inf
     if not math.isfinite(x) or abs(x) > MAX_MAGNITUDE:
         raise at.bad(f"{kind} {key} = {value!r:.30} is out of range", f"|{key}| <= {MAX_MAGNITUDE:g}")
@@ -118,7 +127,7 @@ def _number(obj: dict[str, Any], key: str, kind: str, at: _Line) -> float:
 def _string(obj: dict[str, Any], key: str, kind: str, at: _Line, choices: tuple[str, ...] = ()) -> str:
     value = obj.get(key)
     if not isinstance(value, str):
-        raise at.bad(f"{kind} record has {key} = {_short(json.dumps(value))}",
+        raise at.bad(f"{kind} record has {key} = {_shown(value)}",
                      f"{key} as a string" if not choices else f"{key} one of {', '.join(choices)}")
     if choices and value not in choices:
         raise at.bad(f"{kind} {key} is {_short(value)}", f"one of {', '.join(choices)}")
@@ -138,7 +147,7 @@ def decode_record(obj: dict[str, Any], at: _Line) -> Event:
     if kind == "header":
         raise at.bad("a second header record", "the header only on line 1")
     if not isinstance(kind, str) or kind not in _RECORD_KEYS:
-        raise at.bad(f"unknown record kind {_short(json.dumps(kind))}",
+        raise at.bad(f"unknown record kind {_shown(kind)}",
                      "record one of " + ", ".join(_RECORD_KEYS))
     _check_keys(obj, kind, at)
     t_s = _number(obj, "t_s", kind, at)
@@ -150,7 +159,7 @@ def decode_record(obj: dict[str, Any], at: _Line) -> Event:
     if kind == "reverse":
         passed = obj.get("passed")
         if not isinstance(passed, bool):
-            raise at.bad(f"reverse passed is {_short(json.dumps(passed))}", "true or false")
+            raise at.bad(f"reverse passed is {_shown(passed)}", "true or false")
         return ReverseResult(
             t_s=t_s,
             voltage_v=_number(obj, "voltage_v", kind, at),
@@ -161,7 +170,7 @@ def decode_record(obj: dict[str, Any], at: _Line) -> Event:
         )
     points = obj.get("points")
     if isinstance(points, bool) or not isinstance(points, int) or not 0 <= points <= MAX_INDEX:
-        raise at.bad(f"end points is {_short(json.dumps(points))}", "a whole number >= 0")
+        raise at.bad(f"end points is {_shown(points)}", "a whole number >= 0")
     return RunFinished(t_s=t_s, outcome=_string(obj, "outcome", kind, at, END_OUTCOMES),  # type: ignore[arg-type]
                        points=points, message=_string(obj, "message", kind, at))
 
@@ -176,12 +185,12 @@ def decode_header(text: str, at: _Line) -> RunStarted:
                      f'the JSON header {{"record": "header", "format": "{FORMAT_NAME}", ...}}')
     obj = parse_json_object(text, at)
     if obj.get("format") != FORMAT_NAME or obj.get("record") != "header":
-        raise at.bad(f"not a {FORMAT_NAME} header (format {_short(json.dumps(obj.get('format')))})",
+        raise at.bad(f"not a {FORMAT_NAME} header (format {_shown(obj.get('format'))})",
                      f'"record": "header" and "format": "{FORMAT_NAME}"')
     schema = obj.get("schema")
     supported = ", ".join(str(s) for s in SUPPORTED_SCHEMAS)
     if isinstance(schema, bool) or not isinstance(schema, int):
-        raise at.bad(f"schema is {_short(json.dumps(schema))}", f"an integer schema version ({supported})")
+        raise at.bad(f"schema is {_shown(schema)}", f"an integer schema version ({supported})")
     if schema not in SUPPORTED_SCHEMAS:
         newer = "newer than this program reads" if schema > max(SUPPORTED_SCHEMAS) else "unknown"
         raise at.bad(f"schema version {schema} is {newer}",
@@ -191,10 +200,10 @@ def decode_header(text: str, at: _Line) -> RunStarted:
             raise at.bad(f"header has no {key!r}", "every key of " + ", ".join(HEADER_REQUIRED))
     for key in HEADER_STRINGS:
         if key in obj and not isinstance(obj[key], str):
-            raise at.bad(f"header {key} is {_short(json.dumps(obj[key]))}", "a string")
+            raise at.bad(f"header {key} is {_shown(obj[key])}", "a string")
     for key in HEADER_TABLES:
         if key in obj and not isinstance(obj[key], dict):
-            raise at.bad(f"header {key} is {_short(json.dumps(obj[key]))}", "a JSON object")
+            raise at.bad(f"header {key} is {_shown(obj[key])}", "a JSON object")
     started = obj["started_utc"]
     try:
         if not started.endswith("Z"):
@@ -206,23 +215,23 @@ def decode_header(text: str, at: _Line) -> RunStarted:
     columns = obj["point_columns"]
     if (not isinstance(columns, list) or not all(isinstance(c, str) for c in columns)
             or sorted(columns) != sorted(POINT_COLUMNS)):
-        raise at.bad(f"header point_columns is {_short(json.dumps(columns), 60)}",
+        raise at.bad(f"header point_columns is {_shown(columns)}",
                      "each of " + ", ".join(POINT_COLUMNS) + " once")
     element = obj["element"]
     for key in ELEMENT_STRINGS:
         if element.get(key) is not None and not isinstance(element.get(key), str):
-            raise at.bad(f"header element.{key} is {_short(json.dumps(element[key]))}", "a string")
+            raise at.bad(f"header element.{key} is {_shown(element[key])}", "a string")
     if not isinstance(element.get("id"), str) or not element["id"]:
         raise at.bad("header element has no id", "element.id as a non-empty string")
     ambient = element.get("ambient_c")
     if ambient is not None and (isinstance(ambient, bool) or not isinstance(ambient, (int, float))
                                 or not ABSOLUTE_ZERO_C <= ambient <= MAX_MAGNITUDE):
-        raise at.bad(f"header element.ambient_c is {_short(json.dumps(ambient))}",
+        raise at.bad(f"header element.ambient_c is {_shown(ambient)}",
                      "a temperature in °C or null")
     frequency = obj.get("line_frequency_hz")
     if frequency is not None and (isinstance(frequency, bool) or not isinstance(frequency, (int, float))
                                   or not 0 < frequency <= MAX_MAGNITUDE):
-        raise at.bad(f"header line_frequency_hz is {_short(json.dumps(frequency))}",
+        raise at.bad(f"header line_frequency_hz is {_shown(frequency)}",
                      "a frequency > 0 in Hz")
     header = {k: v for k, v in obj.items() if k != "record"}
     return RunStarted(header=header)

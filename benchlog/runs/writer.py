@@ -106,7 +106,7 @@ def encode_event(event: Event) -> str:
     if isinstance(event, Point):
         return encode_point(event)
     if isinstance(event, RunStarted):
-        return _json_line(complete_header(dict(event.header)))
+        return _json_line({"record": "header", **complete_header(dict(event.header))})
     if isinstance(event, Offset):
         return _json_line({"record": "offset", "t_s": float(_number("t_s", event.t_s)),
                            "drop_v": float(_number("drop_v", event.drop_v))})
