@@ -25,9 +25,8 @@ from scipy import stats
 
 from benchlog.badinput import BadInput
 
-from .predict import predict
 from .spec import PartSpec
-from .verdict import decide_many, rule_text, run_conditions
+from .verdict import decide_many, limit_envelope, rule_text, run_conditions
 
 CAPABILITY_MIN = 1.33
 ESD_ALPHA = 0.05
@@ -219,20 +218,30 @@ def lot_limits(
     quantity = quantity or lot_quantity(spec)
     notes: list[str] = []
 
-    def value(s: PartSpec) -> tuple[float | None, str]:
-        p = predict(s, current_a, ambient_c, vin_v=vin_v, zener_v=zener_v)
-        point = p.limit
-        v = point.drop_v if quantity == "drop_v" else point.resistance_ohm
-        tj = f"{point.tj_c:.1f} °C" if point.tj_c is not None else "unknown"
-        return v, f"at {current_a:.4g} A, ambient {ambient_c:g} °C, Tj {tj}"
+    def values(s: PartSpec) -> list[tuple[float, str]]:
+        # Both ends of the measurement's possible Tj (see verdict.LimitEnvelope).
+        env = limit_envelope(s, current_a, ambient_c, vin_v, zener_v)
+        preds = ((env.heated, "self-heated"),) if s.thermal.rth_ja_k_per_w is not None else ()
+        out = []
+        for pred, label in preds + ((env.cold, "unheated"),):
+            point = pred.limit
+            v = point.drop_v if quantity == "drop_v" else point.resistance_ohm
+            if v is not None and point.tj_c is not None:
+                out.append((v, f"{label} Tj {point.tj_c:.1f} °C"))
+        return out
 
-    usl, where = value(spec)
+    high = values(spec)
+    usl, usl_at = max(high) if high else (None, "no prediction")
     if not spec.has_max:
         notes.append("the spec gives no maximum: the typical value is used as the upper limit")
-    low = _min_variant_spec(spec)
-    lsl = value(low)[0] if low is not None else None
+    low_spec = _min_variant_spec(spec)
+    low = values(low_spec) if low_spec is not None else []
+    lsl, lsl_at = min(low) if low else (None, "")
     named = "maximum" if spec.has_max else "typical"
-    source = f"spec {named}{' and minimum' if lsl is not None else ''} of {quantity} {where} with self-heating"
+    source = f"spec {named} of {quantity} at {current_a:.4g} A, ambient {ambient_c:g} °C ({usl_at}"
+    source += f"; the larger of {len(high)} junction temperatures)" if len(high) > 1 else ")"
+    if lsl is not None:
+        source += f"; minimum ({lsl_at})"
     return usl, lsl, source, notes
 
 

@@ -8,7 +8,8 @@ Models, each a textbook form scaled through the one datasheet point we have:
   (square-law device, triode region for small Vds: Id = K'(Vgs − Vth)·Vds, so
   the channel part ∝ 1/(Vgs − Vth); Rf is the Vgs-independent rest — drift
   region, bond wires — fitted when the spec gives R_DS(on) at two gate
-  voltages, else 0, the cautious choice). R_DS(on)(Tj) follows the spec's
+  voltages, else 0, the cautious choice). Above the highest datasheet Vgs no
+  further fall is credited (also cautious). R_DS(on)(Tj) follows the spec's
   tempco or normalised curve. Loss = I²·R_DS(on), with the body diode in
   parallel (it takes over below threshold);
 - P-MOSFET with gate to ground (N-MOSFET with gate to the input in the
@@ -140,8 +141,10 @@ class ChannelModel:
     rf_ohm: float  # Vgs-independent part of h (at the typical R_ref scale)
     k_ohm_v: float
     temperature_factor: Callable[[float], float]
+    vgs_top_v: float = math.inf  # no credit for drive above the highest datasheet point
 
     def rds_on_ohm(self, vgs_v: float, tj_c: float) -> float:
+        vgs_v = min(vgs_v, self.vgs_top_v)
         if self.vth_v is None:
             shape = 1.0
         elif vgs_v <= self.vth_v:
@@ -204,7 +207,8 @@ def channel_model(m: MosfetSpec, variant: str, notes: list[str]) -> ChannelModel
             notes.append("the two R_DS(on) points do not fit Rf + K/(Vgs − Vth) with Rf ≥ 0; using the first only")
     elif variant == "typical":
         notes.append("one R_DS(on) point only: all of it taken as channel, ∝ 1/(Vgs − Vth) (cautious at low Vgs)")
-    return ChannelModel(r_ref, m.rds_on_vgs_v, vth, rf, k, factor)
+    top = max(m.rds_on_vgs_v, m.rds_on_2_vgs_v or 0.0)
+    return ChannelModel(r_ref, m.rds_on_vgs_v, vth, rf, k, factor, top)
 
 
 @dataclass(frozen=True)
