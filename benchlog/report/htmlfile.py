@@ -31,7 +31,7 @@ table { border-collapse: collapse; margin: .6em 0 1em; font-size: .9em; }
 caption { text-align: left; font-weight: bold; padding-bottom: .2em; }
 th, td { border: 1px solid #999; padding: .2em .5em; text-align: left; vertical-align: top; }
 th { background: #eee; }
-td { font-variant-numeric: tabular-nums; overflow-wrap: anywhere; }
+td { font-variant-numeric: tabular-nums; overflow-wrap: break-word; word-break: normal; }
 .note { border-left: 4px solid #777; padding: .3em .8em; background: #f4f4f4; }
 .warning { border-left: 4px solid #000; padding: .3em .8em; background: #fff4e0; font-weight: bold; }
 .safety { border: 2px solid #000; padding: .6em 1em; background: #fffbe6; }

@@ -1,0 +1,47 @@
+"""The HTML report opens in a real browser: headless Chromium renders it to a screenshot.
+
+Needs `/usr/bin/chromium` (Debian package `chromium`); skipped with the reason when it is absent.
+Manual check, same thing: `chromium --headless --no-sandbox --disable-gpu --screenshot=shot.png
+--window-size=1200,3000 file:///path/report.html`, then look at shot.png.
+"""
+
+from __future__ import annotations
+
+import shutil
+import subprocess
+from pathlib import Path
+
+import matplotlib.image
+import numpy as np
+import pytest
+
+from benchlog.cli import main
+
+from . import runfiles
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser") or (
+    "/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="headless Chromium not installed (apt-get install chromium)")
+def test_report_renders_in_headless_chromium(tmp_path):
+    run = runfiles.hostile_run(tmp_path)
+    out = tmp_path / "r.html"
+    assert main(["report", str(run), "--spec", str(runfiles.spec_file(tmp_path)), "-o", str(out)]) == 0
+    shot = tmp_path / "shot.png"
+    proc = subprocess.run(
+        [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars",
+         # no network at all: a page that needed one would render without it
+         "--proxy-server=127.0.0.1:9", "--proxy-bypass-list=<-loopback>",
+         "--user-data-dir=" + str(tmp_path / "profile"), "--window-size=1200,4000",
+         f"--screenshot={shot}", out.as_uri()],
+        capture_output=True, text=True, timeout=180,
+    )
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    image = matplotlib.image.imread(shot)
+    assert image.shape[0] == 4000 and image.shape[1] == 1200
+    grey = image[..., :3].mean(axis=2)
+    # something was drawn: text, tables and the figures' lines darken a real share of the page
+    assert (grey < 0.5).mean() > 0.01
+    # the figures are drawn: rows with long dark runs (axes frames) exist below the tables
+    assert np.count_nonzero((grey < 0.3).sum(axis=1) > 400) >= 4
