@@ -1,7 +1,278 @@
-"""Subcommands: (being built)."""
+"""Subcommands `sweep` (run a plan on a bench, or on the built-in simulated bench) and `demo`.
+
+Exit codes: 0 the sweep completed; 1 it stopped on a limit, a fault or a
+cancel; 2 bad input (plan, bench, wiring refused, or an instrument's nonsense
+reply); 130 Ctrl-C (outputs are off before the process exits).
+"""
 
 from __future__ import annotations
 
+import sys
+import time
+from pathlib import Path
+from typing import Any, TextIO
+
+from benchlog.badinput import BadInput
+
+from .output import print_json
+
+CAUTION = (
+    "CAUTION: this switches real power into real hardware. Supplies and batteries store energy that can "
+    "burn and start fires; parts under test get hot; a reversed-polarity test can destroy the board. "
+    "Keep within the limits in your plan, follow your lab's safety rules and local electrical codes."
+)
+
+_caution_shown = False  # once per CLI session, at the first output-on
+
 
 def register(sub) -> None:
-    """Add this module's subcommands to the `benchlog` parser."""
+    """Add `sweep` and `demo` to the `benchlog` parser."""
+    p = sub.add_parser(
+        "sweep",
+        help="step the current through the element and record a run file",
+        description="Run a sweep plan on a bench (or, without --bench, on the built-in simulated bench) "
+        "and record it as a run file.",
+    )
+    p.add_argument("plan", metavar="PLAN.toml", help="the sweep plan")
+    p.add_argument("--bench", metavar="BENCH.toml", help="the bench file (default: built-in simulated bench)")
+    p.add_argument("--out", metavar="DIR", default="runs", help="folder for the run file (default: ./runs)")
+    p.add_argument("--json", action="store_true", help='print {"run_file", "points", "outcome"} as JSON')
+    p.add_argument("--yes", action="store_true", help="do not ask before switching a real bench on")
+    p.add_argument("--seed", type=int, default=0, help="seed of the built-in simulated bench (default 0)")
+    p.set_defaults(handler=_sweep)
+
+    d = sub.add_parser(
+        "demo",
+        help="a demo sweep on the built-in simulated bench",
+        description="Run a demo: the terminal UI, or with --headless one sweep end to end and a summary.",
+    )
+    d.add_argument("--headless", action="store_true", help="no UI: run one demo sweep and print a summary")
+    d.add_argument("--plan", metavar="NAME|PLAN.toml", default="pmos-prototype",
+                   help="a demo plan name (see benchlog/demo/plans) or a plan file")
+    d.add_argument("--out", metavar="DIR", default="runs", help="folder for the run file (default: ./runs)")
+    d.add_argument("--json", action="store_true", help="print the summary as JSON")
+    d.add_argument("--seed", type=int, default=0, help="seed of the simulated bench (default 0)")
+    d.set_defaults(handler=_demo)
+
+
+# -- progress -------------------------------------------------------------------
+
+
+class Progress:
+    """Points done and ETA on stderr: a redrawn bar on a terminal, a plain line every tenth otherwise."""
+
+    def __init__(self, total: int, stream: TextIO = sys.stderr, clock=time.monotonic) -> None:
+        self.total = max(int(total), 1)
+        self.stream = stream
+        self.tty = bool(getattr(stream, "isatty", lambda: False)())
+        self.clock = clock
+        self.start = clock()
+        self.done = 0
+        self._next_line = max(1, self.total // 10)
+        self._last_draw = 0.0
+
+    def eta_s(self) -> float | None:
+        if self.done == 0:
+            return None
+        elapsed = self.clock() - self.start
+        return elapsed / self.done * max(self.total - self.done, 0)
+
+    def text(self) -> str:
+        eta = self.eta_s()
+        eta_text = "--:--" if eta is None else f"{int(eta) // 60:d}:{int(eta) % 60:02d}"
+        return f"{self.done}/{self.total} points  ETA {eta_text}"
+
+    def point(self) -> None:
+        self.done += 1
+        if self.tty:
+            now = self.clock()
+            if now - self._last_draw >= 0.1 or self.done >= self.total:
+                self._last_draw = now
+                width = 30
+                filled = min(width, width * self.done // self.total)
+                self.stream.write(f"\r[{'#' * filled}{'-' * (width - filled)}] {self.text()} ")
+                self.stream.flush()
+        elif self.done >= self._next_line:
+            self._next_line += max(1, self.total // 10)
+            self.stream.write(f"sweep: {self.text()}\n")
+            self.stream.flush()
+
+    def end(self) -> None:
+        if self.tty:
+            self.stream.write("\n")
+            self.stream.flush()
+
+
+# -- the commands -----------------------------------------------------------------
+
+
+def _power_prompt(real_bench: bool, assume_yes: bool):
+    def before_power_on() -> bool:
+        global _caution_shown
+        if not _caution_shown:
+            _caution_shown = True
+            sys.stderr.write(CAUTION + "\n")
+            sys.stderr.flush()
+        if real_bench and not assume_yes and sys.stdin.isatty() and sys.stderr.isatty():
+            sys.stderr.write("Switch the outputs on now? [y/N] ")
+            sys.stderr.flush()
+            answer = sys.stdin.readline().strip().lower()
+            return answer in ("y", "yes")
+        return True
+
+    return before_power_on
+
+
+def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool,
+         quiet: bool) -> tuple[Any, Any]:
+    from benchlog.runs.events import Note, Point
+    from benchlog.sweep.bench_file import load_bench
+    from benchlog.sweep.plan import load_plan
+    from benchlog.sweep.session import run_sweep
+
+    plan = load_plan(plan_path)
+    bench = load_bench(bench_path) if bench_path else None
+    state: dict[str, Any] = {"progress": None, "runner": None}
+
+    def on_runner(runner) -> None:
+        state["runner"] = runner
+        state["progress"] = Progress(runner.planned)
+
+    def on_event(event) -> None:
+        progress = state["progress"]
+        if isinstance(event, Point) and progress is not None:
+            progress.point()
+        elif isinstance(event, Note) and event.kind in ("limit", "fault", "warning", "cancel"):
+            if progress is not None and progress.tty and progress.done:
+                sys.stderr.write("\n")
+            sys.stderr.write(f"benchlog: {event.kind}: {event.message}\n")
+
+    try:
+        result = run_sweep(plan, bench, out, seed=seed, on_event=on_event, on_runner=on_runner,
+                           before_power_on=_power_prompt(bench is not None, assume_yes))
+    except KeyboardInterrupt:
+        runner = state["runner"]
+        if state["progress"] is not None:
+            state["progress"].end()
+        if runner is not None and runner.run_file is not None:
+            sys.stderr.write(f"benchlog: run file (cancelled): {runner.run_file}\n")
+        raise
+    if state["progress"] is not None:
+        state["progress"].end()
+    return plan, result
+
+
+def _exit_code(result) -> int:
+    if result.outcome == "complete":
+        return 0
+    if result.outcome == "fault" and isinstance(result.fault, BadInput):
+        return 2
+    return 1
+
+
+def _sweep(args) -> int:
+    plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes, quiet=args.json)
+    if args.json:
+        print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome})
+    else:
+        print(f"run file: {result.run_file}")
+        print(f"{result.points} points, outcome {result.outcome}" + (f": {result.message}" if result.message else ""))
+    return _exit_code(result)
+
+
+# -- demo -------------------------------------------------------------------------
+
+
+def demo_plans_dir() -> Path:
+    return Path(__file__).resolve().parent.parent / "demo" / "plans"
+
+
+def demo_plan_path(name: str) -> Path:
+    candidate = Path(name)
+    if name.endswith(".toml") or candidate.is_file():
+        return candidate
+    path = demo_plans_dir() / f"{name}.toml"
+    if not path.is_file():
+        known = ", ".join(sorted(p.stem for p in demo_plans_dir().glob("*.toml"))) or "none"
+        raise BadInput("argument", "--plan", f"no demo plan {name!r}", f"one of: {known}")
+    return path
+
+
+def _demo(args) -> int:
+    if not args.headless:
+        try:
+            from benchlog.tui.launch import run_demo_ui
+        except ImportError:
+            sys.stderr.write("benchlog: the terminal UI is not available in this installation; "
+                             "use 'benchlog demo --headless'\n")
+            return 2
+        return int(run_demo_ui(args) or 0)
+    plan_path = demo_plan_path(args.plan)
+    plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True, quiet=args.json)
+    summary: dict[str, Any] = {
+        "run_file": str(result.run_file),
+        "points": result.points,
+        "outcome": result.outcome,
+        "plan": str(plan_path),
+        "element": {"id": plan.element.id, "kind": plan.element.kind, "label": plan.element.label},
+    }
+    if result.message:
+        summary["message"] = result.message
+    summary.update(_analysis_summary(result.run_file, plan))
+    if args.json:
+        print_json(summary)
+    else:
+        print(f"demo plan: {plan_path.name} ({plan.element.kind} {plan.element.label or plan.element.id})")
+        print(f"run file: {result.run_file}")
+        print(f"{result.points} points, outcome {result.outcome}" + (f": {result.message}" if result.message else ""))
+        fit = summary.get("fit")
+        if fit:
+            parts = ", ".join(f"{k} = {v:.6g} ± {fit['std_u'].get(k, float('nan')):.2g}" for k, v in fit["params"].items())
+            print(f"fit ({fit['model']}): {parts} (standard uncertainties)")
+        verdict = summary.get("verdict")
+        if verdict:
+            print(f"verdict: {verdict['outcome']} ({verdict['rule']})")
+        if summary.get("analysis_note"):
+            print(summary["analysis_note"])
+    return _exit_code(result)
+
+
+def _analysis_summary(run_file: Path, plan) -> dict[str, Any]:
+    """Fit and verdict when the analysis modules are present (they are optional for a recording)."""
+    out: dict[str, Any] = {}
+    try:
+        from benchlog.analysis.fits import fit_run
+        from benchlog.runs import load
+    except ImportError:
+        return out
+    try:
+        frame, meta = load(run_file)
+        fit = fit_run(frame, meta)
+    except Exception as exc:  # noqa: BLE001 -- the recording stands even if the fit cannot be made
+        return {"analysis_note": f"no fit: {exc}"}
+    out["fit"] = {"model": fit.model, "params": dict(fit.params), "std_u": dict(fit.std_u), "reason": fit.reason}
+    spec_path = _demo_spec_for(plan)
+    if spec_path is None:
+        return out
+    try:
+        from benchlog.analysis.spec import load_spec
+        from benchlog.analysis.verdict import check_run
+
+        check = check_run(frame, meta, load_spec(spec_path))
+        verdict = getattr(check, "verdict", check)
+        out["verdict"] = {"outcome": getattr(verdict, "outcome", str(verdict)),
+                          "rule": getattr(verdict, "rule", ""), "spec": str(spec_path)}
+    except Exception as exc:  # noqa: BLE001
+        out["analysis_note"] = f"no verdict: {exc}"
+    return out
+
+
+def _demo_spec_for(plan) -> Path | None:
+    """The demo part spec named like the plan's element label (benchlog/demo/specs/<label>.toml)."""
+    if not plan.element.label:
+        return None
+    specs = demo_plans_dir().parent / "specs"
+    for candidate in (specs / f"{plan.element.label}.toml", specs / f"{plan.element.label.lower()}.toml"):
+        if candidate.is_file():
+            return candidate
+    return None

@@ -112,6 +112,7 @@ class SweepRunner:
         self.fault: BaseException | None = None
         self.message = ""
         self.power_applied = False
+        self.run_file = None  # set by whoever records the run (session.run_sweep)
         self._header: dict[str, Any] | None = None
         self._t0 = 0.0
         self._last_checkpoint = 0.0

@@ -1,0 +1,71 @@
+"""The built-in simulated bench: what `benchlog sweep` and `benchlog demo` run on without a bench file.
+
+The simulator is started in-process on ephemeral loopback ports and reached
+through real pyvisa-py sockets, exactly like hardware; this module only picks
+a wiring that suits the element and names the sim profiles.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from .bench_file import BenchSetup, RoleSpec, Wiring
+from .plan import Element
+
+#: Input voltage of the load wiring: a typical 12 V rail fully enhances a P-MOSFET whose gate is on the return.
+SIM_INPUT_V = 12.0
+
+SIM_PROFILES = {"supply": "sim-supply", "load": "sim-load", "meter": "sim-meter", "current_meter": "sim-meter"}
+
+
+def sim_wiring(element: Element | str, current_from: str = "supply", shunt_ohm: float | None = None) -> Wiring:
+    """Load wiring at 12 V for a P-MOSFET channel (it must see its input), supply CC for the rest."""
+    kind = element if isinstance(element, str) else element.kind
+    channel = kind == "pmos" and (isinstance(element, str) or element.measure == "channel")
+    if channel:
+        source = "load" if current_from == "supply" else current_from
+        return Wiring(force="load", current_from=source, shunt_ohm=shunt_ohm, input_v=SIM_INPUT_V)
+    return Wiring(force="supply", current_from=current_from, shunt_ohm=shunt_ohm)
+
+
+def builtin_bench(
+    element: Element | str,
+    seed: int = 1,
+    *,
+    wiring: Wiring | None = None,
+    **sim_options: Any,
+) -> tuple[BenchSetup, Any]:
+    """Start the simulated bench for `element` (an Element or a kind); returns (BenchSetup, RunningBench).
+
+    `sim_options` go to `SimConfig` (latency_s, faults, element_params,
+    current_meter, shunt_ohm, ambient_c, ...). The caller stops the bench.
+    """
+    from benchlog.sim.config import SimConfig
+    from benchlog.sim.server import serve_bench
+
+    kind = element if isinstance(element, str) else element.kind
+    if not isinstance(element, str):
+        sim_options.setdefault("ambient_c", element.ambient_c)
+    if wiring is not None and wiring.current_from in ("meter", "shunt"):
+        sim_options["current_meter"] = True
+        if wiring.shunt_ohm is not None:
+            sim_options.setdefault("shunt_ohm", wiring.shunt_ohm)
+    sim_options.setdefault("port", 0)
+    config = SimConfig(element=kind, seed=seed, **sim_options)
+    running = serve_bench(config)
+    try:
+        roles = {
+            name: RoleSpec(role=name, resource=resource, profile=SIM_PROFILES[name])
+            for name, resource in running.resources.items()
+        }
+        setup = BenchSetup(
+            roles=roles,
+            wiring=wiring or sim_wiring(element),
+            line_frequency_hz=config.line_frequency_hz,
+            source="built-in simulated bench",
+            simulated=True,
+        )
+    except BaseException:
+        running.stop()
+        raise
+    return setup, running
