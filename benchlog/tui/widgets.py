@@ -13,6 +13,19 @@ from .histogram import render_histogram
 from .plotting import Axis, PlotStyles, Series, render_plot
 
 
+class Plain(Static):
+    """Static text that is never read as markup: serials, file names and messages may hold `[` and `]`."""
+
+    def __init__(self, content="", **kwargs) -> None:
+        kwargs.setdefault("markup", False)
+        super().__init__(content, **kwargs)
+
+
+def cells(*values: object) -> tuple[Text, ...]:
+    """Table cells as plain text (DataTable would read a str as markup)."""
+    return tuple(Text(str(v)) for v in values)
+
+
 class KeyBar(Static):
     """Every key that works here, wrapped over as many lines as the width needs (textual's footer scrolls instead)."""
 
@@ -49,6 +62,10 @@ class KeyBar(Static):
             target = app_items if active.node is self.app else view_items
             target.append((self.app.get_key_display(binding), binding.description, binding.action == current))
         items = view_items + app_items
+        from textual.widgets import Input
+
+        if isinstance(self.screen.focused, Input):
+            items = [("Enter", "done", False), ("Esc", "leave the field (view keys work again)", False)]
         width = max(20, self.size.width or 80)
         line_len = 0
         text = Text(no_wrap=True)

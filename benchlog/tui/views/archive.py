@@ -13,7 +13,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Static
 
 from ..plotting import Axis, Series
-from ..widgets import CurvePlot, KeyBar
+from ..widgets import CurvePlot, KeyBar, Plain, cells
 from .base import View
 from .results import VERDICT_WORDS
 
@@ -95,7 +95,7 @@ class ArchiveView(View):
         self.marks: dict[str, Path] = {}
 
     def body(self) -> ComposeResult:
-        yield Static("", id="archive-head")
+        yield Plain("", id="archive-head")
         table = DataTable(id="runs", cursor_type="row")
         table.add_columns("date (UTC)", "element", "serial", "outcome", "verdict", "file")
         yield table
@@ -140,9 +140,9 @@ class ArchiveView(View):
         for entry in self.entries:
             marks = "".join(k.upper() for k, p in sorted(self.marks.items()) if p == entry.path)
             verdict = self.verdicts.get((entry.path, spec), "…" if spec else "—")
-            table.add_row(entry.started_utc.replace("T", " ")[:19], f"{entry.element} {entry.kind}"[:18],
-                          entry.serial or "—", entry.outcome, VERDICT_WORDS.get(verdict, verdict),
-                          (f"[{marks}] " if marks else "") + entry.path.name, key=str(entry.path))
+            table.add_row(*cells(entry.started_utc.replace("T", " ")[:19], f"{entry.element} {entry.kind}"[:18],
+                                 entry.serial or "—", entry.outcome, VERDICT_WORDS.get(verdict, verdict),
+                                 (f"[{marks}] " if marks else "") + entry.path.name), key=str(entry.path))
         if self.entries:
             table.move_cursor(row=min(max(row, 0), len(self.entries) - 1))
         self._head()
@@ -239,9 +239,9 @@ class OverlayScreen(Screen):
         self.paths = (a, b)
 
     def compose(self) -> ComposeResult:
-        yield Static(f" benchlog ▸ Overlay   │ A = {self.paths[0].name}   B = {self.paths[1].name}", id="view-title")
+        yield Plain(f" benchlog ▸ Overlay   │ A = {self.paths[0].name}   B = {self.paths[1].name}", id="view-title")
         yield CurvePlot(Axis("current", "A"), Axis("drop", "V"), id="overlay-plot")
-        yield Static("", id="status-line")
+        yield Plain("", id="status-line")
         yield KeyBar(id="keybar")
 
     def on_mount(self) -> None:

@@ -7,7 +7,7 @@ from textual.containers import Vertical
 from textual.screen import Screen
 from textual.widgets import Static
 
-from ..widgets import KeyBar
+from ..widgets import KeyBar, Plain, cells
 
 
 class View(Screen):
@@ -16,10 +16,10 @@ class View(Screen):
     TITLE_TEXT = "view"
 
     def compose(self) -> ComposeResult:
-        yield Static(self._title(), id="view-title")
+        yield Plain(self._title(), id="view-title")
         with Vertical(id="view-body"):
             yield from self.body()
-        yield Static("", id="status-line")
+        yield Plain("", id="status-line")
         yield KeyBar(id="keybar")
 
     def body(self) -> ComposeResult:

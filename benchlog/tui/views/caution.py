@@ -8,6 +8,8 @@ from textual.containers import Horizontal, Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Button, Static
 
+from ..widgets import Plain
+
 CAUTION_TEXT = """\
 ⚠ CAUTION: this run switches real power into real hardware.
 
@@ -32,7 +34,7 @@ class CautionScreen(ModalScreen[bool]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="caution-box"):
-            yield Static(CAUTION_TEXT, id="caution-text")
+            yield Plain(CAUTION_TEXT, id="caution-text")
             with Horizontal(id="caution-buttons"):
                 yield Button("y  I understand, switch on", id="caution-yes", variant="warning")
                 yield Button("n  Cancel", id="caution-no")

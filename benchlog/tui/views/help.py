@@ -6,6 +6,7 @@ from textual.app import ComposeResult
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
+from ..widgets import Plain, cells
 from .base import View
 
 INTRO = """\
@@ -21,8 +22,8 @@ class HelpView(View):
 
     def body(self) -> ComposeResult:
         with VerticalScroll(id="help-body"):
-            yield Static(INTRO, id="help-intro")
-            yield Static("", id="help-keys")
+            yield Plain(INTRO, id="help-intro")
+            yield Plain("", id="help-keys")
 
     def refresh_view(self) -> None:
         super().refresh_view()

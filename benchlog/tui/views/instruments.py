@@ -6,6 +6,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.widgets import DataTable, Static
 
+from ..widgets import Plain, cells
 from .base import View
 
 STATE_WORDS = {"connected": "✔ answers", "not probed": "… not probed", "no answer": "✘ no answer"}
@@ -19,11 +20,11 @@ class InstrumentsView(View):
     ]
 
     def body(self) -> ComposeResult:
-        yield Static("", id="bench-summary")
+        yield Plain("", id="bench-summary")
         table = DataTable(id="roles", cursor_type="row", zebra_stripes=False)
         table.add_columns("role", "state", "resource", "profile", "*IDN?")
         yield table
-        yield Static("", id="role-detail")
+        yield Plain("", id="role-detail")
 
     def refresh_view(self) -> None:
         super().refresh_view()
@@ -32,8 +33,8 @@ class InstrumentsView(View):
         row = table.cursor_row
         table.clear()
         for status in app.state.roles:
-            table.add_row(status.role, STATE_WORDS.get(status.state, status.state), status.resource,
-                          _short_profile(status.profile), status.idn or "—", key=status.role)
+            table.add_row(*cells(status.role, STATE_WORDS.get(status.state, status.state), status.resource,
+                                 _short_profile(status.profile), status.idn or "—"), key=status.role)
         if app.state.roles:
             table.move_cursor(row=min(row, len(app.state.roles) - 1))
         summary = self.query_one("#bench-summary", Static)

@@ -13,7 +13,7 @@ from textual.widgets import DataTable, Static
 
 from ..plotting import Axis, Series
 from ..units import duration, si
-from ..widgets import CurvePlot, bar
+from ..widgets import CurvePlot, bar, Plain, cells
 from .base import View
 
 LATEST_ROWS = 8
@@ -27,17 +27,17 @@ class LiveView(View):
     ]
 
     def body(self) -> ComposeResult:
-        yield Static("", id="live-head")
+        yield Plain("", id="live-head")
         with Horizontal(id="live-body"):
             with Vertical(id="live-plots"):
                 yield CurvePlot(Axis("current", "A"), Axis("drop", "V"), id="plot-vi")
                 yield CurvePlot(Axis("current", "A"), Axis("loss", "W"), id="plot-loss")
             with Vertical(id="live-side"):
-                yield Static("", id="live-limits")
+                yield Plain("", id="live-limits")
                 table = DataTable(id="latest", show_cursor=False)
                 table.add_columns("#", "I", "drop", "mode")
                 yield table
-        yield Static("", id="live-alert")
+        yield Plain("", id="live-alert")
 
     def refresh_view(self) -> None:
         super().refresh_view()
@@ -86,7 +86,7 @@ class LiveView(View):
         table.clear()
         for p in live.points[-LATEST_ROWS:][::-1]:
             flags = "*" if p.flags else ""
-            table.add_row(str(p.index), si(p.current_a, "A", 3), si(p.drop_v, "V", 4) + flags, p.supply_mode or "—")
+            table.add_row(*cells(str(p.index), si(p.current_a, "A", 3), si(p.drop_v, "V", 4) + flags, p.supply_mode or "—"))
 
     def _show_alert(self, live) -> None:
         alert = self.query_one("#live-alert", Static)

@@ -12,14 +12,14 @@ from textual.widgets import DataTable, Input, Static
 from ..plotting import Axis
 from ..units import si, with_uncertainty
 from ..lotview import QUANTITY_NAMES
-from ..widgets import HistogramPlot
+from ..widgets import HistogramPlot, Plain, cells
 from .base import View
 from .results import VERDICT_WORDS
 
 
 class LotView(View):
     TITLE_TEXT = "Lot"
-    AUTO_FOCUS = None  # n moves to the serial box; after Enter the keys belong to the view again (s stops)
+    AUTO_FOCUS = ""  # n moves to the serial box; after Enter the keys belong to the view again (s stops)
     BINDINGS = [
         Binding("n", "focus_serial", "Next serial"),
         Binding("escape", "leave_field", "Leave field", show=False),
@@ -27,14 +27,14 @@ class LotView(View):
 
     def body(self) -> ComposeResult:
         with Horizontal(id="lot-entry"):
-            yield Static(" next serial ▸", id="lot-prompt")
+            yield Plain(" next serial ▸", id="lot-prompt")
             yield Input(placeholder="n, then type the serial; Enter runs it", id="lot-serial", compact=True)
         with Horizontal(id="lot-body"):
             table = DataTable(id="lot-parts", cursor_type="row")
             table.add_columns("serial", "value ± U", "verdict")
             yield table
             with Vertical(id="lot-side"):
-                yield Static("", id="lot-stats")
+                yield Plain("", id="lot-stats")
                 yield HistogramPlot(Axis("value", ""), id="lot-histogram")
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
@@ -67,9 +67,9 @@ class LotView(View):
             verdict = VERDICT_WORDS.get(outcome or "", "—" if entry.outcome == "complete" else entry.outcome)
             if part is not None and part.outlier:
                 verdict += " ‼outlier"
-            table.add_row(entry.serial, value, verdict)
+            table.add_row(*cells(entry.serial, value, verdict))
         if state.lot_pending_serial:
-            table.add_row(state.lot_pending_serial, "measuring …", "")
+            table.add_row(*cells(state.lot_pending_serial, "measuring …", ""))
         self._show_stats()
 
     def _show_stats(self) -> None:

@@ -15,7 +15,7 @@ from textual.widgets import Static
 from ..findings import RunFindings
 from ..plotting import Axis, Series, line_series
 from ..units import si, with_uncertainty
-from ..widgets import CurvePlot
+from ..widgets import CurvePlot, Plain, cells
 from .base import View
 
 #: Fitted parameter keys: the name people use and the unit.
@@ -29,10 +29,8 @@ VERDICT_WORDS = {"pass": "PASS ✔", "fail": "FAIL ✘", "conditional": "COND �
 
 def operating_current(findings: RunFindings) -> float | None:
     """The current the verdict is given at: the check's, the plan's operating_a, else the largest measured."""
-    for name in ("at_a", "current_a", "operating_a"):
-        value = getattr(findings.check, name, None) if findings.check is not None else None
-        if isinstance(value, (int, float)) and not isinstance(value, bool):
-            return float(value)
+    if findings.check is not None:
+        return float(findings.check.current_a)
     element = findings.meta.header.get("plan", {}).get("element", {}) if findings.meta is not None else {}
     if element.get("operating_a"):
         return float(element["operating_a"])
@@ -42,25 +40,27 @@ def operating_current(findings: RunFindings) -> float | None:
 
 
 def check_lines(check) -> list[str]:
-    """What the verdict's check says, field by field, in words: measured, predicted, limit, rule."""
-    lines = []
-    for attr, label, unit in (("measured_loss_w", "measured loss", "W"), ("measured_drop_v", "measured drop", "V"),
-                              ("predicted_loss_w", "predicted loss (typ)", "W"),
-                              ("predicted_max_loss_w", "predicted loss (max)", "W"), ("limit_w", "limit", "W"),
-                              ("tj_c", "Tj predicted", "°C")):
-        value = getattr(check, attr, None)
-        if isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value):
-            shown = f"{value:.1f} °C" if unit == "°C" else si(value, unit)
-            lines.append(f"  {label:<22}{shown}")
+    """Measured against predicted at the operating point, from `analysis.verdict.Check`."""
+    k = check.k
+    lines = [f" at {si(check.current_a, 'A')} ({check.current_source}), ambient {check.ambient_c:g} °C",
+             f"  drop measured         {with_uncertainty(check.measured_drop_v, check.drop_std_u_v, 'V', k)}",
+             f"  loss measured         {with_uncertainty(check.measured_loss_w, check.loss_std_u_w, 'W', k)}"]
+    predicted = check.predicted
+    for label, point in (("typ", predicted.typical), ("max", predicted.maximum)):
+        if point is None or point.loss_w is None:
+            continue
+        tj = f", Tj {point.tj_c:.1f} °C" if point.tj_c is not None else ""
+        lines.append(f"  predicted loss ({label})  {si(point.loss_w, 'W')}{tj}")
+    limit = check.verdict.limit
+    if limit is not None:
+        lines.append(f"  limit                 {si(limit, 'W')} ({check.verdict.limit_source})")
+    if check.typical_comparison:
+        lines.append(f"  {check.typical_comparison}")
     return lines
 
 
 def verdict_rule(check) -> str:
-    for holder in (check, getattr(check, "verdict", None)):
-        rule = getattr(holder, "rule", None)
-        if isinstance(rule, str) and rule:
-            return rule
-    return ""
+    return check.verdict.rule
 
 
 class ResultsView(View):
@@ -79,10 +79,10 @@ class ResultsView(View):
     def body(self) -> ComposeResult:
         with Horizontal(id="results-body"):
             with VerticalScroll(id="results-text"):
-                yield Static("", id="verdict")
-                yield Static("", id="fit-table")
-                yield Static("", id="operating")
-                yield Static("", id="warnings")
+                yield Plain("", id="verdict")
+                yield Plain("", id="fit-table")
+                yield Plain("", id="operating")
+                yield Plain("", id="warnings")
             with Vertical(id="results-plot-box"):
                 yield CurvePlot(Axis("current", "A"), Axis("drop", "V"), id="results-plot")
 
@@ -141,16 +141,17 @@ class ResultsView(View):
 
     def _show_operating(self, f: RunFindings) -> None:
         box = self.query_one("#operating", Static)
-        at = operating_current(f)
+        if f.check is not None:
+            box.update("\n".join(check_lines(f.check)))
+            return
         lines = []
+        at = operating_current(f)
         if at is not None and f.fit is not None:
             drop, u_drop = f.fit.drop_at(at)
-            lines.append(f" at {si(at, 'A')} (operating point)")
+            lines.append(f" at {si(at, 'A')} (operating point, no spec)")
             lines.append(f"  drop (fit)            {with_uncertainty(drop, u_drop, 'V')}")
             lines.append(f"  loss measured         {with_uncertainty(drop * at, u_drop * at, 'W')}")
-        if f.check is not None:
-            lines.extend(check_lines(f.check))
-        elif f.check_error:
+        if f.check_error:
             lines.append(f"  prediction: ✘ {f.check_error}")
         box.update("\n".join(lines))
 

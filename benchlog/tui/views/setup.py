@@ -11,6 +11,7 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, Static
 
 from ..tomltext import dump_tables
+from ..widgets import Plain, cells
 from .base import View
 
 #: (table, key, label, type) of each field the form edits; the other keys of the plan are kept as they are.
@@ -43,7 +44,7 @@ def field_id(table: str, key: str) -> str:
 
 class SetupView(View):
     TITLE_TEXT = "Set-up"
-    AUTO_FOCUS = None  # keys belong to the view until the user tabs into a field
+    AUTO_FOCUS = ""  # keys belong to the view until the user tabs into a field
     BINDINGS = [
         Binding("tab", "focus_next", "Edit fields", show=True, key_display="Tab"),
         Binding("escape", "leave_field", "Leave field", show=False),
@@ -56,14 +57,14 @@ class SetupView(View):
     def body(self) -> ComposeResult:
         with Horizontal(id="setup-body"):
             with VerticalScroll(id="plan-form"):
-                yield Static("", id="plan-name")
+                yield Plain("", id="plan-name")
                 for table, key, label, _type in FIELDS:
                     with Horizontal(classes="field"):
                         yield Label(label, classes="field-label")
                         yield Input(id=field_id(table, key), classes="field-input", compact=True)
             with Vertical(id="setup-side"):
-                yield Static("", id="plan-check")
-                yield Static("", id="spec-summary")
+                yield Plain("", id="plan-check")
+                yield Plain("", id="spec-summary")
 
     def on_mount(self) -> None:
         self._load_form()
