@@ -81,6 +81,9 @@ class Role:
         del self._pending[:-8]
 
     def _query(self, command: str, timeout_s: float | None = None) -> str:
+        if command != self.profile.error_query:  # a query can cause an error too (an unknown header)
+            self._pending.append(command)
+            del self._pending[:-8]
         if timeout_s is None:
             return self.transport.query(command)
         return self.transport.query(command, timeout_s=timeout_s)
@@ -471,11 +474,27 @@ class Meter(Role):
         return values
 
     def measure_voltage(self, range_v: float | None = None) -> float | None:
-        """One reading with the profile's one-shot MEASure form (not every meter has one)."""
+        """One reading with the profile's one-shot MEASure form (not every meter has one).
+
+        Without `range_v` the configured voltage range is used, or the top range when none is
+        configured (an unknown signal is safest on the highest range).
+        """
+        return self._measure("measure_voltage", "range_v", range_v, self.profile.limits.voltage_ranges_v, "V",
+                             "dc_voltage")
+
+    def measure_current(self, range_a: float | None = None) -> float | None:
+        """One current reading with the profile's one-shot MEASure form."""
+        return self._measure("measure_current", "range_a", range_a, self.profile.limits.current_ranges_a, "A",
+                             "dc_current")
+
+    def _measure(self, operation: str, key: str, value: float | None, ranges: tuple[float, ...], unit: str,
+                 function: str) -> float | None:
         values = {}
-        if range_v is not None and "{range_v}" in self._template("measure_voltage"):
-            values["range_v"] = self._check_range(range_v, self.profile.limits.voltage_ranges_v, "range_v", "V")
-        return self._number(self._command("measure_voltage", **values), self.profile.timeout_s)
+        if "{" + key + "}" in self._template(operation):
+            if value is None:
+                value = self.range if self.function == function and self.range is not None else ranges[-1]
+            values[key] = self._check_range(value, ranges, key, unit)
+        return self._number(self._command(operation, **values), self.read_timeout_s())
 
     def accuracy(self, function: str, range_: float) -> AccuracySpec:
         return self.profile.accuracy_for(function, range_)
