@@ -19,10 +19,7 @@ import math
 import os
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
-
-import numpy as np
-import pandas as pd
+from typing import TYPE_CHECKING, Any
 
 from benchlog.badinput import BadInput
 
@@ -40,6 +37,10 @@ from .format import (
     SUPPLY_MODES,
 )
 from .reader import _Line, _open, decode_header, decode_record, is_torn, parse_json_object, read_records
+
+if TYPE_CHECKING:
+    import numpy as np
+    import pandas as pd
 
 #: DataFrame columns, in order; `power_w` = current_a * drop_v is computed on load.
 FRAME_COLUMNS: tuple[str, ...] = POINT_COLUMNS + ("power_w",)
@@ -94,6 +95,9 @@ def _meta(path: str | os.PathLike[str], started: RunStarted, records: list[Event
 
 def _frame(columns: dict[str, Any]) -> pd.DataFrame:
     """The one place that fixes column dtypes, so both paths give the same frame."""
+    import numpy as np  # imported on first use: writing a run never pays for pandas
+    import pandas as pd
+
     out: dict[str, Any] = {}
     for name in POINT_COLUMNS:
         values = columns[name]
@@ -113,12 +117,17 @@ def _frame(columns: dict[str, Any]) -> pd.DataFrame:
 
 
 def _finite_within(x: np.ndarray, optional: np.ndarray | bool = False) -> bool:
+    import numpy as np
+
     ok = np.abs(x) <= MAX_MAGNITUDE  # False for NaN and inf
     return bool(np.all(ok | (np.isnan(x) & optional)))
 
 
 def _fast(path: str | os.PathLike[str], first_line: bytes, started: RunStarted,
           torn: bool) -> tuple[pd.DataFrame, list[Event]]:
+    import numpy as np
+    import pandas as pd
+
     columns = list(started.header["point_columns"])
     names = ["tag"] + columns
     # The tag column reads "P" as missing (cheap), so the rare JSON lines are its only values.
@@ -207,6 +216,8 @@ def _fast(path: str | os.PathLike[str], first_line: bytes, started: RunStarted,
 
 def _finish(table: pd.DataFrame) -> pd.DataFrame:
     """The parsed table in the shape `_frame` gives, without copying the float columns again."""
+    import numpy as np
+
     out = table.reset_index(drop=True)
     for name in POINT_INTEGER_COLUMNS:
         out[name] = out[name].to_numpy().astype(np.int64)
