@@ -16,7 +16,7 @@ import sys
 from benchlog import __version__
 from benchlog.badinput import BadInput
 
-from . import analysis_cmd, fit_cmd, profiles_cmd, report_cmd, sim_cmd, sweep_cmd, ui_cmd
+from . import analysis_cmd, export_cmd, fit_cmd, profiles_cmd, report_cmd, sim_cmd, sweep_cmd, ui_cmd
 
 EXIT_OK = 0
 EXIT_FAILED = 1
@@ -24,7 +24,7 @@ EXIT_BAD_INPUT = 2
 EXIT_CONDITIONAL = 3
 EXIT_INTERRUPTED = 130
 
-_COMMAND_MODULES = (ui_cmd, sweep_cmd, fit_cmd, analysis_cmd, report_cmd, sim_cmd, profiles_cmd)
+_COMMAND_MODULES = (ui_cmd, sweep_cmd, fit_cmd, analysis_cmd, report_cmd, sim_cmd, profiles_cmd, export_cmd)
 
 
 class OneLineParser(argparse.ArgumentParser):
