@@ -185,11 +185,17 @@ def run_conditions(frame, meta, spec: PartSpec, at_a: float | None = None) -> Ru
     elif spec.is_mosfet and element.get("gate", "return") == "return":
         supply = frame["supply_v"].to_numpy(dtype=float) if "supply_v" in frame.columns else np.array([])
         supply = supply[np.isfinite(supply)]
+        header = getattr(meta, "header", None) or {}
+        bench = header.get("bench") if isinstance(header.get("bench"), dict) else {}
+        wiring = bench.get("wiring") if isinstance(bench.get("wiring"), dict) else {}
         if supply.size:
             vin = float(np.median(supply))
             notes.append(f"gate to the return: |Vgs| from the median recorded supply voltage {vin:.4g} V")
+        elif _number(wiring.get("input_v")) is not None:
+            vin = _number(wiring["input_v"])
+            notes.append(f"gate to the return: |Vgs| from the bench's input voltage {vin:.4g} V")
         else:
-            notes.append("gate to the return but no supply voltage recorded: gate taken as fully driven")
+            notes.append("gate to the return but no input voltage recorded: gate taken as fully driven")
     if zener is not None and vin is not None and not body:
         notes.append(f"gate clamp zener {zener:g} V")
     return RunConditions(current, where, ambient, vin, zener if not body else None, body, tuple(notes))

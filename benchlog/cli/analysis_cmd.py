@@ -1,7 +1,309 @@
-"""Subcommands: (being built)."""
+"""Subcommands `estimate`, `check`, `lot` and `design`: predictions from specs, verdicts on runs, lots, design reviews.
+
+Exit codes: `check` and `lot` 0 pass, 1 fail, 3 conditional; `design` 0 when a
+candidate is recommended, 1 when none meets every check; `estimate` 0. Bad input
+(file, key, argument) is 2, one line on stderr. JSON keys carry SI unit suffixes;
+a fitted value's standard uncertainty is under the same key in `std_u`.
+"""
 
 from __future__ import annotations
+
+import math
+from typing import Any
+
+from .output import print_json
+
+EXIT_CODES = {"pass": 0, "fail": 1, "conditional": 3}
 
 
 def register(sub) -> None:
     """Add this module's subcommands to the `benchlog` parser."""
+    e = sub.add_parser("estimate", help="predict drop, loss and junction temperature from part specs",
+                       description="Predict drop, loss and Tj (electro-thermal loop) of each part at one operating point.")
+    e.add_argument("specs", nargs="+", metavar="SPEC.toml", help="part spec file(s)")
+    e.add_argument("--at", type=float, required=True, metavar="AMPS", help="load current in A")
+    e.add_argument("--ambient", type=float, default=25.0, metavar="C", help="ambient in °C (default 25)")
+    e.add_argument("--vin", type=float, default=None, metavar="V",
+                   help="input voltage in V (sets a MOSFET's |Vgs| when its gate is tied to the return)")
+    e.add_argument("--zener", type=float, default=None, metavar="V", help="gate clamp zener voltage in V")
+    e.add_argument("--json", action="store_true", help="print JSON")
+    e.set_defaults(handler=_estimate)
+
+    c = sub.add_parser("check", help="judge a recorded run against its part spec (pass / fail / conditional)",
+                       description="Measured loss and drop at the operating current (from the fit, with "
+                                   "uncertainty) against the spec's predicted maximum, ILAC-G8 guard band.")
+    c.add_argument("run", metavar="RUN", help="run file")
+    c.add_argument("--spec", required=True, metavar="SPEC.toml", help="part spec file")
+    c.add_argument("--at", type=float, default=None, metavar="AMPS",
+                   help="operating current in A (default: the plan's operating_a, else the largest measured)")
+    c.add_argument("--json", action="store_true", help="print JSON")
+    c.set_defaults(handler=_check)
+
+    lo = sub.add_parser("lot", help="incoming inspection: statistics, Cpk, outliers and a verdict for many runs",
+                        description="One value per part (R_on or Vf at the operating current), mean, σ, "
+                                    "Cpk/Cpu, generalized ESD outliers, per-part and lot verdicts.")
+    lo.add_argument("runs", nargs="+", metavar="RUN", help="run files, one per part")
+    lo.add_argument("--spec", required=True, metavar="SPEC.toml", help="part spec file")
+    lo.add_argument("--at", type=float, default=None, metavar="AMPS", help="operating current in A")
+    lo.add_argument("--json", action="store_true", help="print JSON")
+    lo.set_defaults(handler=_lot)
+
+    d = sub.add_parser("design", help="review candidate protection parts against a design file",
+                       description="Side-by-side review of the candidates in a design file, with the gate "
+                                   "clamp sized from the E-series and a stated recommendation.")
+    d.add_argument("design", metavar="DESIGN.toml", help="design file")
+    d.add_argument("--json", action="store_true", help="print JSON")
+    d.set_defaults(handler=_design)
+
+
+# --------------------------------------------------------------------------- estimate
+def _point(op) -> dict[str, Any]:
+    return {
+        "drop_v": op.drop_v, "loss_w": op.loss_w, "tj_c": op.tj_c, "iterations": op.iterations,
+        "converged": op.converged, "runaway": op.runaway, "over_tj_max": op.over_tj_max,
+        "conduction": op.conduction, "vgs_v": op.vgs_v, "resistance_ohm": op.resistance_ohm,
+        "body_share": op.body_share, "method": op.method, "message": op.message,
+    }
+
+
+def estimate_entry(spec, p) -> dict[str, Any]:
+    entry = {"part": p.part, "kind": p.kind, "spec": spec.path, "current_a": p.current_a, "ambient_c": p.ambient_c,
+             "vin_v": p.vin_v, "zener_v": p.zener_v, "tj_max_c": p.tj_max_c}
+    entry.update(_point(p.typical))
+    entry["max"] = _point(p.maximum) if p.maximum is not None else None
+    entry["notes"] = list(p.notes)
+    return entry
+
+
+def _fmt(value, spec: str = ".4g", unit: str = "") -> str:
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "—"
+    return f"{value:{spec}}{(' ' + unit) if unit else ''}"
+
+
+def _argument(name: str, value: float | None, *, positive: bool = False, minimum: float | None = None) -> None:
+    """Reject NaN, infinities and out-of-range numbers that argparse's float() lets through."""
+    from benchlog.badinput import BadInput
+
+    if value is None:
+        return
+    if not math.isfinite(value) or (positive and value <= 0) or (minimum is not None and value < minimum):
+        expected = "a finite number" + (" above 0" if positive else f" of at least {minimum:g}" if minimum is not None else "")
+        raise BadInput("argument", name, f"is {value:g}", expected)
+
+
+def _estimate(args) -> int:
+    from benchlog.analysis.predict import predict
+    from benchlog.analysis.spec import load_spec
+
+    _argument("--at", args.at, minimum=0.0)
+    _argument("--ambient", args.ambient, minimum=-273.15)
+    _argument("--vin", args.vin, minimum=0.0)
+    _argument("--zener", args.zener, positive=True)
+
+    rows = []
+    for path in args.specs:
+        spec = load_spec(path)
+        rows.append((spec, predict(spec, args.at, args.ambient, vin_v=args.vin, zener_v=args.zener)))
+    if args.json:
+        print_json([estimate_entry(s, p) for s, p in rows])
+        return 0
+    for spec, p in rows:
+        print(f"{p.part} ({p.kind}) at {p.current_a:g} A, ambient {p.ambient_c:g} °C"
+              + (f", Vin {p.vin_v:g} V" if p.vin_v is not None else ""))
+        for op in (p.typical, p.maximum):
+            if op is None:
+                continue
+            state = op.message if not op.converged else f"{op.iterations} iterations, {op.conduction}"
+            print(f"  {op.variant:<8} drop {_fmt(op.drop_v, '.4g', 'V'):>10}  loss {_fmt(op.loss_w, '.4g', 'W'):>10}  "
+                  f"Tj {_fmt(op.tj_c, '.1f', '°C'):>9}  ({state})")
+            if op.over_tj_max or op.runaway:
+                print(f"  ! {op.message}")
+        for note in p.notes:
+            print(f"  note: {note}")
+    return 0
+
+
+# --------------------------------------------------------------------------- check
+def _verdict(v) -> dict[str, Any]:
+    return {"outcome": v.outcome, "quantity": v.quantity, "measured": v.measured, "expanded_u": v.expanded_u,
+            "k": v.k, "limit": v.limit, "side": v.side, "limit_source": v.limit_source, "rule": v.rule}
+
+
+def check_entry(c) -> dict[str, Any]:
+    p, cold = c.predicted, c.unheated
+    return {
+        "verdict": c.outcome,
+        "part": c.part, "run": c.run, "current_a": c.current_a, "current_source": c.current_source,
+        "ambient_c": c.ambient_c, "model": c.model,
+        "measured_drop_v": c.measured_drop_v, "measured_loss_w": c.measured_loss_w,
+        "std_u": {"measured_drop_v": c.drop_std_u_v, "measured_loss_w": c.loss_std_u_w},
+        "k": c.k,
+        "expanded_u": {"measured_drop_v": c.k * c.drop_std_u_v, "measured_loss_w": c.k * c.loss_std_u_w},
+        "predicted_loss_w": p.loss_w, "predicted_drop_v": p.drop_v, "predicted_tj_c": p.tj_c,
+        "predicted_max_loss_w": p.maximum.loss_w if p.maximum else None,
+        "predicted_max_drop_v": p.maximum.drop_v if p.maximum else None,
+        "predicted_max_tj_c": p.maximum.tj_c if p.maximum else None,
+        "unheated_loss_w": cold.loss_w, "unheated_max_loss_w": cold.maximum.loss_w if cold.maximum else None,
+        "limit_loss_w": c.verdict.limit, "limit_drop_v": c.drop_verdict.limit,
+        "limit_source": c.verdict.limit_source, "rule": c.verdict.rule,
+        "drop_verdict": c.drop_verdict.outcome,
+        "typical_comparison": c.typical_comparison,
+        "explanation": c.verdict.explain(),
+        "iterations": p.iterations, "converged": p.converged, "runaway": p.runaway, "conduction": p.conduction,
+        "notes": list(c.notes),
+    }
+
+
+def _check(args) -> int:
+    from benchlog.analysis.spec import load_spec
+    from benchlog.analysis.verdict import check_run
+    from benchlog.runs import load
+
+    _argument("--at", args.at, positive=True)
+    spec = load_spec(args.spec)
+    frame, meta = load(args.run)
+    c = check_run(frame, meta, spec, at_a=args.at)
+    if args.json:
+        print_json(check_entry(c))
+    else:
+        print(f"{c.outcome.upper()}  {c.part}, run {c.run}")
+        print(f"  at {c.current_a:.4g} A ({c.current_source}), ambient {c.ambient_c:g} °C, fit: {c.model}")
+        print(f"  measured drop {c.measured_drop_v:.6g} V ± {c.k * c.drop_std_u_v:.2g} V, "
+              f"loss {c.measured_loss_w:.6g} W ± {c.k * c.loss_std_u_w:.2g} W (k = {c.k:g})")
+        print(f"  limit {_fmt(c.verdict.limit, '.6g', 'W')}: {c.verdict.limit_source}")
+        print(f"  predicted in service (typical, self-heated): {_fmt(c.predicted.loss_w, '.4g', 'W')} "
+              f"at Tj {_fmt(c.predicted.tj_c, '.1f', '°C')}")
+        print(f"  {c.typical_comparison}")
+        print(f"  rule: {c.verdict.rule}")
+        for note in c.notes:
+            print(f"  note: {note}")
+    return EXIT_CODES[c.outcome]
+
+
+# --------------------------------------------------------------------------- lot
+def _unit(quantity: str) -> str:
+    return quantity.rsplit("_", 1)[-1]
+
+
+def lot_entry(s) -> dict[str, Any]:
+    u = _unit(s.quantity)
+    q = s.quantity
+    return {
+        "verdict": s.outcome, "part": s.part, "quantity": q, "n": s.n,
+        f"mean_{u}": s.mean, f"std_{u}": s.std, f"min_{u}": s.min, f"max_{u}": s.max,
+        f"usl_{u}": s.usl, f"lsl_{u}": s.lsl, "limit_source": s.limit_source,
+        "capability_name": s.capability_name, "capability": s.capability,
+        "outliers": s.outliers, "outlier_rule": s.outlier_rule, "counts": s.counts,
+        "rule": s.rule, "part_rule": s.part_rule,
+        "parts": [{"serial": p.serial, "run": p.run, q: p.value, "std_u": {q: p.std_u},
+                   "expanded_u": {q: p.expanded_u}, "verdict": p.outcome, "outlier": p.outlier} for p in s.parts],
+        "notes": list(s.notes),
+    }
+
+
+def _lot(args) -> int:
+    from benchlog.analysis.lot import lot_from_runs
+    from benchlog.analysis.spec import load_spec
+
+    _argument("--at", args.at, positive=True)
+    spec = load_spec(args.spec)
+    s = lot_from_runs(args.runs, spec, at_a=args.at)
+    if args.json:
+        print_json(lot_entry(s))
+        return EXIT_CODES[s.outcome]
+    unit = {"ohm": "Ω", "v": "V"}.get(_unit(s.quantity), "")
+    width = max(6, *(len(p.serial) for p in s.parts))
+    print(f"{s.outcome.upper()}  lot of {s.n} × {s.part}: {s.quantity}")
+    print(f"  {'serial':<{width}}  {'value':>12}  {'±U':>10}  verdict")
+    for p in s.parts:
+        flag = "  outlier" if p.outlier else ""
+        print(f"  {p.serial:<{width}}  {p.value:>12.6g}  {p.expanded_u:>10.2g}  {p.outcome}{flag}")
+    print(f"  mean {s.mean:.6g} {unit}, σ {_fmt(s.std, '.3g', unit)}, min {s.min:.6g}, max {s.max:.6g}")
+    print(f"  limits: USL {_fmt(s.usl, '.6g', unit)}, LSL {_fmt(s.lsl, '.6g', unit)} ({s.limit_source})")
+    print(f"  {s.capability_name} = {_fmt(s.capability, '.3g')}; outliers: {s.outliers} ({s.outlier_rule})")
+    print(f"  counts: {s.counts['pass']} pass, {s.counts['fail']} fail, {s.counts['conditional']} conditional")
+    print(f"  rule: {s.rule}; per part: {s.part_rule}")
+    for note in s.notes:
+        print(f"  note: {note}")
+    return EXIT_CODES[s.outcome]
+
+
+# --------------------------------------------------------------------------- design
+def design_entry(r) -> dict[str, Any]:
+    d = r.design
+    clamp = None
+    if r.clamp is not None:
+        c = r.clamp
+        clamp = {"zener_v": c.zener_v, "resistor_ohm": c.resistor_ohm, "series": c.series, "picked": c.picked,
+                 "at_vin_v": c.at_vin_v, "active": c.active, "zener_current_a": c.zener_current_a,
+                 "zener_power_w": c.zener_power_w, "resistor_power_w": c.resistor_power_w,
+                 "resistor_rating_w": c.resistor_rating_w, "zener_power_rating_w": c.zener_power_rating_w,
+                 "zener_ok": c.zener_ok, "note": c.note}
+    return {
+        "design": d.name, "file": d.path, "application": d.application,
+        "input": {"nominal_v": d.vin_nominal_v, "min_v": d.vin_min_v, "max_v": d.vin_max_v, "reverse_v": d.reverse_v},
+        "load": {"nominal_a": d.load_nominal_a, "max_a": d.load_max_a}, "ambient_max_c": d.ambient_max_c,
+        "recommended": r.recommended, "recommendation": r.recommendation, "reasons": list(r.reasons),
+        "reminders": list(r.reminders), "margins": r.margins_note, "clamp": clamp,
+        "candidates": [
+            {"label": c.label, "part": c.part, "kind": c.kind, "spec": c.spec_path, "acceptable": c.acceptable,
+             "drop_v": c.drop_v, "loss_w": c.loss_w, "efficiency": c.efficiency, "tj_c": c.tj_c,
+             "tj_max_c": c.tj_max_c, "tj_margin_k": c.tj_margin_k, "worst_loss_w": c.worst_loss_w,
+             "blocking_rating_v": c.blocking_rating_v, "blocking_needed_v": c.blocking_needed_v,
+             "blocking_headroom_v": c.blocking_headroom_v, "vgs_unclamped_v": c.vgs_unclamped_v,
+             "vgs_clamped_v": c.vgs_clamped_v, "vgs_max_v": c.vgs_max_v,
+             "threshold_margin_v": c.threshold_margin_v, "min_input_conduction": c.min_input_conduction,
+             "leakage_a": c.leakage_a, "reverse_tj_c": c.reverse_tj_c,
+             "checks": [{"name": k.name, "ok": k.ok, "detail": k.detail} for k in c.checks]}
+            for c in r.candidates
+        ],
+    }
+
+
+def _design(args) -> int:
+    from benchlog.analysis.design import review_file
+
+    r = review_file(args.design)
+    if args.json:
+        print_json(design_entry(r))
+        return 0 if r.recommended else 1
+    d = r.design
+    print(f"{d.name} ({d.application}): input {d.vin_min_v:g}–{d.vin_nominal_v:g}–{d.vin_max_v:g} V"
+          + (f", reverse {d.reverse_v:g} V" if d.reverse_v else "")
+          + f"; load {d.load_nominal_a:g} A (max {d.load_max_a:g} A); ambient up to {d.ambient_max_c:g} °C")
+    rows = [
+        ("drop (nominal)", lambda c: _fmt(c.drop_v, ".3g", "V")),
+        ("loss (nominal)", lambda c: _fmt(c.loss_w, ".3g", "W")),
+        ("efficiency", lambda c: _fmt(None if c.efficiency is None else c.efficiency * 100, ".2f", "%")),
+        ("loss (worst)", lambda c: _fmt(c.worst_loss_w, ".3g", "W")),
+        ("Tj (worst)", lambda c: _fmt(c.tj_c, ".0f", "°C")),
+        ("Tj margin", lambda c: _fmt(c.tj_margin_k, ".0f", "K")),
+        ("blocking headroom", lambda c: _fmt(c.blocking_headroom_v, ".3g", "V")),
+        ("|Vgs| unclamped", lambda c: _fmt(c.vgs_unclamped_v, ".3g", "V")),
+        ("|Vgs| clamped", lambda c: _fmt(c.vgs_clamped_v, ".3g", "V")),
+        ("threshold margin", lambda c: _fmt(c.threshold_margin_v, ".2f", "V")),
+        ("reverse leakage", lambda c: _fmt(None if c.leakage_a is None else c.leakage_a * 1e6, ".3g", "µA")),
+        ("meets every check", lambda c: "yes" if c.acceptable else "no"),
+    ]
+    width = max(14, *(len(c.label) for c in r.candidates))
+    print(f"  {'':<18}" + "".join(f"{c.label:>{width + 2}}" for c in r.candidates))
+    for name, cell in rows:
+        print(f"  {name:<18}" + "".join(f"{cell(c):>{width + 2}}" for c in r.candidates))
+    for c in r.candidates:
+        for k in c.checks:
+            mark = {True: "ok  ", False: "FAIL", None: "n/a "}[k.ok]
+            print(f"  {mark} {c.label}: {k.name}: {k.detail}")
+    if r.clamp is not None:
+        k = r.clamp
+        print(f"  gate clamp: {k.zener_v:g} V zener, {k.resistor_ohm:g} Ω ({k.series}); at {k.at_vin_v:g} V: "
+              f"{k.zener_current_a * 1e3:.3g} mA, zener {k.zener_power_w * 1e3:.3g} mW, "
+              f"resistor {k.resistor_power_w * 1e3:.3g} mW (≥ {k.resistor_rating_w:g} W part)"
+              + (f"; {k.note}" if k.note else ""))
+    print(f"  {r.recommendation}")
+    for reason in r.reasons:
+        print(f"    - {reason}")
+    print(f"  {r.margins_note}")
+    for m in r.reminders:
+        print(f"  caution: {m}")
+    return 0 if r.recommended else 1

@@ -1,0 +1,121 @@
+"""`benchlog estimate / check / lot / design` end to end: runs recorded from the simulated bench over pyvisa-py."""
+
+import io
+import json
+from contextlib import redirect_stderr, redirect_stdout
+from pathlib import Path
+
+import pytest
+
+import benchlog
+from benchlog.analysis.predict import predict
+from benchlog.analysis.spec import load_spec
+from benchlog.analysis.verdict import decide
+from benchlog.cli import main
+from benchlog.sweep.plan import load_plan
+from benchlog.sweep.session import run_sweep
+
+DEMO = Path(benchlog.__file__).parent / "demo"
+PFET = DEMO / "specs" / "demo-pfet-10m.toml"
+RECT = DEMO / "specs" / "demo-rect-3a.toml"
+
+
+def cli(*argv):
+    out, err = io.StringIO(), io.StringIO()
+    with redirect_stdout(out), redirect_stderr(err):
+        try:
+            code = main([str(a) for a in argv])
+        except SystemExit as stop:  # argparse leaves through SystemExit(2)
+            code = stop.code
+    return code, out.getvalue(), err.getvalue()
+
+
+@pytest.fixture(scope="module")
+def runs(tmp_path_factory):
+    """A P-MOSFET prototype sweep and three boards of the lot plan, each a different seeded part."""
+    out = tmp_path_factory.mktemp("runs")
+    proto = run_sweep(load_plan(DEMO / "plans" / "pmos-prototype.toml"), None, out, seed=3)
+    lot = [run_sweep(load_plan(DEMO / "plans" / "lot-inspection.toml"), None, out / f"b{s}", seed=s)
+           for s in (11, 12, 13)]
+    assert proto.outcome == "complete" and all(r.outcome == "complete" for r in lot)
+    return {"proto": proto.run_file, "lot": [r.run_file for r in lot]}
+
+
+def test_estimate_json_one_entry_per_part():
+    code, out, _ = cli("estimate", PFET, RECT, "--at", 2, "--ambient", 40, "--vin", 12, "--json")
+    assert code == 0
+    rows = json.loads(out)
+    assert [r["part"] for r in rows] == ["DEMO-PFET-10M", "DEMO-RECT-3A"]
+    for row, path in zip(rows, (PFET, RECT)):
+        p = predict(load_spec(path), 2.0, 40.0, vin_v=12.0)
+        assert row["loss_w"] == pytest.approx(p.loss_w) and row["tj_c"] == pytest.approx(p.tj_c)
+        assert row["iterations"] == p.iterations and row["converged"] is True
+        assert row["max"]["loss_w"] == pytest.approx(p.maximum.loss_w)
+        assert row["tj_c"] == pytest.approx(40.0 + row["loss_w"] * load_spec(path).thermal.rth_ja_k_per_w, abs=1e-5)
+
+
+def test_check_json_and_exit_code(runs):
+    code, out, _ = cli("check", runs["proto"], "--spec", PFET, "--json")
+    c = json.loads(out)
+    assert code == {"pass": 0, "fail": 1, "conditional": 3}[c["verdict"]]
+    assert c["current_a"] == 2.0  # the plan's operating_a
+    assert c["measured_loss_w"] == pytest.approx(c["measured_drop_v"] * 2.0)
+    assert c["std_u"]["measured_loss_w"] == pytest.approx(c["std_u"]["measured_drop_v"] * 2.0)
+    # The verdict is the guard-band rule applied to the printed numbers (ILAC-G8:09/2019).
+    again = decide(c["measured_loss_w"], c["expanded_u"]["measured_loss_w"], c["limit_loss_w"])
+    assert again.outcome == c["verdict"]
+    assert "ILAC-G8" in c["rule"] and c["limit_source"]
+    for key in ("predicted_loss_w", "predicted_max_loss_w", "typical_comparison", "iterations", "conduction"):
+        assert key in c
+    # The simulated part is near its datasheet typical: pass, with the prediction close to the measurement.
+    assert c["verdict"] == "pass" and c["conduction"] == "channel"
+    assert c["measured_loss_w"] == pytest.approx(c["predicted_loss_w"], rel=0.15)
+
+
+def test_check_at_a_tight_current_can_fail(runs, tmp_path):
+    # The same run against a spec whose maximum is half the part's R_DS(on): must fail.
+    tight = tmp_path / "tight.toml"
+    tight.write_text(PFET.read_text().replace("rds_on_max_ohm = 0.0125", "rds_on_max_ohm = 0.005")
+                     .replace("rds_on_ohm = 0.010", "rds_on_ohm = 0.005").replace("rds_on_2_ohm = 0.0165", "rds_on_2_ohm = 0.0083"))
+    code, out, _ = cli("check", runs["proto"], "--spec", tight, "--at", 2.5)
+    assert code == 1 and out.startswith("FAIL")
+
+
+def test_lot_json(runs):
+    code, out, _ = cli("lot", *runs["lot"], "--spec", PFET, "--json")
+    s = json.loads(out)
+    assert code == {"pass": 0, "fail": 1, "conditional": 3}[s["verdict"]]
+    assert s["n"] == 3 and s["quantity"] == "r_on_ohm" and len(s["parts"]) == 3
+    values = [p["r_on_ohm"] for p in s["parts"]]
+    assert s["mean_ohm"] == pytest.approx(sum(values) / 3)
+    assert s["capability_name"] == "Cpu" and s["usl_ohm"] > 0.0125  # the maximum, warmed to its Tj
+    assert all(p["verdict"] == "pass" for p in s["parts"])
+
+
+def test_design_cli_demo():
+    code, out, _ = cli("design", DEMO / "design.toml", "--json")
+    r = json.loads(out)
+    assert code == 0 and r["recommended"].startswith("C")
+    assert r["clamp"]["resistor_ohm"] == 5100.0
+    code, text, _ = cli("design", DEMO / "design.toml")
+    assert code == 0 and "recommended: C" in text and "ISO 7637-2" in text
+
+
+@pytest.mark.parametrize(
+    "argv",
+    [
+        ("estimate", PFET, "--at", "nan"),
+        ("estimate", PFET, "--at", "two"),
+        ("estimate", DEMO / "missing.toml", "--at", 1),
+        ("check", "missing.run", "--spec", PFET),
+        ("design", PFET),
+    ],
+)
+def test_bad_input_is_one_line_and_exit_2(argv):
+    code, out, err = cli(*argv)
+    assert code == 2 and out == "" and err.count("\n") == 1 and "Traceback" not in err
+
+
+def test_wrong_kind_spec_is_bad_input(runs):
+    code, _, err = cli("check", runs["proto"], "--spec", RECT)
+    assert code == 2 and err.count("\n") == 1 and "kind" in err
