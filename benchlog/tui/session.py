@@ -54,12 +54,29 @@ class BenchSession:
         self._cancelled = False
 
     @classmethod
-    def simulated(cls, element: str, *, runs_dir: Path, seed: int = 1, **kwargs: Any) -> "BenchSession":
-        """Start the built-in simulated bench for `element` and wrap it."""
+    def simulated(cls, element: Any, *, runs_dir: Path, seed: int = 1, sim_options: dict | None = None,
+                  **kwargs: Any) -> "BenchSession":
+        """Start the built-in simulated bench for `element` (an Element or a kind) and wrap it."""
         from benchlog.sweep.simbench import builtin_bench
 
-        setup, running = builtin_bench(element, seed)
-        return cls(setup, runs_dir=runs_dir, sim=running, label=f"simulated bench ({element})", **kwargs)
+        setup, running = builtin_bench(element, seed, **dict(sim_options or {}))
+        session = cls(setup, runs_dir=runs_dir, sim=running, **kwargs)
+        session.seed = seed
+        session.sim_options = dict(sim_options or {})
+        session.sim_kind = element if isinstance(element, str) else element.kind
+        session.label = f"simulated bench ({session.sim_kind})"
+        return session
+
+    def _bench_for(self, plan: Any) -> None:
+        """The simulator holds one element; a plan of another kind gets a freshly started simulated bench."""
+        if self.sim is None or getattr(self, "sim_kind", None) == plan.element.kind:
+            return
+        from benchlog.sweep.simbench import builtin_bench
+
+        self.sim.stop()
+        self.setup, self.sim = builtin_bench(plan.element, getattr(self, "seed", 1), **getattr(self, "sim_options", {}))
+        self.sim_kind = plan.element.kind
+        self.label = f"simulated bench ({self.sim_kind})"
 
     @classmethod
     def from_file(cls, path: Path, *, runs_dir: Path, **kwargs: Any) -> "BenchSession":
@@ -100,6 +117,7 @@ class BenchSession:
 
         with self._lock:
             self._cancelled = False
+        self._bench_for(plan)
         try:
             result = run_sweep(plan, self.setup, self.runs_dir, on_event=on_event, on_runner=self._hold_runner)
         finally:

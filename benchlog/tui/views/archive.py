@@ -155,6 +155,10 @@ class ArchiveView(View):
             f" folder {self.app.runs_dir} · {len(self.entries)} runs · replay speed {speed_text(state.replay_speed)}"
             f"\n spec {spec} · model {state.model} · marked {marks}")
 
+    def on_screen_resume(self) -> None:
+        self.rescan()  # runs recorded since the last visit appear at once
+        super().on_screen_resume()
+
     def refresh_view(self) -> None:
         super().refresh_view()
         if self.is_mounted:
