@@ -43,6 +43,9 @@ __all__ = [
 
 MODELS = ("auto", "resistive", "diode", "knee")
 
+#: Element kinds whose forward drop is a junction: they break an AICc tie towards the diode law.
+DIODE_KINDS = ("rectifier", "schottky")
+
 #: Temperature taken when a run records none at all (common practice: the datasheet reference).
 DEFAULT_TEMPERATURE_C = 25.0
 
@@ -124,7 +127,10 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
             fit = fit_diode(current, drop, temperature_c, accuracy, **common)
             notes.append(t_note)
         else:
-            fit = fit_auto(current, drop, temperature_c, accuracy, **common)
+            kind = str((getattr(meta, "element", None) or {}).get("kind") or "")
+            tie = "diode" if kind in DIODE_KINDS else "resistive"
+            why = f"the run records a {kind} element" if kind else ""
+            fit = fit_auto(current, drop, temperature_c, accuracy, tie_break=tie, tie_why=why, **common)
             if fit.model == "diode":
                 notes.append(t_note)
     except FitError as exc:

@@ -8,7 +8,8 @@ points, where plain AIC favours the bigger model and AICc's correction matters,
 and we want the better predictor of the drop, not the "true" model BIC looks for.
 Both models are scored on the same points (I > 0) with the same weights. A
 difference under 2 is no real support for either (Burnham & Anderson §2.6), so
-the simpler, resistive model is kept; a diode fit whose Is exceeds the largest
+the simpler, resistive model is kept unless the caller breaks the tie (`fit_run`
+uses the element kind recorded in the run); a diode fit whose Is exceeds the largest
 current (no exponential region) or with an ideality outside 0.5–10 is refused
 as unphysical.
 """
@@ -53,8 +54,15 @@ def fit_auto(
     offset_removed: bool = False,
     exclude_outliers: bool = False,
     point_index=None,
+    tie_break: str = "resistive",
+    tie_why: str = "",
 ) -> FitResult:
-    """Fit both models, keep the one with the lower AICc (ties to resistive); `reason` says why."""
+    """Fit both models, keep the one with the lower AICc; `reason` says why.
+
+    Within `AICC_TIE` the data do not decide; `tie_break` does ("resistive", the
+    simpler model, unless the caller knows better — e.g. the element's recorded
+    kind — and says so in `tie_why`).
+    """
     i_all = np.asarray(current_a, dtype=float).ravel()
     v_all = np.asarray(drop_v, dtype=float).ravel()
     common = dict(u_drop_v=u_drop_v, offset_removed=offset_removed, exclude_outliers=exclude_outliers,
@@ -96,8 +104,13 @@ def fit_auto(
         if delta >= AICC_TIE:
             reason = f"{head}; diode lower by {delta:.1f} (>= {AICC_TIE:g}) -> diode"
             return _with(fit_diode(i_all, v_all, temperature_c, accuracy, **common), reason, scores)
-        if delta > 0:
-            reason = f"{head}; diode lower by only {delta:.1f} (< {AICC_TIE:g}, no real support) -> the simpler resistive"
+        if abs(delta) < AICC_TIE:
+            lower = "diode" if delta > 0 else "resistive"
+            why = tie_why or ("the simpler model" if tie_break == "resistive" else "as asked")
+            reason = (f"{head}; {lower} lower by only {abs(delta):.1f} (< {AICC_TIE:g}, no real support) "
+                      f"-> {tie_break}, {why}")
+            if tie_break == "diode":
+                return _with(fit_diode(i_all, v_all, temperature_c, accuracy, **common), reason, scores)
         else:
             reason = f"{head}; resistive lower by {-delta:.1f} -> resistive"
     else:

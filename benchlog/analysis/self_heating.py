@@ -10,9 +10,10 @@ offset are common to every point, so only type A counts here):
      with I²) and as (dV/dT)·θ·P for a diode. The residuals are regressed on that
      shape after removing what the fitted model can already absorb (Frisch–Waugh–
      Lovell), and the slope is t-tested (scipy.stats.t).
-The sign must be the heating sign — R_DS(on) rises with temperature, Vf falls
-(common practice); a significant bend of the other sign is reported as a poor
-model, not as heating. With a known temperature coefficient (`tempco_per_k`:
+For the trend the sign must be the heating sign — R_DS(on) rises with
+temperature, Vf falls (common practice); a significant bend of the other sign is
+reported as a poor model, not as heating. Up and down passes that disagree are
+reported whatever the sign, with the sign named. With a known temperature coefficient (`tempco_per_k`:
 relative per K for a resistance, V/K for a diode's drop) the slope gives θ and
 the rise at the highest power, the hysteresis the extra heat of the down pass.
 """
@@ -135,10 +136,14 @@ def _updown(e, i, direction, setpoint, sign, resistive, r_value, tempco, alpha, 
     text = f"down-sweep minus up-sweep {shift * 1e3:+.4g} mV over {common.size} setpoints (paired t test p = {p:.2g})"
     if "updown_delta_t_c" in out:
         text += f", the down pass {out['updown_delta_t_c']:.3g} K warmer"
-    if p < alpha and math.copysign(1.0, shift) == sign:
-        found.append("hysteresis: " + text)
-    elif p < alpha:
-        quiet.append("up/down differ with the sign opposite to heating: " + text)
+    if p < alpha:
+        # disagreement beyond the scatter is reported whatever its sign; the sign is told, because
+        # heating raises a resistance's drop and lowers a diode's
+        if math.copysign(1.0, shift) == sign:
+            found.append("hysteresis: " + text)
+        else:
+            found.append("hysteresis of the sign opposite to this model's heating (a diode's drop falls "
+                         "when warm, a resistance's rises: check the element kind): " + text)
     else:
         quiet.append("up/down agree within their scatter: " + text)
 
@@ -170,7 +175,7 @@ def _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco, alpha, found, q
     t = b / se if se > 0 else math.inf
     p = float(2.0 * stats.t.sf(abs(t), dof))
     out["trend_p"] = p
-    if tempco:
+    if tempco and math.copysign(1.0, b) == sign:  # a rise only from a bend of the heating sign
         # in the joint model V = V0 + R₀·I + b·I·P the unheated R₀ is the fitted R less what
         # the heating term lent it (Frisch–Waugh–Lovell): R₀ = R − b·(coefficient of I in z)
         r_cold = r_value - b * float(coef[1]) if resistive else math.nan

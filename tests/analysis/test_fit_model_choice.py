@@ -56,3 +56,16 @@ def test_without_temperature_only_resistive_is_possible():
     fit = fit_auto(i, v, None)
     assert fit.model == "resistive"
     assert "no temperature" in fit.reason
+
+
+def test_a_tie_is_broken_by_the_caller_and_said_so():
+    # Only the straight upper part of a rectifier's curve, noisy: the data cannot tell the models
+    # apart (|ΔAICc| < 2, "no real support", Burnham & Anderson 2002 §2.6).
+    rng = np.random.default_rng(6)
+    i = np.linspace(1.5, 3.0, 15)
+    v = shockley_drop_v(i, 1.8, 5e-9, 0.03, 25.0) + rng.normal(0, 2e-3, i.size)
+    plain = fit_auto(i, v, 25.0)
+    assert abs(plain.criterion["resistive"] - plain.criterion["diode"]) < 2.0
+    assert plain.model == "resistive" and "simpler model" in plain.reason
+    told = fit_auto(i, v, 25.0, tie_break="diode", tie_why="the run records a rectifier element")
+    assert told.model == "diode" and "rectifier" in told.reason
