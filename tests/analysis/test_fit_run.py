@@ -17,9 +17,9 @@ ACCURACY = {"drop": {"reading_pct": 0.0040, "range_pct": 0.0007, "range_v": 1.0}
 
 
 def write_run(path, currents, drops, *, offset_v=None, directions=None, flags=None, temperature_c=None,
-              accuracy=ACCURACY, ambient_c=23.0):
+              accuracy=ACCURACY, ambient_c=23.0, kind="pmos"):
     header = {"tool_version": "test", "started_utc": "2025-01-01T00:00:00Z",
-              "element": {"id": "DEMO-PMOS-1", "kind": "pmos", "ambient_c": ambient_c}}
+              "element": {"id": "DEMO-PART-1", "kind": kind, "ambient_c": ambient_c}}
     if accuracy is not None:
         header["accuracy"] = accuracy
     with RunWriter(path, fsync=False) as writer:
@@ -84,6 +84,16 @@ def test_fit_run_diode_uses_the_recorded_temperature(tmp_path):
     fit2 = fit_run(*load(path2), "diode")
     assert fit2.temperature_c == pytest.approx(40.0)
     assert fit2.params["ideality"] == pytest.approx(fit.params["ideality"], rel=1e-9)
+
+
+def test_fit_run_breaks_an_aicc_tie_by_the_recorded_kind(tmp_path):
+    # the straight upper part of a rectifier curve: |ΔAICc| < 2 (see test_fit_model_choice)
+    i = np.linspace(1.5, 3.0, 15)
+    v = shockley_drop_v(i, 1.8, 5e-9, 0.03, 25.0) + np.random.default_rng(6).normal(0, 2e-3, i.size)
+    as_rectifier = fit_run(*load(write_run(tmp_path / "r.run", i, v, ambient_c=25.0, kind="rectifier")))
+    as_pmos = fit_run(*load(write_run(tmp_path / "p.run", i, v, ambient_c=25.0, kind="pmos")))
+    assert as_rectifier.model == "diode" and "rectifier" in as_rectifier.reason
+    assert as_pmos.model == "resistive"
 
 
 def test_fit_run_refuses_with_the_file_named(tmp_path):

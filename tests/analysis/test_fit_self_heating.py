@@ -96,3 +96,17 @@ def test_without_direction_column_only_the_trend_is_tested():
     result = detect_self_heating(frame, fit, tempco_per_k=ALPHA_R)
     assert result.updown_p is None and "not tested" in result.reason
     assert result.detected
+
+
+def test_hysteresis_of_the_other_sign_is_still_reported():
+    # a warm diode fitted with a straight line: the down pass is lower, not higher as a resistance's
+    # would be; the disagreement is beyond the scatter, so it is reported, with the sign named
+    tc = -2e-3
+
+    def diode(current, rise):
+        return float(shockley_drop_v(current, 1.6, 1e-9, 0.02, 25.0)) + tc * rise
+
+    frame = add_noise(updown_frame(np.linspace(0.1, 3, 20), diode, tau_steps=4.0), 2e-4, 7)
+    fit = fit_resistive(frame.current_a, frame.drop_v, point_index=frame["index"])
+    result = detect_self_heating(frame, fit)
+    assert result.detected and "opposite" in result.reason and result.updown_shift_v < 0
