@@ -42,9 +42,11 @@ def register(sub) -> None:
 
 
 def _list(args) -> int:
-    from benchlog.instruments.profile import list_profiles
+    from benchlog.instruments.profile import scan_profiles
 
-    profiles = list_profiles()
+    profiles, broken = scan_profiles()
+    for error in broken:  # a broken file in a profile folder is skipped, but never silently
+        sys.stderr.write(f"benchlog: skipped {error.line()}\n")
     if args.json:
         print_json([{"name": p.name, "role": p.role, "generic": p.generic, "file": str(p.path)} for p in profiles])
         return EXIT_OK

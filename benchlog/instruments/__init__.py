@@ -17,7 +17,19 @@ from .errors import (
     WrongInstrument,
 )
 from .guard import Terminated, reach_safe_state, safe_state_guard
-from .profile import AccuracySpec, Limits, ModeDecoding, Profile, list_profiles, load_profile, match_idn, parse_profile, profile_dirs, read_profile
+from .profile import (
+    AccuracySpec,
+    Limits,
+    ModeDecoding,
+    Profile,
+    list_profiles,
+    load_profile,
+    match_idn,
+    parse_profile,
+    profile_dirs,
+    read_profile,
+    scan_profiles,
+)
 from .roles import Load, Meter, Role, Supply
 from .transport import Transport, VisaTransport
 
@@ -26,5 +38,5 @@ __all__ = [
     "Meter", "ModeDecoding", "NonsenseReply", "ProbeResult", "Profile", "ProfileError", "Role", "SafeStateFailed",
     "SafetyLimit", "Supply", "Terminated", "Transport", "TransportError", "VisaTransport", "WrongInstrument",
     "list_profiles", "load_profile", "match_idn", "open_role", "parse_profile", "probe", "profile_dirs",
-    "reach_safe_state", "read_profile", "safe_state_guard",
+    "reach_safe_state", "read_profile", "safe_state_guard", "scan_profiles",
 ]

@@ -261,17 +261,24 @@ def profile_dirs() -> list[Path]:
     return seen
 
 
-def list_profiles() -> list[Profile]:
-    """Every valid profile found, first directory wins on a name clash; broken files are skipped."""
+def scan_profiles() -> tuple[list[Profile], list[ProfileError]]:
+    """Every profile found (first directory wins on a name clash) and the errors of the broken files."""
     found: dict[str, Profile] = {}
+    broken: list[ProfileError] = []
     for directory in profile_dirs():
         for file in sorted(directory.glob("*.toml")):
             try:
                 profile = read_profile(file)
-            except ProfileError:
+            except ProfileError as exc:
+                broken.append(exc)
                 continue
             found.setdefault(profile.name, profile)
-    return list(found.values())
+    return list(found.values()), broken
+
+
+def list_profiles() -> list[Profile]:
+    """Every valid profile found; broken files are left out (`scan_profiles` reports them)."""
+    return scan_profiles()[0]
 
 
 def match_idn(idn_text: str, role: str | None = None) -> list[Profile]:

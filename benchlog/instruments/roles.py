@@ -455,9 +455,10 @@ class Meter(Role):
         self.samples = count
 
     def read_timeout_s(self) -> float:
-        """Profile timeout plus the integration time of the configured readings at the longer (50 Hz) cycle."""
+        """Link timeout plus the integration time of the configured readings at the longer (50 Hz) cycle."""
         nplc = self.nplc if self.nplc is not None else 1.0
-        return self.profile.timeout_s + self.samples * nplc * _LONGEST_PLC_S * _READ_OVERHEAD
+        base = getattr(self.transport, "timeout_s", None) or self.profile.timeout_s
+        return base + self.samples * nplc * _LONGEST_PLC_S * _READ_OVERHEAD
 
     def read(self) -> tuple[float | None, ...]:
         """Trigger (if the profile needs it) and read `samples` readings; None marks an overload."""

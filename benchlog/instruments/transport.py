@@ -124,7 +124,7 @@ class VisaTransport(Transport):
         self.backend = backend
         self.read_termination = read_termination
         self.write_termination = write_termination
-        self.timeout_s = float(timeout_s)
+        self._timeout_s = float(timeout_s)
         self.open_timeout_s = float(open_timeout_s)
         self._lock = threading.RLock()
         self._res: Any = None
@@ -186,6 +186,21 @@ class VisaTransport(Transport):
                 res.close()
             except Exception:  # the session may already be gone with the connection
                 pass
+
+    @property
+    def timeout_s(self) -> float:
+        """Reply timeout for every query that does not pass its own."""
+        return self._timeout_s
+
+    @timeout_s.setter
+    def timeout_s(self, value: float) -> None:
+        with self._lock:
+            self._timeout_s = float(value)
+            if self._res is not None:
+                try:
+                    self._res.timeout = max(1, round(self._timeout_s * 1000))
+                except self._pyvisa_errors as exc:
+                    raise self._convert(exc, "(setting the timeout)") from None
 
     @property
     def lost(self) -> bool:

@@ -320,3 +320,14 @@ def test_sim_profiles_copy_the_simulator_specs():
     load = load_profile("sim-load")
     assert pairs(load.accuracy) == pairs(specs.LOAD_READBACK)
     assert (load.limits.max_voltage_v, load.limits.max_current_a) == (specs.LOAD_MAX_VOLTAGE_V, specs.LOAD_MAX_CURRENT_A)
+
+
+def test_cli_list_reports_broken_files_in_profile_folders(tmp_path):
+    (tmp_path / "test-supply.toml").write_text(SUPPLY)
+    (tmp_path / "broken.toml").write_text(_edit(SUPPLY, 'role = "supply"', 'role = "kettle"'))
+    env_run = subprocess.run(
+        [sys.executable, "-m", "benchlog", "profiles", "list"], capture_output=True, text=True, cwd=REPO, timeout=60,
+        env={**__import__("os").environ, "BENCHLOG_PROFILE_PATH": str(tmp_path)},
+    )
+    assert env_run.returncode == 0
+    assert "test-supply" in env_run.stdout and "broken.toml" in env_run.stderr and "kettle" in env_run.stderr

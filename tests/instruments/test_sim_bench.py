@@ -322,3 +322,36 @@ def test_supply_trip_is_detected(bench_with):
         _assert_all_off(bench)
     finally:
         _close(supply, load, meter)
+
+
+def test_reply_latency_past_the_timeout(bench_with):
+    bench = bench_with(faults=FaultPlan(extra_latency_s=0.4, role="supply"))
+    # connect with a patient timeout, then shorten it: every supply reply now comes after the timeout
+    supply = open_role("supply", bench.resources["supply"], "sim-supply", timeout_s=2.0)
+    load = open_role("load", bench.resources["load"], "sim-load", timeout_s=FAST)
+    try:
+        _power_on(supply, load)
+        supply.transport.timeout_s = 0.2
+        with pytest.raises(InstrumentTimeout) as info:
+            with safe_state_guard(supply, load, report=lambda text: None):
+                supply.measure_voltage()
+        assert "MEASure:VOLTage:DC?" in str(info.value)
+        load.check_errors()
+        assert bench.bench.supply.output_on is False and bench.bench.load.input_on is False
+    finally:
+        _close(supply, load)
+
+
+def test_cli_probe_against_the_sim(bench):
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    repo = Path(__file__).resolve().parents[2]
+    out = subprocess.run([sys.executable, "-m", "benchlog", "profiles", "probe", bench.resources["load"]],
+                         capture_output=True, text=True, cwd=repo, timeout=60)
+    assert out.returncode == 0, out.stderr
+    fields = dict(line.split(None, 1) for line in out.stdout.splitlines())
+    assert fields["manufacturer"] == "BENCHLOG" and fields["model"] == "SIM-LOAD"
+    assert fields["matches"] == "sim-load (load)"
+    assert "generic-electronic-load (load)" in fields["generic"]
