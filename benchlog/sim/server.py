@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import select
 import socket
+import struct
 import threading
 import time
 from dataclasses import dataclass, field
@@ -125,6 +126,12 @@ class _InstrumentServer:
             text = None
         fired = self.faults.next_message(has_query=b"?" in raw)
         if "drop" in fired:
+            # an abortive close (TCP RST), as when an instrument reboots: the client sees the
+            # connection reset instead of waiting for a reply that will never come
+            try:
+                conn.setsockopt(socket.SOL_SOCKET, socket.SO_LINGER, struct.pack("ii", 1, 0))
+            except OSError:
+                pass
             return False
         bench = self.bench
         with bench.lock:
