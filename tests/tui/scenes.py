@@ -1,0 +1,86 @@
+"""Deterministic scenes of the main views (invented data, fixed times) for snapshots and the README screens."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from benchlog.tui.app import BenchApp
+from benchlog.tui.views.caution import CautionScreen
+
+from .synthetic import ScriptedSession, write_files, write_run
+
+
+def scene_app(root: Path, start_view: str = "instruments") -> BenchApp:
+    """An app on the scripted bench, with two archived runs; `root` must be the working directory."""
+    plan, spec = write_files(Path("cfg"))
+    runs = Path("runs")
+    runs.mkdir(exist_ok=True)
+    write_run(runs, serial="A1", r_ohm=0.027, seed=1, started_utc="2025-03-04T10:20:30.000Z")
+    write_run(runs, serial="A2", r_ohm=0.030, seed=3, started_utc="2025-03-05T11:00:00.000Z")
+    session = ScriptedSession(runs)
+    return BenchApp(session, runs_dir=runs, plans=[plan], specs=[spec], start_view=start_view)
+
+
+async def wait_for(pilot, condition, timeout: float = 15.0) -> None:
+    waited = 0.0
+    while not condition():
+        await pilot.pause(0.05)
+        waited += 0.05
+        if waited > timeout:
+            raise AssertionError("scene did not settle")
+    await pilot.pause(0.2)
+
+
+async def probed(pilot) -> None:
+    app = pilot.app
+    await wait_for(pilot, lambda: all(r.state == "connected" for r in app.state.roles))
+
+
+async def after_a_sweep(pilot) -> None:
+    app = pilot.app
+    await probed(pilot)
+    await pilot.press("2", "r")
+    await wait_for(pilot, lambda: isinstance(app.screen, CautionScreen))
+    await pilot.press("y")
+    await wait_for(pilot, lambda: app.state.findings is not None and app.state.sweep_state == "finished")
+
+
+async def live_view(pilot) -> None:
+    await after_a_sweep(pilot)
+    await pilot.press("3")
+    await pilot.pause(0.3)
+
+
+async def results_view(pilot) -> None:
+    await after_a_sweep(pilot)
+    await pilot.press("4")
+    await pilot.pause(0.3)
+
+
+async def lot_view(pilot) -> None:
+    app = pilot.app
+    await probed(pilot)
+    await pilot.press("5")
+    for k, serial in enumerate(("L-01", "L-02", "L-03", "L-04")):
+        await pilot.press("n", *serial, "enter")
+        if k == 0:
+            await wait_for(pilot, lambda: isinstance(app.screen, CautionScreen))
+            await pilot.press("y")
+        await wait_for(pilot, lambda: len(app.state.lot) == k + 1 and app.state.lot_summary is not None
+                       and app.state.lot_summary.n == k + 1)
+    await pilot.pause(0.3)
+
+
+async def archive_view(pilot) -> None:
+    app = pilot.app
+    await probed(pilot)
+    await pilot.press("6")
+    screen = app.screen
+    await wait_for(pilot, lambda: len(getattr(screen, "verdicts", {})) == 2)
+
+
+async def caution(pilot) -> None:
+    app = pilot.app
+    await probed(pilot)
+    await pilot.press("2", "r")
+    await wait_for(pilot, lambda: isinstance(app.screen, CautionScreen))
