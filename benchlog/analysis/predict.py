@@ -402,12 +402,7 @@ def reverse_leakage(spec: PartSpec, reverse_v: float, tj_c: float) -> Leakage:
     return Leakage(scaled, reverse_v, tj_c, "; ".join(notes))
 
 
-def with_variant(prediction: Prediction, variant: str) -> OperatingPoint | None:
-    """The named variant ("typical" or "max") of a prediction."""
-    return prediction.typical if variant == "typical" else prediction.maximum
-
-
 __all__ = [
     "OperatingPoint", "Prediction", "Leakage", "ChannelModel", "BodyDiode",
-    "predict", "reverse_leakage", "diode_drop_v", "channel_model", "thermal_voltage_v", "with_variant",
+    "predict", "reverse_leakage", "diode_drop_v", "channel_model", "thermal_voltage_v"
 ]
