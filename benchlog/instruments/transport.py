@@ -219,8 +219,15 @@ class VisaTransport(Transport):
             self._ensure_open(command)
             if self._stale or self._peer_state() == "data":
                 self._drain()
-            self._write(command)
-            return self._read(command, timeout_s)
+            try:
+                self._write(command)
+                return self._read(command, timeout_s)
+            except BenchError:
+                raise
+            except BaseException:
+                # Ctrl-C or SIGTERM inside the read: the reply may still come; drop it before the next query.
+                self._stale = True
+                raise
 
     def _ensure_open(self, command: str) -> None:
         if self._closed:

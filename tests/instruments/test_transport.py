@@ -250,3 +250,24 @@ def test_lock_keeps_each_reply_with_its_query(peer_factory):
         for th in threads:
             th.join()
     assert errors == []
+
+
+def test_interrupt_during_a_read_does_not_shift_the_next_reply(peer_factory):
+    def answer(line: str):
+        if line == "SLOW?":
+            def late(conn):
+                time.sleep(0.3)
+                _send_quietly(conn, b"slow-reply\n")
+            return late
+        return f"reply-to-{line}\n".encode()
+
+    peer = peer_factory(answer)
+    with VisaTransport(peer.resource, timeout_s=1.0) as t:
+        timer = threading.Timer(0.1, lambda: __import__("_thread").interrupt_main())  # Ctrl-C while waiting
+        timer.start()
+        with pytest.raises(KeyboardInterrupt):
+            t.query("SLOW?")
+        timer.join()
+        assert t.query("NEXT?") == "reply-to-NEXT?"
+        time.sleep(0.3)
+        assert t.query("THEN?") == "reply-to-THEN?"
