@@ -13,6 +13,7 @@ from benchlog.badinput import BadInput
 
 from .bench_file import BenchSetup
 from .plan import Plan
+from .rig import reverse_resolution_a
 
 #: Least voltage at which each kind carries a measurable forward current (well below
 #: the knee of a silicon rectifier, about 0.6-0.7 V, and of a Schottky, about 0.2-0.4 V;
@@ -125,6 +126,12 @@ def check_plan_on_rig(plan: Plan, rig: Any) -> list[str]:
                            "or no [reverse] table")
         if s_lim.max_voltage_v is not None and plan.reverse.voltage_v > s_lim.max_voltage_v:
             raise _over(plan, "[reverse].voltage_v", plan.reverse.voltage_v, "V", sup, s_lim.max_voltage_v)
+        resolution_a, reader = reverse_resolution_a(rig, plan)
+        if plan.reverse.max_current_a <= 2 * resolution_a:
+            raise BadInput(plan.source, "[reverse].max_current_a",
+                           f"is {plan.reverse.max_current_a:g} A, within twice the ±{resolution_a:g} A zero error of "
+                           f"the {reader}: the reverse test could not tell a pass from a fail",
+                           "a current meter in series (current_from = 'meter' or 'shunt') or a higher limit")
     return warnings
 
 

@@ -89,7 +89,7 @@ class Rig:
                 self.load.set_input(False)
         else:
             supply.set_voltage(w.input_v)
-            supply.set_current_limit(plan.limits.max_current_a)
+            supply.set_current_limit(supply_limit_for_load_wiring(plan, supply.profile))
             self.load.set_input(False)
             set_mode = getattr(self.load, "set_mode_cc", None)
             if set_mode is not None:
@@ -143,9 +143,75 @@ class Rig:
         value = sum(samples) / len(samples)
         return value if source == "meter" else value / self.wiring.shunt_ohm
 
+    def reverse_current_reader(self, limit_a: float):
+        """A reader of the reverse current (magnitude) on the finest range that still holds `limit_a`."""
+        w, m = self.wiring, self.current_meter
+        if w.current_from == "meter" and m is not None:
+            m.configure_current(_fitting(m.profile.limits.current_ranges_a, limit_a), m.nplc or 1.0)
+            return lambda: abs(_mean(m.read()))
+        if w.current_from == "shunt" and m is not None:
+            m.configure_voltage(_fitting(m.profile.limits.voltage_ranges_v, limit_a * w.shunt_ohm), m.nplc or 1.0)
+            return lambda: abs(_mean(m.read())) / w.shunt_ohm
+        return lambda: abs(self.supply.measure_current())
+
     def expected_mode(self) -> str:
         """CC when the supply forces the current, CV when it holds the input for a load."""
         return "CC" if self.wiring.force == "supply" else "CV"
+
+
+#: In the load wiring the supply's current limit sits this far above max_current_a, so the
+#: load (not the supply) sets the current up to the limit; a supply that reaches its
+#: limit then means the current ran past max_current_a.
+LOAD_WIRING_SUPPLY_HEADROOM = 1.05
+
+
+def supply_limit_for_load_wiring(plan: Plan, supply_profile: Any) -> float:
+    limit = plan.limits.max_current_a * LOAD_WIRING_SUPPLY_HEADROOM
+    most = getattr(getattr(supply_profile, "limits", None), "max_current_a", None)
+    return min(limit, most) if most else limit
+
+
+def reverse_limit_a(plan: Plan, supply_profile: Any = None) -> float:
+    """The supply's current limit in the reverse step.
+
+    Above the pass limit, so a leaky element reads above it instead of being held
+    at it, and at least four times the supply's zero error on current (its
+    read-back spec's % of range stands in for its programming accuracy): a limit
+    set below that may come out as zero, and the reverse voltage would never be
+    applied. Never above the plan's max current.
+    """
+    wanted = 1.5 * plan.reverse.max_current_a
+    spec = _spec_for(supply_profile, "readback_current", plan.limits.max_current_a) if supply_profile else None
+    if spec is not None:
+        wanted = max(wanted, 4 * spec.range_pct / 100 * spec.range)
+    return min(plan.limits.max_current_a, wanted)
+
+
+def _mean(samples: tuple[float | None, ...]) -> float:
+    if not samples or any(s is None for s in samples):
+        return math.inf  # an overload: far above any limit
+    return sum(samples) / len(samples)  # type: ignore[arg-type]
+
+
+def _fitting(ranges: tuple[float, ...], needed: float) -> float:
+    chosen = _smallest_range(tuple(ranges), needed)
+    return chosen if chosen is not None else max(ranges)
+
+
+def reverse_resolution_a(rig: "Rig", plan: Plan) -> tuple[float, str]:
+    """Half-width of the reverse-current reading at zero (the accuracy's % of range), and what reads it."""
+    w, limit = rig.wiring, reverse_limit_a(plan, rig.supply.profile)
+    if w.current_from == "meter" and rig.current_meter is not None:
+        p = rig.current_meter.profile
+        spec = _spec_for(p, "dc_current", _fitting(p.limits.current_ranges_a, limit))
+        return (spec.range_pct / 100 * spec.range if spec else 0.0), f"current meter {p.name!r}"
+    if w.current_from == "shunt" and rig.current_meter is not None:
+        p = rig.current_meter.profile
+        spec = _spec_for(p, "dc_voltage", _fitting(p.limits.voltage_ranges_v, limit * w.shunt_ohm))
+        return (spec.range_pct / 100 * spec.range / w.shunt_ohm if spec else 0.0), f"shunt meter {p.name!r}"
+    p = rig.supply.profile
+    spec = _spec_for(p, "readback_current", limit)
+    return (spec.range_pct / 100 * spec.range if spec else 0.0), f"supply read-back {p.name!r}"
 
 
 def _has(role: Any, operation: str) -> bool:

@@ -36,10 +36,12 @@ from benchlog.runs.events import (
 )
 
 from .plan import Plan
-from .rig import Rig, accuracy_block, drop_range_v
+from .rig import Rig, accuracy_block, drop_range_v, reverse_limit_a
 from .settle import Interrupted, Overload, settle
 from .steps import StepSource, step_source
 
+#: The reverse step counts only if the supply really held this fraction of its voltage.
+REVERSE_APPLIED_FRACTION = 0.9
 #: Drain the instruments' error queues at least this often during a long sweep.
 CHECKPOINT_S = 5.0
 #: A read-back current may exceed max_current_a by this fraction before it counts as a
@@ -273,10 +275,11 @@ class SweepRunner:
         flags: list[str] = []
         if not reading.settled:
             flags.append(FLAG_UNSETTLED)
-        if mode == "OFF":
+        # Neither CV nor CC while the output should be on: the supply switched itself off.
+        if mode == "OFF" or (mode == "UNKNOWN" and getattr(rig.supply, "can_report_mode", False)):
             rig.element_off()
             tripped = _safe_call(getattr(rig.supply, "tripped", None))
-            cause = "its protection tripped" if tripped else "output found off"
+            cause = "its protection tripped" if tripped else f"status {mode}: neither CV nor CC"
             return None, _Stop("fault", "fault", f"supply output went off during the sweep ({cause}) at "
                                f"{step.setpoint_a:g} A; point not recorded")
         stop: _Stop | None = None
@@ -324,9 +327,8 @@ class SweepRunner:
         rig.element_off()
         if rig.wiring.force == "load":
             supply.set_output(False)
-        # The current limit sits above the pass limit so a failed (leaky or shorted) element
-        # reads above it instead of being held exactly at it, but never above the plan's limit.
-        limit_a = min(self.plan.limits.max_current_a, 1.5 * rev.max_current_a)
+        limit_a = reverse_limit_a(self.plan, supply.profile)
+        read_reverse = rig.reverse_current_reader(limit_a)
         supply.set_voltage(0.0)
         supply.set_reversed(True)
         try:
@@ -335,15 +337,21 @@ class SweepRunner:
             supply.set_output(True)
             self._pause(rev.duration_s)
             self._check_cancel()
-            current = abs(supply.measure_current())
-            mode = supply.mode()
+            current = read_reverse()
+            applied_v = abs(supply.measure_voltage())
             supply.set_output(False)
         finally:
             _safe_call(lambda: supply.set_output(False))
             _safe_call(lambda: supply.set_voltage(0.0))
             _safe_call(lambda: supply.set_reversed(False))
-        held = mode == "CC"  # current held at the supply's limit: the element conducts in reverse
-        passed = current <= rev.max_current_a and not held
+        # A supply held at its current limit cannot hold the reverse voltage: the element conducts
+        # in reverse (or the limit is too low to drive the leads); either way the test did not pass.
+        applied = applied_v >= REVERSE_APPLIED_FRACTION * rev.voltage_v
+        passed = current <= rev.max_current_a and applied
+        if not applied:
+            yield self._emit(Note(self._t(), "warning", f"reverse step: only {applied_v:.4g} V of the "
+                                  f"{rev.voltage_v:g} V reached the element (supply current limit "
+                                  f"{limit_a:g} A): the element conducts in reverse"))
         yield self._emit(ReverseResult(self._t(), rev.voltage_v, rev.duration_s, current, rev.max_current_a, passed))
 
     # -- helpers -------------------------------------------------------------

@@ -46,9 +46,11 @@ def run_sweep(
 
     running = None
     if bench is None:
-        from .simbench import builtin_bench
+        from .simbench import builtin_bench, sim_wiring
 
-        bench, running = builtin_bench(plan.element, seed, **(sim_options or {}))
+        # a reverse test needs a series current meter: the supply's read-back cannot resolve leakage
+        wiring = sim_wiring(plan.element, current_from="meter" if plan.reverse is not None else "supply")
+        bench, running = builtin_bench(plan.element, seed, wiring=wiring, **(sim_options or {}))
     rig: Rig | None = None
     try:
         warnings = check_plan_on_bench(plan, bench)

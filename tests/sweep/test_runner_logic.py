@@ -340,7 +340,7 @@ def test_load_wiring_sets_the_load_and_holds_the_input():
     runner, outcome, _ = run(plan_of("", BASE.replace("compliance_v = 2.0", "")), rig, clock)
     assert outcome == "complete"
     assert bench.supply.limit_a == 0.0  # safe state zeroed it; during the run it was max_current_a
-    assert "V=12.0" in bench.log and "I=1.0" in bench.log
+    assert "V=12.0" in bench.log and "I=1.05" in bench.log  # supply limit 5 % above max_current_a
     assert all(p.supply_mode == "CV" for p in runner.points)
     assert not bench.load.input_on and bench.load.safe_calls == 1
 
