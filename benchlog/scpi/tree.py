@@ -103,7 +103,8 @@ class CommandTree:
             self._cache[key] = hit = (found, False)
         entry = hit[0]
         if entry is None:
-            raise CommandError(-113, f"{unit.header}{'?' if unit.is_query else ''}")
+            name = unit.header + ("?" if unit.is_query else "")
+            raise CommandError(-113, name if len(name) <= 40 else name[:37] + "...")
         return entry
 
     def dispatch(self, unit: ProgramUnit) -> str | None:
@@ -111,9 +112,9 @@ class CommandTree:
         entry = self.lookup(unit)
         count = len(unit.params)
         if count < entry.min_args:
-            raise CommandError(-109, f"{unit.text} needs {entry.min_args} parameter(s)")
+            raise CommandError(-109, f"{unit.header} needs {entry.min_args} parameter(s)")
         if count > entry.max_args:
-            raise CommandError(-108, f"{unit.text} takes at most {entry.max_args} parameter(s)")
+            raise CommandError(-108, f"{unit.header} takes at most {entry.max_args} parameter(s)")
         reply = entry.handler(*unit.params)
         return reply if entry.is_query else None
 
@@ -164,7 +165,7 @@ def number_param(
     if keyword_matches("DEFault", word):
         return lo if default is None else default
     if not _NUMERIC.match(word):
-        raise CommandError(-224, f"{name} {word!r} is not a number")
+        raise CommandError(-224, f"{name} {word[:20]!r} is not a number")
     value = float(word)
     if not math.isfinite(value):
         raise CommandError(-222, f"{name} {word} is not finite")

@@ -73,7 +73,10 @@ class ScpiDevice:
 
     # -- errors ----------------------------------------------------------------------------------
     def push_error(self, code: int, text: str | None = None) -> None:
-        self.errors.push(code, text if text is not None else STANDARD_ERRORS.get(code, "Error"))
+        text = text if text is not None else STANDARD_ERRORS.get(code, "Error")
+        if len(text) > 200:  # detail quotes received text, which may be anything: keep entries short
+            text = text[:197] + "..."
+        self.errors.push(code, text)
         self.esr |= esr_bit(code)
 
     def execute(self, message: str) -> str | None:

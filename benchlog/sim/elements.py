@@ -66,8 +66,9 @@ def shockley_current_a(drop_v: float, i_s_a: float, ideality: float, r_s_ohm: fl
     if drop_v <= 0:
         return 0.0
     nvt = ideality * thermal_voltage_v(temperature_c)
-    if r_s_ohm <= 0:
-        return i_s_a * math.expm1(drop_v / nvt)
+    plain = i_s_a * math.expm1(drop_v / nvt) if drop_v < 700 * nvt else math.inf
+    if r_s_ohm <= 0 or plain * r_s_ohm < 1e-9 * nvt:
+        return plain  # the series resistance changes nothing measurable: skip Lambert W
     # V = nVt ln(I/Is + 1) + I Rs  =>  I + Is = (nVt/Rs) W((Is Rs/nVt) exp((V + Is Rs)/nVt))
     x = math.log(i_s_a * r_s_ohm / nvt) + (drop_v + i_s_a * r_s_ohm) / nvt
     return max(0.0, nvt / r_s_ohm * _w_of_exp(x) - i_s_a)
@@ -251,6 +252,19 @@ class Pmos(Element):
             raise ValueError("a gate-driven element needs input_v or source_v")
         if g(diode_only) <= 0:
             return diode_only
+        if input_v is not None:
+            # strongly enhanced channel: V = (I - I_body(V))·R(Vgs(V)) converges in a few steps
+            v = current_a * (self.channel_ohm(gate_source_v(input_v, 0.0, zener), temperature_c) or 0.0)
+            for _ in range(30):
+                r = self.channel_ohm(gate_source_v(input_v, v, zener), temperature_c)
+                if r is None:
+                    break
+                nxt = (current_a - self.body.current_a(v, temperature_c)) * r
+                if not 0.0 <= nxt <= diode_only:
+                    break
+                if abs(nxt - v) <= 1e-13 + 1e-12 * abs(nxt):
+                    return nxt
+                v = nxt
         return brentq(g, 0.0, diode_only, xtol=1e-13, rtol=1e-12)
 
     def reverse_current_a(self, reverse_v, temperature_c):

@@ -30,6 +30,9 @@ from .config import SimConfig
 from .faults import GARBAGE_REPLY, QUEUE_ERROR, FaultCounter
 
 
+MAX_MESSAGE_BYTES = 65536
+
+
 def resource_string(host: str, port: int) -> str:
     return f"TCPIP0::{host}::{port}::SOCKET"
 
@@ -91,8 +94,13 @@ class _InstrumentServer:
                 self.threads.append(thread)
             thread.start()
 
+    def _too_long(self) -> None:
+        with self.bench.lock:
+            self.device.push_error(-223, f"Too much data; a message longer than {MAX_MESSAGE_BYTES} bytes")
+
     def _serve(self, conn: socket.socket) -> None:
         buffer = bytearray()
+        skipping = False  # inside a refused over-long message, until its terminator
         try:
             while not self.stopping.is_set():
                 try:
@@ -105,9 +113,20 @@ class _InstrumentServer:
                 while not self.stopping.is_set():
                     end = buffer.find(b"\n")
                     if end < 0:
+                        if len(buffer) > MAX_MESSAGE_BYTES:
+                            # a message without end: refuse it rather than grow without bound
+                            del buffer[:]
+                            if not skipping:
+                                self._too_long()
+                            skipping = True
                         break
                     line = bytes(buffer[:end])
                     del buffer[: end + 1]
+                    if skipping or len(line) > MAX_MESSAGE_BYTES:
+                        if not skipping:
+                            self._too_long()
+                        skipping = False
+                        continue
                     if not self._message(conn, line, buffer):
                         return
         finally:

@@ -174,3 +174,16 @@ def test_forward_drop_rises_monotonically_with_current():
         drops = [solve(element, _drive(current_limit_a=i), 25.0).element_v for i in np.linspace(0.01, 9.0, 40)]
         assert all(b > a for a, b in zip(drops, drops[1:])), kind
         assert all(math.isfinite(d) for d in drops)
+
+
+@pytest.mark.parametrize("input_v", [1.5, 2.3, 2.6, 3.0, 4.5, 12.0, 30.0])
+@pytest.mark.parametrize("current", [0.01, 1.0, 5.0])
+def test_pmos_drop_solves_its_own_current_balance(input_v, current):
+    # channel + body diode must carry exactly the forced current at the Vgs the drop leaves
+    pmos = _element("pmos", zener_v=10.0)
+    drop = pmos.forward_drop_v(current, 40.0, input_v=input_v)
+    vgs = gate_source_v(input_v, drop, 10.0)
+    r = pmos.channel_ohm(vgs, 40.0)
+    carried = (drop / r if r else 0.0) + pmos.body.current_a(drop, 40.0)
+    assert carried == pytest.approx(current, rel=1e-8)
+    assert 0.0 < drop <= pmos.body.drop_v(current, 40.0) * (1 + 1e-12)
