@@ -65,3 +65,12 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         sys.stderr.write("benchlog: interrupted; outputs were switched off\n")
         return EXIT_INTERRUPTED
+    except Exception as exc:
+        # An instrument fault outside a sweep (probe, connect): one line, not a traceback.
+        # Imported here so that `benchlog --help` does not pay for pyvisa.
+        from benchlog.instruments.errors import BenchError
+
+        if not isinstance(exc, BenchError):
+            raise
+        sys.stderr.write(f"benchlog: {exc}\n")
+        return EXIT_FAILED
