@@ -250,3 +250,18 @@ def test_stop_leaves_outputs_off(sim_bench, clients):
     assert supply.query("OUTP?") == "1" and load.query("INP?") == "1"
     running.stop()
     assert not running.bench.supply.output_on and not running.bench.load.input_on
+
+
+def test_errors_set_their_event_status_bits(bench3):
+    # IEEE 488.2 11.5.1: CME (32) for -1xx, EXE (16) for -2xx; the queue bit (4) of *STB? per SCPI-99
+    _, supply, _, _ = bench3
+    supply.query("*ESR?")
+    supply.write("NOPE")
+    assert parse_int(supply.query("*STB?")) & 4
+    assert parse_int(supply.query("*ESR?")) == 32
+    supply.write("VOLT 40")
+    supply.write("*ESE 16")
+    assert parse_int(supply.query("*STB?")) & 32  # event summary: EXE is enabled and set
+    assert parse_int(supply.query("*ESR?")) == 16
+    supply.write("*CLS")
+    assert parse_int(supply.query("*STB?")) == 0
