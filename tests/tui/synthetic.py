@@ -42,7 +42,7 @@ timeout_s = 1.0
 
 [limits]
 max_current_a = 3.2
-compliance_v = 5.0
+compliance_v = 15.0
 max_drop_v = 0.5
 max_power_w = 1.0
 max_time_s = 120.0
@@ -83,7 +83,7 @@ def header(serial: str = "DEMO-0001", started_utc: str = "2025-03-04T10:20:30.00
         "instruments": {"supply": {"resource": "TCPIP0::127.0.0.1::5025::SOCKET",
                                    "idn": "BENCHLOG,SIM-SUPPLY,0001,1.0", "profile": "generic-supply",
                                    "profile_sha256": "a" * 64}},
-        "bench": {}, "plan": plan_dict, "element": element,
+        "bench": {"wiring": {"force": "load", "current_from": "load", "input_v": 12.0}}, "plan": plan_dict, "element": element,
         "accuracy": {"drop": {"reading_pct": 0.002, "range_pct": 0.0005, "range_v": 1.0},
                      "current": {"reading_pct": 0.05, "range_pct": 0.01, "range_a": 3.0}},
         "meter": {"nplc": 1.0, "samples": 1, "range_v": 1.0}, "line_frequency_hz": 50.0,
@@ -107,7 +107,7 @@ def events(serial: str = "DEMO-0001", r_ohm: float = 0.027, n: int = 30, seed: i
             return out
         t += 0.25
         out.append(Point(index=k, t_s=t, setpoint_a=float(round(i, 6)), current_a=float(i), drop_v=float(v),
-                         supply_v=float(0.2 + v), supply_mode="CC", settle_reads=2))
+                         supply_v=float(12.0 - 0.05 * i), supply_mode="CV", settle_reads=2))
     out.append(RunFinished(t + 0.1, "complete", n, ""))
     return out
 
@@ -129,8 +129,8 @@ class ScriptedSetup:
             self.role, self.resource, self.profile, self.backend = role, resource, profile, "@py"
 
     class _Wiring:
-        force = "supply"
-        current_from = "supply"
+        force = "load"
+        current_from = "load"
 
     def __init__(self) -> None:
         self.roles = {"supply": self._Spec("supply", "TCPIP0::127.0.0.1::5025::SOCKET", "generic-supply"),

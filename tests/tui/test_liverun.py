@@ -43,7 +43,7 @@ def test_limit_use_is_the_worst_value_over_the_limit():
                 Point(1, 2.0, 1.6, 1.6, 0.2, supply_v=1.0, supply_mode="CC")])
     uses = {u.key: u for u in live.limits()}
     assert uses["max_current_a"].fraction == pytest.approx(1.6 / 3.2)
-    assert uses["compliance_v"].fraction == pytest.approx(2.5 / 5.0)
+    assert uses["compliance_v"].fraction == pytest.approx(2.5 / 15.0)
     assert uses["max_power_w"].fraction == pytest.approx(0.32 / 1.0)
     assert uses["max_time_s"].worst == pytest.approx(2.0)
 

@@ -138,7 +138,7 @@ async def test_live_view_draws_curves_table_progress_and_limits(scripted, runs_d
         assert "current / A" in text and "drop/mV" in text and "loss/mW" in text
         assert "⣿ drop (measured)" in text
         assert "current" in text and "94%" in text  # 3.0 A of the 3.2 A limit
-        assert "3.00 A" in text and "CC" in text  # latest point in the table
+        assert "3.00 A" in text and "CV" in text  # latest point in the table
 
 
 async def test_stop_mid_sweep_reaches_the_safe_state(runs_dir, demo_files):

@@ -62,7 +62,7 @@ class LiveView(View):
         data = live.arrays()
         self.query_one("#plot-vi", CurvePlot).show([Series("drop (measured)", data["current_a"], data["drop_v"])])
         self.query_one("#plot-loss", CurvePlot).show([Series("loss I·V", data["current_a"], data["power_w"],
-                                                             kind="marks", glyph="•", style="series-b")])
+                                                             style="series-b")])
         self._show_limits(live, elapsed)
         self._show_latest(live)
         self._show_alert(live)
