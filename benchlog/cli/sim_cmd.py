@@ -14,7 +14,7 @@ from benchlog.badinput import BadInput
 
 def register(sub) -> None:
     """Add this module's subcommands to the `benchlog` parser."""
-    from benchlog.sim.elements import KINDS
+    from benchlog.kinds import ELEMENT_KINDS as KINDS
     from benchlog.sim.faults import ROLES
 
     p = sub.add_parser(
