@@ -109,3 +109,46 @@ async def test_stop_mid_sweep_leaves_every_output_off(tmp_path):
             assert "outputs are off" in text
     finally:
         app.session.close()
+
+
+async def _run_until_stopped(app, pilot):
+    await pilot.press("3", "r")
+    await settle(pilot, app, lambda: isinstance(app.screen, CautionScreen))
+    await pilot.press("y")
+    await settle(pilot, app, lambda: app.state.sweep_state == "finished", timeout=60)
+
+
+async def test_a_limit_hit_is_a_clear_message_with_outputs_off(tmp_path):
+    plan = tmp_path / "tight.toml"
+    plan.write_text(SLOW_PLAN.replace("count = 400", "count = 40").replace("max_time_s = 600",
+                                                                            "max_time_s = 600\nmax_power_w = 0.005"),
+                    encoding="utf-8")
+    app = demo_app(tmp_path / "runs", plan)
+    try:
+        async with app.run_test(size=(80, 24)) as pilot:
+            await _run_until_stopped(app, pilot)
+            assert app.state.last_outcome.outcome == "limit"
+            bench = app.session.sim.bench
+            assert not bench.supply.output_on and not bench.load.input_on
+            text = screen_text(app)
+            assert "LIMIT:" in text and "outputs are off" in text and "Traceback" not in text
+    finally:
+        app.session.close()
+
+
+async def test_an_instrument_fault_is_a_clear_message_with_outputs_off(tmp_path):
+    from benchlog.sim.faults import FaultPlan
+
+    plan = tmp_path / "trip.toml"
+    plan.write_text(SLOW_PLAN.replace("count = 400", "count = 60"), encoding="utf-8")
+    app = demo_app(tmp_path / "runs", plan, sim_options={"faults": FaultPlan(drop_after_commands=120, role="meter")})
+    try:
+        async with app.run_test(size=(80, 24)) as pilot:
+            await _run_until_stopped(app, pilot)
+            assert app.state.last_outcome.outcome == "fault"
+            bench = app.session.sim.bench
+            assert not bench.supply.output_on and not bench.load.input_on
+            text = screen_text(app)
+            assert "FAULT:" in text and "outputs are off" in text and "Traceback" not in text
+    finally:
+        app.session.close()

@@ -94,9 +94,9 @@ class LiveView(View):
         outcome = self.app.state.last_outcome
         if serious:
             note = serious[-1]
-            alert.update(f" {note.kind.upper()}: {note.message} — outputs are off.")
+            alert.update(f" {note.kind.upper()}: {_with_outputs_off(note.message)}")
         elif outcome is not None and outcome.outcome not in ("complete",) and outcome.message:
-            alert.update(f" {outcome.outcome.upper()}: {outcome.message} — outputs are off.")
+            alert.update(f" {outcome.outcome.upper()}: {_with_outputs_off(outcome.message)}")
         elif live.finished is not None:
             alert.update(f" Run {live.finished.outcome}: {live.finished.points} points. Results: 4.")
         else:
@@ -105,3 +105,8 @@ class LiveView(View):
 
     def action_run(self) -> None:
         self.app.request_sweep()
+
+
+def _with_outputs_off(message: str) -> str:
+    return message if "outputs switched off" in message or "outputs are off" in message \
+        else f"{message} — outputs are off."
