@@ -13,13 +13,14 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from .build import build_report
 from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
 from .htmlfile import render_html, write_html
 from .pdffile import plan_pages, write_pdf
 
 __all__ = [
     "Document", "FigureBlock", "Paragraph", "Section", "Table", "VerdictBlock",
-    "render_html", "write_html", "plan_pages", "write_pdf", "write_report",
+    "build_report", "render_html", "write_html", "plan_pages", "write_pdf", "write_report",
 ]
 
 

@@ -179,6 +179,18 @@ async def test_results_show_fit_uncertainty_verdict_and_rule(scripted, runs_dir,
         assert "asked: resistive" in screen_text(app)
 
 
+async def test_results_export_writes_the_html_report_beside_the_run(scripted, runs_dir, demo_files):
+    app = make_app(scripted, runs_dir, demo_files)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await run_a_sweep(pilot, app)
+        await pilot.press("4", "e")
+        target = app.state.findings.path.with_suffix(".html")
+        await settle(pilot, app, lambda: "Report written" in screen_text(app) or "not written" in screen_text(app))
+        assert "Report written" in screen_text(app)
+        html = target.read_text()
+        assert "<svg" in html and "ILAC" in html
+
+
 async def test_lot_runs_each_serial_and_sums_the_lot_up(scripted, runs_dir, demo_files):
     app = make_app(scripted, runs_dir, demo_files)
     async with app.run_test(size=(120, 40)) as pilot:
