@@ -123,8 +123,7 @@ def _power_prompt(real_bench: bool, assume_yes: bool):
     return before_power_on
 
 
-def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool,
-         quiet: bool) -> tuple[Any, Any]:
+def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool) -> tuple[Any, Any]:
     from benchlog.runs.events import Note, Point
     from benchlog.sweep.bench_file import load_bench
     from benchlog.sweep.plan import load_plan
@@ -171,7 +170,7 @@ def _exit_code(result) -> int:
 
 
 def _sweep(args) -> int:
-    plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes, quiet=args.json)
+    plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes)
     if args.json:
         print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome})
     else:
@@ -208,7 +207,7 @@ def _demo(args) -> int:
             return 2
         return int(run_demo_ui(args) or 0)
     plan_path = demo_plan_path(args.plan)
-    plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True, quiet=args.json)
+    plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True)
     summary: dict[str, Any] = {
         "run_file": str(result.run_file),
         "points": result.points,
