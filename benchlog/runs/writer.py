@@ -156,7 +156,13 @@ def new_run_path(out_dir: str | os.PathLike[str], header: dict[str, Any]) -> Pat
     so the name never carries a path separator or starts with a dot.
     """
     out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:  # a file in the way, no permission, read-only file system: the user's to fix
+        from benchlog.badinput import BadInput
+
+        raise BadInput(out, "", f"cannot be used as the folder for run files ({exc.strerror or exc})",
+                       "a folder that exists or can be created") from None
     when = None
     started = header.get("started_utc")
     if isinstance(started, str):
