@@ -127,3 +127,16 @@ def test_self_heating_run_shows_hysteresis_of_the_sign_heating_gives():
     assert ((down[both] - up[both]) < 0).all()
     found = detect_self_heating(frame, fit_run(frame, meta))
     assert found.detected
+
+
+def test_every_repository_path_the_readme_and_developers_guide_name_exists():
+    # the walkthrough is run on a fresh clone: a renamed sample, plan, spec or doc must not leave it dangling
+    for doc in ("README.md", "DEVELOPERS.md", "sample_runs/README.md"):
+        text = (ROOT / doc).read_text()
+        paths = set(re.findall(r"(?<![\w/.-])((?:sample_runs|benchlog|docs|benchmarks|instrument_profiles|tests)"
+                               r"/[\w./-]*[\w])", text))
+        assert paths, doc
+        for name in paths:
+            if "*" in name:
+                continue
+            assert (ROOT / name).exists(), f"{doc} names {name}, which does not exist"
