@@ -145,7 +145,8 @@ def main() -> int:
             for name, (setup, code) in probes.items():
                 m = _common.peak_memory(setup, code)
                 figures["memory"][name] = m
-                print(f"  {name}: +{_common.mib(m['peak_increase_b'])} (peak RSS {_common.mib(m['peak_rss_b'])})")
+                print(f"  {name}: peak RSS +{_common.mib(m['peak_increase_b'])} (to {_common.mib(m['peak_rss_b'])}); "
+                      f"tracemalloc peak {_common.mib(m['traced_peak_b'])}")
             size = big.stat().st_size
             figures["memory"]["run_file_b"] = size
             print(f"  (run file {_common.mib(size)}; CSV {_common.mib(csv.stat().st_size)}; "
