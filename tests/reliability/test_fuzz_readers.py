@@ -207,21 +207,22 @@ def test_mutated_sim_config_loads_or_is_bad_input(text):
         assert config.is_loopback or config.host not in ("127.0.0.1", "localhost", "::1")
 
 
-# -- well-formed replies round-trip through the parsers (SCPI-99 vol. 2 21.8; IEEE 488.2 10.14) -----------
+# -- well-formed replies round-trip through the parsers (SCPI-99 vol. 2 21.8; IEEE 488.2 *IDN?) ---------------
 
 PRINTABLE = st.text(alphabet=st.characters(min_codepoint=0x20, max_codepoint=0x7E), max_size=40)
 
 
 @given(st.integers(-32768, 32767), PRINTABLE)
 def test_error_entry_round_trip(code, text):
-    # IEEE 488.2 8.7.4 string response data: the text in double quotes, each inner quote doubled
+    # IEEE 488.2 string response data: the text in double quotes, each inner quote doubled (from memory;
+    # the same rule the parser's docstring states for SYSTem:ERRor? replies, SCPI-99 vol. 2 21.8)
     reply = f'{code:+d},"{text.replace(chr(34), chr(34) * 2)}"'
     assert parse_error_entry(reply) == ErrorEntry(code, text)
 
 
 @given(st.integers().filter(lambda c: not -32768 <= c <= 32767), PRINTABLE)
 def test_error_entry_code_outside_16_bits_is_refused(code, text):
-    # SCPI-99 vol. 2 21.8.2: error numbers are 16-bit signed integers
+    # SCPI-99 vol. 2 21.8.2 (as cited in benchlog/scpi/replies.py): error numbers are 16-bit signed integers
     try:
         parse_error_entry(f'{code:+d},"{text.replace(chr(34), chr(34) * 2)}"')
     except ScpiReplyError:
@@ -235,7 +236,7 @@ FIELD = st.text(alphabet=st.characters(min_codepoint=0x21, max_codepoint=0x7E).f
 
 @given(FIELD, FIELD, FIELD, FIELD)
 def test_idn_round_trip(manufacturer, model, serial, firmware):
-    # IEEE 488.2 10.14: four comma-separated fields
+    # IEEE 488.2 *IDN? (section 10.14, from memory): four comma-separated fields
     assert parse_idn(",".join((manufacturer, model, serial, firmware))) == Idn(manufacturer, model, serial, firmware)
 
 
