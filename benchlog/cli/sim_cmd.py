@@ -89,16 +89,17 @@ def run(args: argparse.Namespace) -> int:
     from benchlog.sim.server import serve_bench
 
     config = _config(args)
-    if not config.is_loopback:
-        sys.stderr.write(
-            f"benchlog sim: caution: listening on {config.host}, not loopback; anyone who can reach this "
-            "address can drive the simulated bench\n"
-        )
     try:
         running = serve_bench(config)
     except OSError as exc:
         raise BadInput("argument", "--port/--host", f"cannot listen ({exc.strerror or exc})",
                        "a free port and an address of this machine") from None
+    # Warned once listening, so a refused address stays a single line of error.
+    if not config.is_loopback:
+        sys.stderr.write(
+            f"benchlog sim: caution: listening on {config.host}, not loopback; anyone who can reach this "
+            "address can drive the simulated bench\n"
+        )
     stop = threading.Event()
 
     def on_signal(signum, frame):  # noqa: ARG001

@@ -143,8 +143,6 @@ KNOWN_DEFECTS = {
     "opened: the line names neither the bench file nor [supply].profile",
     "bench/broken-meter-profile.toml-sweep": "profiles are loaded role by role while connecting: with the supply "
     "unreachable the user is told 'cannot open' (exit 1), not that the meter's profile is broken (exit 2)",
-    "sim --host 256.1.1.1": "benchlog sim prints its not-loopback caution before trying to listen, so a bad "
-    "--host gives two lines on stderr",
 }
 FILES += [
     ("bench/broken-meter-profile.toml", BENCH, ["[link].timeout_s", "nan"]),
