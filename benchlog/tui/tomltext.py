@@ -18,8 +18,10 @@ def _value(value: Any) -> str:
     if isinstance(value, int):
         return str(value)
     if isinstance(value, float):
-        if not math.isfinite(value):
-            raise ValueError(f"{value!r} cannot be written to a plan")
+        if math.isnan(value):
+            return "nan"  # TOML v1.0.0 spells them so; the plan reader then names the key it refuses
+        if math.isinf(value):
+            return "inf" if value > 0 else "-inf"
         return repr(value)
     if isinstance(value, str):
         out = []
