@@ -66,6 +66,7 @@ OPERATIONS: Mapping[str, Mapping[str, tuple[Operation, bool]]] = MappingProxyTyp
                 "polarity_normal": (_op(False), False),
                 "polarity_reversed": (_op(False), False),
                 "error_query": (_op(True), False),
+                "sync": (_op(True), False),
             }
         ),
         "load": MappingProxyType(
@@ -77,6 +78,7 @@ OPERATIONS: Mapping[str, Mapping[str, tuple[Operation, bool]]] = MappingProxyTyp
                 "measure_voltage": (_op(True), True),
                 "measure_current": (_op(True), True),
                 "error_query": (_op(True), False),
+                "sync": (_op(True), False),
             }
         ),
         "meter": MappingProxyType(
@@ -89,12 +91,16 @@ OPERATIONS: Mapping[str, Mapping[str, tuple[Operation, bool]]] = MappingProxyTyp
                 "measure_voltage": (_op(True, (), ("range_v",)), False),
                 "measure_current": (_op(True, (), ("range_a",)), False),
                 "error_query": (_op(True), False),
+                "sync": (_op(True), False),
             }
         ),
     }
 )
 
 DEFAULT_ERROR_QUERY = "SYST:ERR?"
+# IEEE 488.2 10.18: *OPC? answers 1 once every pending operation is complete, so its reply
+# means the setpoints sent before it are applied (commands on separate links are not ordered).
+DEFAULT_SYNC_QUERY = "*OPC?"
 
 ACCURACY_FUNCTIONS: Mapping[str, tuple[str, ...]] = MappingProxyType(
     {
@@ -182,6 +188,11 @@ class Profile:
     @property
     def error_query(self) -> str:
         return self.commands.get("error_query", DEFAULT_ERROR_QUERY)
+
+    @property
+    def sync_query(self) -> str:
+        """The query whose reply means every command sent before it has been applied."""
+        return self.commands.get("sync", DEFAULT_SYNC_QUERY)
 
     @property
     def source(self) -> str:

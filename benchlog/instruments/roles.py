@@ -6,7 +6,8 @@ limits (`SafetyLimit`, nothing sent). Replies are parsed by `benchlog.scpi`; a r
 that does not parse is a `NonsenseReply`. Setpoint writes are not followed by an
 error-queue read (that would double the exchanges per point); callers drain the queue
 at checkpoints with `check_errors()`, and `set_output(True)` / `set_input(True)` drain
-it before switching power on, so a rejected setpoint never goes live.
+it before switching power on, so a rejected setpoint never goes live. A caller that
+must know a setpoint is applied before reading another instrument calls `sync()`.
 """
 
 from __future__ import annotations
@@ -129,6 +130,21 @@ class Role:
         if value is None:
             raise NonsenseReply(command, "overload", "a reading within range", resource=self.resource)
         return value
+
+    # -- synchronisation ----------------------------------------------------------------
+    def sync(self) -> None:
+        """Return once the instrument has applied every command sent to it so far.
+
+        A write returns when the bytes are sent, not when the instrument has acted on
+        them, and commands on separate links are not ordered: a meter on its own socket
+        can be read before the load has taken its new current. The profile's sync query
+        (default `*OPC?`, IEEE 488.2 10.18) answers 1 only when all pending operations
+        are complete, and the instrument answers queries in the order it got them.
+        """
+        command = self.profile.sync_query
+        reply = self._query(command)
+        if reply != "1" and reply.strip() not in ("1", "+1"):
+            raise NonsenseReply(command, reply, "1 (operation complete)", resource=self.resource)
 
     # -- error queue ------------------------------------------------------------------
     def _drain_errors(self) -> tuple[tuple, int]:

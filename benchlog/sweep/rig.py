@@ -121,10 +121,20 @@ class Rig:
             self.load.set_input(True)
 
     def set_current(self, current_a: float) -> None:
+        """Set the element current; returns once the forcing instrument reports it applied.
+
+        The meter sits on its own link, and links are not ordered with each other: without
+        the sync a reading could still see the previous step's current (the dwell then
+        starts from a setpoint that is not yet there). Switching on needs no extra sync:
+        `set_output(True)` / `set_input(True)` read the error queue on the same link after
+        the command, and an instrument answers its queries in order.
+        """
         if self.wiring.force == "supply":
             self.supply.set_current_limit(current_a)
+            self.supply.sync()
         else:
             self.load.set_current(current_a)
+            self.load.sync()
 
     # -- readings ------------------------------------------------------------
     def read_drop(self) -> tuple[float | None, ...]:

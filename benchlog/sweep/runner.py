@@ -7,9 +7,11 @@ then to the consumer. The outputs are off before the final Note and RunFinished
 are emitted, whatever ended the run.
 
 Per point the runner makes only the exchanges the plan needs: one setpoint
-write, the settle reads, one current read-back, the supply mode (the only way to
-see compliance) and, if `[record].supply_v`, the supply voltage. Error queues
-are drained at checkpoints (after configuration, every `CHECKPOINT_S`, at the end).
+write and a sync with that instrument (its profile's `*OPC?`, so the dwell and the
+settle reads start from the new setpoint, not the old one), the settle reads, one
+current read-back, the supply mode (the only way to see compliance) and, if
+`[record].supply_v`, the supply voltage. Error queues are drained at checkpoints
+(after configuration, every `CHECKPOINT_S`, at the end).
 """
 
 from __future__ import annotations

@@ -162,6 +162,10 @@ BROKEN = [
     (LOAD, "[link]", "[link]\n[mode]\nquery = \"X?\"\ncv_bit = 1\ncc_bit = 2", "mode", "load"),
     (LOAD, 'set_current = "CURR {current_a}"', 'set_current = "CURR {current_a};*RST {voltage_v}"', "[commands].set_current", "{voltage_v}"),
     (METER, 'read = "READ?"\n', "", "[commands].read", "missing"),
+    (LOAD, 'input_on = "INP ON"', 'input_on = "INP ON"\nsync = "*OPC"', "[commands].sync", "asks nothing"),
+    (SUPPLY, 'output_on = "OUTP ON"', 'output_on = "OUTP ON"\nsync = "*OPC? {current_a}"', "[commands].sync",
+     "{current_a}"),
+    (METER, 'read = "READ?"', 'read = "READ?"\nsync = "*OPC?\\n*RST"', "[commands].sync", "newline"),
     (METER, 'configure_voltage = "CONF:VOLT:DC {range_v};:VOLT:DC:NPLC {nplc}"', 'configure_voltage = "CONF:VOLT:DC {range_v}"',
      "[commands].configure_voltage", "{nplc}"),
     (METER, "voltage_ranges_v = [0.1, 1.0]", "voltage_ranges_v = [1.0, 0.1]", "[limits].voltage_ranges_v", "rising"),
@@ -190,6 +194,14 @@ def test_broken_profile_names_the_key(base, old, new, where, word):
     assert error.where == where, error.line()
     assert word in error.line(), error.line()
     assert "\n" not in error.line()
+
+
+def test_sync_query_defaults_to_opc_and_can_be_set():
+    # IEEE 488.2 10.18: *OPC? answers 1 when all pending operations are complete.
+    for base in (SUPPLY, LOAD, METER):
+        assert parse_profile(base, "p.toml").sync_query == "*OPC?"
+    own = parse_profile(_edit(LOAD, 'input_on = "INP ON"', 'input_on = "INP ON"\nsync = "*WAI;*OPC?"'), "p.toml")
+    assert own.sync_query == "*WAI;*OPC?"
 
 
 def test_malformed_toml_is_a_profile_error_with_the_line():

@@ -268,3 +268,17 @@ def test_load_connect_sets_cc_and_safe_state():
     t.sent.clear()
     load.safe_state()
     assert t.sent[:2] == ["INPut OFF", "CURR 0.0"]
+
+
+def test_sync_asks_the_profile_query_and_wants_one():
+    # IEEE 488.2 10.18: *OPC? puts "1" in the output queue once pending operations are complete.
+    s, t = _supply({"*OPC?": "1"})
+    s.set_current_limit(1.5)
+    s.sync()
+    assert t.sent[-2:] == ["SOURce:CURRent 1.5", "*OPC?"]
+    t.replies["*OPC?"] = "+1"
+    s.sync()
+    for reply in ("0", "", "ON", "1,1"):
+        t.replies["*OPC?"] = reply
+        with pytest.raises(NonsenseReply):
+            s.sync()

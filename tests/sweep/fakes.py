@@ -94,6 +94,9 @@ class _Role:
     def check_errors(self, after=None):
         pass
 
+    def sync(self):
+        self.bench.log.append(f"sync {self.resource}")
+
 
 class FakeSupply(_Role):
     def __init__(self, bench, *, readback_gain=1.0, can_reverse=True, reverse_leak_a=1e-6):
