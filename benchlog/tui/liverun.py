@@ -86,7 +86,8 @@ class LiveRun:
     reverse: ReverseResult | None = None
     finished: RunFinished | None = None
     source: str = "live"  # "live" or "replay"
-    _arrays: tuple[int, dict[str, np.ndarray]] | None = None
+    _columns: "Columns" = field(default_factory=lambda: Columns(COLUMNS), repr=False, compare=False)
+    _arrays: tuple[int, dict[str, np.ndarray]] | None = field(default=None, repr=False, compare=False)
 
     @property
     def started(self) -> bool:
@@ -110,11 +111,15 @@ class LiveRun:
         return max(times) if times else 0.0
 
     def apply(self, events: Iterable[Event]) -> None:
+        new: list[Point] = []
         for event in events:
+            if isinstance(event, Point):
+                new.append(event)
+                continue
+            self._add(new)
+            new = []
             if isinstance(event, RunStarted):
                 self.header = dict(event.header)
-            elif isinstance(event, Point):
-                self.points.append(event)
             elif isinstance(event, Offset):
                 self.offset_v = event.drop_v
             elif isinstance(event, Note):
@@ -123,18 +128,32 @@ class LiveRun:
                 self.reverse = event
             elif isinstance(event, RunFinished):
                 self.finished = event
+        self._add(new)
+
+    def _add(self, new: list[Point]) -> None:
+        """Append a batch of points to the list and, in one step per column, to the column buffers."""
+        if not new:
+            return
+        self.points.extend(new)
+        current = np.array([p.current_a for p in new], dtype=float)
+        drop = np.array([p.drop_v for p in new], dtype=float)
+        supply = np.array([p.supply_v if p.supply_v is not None else math.nan for p in new], dtype=float)
+        self._columns.extend(current_a=current, drop_v=drop, power_w=current * drop, supply_v=supply)
 
     def arrays(self) -> dict[str, np.ndarray]:
-        """current_a, drop_v, power_w, supply_v as arrays (cached until a point arrives)."""
-        if self._arrays is not None and self._arrays[0] == len(self.points):
-            return self._arrays[1]
-        pts = self.points
-        current = np.fromiter((p.current_a for p in pts), float, len(pts))
-        drop = np.fromiter((p.drop_v for p in pts), float, len(pts))
-        supply = np.fromiter((p.supply_v if p.supply_v is not None else math.nan for p in pts), float, len(pts))
-        data = {"current_a": current, "drop_v": drop, "power_w": current * drop, "supply_v": supply}
-        self._arrays = (len(pts), data)
-        return data
+        """current_a, drop_v, power_w, supply_v as arrays of every point so far (read-only views).
+
+        The same dict and views come back until a point arrives, so a drawing can
+        tell "nothing new" by identity.
+        """
+        count = len(self._columns)
+        if self._arrays is None or self._arrays[0] != count:
+            self._arrays = (count, self._columns.views())
+        return self._arrays[1]
+
+    def worst_abs(self, column: str) -> float:
+        """The largest finite |value| of a column so far (0 when there is none); kept as points arrive."""
+        return self._columns.worst_abs(column)
 
     def supply_mode(self) -> str:
         if self.finished is not None:
@@ -159,12 +178,11 @@ class LiveRun:
 
     def limits(self, elapsed_s: float | None = None) -> list[LimitUse]:
         table = (self.header.get("plan") or {}).get("limits") or {}
-        data = self.arrays()
         worst = {
-            "max_current_a": _max_abs(data["current_a"]),
-            "compliance_v": _max_abs(data["supply_v"]),
-            "max_drop_v": _max_abs(data["drop_v"]),
-            "max_power_w": _max_abs(data["power_w"]),
+            "max_current_a": self.worst_abs("current_a"),
+            "compliance_v": self.worst_abs("supply_v"),
+            "max_drop_v": self.worst_abs("drop_v"),
+            "max_power_w": self.worst_abs("power_w"),
             "max_time_s": self.progress(elapsed_s).elapsed_s,
         }
         uses = []
@@ -173,6 +191,57 @@ class LiveRun:
             if isinstance(limit, (int, float)) and not isinstance(limit, bool) and limit > 0:
                 uses.append(LimitUse(key, what, unit, float(limit), worst[key]))
         return uses
+
+
+#: The point columns the live view draws from.
+COLUMNS = ("current_a", "drop_v", "power_w", "supply_v")
+
+
+class Columns:
+    """Growable float columns: capacity doubles when full, so n appended points cost O(n) copies in all.
+
+    Rebuilding arrays from every point on each redraw made a redraw O(points);
+    here a batch costs O(batch) and a redraw takes views of what is filled.
+    The running largest |value| of each column is kept too, for the limit bars.
+    """
+
+    def __init__(self, names: Iterable[str], capacity: int = 1024) -> None:
+        self._data = {name: np.empty(capacity, dtype=float) for name in names}
+        self._worst = {name: 0.0 for name in self._data}
+        self._count = 0
+
+    def __len__(self) -> int:
+        return self._count
+
+    def extend(self, **chunks: np.ndarray) -> None:
+        size = len(next(iter(chunks.values())))
+        if set(chunks) != set(self._data) or any(len(c) != size for c in chunks.values()):
+            raise ValueError("every column takes a chunk of the same length")
+        end = self._count + size
+        capacity = len(next(iter(self._data.values())))
+        if end > capacity:
+            while capacity < end:
+                capacity *= 2
+            for name, old in self._data.items():
+                grown = np.empty(capacity, dtype=float)
+                grown[:self._count] = old[:self._count]
+                self._data[name] = grown
+        for name, chunk in chunks.items():
+            self._data[name][self._count:end] = chunk
+            self._worst[name] = max(self._worst[name], _max_abs(chunk))
+        self._count = end
+
+    def views(self) -> dict[str, np.ndarray]:
+        """The filled part of each column; later appends never change what a view shows."""
+        out = {}
+        for name, data in self._data.items():
+            view = data[:self._count]
+            view.flags.writeable = False
+            out[name] = view
+        return out
+
+    def worst_abs(self, name: str) -> float:
+        return self._worst[name]
 
 
 def _max_abs(values: np.ndarray) -> float:

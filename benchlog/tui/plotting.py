@@ -101,6 +101,41 @@ def _tick_text(value: float, scale: float) -> str:
     return f"{scaled:.2f}".rstrip("0").rstrip(".")
 
 
+def dot_indices(
+    x: np.ndarray, y: np.ndarray, x_range: tuple[float, float], y_range: tuple[float, float], plot_w: int, plot_h: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Braille dot column and row (0 = left, top) of every finite point inside the ranges, all at once.
+
+    The canvas is 2·plot_w dots wide and 4·plot_h high; a value on the upper edge
+    of a range falls in the last dot rather than one past it.
+    """
+    (x_lo, x_hi), (y_lo, y_hi) = x_range, y_range
+    ok = np.isfinite(x) & np.isfinite(y)
+    with np.errstate(all="ignore"):  # a zero-width range gives NaN fractions, which the `inside` test drops
+        fx = (x[ok] - x_lo) / (x_hi - x_lo)
+        fy = (y[ok] - y_lo) / (y_hi - y_lo)
+    inside = (fx >= 0) & (fx <= 1) & (fy >= 0) & (fy <= 1)
+    dx = np.minimum((fx[inside] * (plot_w * 2)).astype(np.intp), plot_w * 2 - 1)
+    dy = np.minimum(((1.0 - fy[inside]) * (plot_h * 4)).astype(np.intp), plot_h * 4 - 1)
+    return dx, dy
+
+
+def dot_grid(dx: np.ndarray, dy: np.ndarray, plot_w: int, plot_h: int) -> np.ndarray:
+    """The braille bits of each cell (uint8, plot_h × plot_w) with the dots (dx, dy) set.
+
+    The dots go into a boolean canvas at dot resolution in one fancy-index
+    assignment; then each of the eight dot positions of a cell adds its bit, so
+    the cost is O(points + canvas) with no Python loop over points.
+    """
+    canvas = np.zeros((plot_h * 4, plot_w * 2), dtype=bool)
+    canvas[dy, dx] = True
+    bits = np.zeros((plot_h, plot_w), dtype=np.uint8)
+    for r in range(4):
+        for c in range(2):
+            bits |= canvas[r::4, c::2] * _DOT_BITS[r, c]
+    return bits
+
+
 def render_plot(
     series: Sequence[Series],
     width: int,
@@ -125,33 +160,27 @@ def render_plot(
     x_scale, x_prefix = prefix_for(max(abs(x_lo), abs(x_hi)))
     y_scale, y_prefix = prefix_for(max(abs(y_lo), abs(y_hi)))
 
-    cells_bits = np.zeros((plot_h, plot_w), dtype=np.uint8)
-    cell_glyph: dict[tuple[int, int], tuple[str, str]] = {}
-    cell_dot_style: dict[tuple[int, int], str] = {}
-
-    def to_dots(s: Series) -> tuple[np.ndarray, np.ndarray]:
-        ok = np.isfinite(s.x) & np.isfinite(s.y)
-        fx = (s.x[ok] - x_lo) / (x_hi - x_lo)
-        fy = (s.y[ok] - y_lo) / (y_hi - y_lo)
-        inside = (fx >= 0) & (fx <= 1) & (fy >= 0) & (fy <= 1)
-        dx = np.minimum((fx[inside] * (plot_w * 2)).astype(int), plot_w * 2 - 1)
-        dy = np.minimum(((1.0 - fy[inside]) * (plot_h * 4)).astype(int), plot_h * 4 - 1)
-        return dx, dy
-
-    for s in series:
+    bits = np.zeros((plot_h, plot_w), dtype=np.uint8)
+    dot_owner = np.full((plot_h, plot_w), -1, dtype=np.intp)  # first dots series to reach a cell styles it
+    glyph_owner = np.full((plot_h, plot_w), -1, dtype=np.intp)  # marks win over lines, later marks over earlier
+    for i, s in enumerate(series):
         x = np.asarray(s.x, dtype=float)
         y = np.asarray(s.y, dtype=float)
-        s = Series(s.label, x, y, s.kind, s.glyph, s.style)
-        dx, dy = to_dots(s)
+        dx, dy = dot_indices(x, y, (x_lo, x_hi), (y_lo, y_hi), plot_w, plot_h)
+        touched = np.zeros((plot_h, plot_w), dtype=bool)
+        touched[dy // 4, dx // 2] = True
         if s.kind == "dots":
-            rows, cols = dy // 4, dx // 2
-            np.bitwise_or.at(cells_bits, (rows, cols), _DOT_BITS[dy % 4, dx % 2])
-            for key in zip(rows.tolist(), cols.tolist()):
-                cell_dot_style.setdefault(key, s.style)
+            bits |= dot_grid(dx, dy, plot_w, plot_h)
+            dot_owner[touched & (dot_owner < 0)] = i
+        elif s.kind == "marks":
+            glyph_owner[touched] = i
         else:
-            for key in set(zip((dy // 4).tolist(), (dx // 2).tolist())):
-                if s.kind == "marks" or key not in cell_glyph:
-                    cell_glyph[key] = (s.glyph, s.style)
+            glyph_owner[touched & (glyph_owner < 0)] = i
+    # A model line's "·" gives way to measured dots in the same cell; any other glyph stays on top.
+    soft = np.array([s.kind != "dots" and s.glyph == "·" for s in series] + [False])
+    glyph_wins = (glyph_owner >= 0) & ((bits == 0) | ~soft[glyph_owner])
+    filled = glyph_wins | (bits != 0)
+    series_styles = [styles.series.get(s.style, Style()) for s in series]
 
     # Legend: glyph and name of each series, so no series is told by colour only.
     for i, s in enumerate(series):
@@ -177,19 +206,18 @@ def render_plot(
             label = " " * Y_LABEL_WIDTH
         out.append(label, styles.label)
         out.append("┤" if row in tick_rows else "│", styles.axis)
-        for col in range(plot_w):
-            key = (row, col)
-            if key in cell_glyph and not cells_bits[row, col]:
-                glyph, style = cell_glyph[key]
-                out.append(glyph, styles.series.get(style, Style()))
-            elif key in cell_glyph and cell_glyph[key][0] != "·":
-                glyph, style = cell_glyph[key]
-                out.append(glyph, styles.series.get(style, Style()))
-            elif cells_bits[row, col]:
-                out.append(chr(_BRAILLE_BASE + int(cells_bits[row, col])),
-                           styles.series.get(cell_dot_style.get(key, ""), Style()))
+        shown = 0  # columns of this row written so far; a run of empty cells is one append (no style)
+        for col in np.flatnonzero(filled[row]).tolist():
+            if col > shown:
+                out.append(" " * (col - shown))
+            if glyph_wins[row, col]:
+                owner = int(glyph_owner[row, col])
+                out.append(series[owner].glyph, series_styles[owner])
             else:
-                out.append(" ")
+                out.append(chr(_BRAILLE_BASE + int(bits[row, col])), series_styles[int(dot_owner[row, col])])
+            shown = col + 1
+        if shown < plot_w:
+            out.append(" " * (plot_w - shown))
         out.append("\n")
 
     # x axis: a rule with tick marks, then the tick values, then the quantity and unit.

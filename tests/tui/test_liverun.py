@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import numpy as np
 import pytest
 
 from benchlog.runs.events import Point, RunFinished, RunStarted
@@ -56,3 +57,48 @@ def test_feed_drops_events_of_a_superseded_run():
     feed.push(RunFinished(2.0, "complete", 0), new)
     assert [e.t_s for e in feed.drain()] == [2.0]
     assert feed.drain() == []
+
+
+def _reference_arrays(points):
+    """The columns rebuilt from every point, the way a redraw used to do it."""
+    current = np.array([p.current_a for p in points], dtype=float)
+    drop = np.array([p.drop_v for p in points], dtype=float)
+    supply = np.array([np.nan if p.supply_v is None else p.supply_v for p in points], dtype=float)
+    return {"current_a": current, "drop_v": drop, "power_w": current * drop, "supply_v": supply}
+
+
+def test_growing_columns_hold_every_point_in_order_across_reallocations():
+    rng = np.random.default_rng(7)
+    live = LiveRun()
+    live.apply([RunStarted(header())])
+    points, kept = [], []
+    for _ in range(60):  # batches of random size cross the 1024-point capacity several times
+        batch = []
+        for _ in range(int(rng.integers(0, 200))):
+            i = len(points)
+            supply = None if rng.random() < 0.1 else float(rng.normal(5.0, 3.0))
+            batch.append(Point(i, i * 0.01, float(rng.uniform(0, 3)), float(rng.normal(1.5, 1.0)),
+                               float(rng.normal(0.0, 0.05)), supply_v=supply, supply_mode="CC"))
+            points.append(batch[-1])
+        live.apply(batch)
+        data = live.arrays()
+        kept.append((len(points), {k: v.copy() for k, v in data.items()}, data))
+        reference = _reference_arrays(points)
+        for key, values in reference.items():
+            assert np.array_equal(data[key], values, equal_nan=True), key
+            finite = values[np.isfinite(values)]
+            assert live.worst_abs(key) == (float(np.max(np.abs(finite))) if len(finite) else 0.0)
+    assert len(points) > 4 * 1024
+    for count, copy, views in kept:  # a view handed out earlier never changes under later appends
+        for key in copy:
+            assert len(views[key]) == count and np.array_equal(views[key], copy[key], equal_nan=True)
+
+
+def test_arrays_are_the_same_objects_until_a_point_arrives():
+    live = LiveRun()
+    evs = events(n=30)
+    live.apply(evs[:5])
+    first = live.arrays()
+    assert live.arrays() is first
+    live.apply(evs[5:6])
+    assert live.arrays() is not first and len(live.arrays()["current_a"]) == len(first["current_a"]) + 1

@@ -26,6 +26,9 @@ class LiveView(View):
         Binding("escape", "app.stop", "Stop", show=False),
     ]
 
+    _latest_of = None  # the run and point count the latest-points table shows
+    _latest_count = -1
+
     def body(self) -> ComposeResult:
         yield Plain("", id="live-head")
         with Horizontal(id="live-body"):
@@ -82,6 +85,9 @@ class LiveView(View):
         self.query_one("#live-limits", Static).update("\n".join(lines))
 
     def _show_latest(self, live) -> None:
+        if self._latest_of is live and self._latest_count == len(live.points):
+            return  # the table is rebuilt only when a point arrived, at most once per redraw
+        self._latest_of, self._latest_count = live, len(live.points)
         table = self.query_one("#latest", DataTable)
         table.clear()
         for p in live.points[-LATEST_ROWS:][::-1]:
