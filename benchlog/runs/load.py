@@ -24,18 +24,8 @@ from typing import TYPE_CHECKING, Any
 from benchlog.badinput import BadInput
 
 from .events import Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
-from .format import (
-    ABSOLUTE_ZERO_C,
-    DIRECTIONS,
-    FLAG_PATTERN,
-    MAX_INDEX,
-    MAX_MAGNITUDE,
-    POINT_COLUMNS,
-    POINT_FLOAT_COLUMNS,
-    POINT_INTEGER_COLUMNS,
-    POINT_TAG,
-    SUPPLY_MODES,
-)
+from .format import POINT_COLUMNS, POINT_FLOAT_COLUMNS, POINT_INTEGER_COLUMNS, POINT_TAG
+from .point_rules import flag_rows, numbers_ok, text_value_ok
 from .reader import _Line, _open, decode_header, decode_record, is_torn, parse_json_object, read_records
 
 if TYPE_CHECKING:
@@ -116,13 +106,6 @@ def _frame(columns: dict[str, Any]) -> pd.DataFrame:
     return pd.DataFrame(out, columns=list(FRAME_COLUMNS))
 
 
-def _finite_within(x: np.ndarray, optional: np.ndarray | bool = False) -> bool:
-    import numpy as np
-
-    ok = np.abs(x) <= MAX_MAGNITUDE  # False for NaN and inf
-    return bool(np.all(ok | (np.isnan(x) & optional)))
-
-
 def _fast(path: str | os.PathLike[str], first_line: bytes, started: RunStarted,
           torn: bool) -> tuple[pd.DataFrame, list[Event]]:
     import numpy as np
@@ -183,33 +166,13 @@ def _fast(path: str | os.PathLike[str], first_line: bytes, started: RunStarted,
     arrays = {name: table[name].to_numpy() for name in columns if name not in _CATEGORY_COLUMNS}
     cats = {name: table[name].array for name in _CATEGORY_COLUMNS}
     for name, cat in cats.items():
-        allowed = {"supply_mode": SUPPLY_MODES, "direction": DIRECTIONS}.get(name)
-        for value in cat.categories:
-            if allowed is not None and value not in allowed:
-                raise _Refused
-            if allowed is None and not all(FLAG_PATTERN.match(f) for f in value.split("|")):
-                raise _Refused
-    if (np.asarray(cats["direction"].codes) < 0).any():
-        raise _Refused
-    flags = cats["flags"]
-    overload = np.zeros(len(table), dtype=bool)
-    for code, value in enumerate(flags.categories):
-        if "overload" in value.split("|"):
-            overload |= np.asarray(flags.codes) == code
-    for name in POINT_INTEGER_COLUMNS:
-        x = arrays[name]
-        if not (np.all((x >= 0) & (x <= MAX_INDEX)) and np.all(np.floor(x) == x)):
+        if not all(text_value_ok(name, value) for value in cat.categories):
             raise _Refused
-    if len(table) > 1 and not np.all(np.diff(arrays["index"]) > 0):
-        raise _Refused
-    if not (_finite_within(arrays["t_s"]) and _finite_within(arrays["setpoint_a"])
-            and _finite_within(arrays["current_a"], overload)
-            and _finite_within(arrays["drop_v"], overload)
-            and _finite_within(arrays["supply_v"], True)
-            and _finite_within(arrays["temperature_c"], True)):
-        raise _Refused
-    temperature = arrays["temperature_c"]
-    if np.any(temperature < ABSOLUTE_ZERO_C):
+    if (np.asarray(cats["direction"].codes) < 0).any():
+        raise _Refused  # an empty direction
+    flags = cats["flags"]
+    overload = flag_rows(list(flags.categories), np.asarray(flags.codes), "overload")
+    if not numbers_ok(arrays, overload):
         raise _Refused
     return _finish(table), records
 
@@ -229,7 +192,13 @@ def _finish(table: pd.DataFrame) -> pd.DataFrame:
     return out if list(out.columns) == list(FRAME_COLUMNS) else out[list(FRAME_COLUMNS)]
 
 
-def _slow(path: str | os.PathLike[str]) -> tuple[RunStarted, pd.DataFrame, list[Event]]:
+def read_by_lines(path: str | os.PathLike[str]) -> tuple[RunStarted, dict[str, list[Any]], list[Event]]:
+    """The whole file through the line reader: header, point columns as lists, other records.
+
+    The one source of every BadInput about a run file (the fast paths only refuse).
+    Column lists hold floats (NaN for an unread supply_v / temperature_c), ints,
+    str or None (supply_mode) and "|"-joined flags ("" for none).
+    """
     started: RunStarted | None = None
     points: list[Point] = []
     records: list[Event] = []
@@ -245,6 +214,11 @@ def _slow(path: str | os.PathLike[str]) -> tuple[RunStarted, pd.DataFrame, list[
     for name in ("supply_v", "temperature_c"):
         columns[name] = [math.nan if v is None else v for v in columns[name]]
     columns["flags"] = ["|".join(f) for f in columns["flags"]]
+    return started, columns, records
+
+
+def _slow(path: str | os.PathLike[str]) -> tuple[RunStarted, pd.DataFrame, list[Event]]:
+    started, columns, records = read_by_lines(path)
     return started, _frame(columns), records
 
 

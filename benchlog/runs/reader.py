@@ -40,9 +40,10 @@ from .format import (
     SUPPORTED_SCHEMAS,
 )
 
-# A decimal number as the writer writes it; surrounding blanks are tolerated
-# because the pandas fast path tolerates them too.
-_NUMBER = re.compile(r"\s*[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?\s*\Z")
+#: A decimal number as the writer writes it (Python `repr` of a float, or an integer).
+NUMBER_SYNTAX = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
+# Surrounding blanks are tolerated because the pandas fast path tolerates them too.
+_NUMBER = re.compile(rf"\s*{NUMBER_SYNTAX}\s*\Z")
 
 _RECORD_KEYS: dict[str, tuple[str, ...]] = {
     "offset": ("record", "t_s", "drop_v"),
