@@ -26,7 +26,7 @@ from scipy import stats
 from benchlog.badinput import BadInput
 
 from .spec import PartSpec
-from .verdict import decide_many, limit_envelope, rule_text, run_conditions
+from .verdict import RunConditions, decide_many, limit_envelope, rule_text, run_conditions
 
 CAPABILITY_MIN = 1.33
 ESD_ALPHA = 0.05
@@ -245,47 +245,181 @@ def lot_limits(
     return usl, lsl, source, notes
 
 
-def lot_from_runs(paths: Sequence[str | Path], spec: PartSpec, at_a: float | None = None) -> LotSummary:
+#: Lots at least this large are loaded and fitted in a process pool (when there is more than one CPU).
+POOL_MIN_RUNS = 400
+
+
+@dataclass(frozen=True)
+class _PartFit:
+    """What one run gives the lot: its value with standard uncertainty and what the lot limit needs."""
+
+    value: float
+    std_u: float
+    k: float
+    serial: str
+    run: str
+    conditions: RunConditions
+
+
+def lot_model(spec: PartSpec, body_diode: bool = False) -> str:
+    """The fit model the spec kind implies: a channel or resistor is a line, a junction the diode law."""
+    return "diode" if lot_quantity(spec, body_diode) == "drop_v" else "resistive"
+
+
+def fit_points(points, meta, model: str):
+    """`fits.fit_run(frame, meta, model)` for the arrays of `runs.load_points`, without a DataFrame per run.
+
+    The same points (finite current and drop, no overload flag), the header's accuracy,
+    the zero-current offset subtracted, the same temperature (`run_temperature_c`) and
+    the same BadInput when the model cannot be fitted; the test suite holds the two to
+    1e-12. `model` is "resistive" or "diode"; notes on left-out points are not kept
+    (the lot does not show per-run notes).
+    """
+    from .fit_diode import fit_diode
+    from .fit_resistive import fit_resistive
+    from .fit_result import FitError
+    from .fits import run_temperature_c
+    from .uncertainty import MeasurementAccuracy
+
+    source = str(getattr(meta, "path", "run"))
+    accuracy = MeasurementAccuracy.from_header(getattr(meta, "header", None) or {}, source)
+    if accuracy.drop is None and accuracy.current is None:
+        accuracy = None
+    current, drop, index = points.current_a, points.drop_v, points.index
+    rows = np.isfinite(current) & np.isfinite(drop) & ~points.has_flag("overload")
+    if not rows.all():
+        current, drop, index = current[rows], drop[rows], index[rows]
+    offset = getattr(meta, "offset_v", None)
+    offset_removed = offset is not None and math.isfinite(float(offset))
+    if offset_removed:
+        drop = drop - float(offset)
+    temperature_c, _ = run_temperature_c(points, meta)  # reads points['temperature_c'] as from a frame
+    common = dict(offset_removed=offset_removed, exclude_outliers=False, point_index=index)
+    try:
+        if model == "resistive":
+            return fit_resistive(current, drop, accuracy, temperature_c=temperature_c, **common)
+        if model == "diode":
+            return fit_diode(current, drop, temperature_c, accuracy, **common)
+    except FitError as exc:
+        raise BadInput(source, "points", str(exc), f"a sweep the {model} model can be fitted to") from exc
+    raise ValueError(f"fit_points fits 'resistive' or 'diode', not {model!r}")
+
+
+def _fit_part(path, spec: PartSpec, at_a: float | None, model: str | None, vf_at_a: float | None) -> _PartFit:
+    """Load one run with the light loader, read its conditions, fit it and take the lot's value.
+
+    `model` None means this is the first run: the model and the Vf current come from it.
+    """
+    from benchlog.runs import load_points
+
+    points, meta = load_points(path)
+    cond = run_conditions(points, meta, spec, at_a)  # reads columns only, as PointArrays offer them
+    if model is None:
+        model = lot_model(spec, cond.body_diode)
+        vf_at_a = cond.current_a
+    fit = fit_points(points, meta, model)
+    if model == "resistive":
+        value, u = fit.params["r_on_ohm"], fit.std_u["r_on_ohm"]
+    else:
+        value, u = fit.drop_at(vf_at_a)
+    element = getattr(meta, "element", None) or {}
+    serial = str(element.get("serial") or element.get("id") or Path(path).stem)
+    return _PartFit(float(value), float(u), float(fit.k), serial, str(path), cond)
+
+
+def _fit_chunk(job) -> list:
+    """Worker of the process pool: fit runs in order; a BadInput ends the chunk as plain fields.
+
+    (BadInput's constructor takes four fields, so it is sent back as those fields and raised
+    again in the parent, in file order.)
+    """
+    paths, spec, at_a, model, vf_at_a = job
+    out: list = []
+    for path in paths:
+        try:
+            out.append(_fit_part(path, spec, at_a, model, vf_at_a))
+        except BadInput as exc:
+            out.append(("bad", exc.source, exc.where, exc.problem, exc.expected))
+            break
+    return out
+
+
+def _cpus() -> int:
+    import os
+
+    try:
+        return len(os.sched_getaffinity(0))
+    except AttributeError:  # not on Linux
+        return os.cpu_count() or 1
+
+
+def _pool_context():
+    """fork where it is safe (one thread, a platform that has it): the workers start in milliseconds."""
+    import multiprocessing
+    import threading
+
+    if threading.active_count() == 1 and "fork" in multiprocessing.get_all_start_methods():
+        return multiprocessing.get_context("fork")
+    return multiprocessing.get_context("spawn")
+
+
+def _fit_rest(paths: Sequence, spec: PartSpec, at_a, model: str, vf_at_a, workers: int) -> list[_PartFit]:
+    """Every run after the first, in the order given, serially or over `workers` processes."""
+    if workers <= 1 or len(paths) < 2:
+        return [_fit_part(p, spec, at_a, model, vf_at_a) for p in paths]
+    from concurrent.futures import ProcessPoolExecutor
+
+    size = max(1, -(-len(paths) // (workers * 8)))  # a few chunks per worker evens out the load
+    jobs = [(list(paths[i:i + size]), spec, at_a, model, vf_at_a) for i in range(0, len(paths), size)]
+    out: list[_PartFit] = []
+    with ProcessPoolExecutor(max_workers=workers, mp_context=_pool_context()) as pool:
+        for chunk in pool.map(_fit_chunk, jobs):  # map keeps the order of the jobs
+            for item in chunk:
+                if isinstance(item, tuple):
+                    raise BadInput(*item[1:])
+                out.append(item)
+    return out
+
+
+def lot_from_runs(paths: Sequence[str | Path], spec: PartSpec, at_a: float | None = None, *,
+                  workers: int | None = None) -> LotSummary:
     """Load and fit each run, then `summarize` against the spec's limits at the lot's operating point.
 
     One limit applies to the whole lot: it is computed at the median ambient of the runs
     and the operating current of the first run (every run of a lot should share both).
+    Each run is loaded by `runs.load_points` and fitted with the model its spec kind
+    implies (`lot_model`: the resistive line for a P/N-MOSFET channel or a resistor, the
+    diode law for a rectifier, a Schottky or a body diode measured on purpose), not by the
+    automatic model choice of `benchlog fit`; the lot's notes say so. Lots of
+    `POOL_MIN_RUNS` runs or more are fitted over the CPUs (`workers`: None = every CPU
+    available, 1 = in this process); the result is the same, in the order of `paths`,
+    and a bad file raises the BadInput of the first bad file in that order.
     """
-    from benchlog.runs import load
-
-    from .fits import fit_run
-
-    quantity = None
-    values, us, serials, names, ambients, ks = [], [], [], [], [], []
-    first = None
-    for path in paths:
-        frame, meta = load(path)
-        cond = run_conditions(frame, meta, spec, at_a)
-        first = first or cond
-        quantity = quantity or lot_quantity(spec, cond.body_diode)
-        model = "resistive" if quantity == "r_on_ohm" else "auto"
-        fit = fit_run(frame, meta, model)
-        if quantity == "r_on_ohm":
-            values.append(fit.params["r_on_ohm"])
-            us.append(fit.std_u["r_on_ohm"])
-        else:
-            v, u = fit.drop_at(first.current_a)
-            values.append(v)
-            us.append(u)
-        ks.append(float(fit.k))
-        element = getattr(meta, "element", None) or {}
-        serials.append(str(element.get("serial") or element.get("id") or Path(path).stem))
-        names.append(str(path))
-        ambients.append(cond.ambient_c)
-    if first is None:
+    paths = list(paths)
+    if not paths:
         raise BadInput("argument", "RUN", "no run files given", "one or more run files")
+    first = _fit_part(paths[0], spec, at_a, None, None)
+    cond = first.conditions
+    quantity = lot_quantity(spec, cond.body_diode)
+    model = lot_model(spec, cond.body_diode)
+    if workers is None:
+        workers = _cpus() if len(paths) >= POOL_MIN_RUNS else 1
+    parts = [first] + _fit_rest(paths[1:], spec, at_a, model, cond.current_a, max(1, int(workers)))
+    ambients = [p.conditions.ambient_c for p in parts]
     ambient = float(np.median(ambients))
-    usl, lsl, source, notes = lot_limits(spec, first.current_a, ambient, first.vin_v, first.zener_v, quantity)
-    if quantity == "r_on_ohm":
+    usl, lsl, source, notes = lot_limits(spec, cond.current_a, ambient, cond.vin_v, cond.zener_v, quantity)
+    kind = "its body diode" if cond.body_diode else f"a {spec.kind}"
+    if model == "resistive":
+        notes.append(f"each part fitted with the resistive model (V = V0 + R·I), as the spec is {kind}; "
+                     "not the automatic model choice of benchlog fit")
         notes.append("R_on is the slope of each run's resistive fit, compared with the predicted R_DS(on) "
                      "at the operating point's junction temperature")
+    else:
+        notes.append(f"each part's Vf at {cond.current_a:.4g} A from its diode-law fit, as the spec is {kind}; "
+                     "not the automatic model choice of benchlog fit")
     if max(ambients) - min(ambients) > 5.0:
         notes.append(f"ambients of the runs span {min(ambients):g}–{max(ambients):g} °C; "
                      "the limit is at their median")
-    return summarize(values, us, usl=usl, lsl=lsl, k=max(ks), serials=serials, runs=names, part=spec.name,
-                     quantity=quantity, limit_source=source, notes=notes)
+    return summarize([p.value for p in parts], [p.std_u for p in parts], usl=usl, lsl=lsl,
+                     k=max(p.k for p in parts), serials=[p.serial for p in parts], runs=[p.run for p in parts],
+                     part=spec.name, quantity=quantity, limit_source=source, notes=notes)

@@ -22,7 +22,7 @@ from benchlog.badinput import BadInput
 
 from .events import Event, RunFinished
 from .format import POINT_COLUMNS, POINT_FLOAT_COLUMNS, POINT_INTEGER_COLUMNS, POINT_TAG
-from .load import RunMeta, _meta, load, read_by_lines
+from .load import FRAME_COLUMNS, RunMeta, _meta, load, read_by_lines
 from .point_rules import (
     NUMBER_COLUMN,
     OPTIONAL_NUMBERS,
@@ -69,6 +69,18 @@ class PointArrays:
     def __len__(self) -> int:
         return len(self.index)
 
+    # The column-reading part of the DataFrame interface (`name in points.columns`,
+    # `points[name].to_numpy(dtype=float)`), so code written for `load`'s frame that only
+    # reads columns takes these arrays as they are. Nothing else of pandas is offered.
+    @property
+    def columns(self) -> tuple[str, ...]:
+        return FRAME_COLUMNS
+
+    def __getitem__(self, name: str) -> Column:
+        if name not in FRAME_COLUMNS:
+            raise KeyError(name)
+        return Column(getattr(self, name))
+
     @property
     def power_w(self) -> np.ndarray:
         """current_a · drop_v, as `load`'s `power_w` column."""
@@ -114,6 +126,24 @@ class PointArrays:
                 values = column.astype(object).to_numpy()
                 out[name] = _objects([None if not isinstance(v, str) else v for v in values])
         return cls(**out)
+
+
+class Column:
+    """One column of `PointArrays` read the way a DataFrame's column is: `.to_numpy(dtype=None)`."""
+
+    __slots__ = ("_values",)
+
+    def __init__(self, values: np.ndarray) -> None:
+        self._values = values
+
+    def __len__(self) -> int:
+        return len(self._values)
+
+    def to_numpy(self, dtype: Any = None, copy: bool = False) -> np.ndarray:
+        import numpy as np
+
+        out = np.asarray(self._values, dtype=dtype)
+        return out.copy() if copy and out is self._values else out
 
 
 def _objects(values: Sequence[Any]) -> np.ndarray:

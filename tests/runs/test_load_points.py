@@ -189,3 +189,19 @@ def every_kind_header() -> bytes:
             for event in every_kind():
                 writer.write(event)
     return path.read_bytes().split(b"\n", 1)[0] + b"\n"
+
+
+def test_column_reading_like_a_frame():
+    # Code written for load's frame that only reads columns takes the arrays as they are.
+    path = REPO / "sample_runs" / "pmos-prototype.run"
+    points, _ = load_points(path)
+    frame, _ = load(path)
+    assert tuple(points.columns) == tuple(frame.columns)
+    for name in ("current_a", "supply_v", "temperature_c", "power_w"):
+        assert np.array_equal(points[name].to_numpy(dtype=float), frame[name].to_numpy(dtype=float),
+                              equal_nan=True)
+    copied = points["drop_v"].to_numpy(copy=True)
+    copied[0] = -1.0
+    assert points.drop_v[0] != -1.0
+    with pytest.raises(KeyError):
+        points["nope"]
