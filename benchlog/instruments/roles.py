@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import math
 import numbers
+from collections import deque
 from typing import Callable
 
 from benchlog.scpi.errors import ScpiError, ScpiReplyError
@@ -57,7 +58,10 @@ class Role:
         self.transport = transport
         self.profile = profile
         self.resource = getattr(transport, "resource", "")
-        self._pending: list[str] = []  # commands written since the error queue was last drained
+        # the last commands written since the error queue was drained, to name them in an InstrumentError
+        self._pending: deque[str] = deque(maxlen=8)
+        self._error_query = profile.error_query
+        self._fixed: dict[str, str] = {}  # operation -> its command, for templates without placeholders
         self.idn_text = self._query("*IDN?")
         try:
             self.idn: Idn = parse_idn(self.idn_text)
@@ -79,12 +83,10 @@ class Role:
     def _write(self, command: str) -> None:
         self.transport.write(command)
         self._pending.append(command)
-        del self._pending[:-8]
 
     def _query(self, command: str, timeout_s: float | None = None) -> str:
-        if command != self.profile.error_query:  # a query can cause an error too (an unknown header)
+        if command != self._error_query:  # a query can cause an error too (an unknown header)
             self._pending.append(command)
-            del self._pending[:-8]
         if timeout_s is None:
             return self.transport.query(command)
         return self.transport.query(command, timeout_s=timeout_s)
@@ -97,10 +99,17 @@ class Role:
         return template
 
     def _command(self, operation: str, **values: float) -> str:
+        if not values:
+            fixed = self._fixed.get(operation)
+            if fixed is not None:  # a template without placeholders fills the same every time
+                return fixed
         try:
-            return fill_template(self._template(operation), **values)
+            command = fill_template(self._template(operation), **values)
         except ScpiError as exc:  # the range checks come first; this is the last line of defence
             raise SafetyLimit(f"{operation} refused: {exc}", resource=self.resource) from None
+        if not values:
+            self._fixed[operation] = command
+        return command
 
     def _setpoint(self, name: str, value: object, limit: float | None, unit: str, key: str) -> float:
         if not _ok_number(value):

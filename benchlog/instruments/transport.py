@@ -12,13 +12,21 @@ Two details of message-based instruments matter for correct data:
 
 pyvisa-py reports a peer that closed a raw socket as a read timeout; where the
 backend exposes its socket we look at it (a non-blocking peek) to tell a dropped
-connection from a slow instrument.
+connection from a slow instrument. The peek is a system call, and at zero reply
+latency one per message was the largest cost of the whole layer, so it is made
+only where it can tell something: after a timeout or failure, and before a
+message on a link that has been quiet for `IDLE_CHECK_S` (a peer that closed
+between two exchanges is then seen before anything is sent into the dead link).
+In a back-to-back exchange a closed link shows up at once as a reset or, for a
+query, as the timeout that the peek then explains. Bytes that pyvisa-py already
+read past a reply are checked before every query without a system call.
 """
 
 from __future__ import annotations
 
 import socket
 import threading
+import time
 from typing import Any
 
 from .errors import BenchError, ConnectionLost, InstrumentTimeout, SafetyLimit, TransportError
@@ -26,6 +34,12 @@ from .errors import BenchError, ConnectionLost, InstrumentTimeout, SafetyLimit, 
 # How many late replies a drain reads and discards at most, and the wait between them.
 _DRAIN_MAX_READS = 64
 _DRAIN_FOLLOW_S = 0.05
+#: A link quiet for longer than this gets one non-blocking peek before its next message.
+IDLE_CHECK_S = 0.05
+# MSG_PEEK | MSG_DONTWAIT as a plain int (or None where the platform lacks MSG_DONTWAIT);
+# or-ing the IntFlag members per call costs more than the peek itself.
+_PEEK_FLAGS = int(socket.MSG_PEEK) | int(socket.MSG_DONTWAIT) if hasattr(socket, "MSG_DONTWAIT") else None
+_monotonic = time.monotonic
 
 
 class Transport:
@@ -102,8 +116,9 @@ MANAGERS = _Managers()
 
 
 def _check_command(command: str, resource: str) -> None:
-    # Last line of defence: whatever a caller built, one write is one line of printable text.
-    if not isinstance(command, str) or not command or any(c in command for c in "\r\n") or not command.isprintable():
+    # Last line of defence: whatever a caller built, one write is one line of printable text
+    # (str.isprintable is False for CR, LF and every other control character).
+    if type(command) is not str or not command or not command.isprintable():
         raise SafetyLimit(f"command {command!r} refused: not one line of printable text", resource=resource)
 
 
@@ -128,6 +143,10 @@ class VisaTransport(Transport):
         self.open_timeout_s = float(open_timeout_s)
         self._lock = threading.RLock()
         self._res: Any = None
+        self._session: Any = None  # pyvisa-py's session object, to see bytes it read past a reply
+        self._sock: socket.socket | None = None  # its socket, for the peek (None: backend hides it)
+        self._res_timeout_ms = 0  # the timeout last set on the resource (set only when it changes)
+        self._last_io = 0.0  # monotonic time of the last exchange that went through
         self._stale = False  # a reply may still be on its way after a timeout
         self._lost: str | None = None
         self._closed = False
@@ -156,6 +175,9 @@ class VisaTransport(Transport):
             raise ConnectionLost(f"cannot open ({_describe(exc)})", resource=self.resource) from None
         self._lost = None
         self._stale = False
+        self._res_timeout_ms = max(1, round(self.timeout_s * 1000))
+        self._session, self._sock = _backend_socket(self._res)
+        self._last_io = _monotonic()
         if self.resource.upper().endswith("::SOCKET"):
             # Nagle's algorithm holds a query sent right after a write (INITiate then FETCh?) until the
             # peer's delayed ACK, about 40 ms per point on Linux; instruments answer lines, so send at once.
@@ -181,6 +203,7 @@ class VisaTransport(Transport):
 
     def _drop(self) -> None:
         res, self._res = self._res, None
+        self._session = self._sock = None
         if res is not None:
             try:
                 res.close()
@@ -198,7 +221,7 @@ class VisaTransport(Transport):
             self._timeout_s = float(value)
             if self._res is not None:
                 try:
-                    self._res.timeout = max(1, round(self._timeout_s * 1000))
+                    self._set_timeout_ms(max(1, round(self._timeout_s * 1000)))
                 except self._pyvisa_errors as exc:
                     raise self._convert(exc, "(setting the timeout)") from None
 
@@ -212,31 +235,44 @@ class VisaTransport(Transport):
         with self._lock:
             self._ensure_open(command)
             self._write(command)
+            self._last_io = _monotonic()
 
     def query(self, command: str, *, timeout_s: float | None = None) -> str:
         _check_command(command, self.resource)
         with self._lock:
             self._ensure_open(command)
-            if self._stale or self._peer_state() == "data":
+            if self._stale or self._buffered():
                 self._drain()
             try:
                 self._write(command)
-                return self._read(command, timeout_s)
+                reply = self._read(command, timeout_s)
             except BenchError:
                 raise
             except BaseException:
                 # Ctrl-C or SIGTERM inside the read: the reply may still come; drop it before the next query.
                 self._stale = True
                 raise
+            self._last_io = _monotonic()
+            return reply
 
     def _ensure_open(self, command: str) -> None:
         if self._closed:
             raise ConnectionLost(f"transport is closed; {command!r} not sent", resource=self.resource)
         if self._lost is not None:
             raise ConnectionLost(f"{self._lost}; {command!r} not sent", resource=self.resource)
-        if self._peer_state() == "closed":
-            self._lose("connection closed by the instrument")
-            raise ConnectionLost(f"{self._lost}; {command!r} not sent", resource=self.resource)
+        if _monotonic() - self._last_io > IDLE_CHECK_S:
+            # Quiet for a while: the instrument may have closed the link or sent something unasked.
+            state = self._peer_state()
+            if state == "closed":
+                self._lose("connection closed by the instrument")
+                raise ConnectionLost(f"{self._lost}; {command!r} not sent", resource=self.resource)
+            if state == "data":
+                self._stale = True
+
+    def _buffered(self) -> bool:
+        """Bytes pyvisa-py already read past the last reply (an unasked line): no system call needed."""
+        session = self._session
+        return session is not None and bool(getattr(session, "_pending_buffer", None))
 
     def _write(self, command: str) -> None:
         try:
@@ -244,21 +280,20 @@ class VisaTransport(Transport):
         except self._pyvisa_errors as exc:
             raise self._convert(exc, command) from None
 
+    def _set_timeout_ms(self, ms: int) -> None:
+        self._res.timeout = ms
+        self._res_timeout_ms = ms
+
     def _read(self, command: str, timeout_s: float | None) -> str:
-        restore = None
+        # The resource keeps the last timeout set on it; it is changed only when a query needs
+        # another one (the meter's reads add their integration time), not set and restored each time.
+        wanted = max(1, round((self._timeout_s if timeout_s is None else timeout_s) * 1000))
         try:
-            if timeout_s is not None and timeout_s != self.timeout_s:
-                restore = self._res.timeout
-                self._res.timeout = max(1, round(timeout_s * 1000))
+            if wanted != self._res_timeout_ms:
+                self._set_timeout_ms(wanted)
             raw = self._res.read_raw()
         except self._pyvisa_errors as exc:
             raise self._convert(exc, command) from None
-        finally:
-            if restore is not None and self._res is not None:
-                try:
-                    self._res.timeout = restore
-                except self._pyvisa_errors:
-                    pass
         # latin-1 maps every byte, so a garbage reply reaches the parser (NonsenseReply), not a decode error.
         text = raw.decode("latin-1")
         if text.endswith(self.read_termination):
@@ -268,10 +303,9 @@ class VisaTransport(Transport):
     def _drain(self) -> None:
         """Read and discard replies that arrived late, so the next reply belongs to the next query."""
         wait_s = self.timeout_s
-        original = self._res.timeout
         try:
             for _ in range(_DRAIN_MAX_READS):
-                self._res.timeout = max(1, round(wait_s * 1000))
+                self._set_timeout_ms(max(1, round(wait_s * 1000)))
                 try:
                     self._res.read_raw()
                 except self._pyvisa_errors as exc:
@@ -283,7 +317,7 @@ class VisaTransport(Transport):
         finally:
             if self._res is not None:
                 try:
-                    self._res.timeout = original
+                    self._set_timeout_ms(max(1, round(self._timeout_s * 1000)))
                 except self._pyvisa_errors:
                     pass
         self._stale = False
@@ -301,7 +335,7 @@ class VisaTransport(Transport):
                     return ConnectionLost(f"{self._lost} (no reply to {command!r})", resource=self.resource)
                 self._stale = True
                 return InstrumentTimeout(
-                    f"no reply to {command!r} within {self._res.timeout / 1000:g} s", resource=self.resource
+                    f"no reply to {command!r} within {self._res_timeout_ms / 1000:g} s", resource=self.resource
                 )
             self._lose(_describe(exc))
             return ConnectionLost(f"{self._lost} (during {command!r})", resource=self.resource)
@@ -327,31 +361,33 @@ class VisaTransport(Transport):
 
     def _peer_state(self) -> str | None:
         """'closed', 'data' (bytes waiting), 'idle', or None when the backend hides its socket."""
-        sock, pending = self._socket()
-        flags = getattr(socket, "MSG_DONTWAIT", None)
-        if sock is None or flags is None:
+        sock = self._sock
+        if sock is None or _PEEK_FLAGS is None:
             return None
-        if pending:
+        if self._buffered():
             return "data"
         try:
-            data = sock.recv(1, socket.MSG_PEEK | flags)
+            data = sock.recv(1, _PEEK_FLAGS)
         except (BlockingIOError, InterruptedError):
             return "idle"
         except OSError:
             return "closed"
         return "data" if data else "closed"
 
-    def _socket(self) -> tuple[socket.socket | None, bool]:
-        """The backend's socket and whether it already holds unread bytes (pyvisa-py SOCKET sessions only)."""
-        # pyvisa-py keeps the socket as `.interface` and bytes read past a terminator in `._pending_buffer`.
-        try:
-            session = self._res.visalib.sessions[self._res.session]
-        except Exception:
-            return None, False
-        sock = getattr(session, "interface", None)
-        if not isinstance(sock, socket.socket):
-            return None, False
-        return sock, bool(getattr(session, "_pending_buffer", b""))
+
+def _backend_socket(res: Any) -> tuple[Any, socket.socket | None]:
+    """pyvisa-py's session object and its socket (SOCKET sessions only), looked up once per open.
+
+    pyvisa-py keeps the socket as `.interface` and bytes read past a terminator in `._pending_buffer`.
+    """
+    try:
+        session = res.visalib.sessions[res.session]
+    except Exception:  # another backend: no socket to look at
+        return None, None
+    sock = getattr(session, "interface", None)
+    if not isinstance(sock, socket.socket):
+        return None, None
+    return session, sock
 
 
 def _describe(exc: BaseException) -> str:

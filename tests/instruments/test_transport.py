@@ -271,3 +271,50 @@ def test_interrupt_during_a_read_does_not_shift_the_next_reply(peer_factory):
         assert t.query("NEXT?") == "reply-to-NEXT?"
         time.sleep(0.3)
         assert t.query("THEN?") == "reply-to-THEN?"
+
+
+def test_unasked_line_read_with_the_reply_is_drained_without_a_pause(peer_factory):
+    # both lines arrive in one segment, so pyvisa-py holds the second one: no quiet spell is needed
+    peer = peer_factory(lambda line: b"first\nsecond\n" if line == "TWICE?" else f"reply-to-{line}\n".encode())
+    with VisaTransport(peer.resource, timeout_s=0.5) as t:
+        assert t.query("TWICE?") == "first"
+        assert t.query("NEXT?") == "reply-to-NEXT?"
+        assert t.query("THEN?") == "reply-to-THEN?"
+
+
+class _PeekCounter:
+    """Wraps the transport's socket and counts the non-blocking peeks (everything else passes through)."""
+
+    def __init__(self, sock: socket.socket) -> None:
+        self.sock, self.peeks = sock, 0
+
+    def recv(self, size: int, flags: int = 0) -> bytes:
+        if flags & socket.MSG_PEEK:
+            self.peeks += 1
+        return self.sock.recv(size, flags)
+
+    def __getattr__(self, name):
+        return getattr(self.sock, name)
+
+
+def test_the_socket_is_peeked_only_after_a_quiet_spell(peer_factory):
+    peer = peer_factory(echo_number)
+    with VisaTransport(peer.resource, timeout_s=0.5) as t:
+        counter = t._sock = _PeekCounter(t._sock)
+        for _ in range(50):  # back to back: a closed link would show as a reset or a timeout, no peek needed
+            t.write("VOLT 1")
+            assert t.query("ABC?") == "4"
+        assert counter.peeks == 0
+        time.sleep(0.1)  # longer than IDLE_CHECK_S: the peer may have closed or spoken meanwhile
+        assert t.query("ABC?") == "4"
+        assert counter.peeks == 1
+
+
+def test_peer_closing_right_after_a_write_is_connection_lost_on_the_next_query(peer_factory):
+    peer = peer_factory(lambda line: "close" if line == "QUIT" else b"1\n")
+    with VisaTransport(peer.resource, timeout_s=0.5) as t:
+        t.write("QUIT")
+        with pytest.raises(ConnectionLost):  # no quiet spell: found by the failed exchange itself
+            t.query("A?")
+        with pytest.raises(ConnectionLost):
+            t.write("OUTP OFF")
