@@ -7,6 +7,12 @@ least_squares then refines (n, ln Is, Rs) — ln Is, because Is spans decades.
 Type A covariance: s²·(JᵀWJ)⁻¹ with s² = Σw·e²/(n−3), the same as
 scipy.optimize.curve_fit with absolute_sigma=False.
 
+Weights: the current is a reading too, and on the steep part of the curve a
+small current error is a large drop error; W holds the effective variances
+u(V)² + (dV/dI·u(I))² with dV/dI = n·Vt/(I + Is) + Rs at the current estimate,
+refitted until the weights settle (Orear 1982, `effective_variance`). Points
+whose current or drop is not resolved from zero stay in the result with zero weight.
+
 Type B: each meter error (gain and offset of drop and current, `fit_result`)
 is a fixed shift δV_i of the data; its effect on the parameters is the least-
 squares projection δp = (JᵀWJ)⁻¹JᵀW·δV (linearised, GUM 5.1.3). That gives,
@@ -28,6 +34,14 @@ from .fit_result import (
     budgets_to_dicts,
     externally_studentised,
     outlier_flags,
+)
+from .effective_variance import (
+    MAX_ITERATIONS,
+    PointUncertainty,
+    describe,
+    point_uncertainty,
+    unresolved_points,
+    weights_converged,
 )
 from .uncertainty import Component, MeasurementAccuracy, combine
 
@@ -57,6 +71,63 @@ def _start(i: np.ndarray, v: np.ndarray, sqrt_w: np.ndarray | None, vt: float) -
     return np.array([a / vt, -b / a, c])
 
 
+def _solve(i: np.ndarray, v: np.ndarray, w: np.ndarray | None, vt: float, p0: np.ndarray | None = None):
+    """One weighted nonlinear least squares of the diode law at fixed weights."""
+    sw = None if w is None else np.sqrt(w)
+    if p0 is None:
+        p0 = _start(i, v, sw, vt)
+
+    def residual(p):
+        r = Shockley(p[0], p[1], p[2], vt).value(i) - v
+        return r if sw is None else r * sw
+
+    def jac(p):
+        j = Shockley(p[0], p[1], p[2], vt).gradient(i)
+        return j if sw is None else j * sw[:, None]
+
+    # Bounds only keep a hopeless fit (data with no exponential region) from overflowing;
+    # on a real diode they are far from the answer and inactive.
+    lo = np.array([0.05, -300.0, -np.inf])
+    hi = np.array([100.0, math.log(float(np.max(i))) + 30.0, np.inf])
+    p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
+    with np.errstate(over="ignore", invalid="ignore"):
+        sol = optimize.least_squares(residual, p0, jac=jac, bounds=(lo, hi), method="trf",
+                                     x_scale="jac", xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=400)
+    if sol.status <= 0 or not np.all(np.isfinite(sol.x)):
+        raise FitError(f"the diode fit did not converge ({sol.message})")
+    curve = Shockley(float(sol.x[0]), float(sol.x[1]), float(sol.x[2]), vt)
+    jw = jac(sol.x)
+    e = v - curve.value(i)
+    dof = i.size - 3
+    ew = e if sw is None else e * sw
+    s2 = float(ew @ ew) / dof
+    try:
+        jtj_inv = np.linalg.inv(jw.T @ jw)
+    except np.linalg.LinAlgError as exc:
+        raise FitError("the diode parameters are not separable on these points") from exc
+    lev = np.einsum("ij,jk,ik->i", jw, jtj_inv, jw)
+    return curve, e, dof, s2, jtj_inv, lev, jw, sol.x
+
+
+def _solve_weighted(i: np.ndarray, v: np.ndarray, pu: PointUncertainty, vt: float):
+    """The diode law with effective-variance weights at its own slope n·Vt/(I + Is) + Rs, iterated
+    (Orear 1982): returns the last solve, its weights, the iteration count and whether it converged."""
+    w = pu.drop_weights()
+    out = _solve(i, v, w, vt)
+    if not pu.errors_in_current:
+        return out, w, 0, True
+    for iteration in range(1, MAX_ITERATIONS + 1):
+        new = pu.weights(out[0].slope(i))
+        if new is None:
+            return out, w, iteration, False
+        done = weights_converged(w, new)
+        w = new
+        out = _solve(i, v, w, vt, out[7])
+        if done:
+            return out, w, iteration, True
+    return out, w, MAX_ITERATIONS, False
+
+
 def fit_diode(
     current_a,
     drop_v,
@@ -64,12 +135,22 @@ def fit_diode(
     accuracy: MeasurementAccuracy | None = None,
     *,
     u_drop_v=None,
+    u_current_a=None,
     offset_removed: bool = False,
     exclude_outliers: bool = False,
     point_index=None,
+    unresolved=None,
     reason: str = "diode model asked for",
 ) -> FitResult:
-    """Fit the diode law to the points with I > 0; `params` = {ideality, i_s_a, r_s_ohm}."""
+    """Fit the diode law to the points with I > 0; `params` = {ideality, i_s_a, r_s_ohm}.
+
+    Weights: with a u(I) (`u_current_a`, or the current meter's spec in
+    `accuracy`) the effective variance u(V)² + (dV/dI·u(I))², iterated with the
+    fitted curve's slope (`effective_variance`); else 1/u_drop_v² when given;
+    else equal. Points whose current is within 2·u(I) of zero, or whose drop is
+    not resolved above zero, are unresolved: kept in the result, zero weight
+    (`unresolved`, aligned with the input, overrides the rule with a given mask).
+    """
     i_all = np.asarray(current_a, dtype=float).ravel()
     v_all = np.asarray(drop_v, dtype=float).ravel()
     if i_all.shape != v_all.shape:
@@ -79,85 +160,59 @@ def fit_diode(
     if temperature_c is None or not math.isfinite(float(temperature_c)):
         raise FitError("the diode law needs the temperature")
     idx_all = np.arange(i_all.size) if point_index is None else np.asarray(point_index)
+    pu_all = point_uncertainty(i_all, v_all, accuracy, u_drop_v, u_current_a, offset_removed=offset_removed,
+                               error=FitError)
     keep = i_all > 0
     notes = []
     if not keep.all():
-        notes.append(f"{int((~keep).sum())} point(s) at I <= 0 left out: ln I is undefined there")
-    i, v, idx = i_all[keep], v_all[keep], idx_all[keep]
-    w = None
-    if u_drop_v is not None:
-        u = np.broadcast_to(np.asarray(u_drop_v, dtype=float), i_all.shape)[keep]
-        if not np.all(np.isfinite(u)) or np.any(u <= 0):
-            raise FitError("every point's standard uncertainty must be finite and > 0")
-        w = 1.0 / (u * u)
-    if i.size < 4:
-        raise FitError(f"{i.size} points at I > 0; the diode law with its scatter needs at least 4")
-    if float(np.max(i)) <= float(np.min(i)) * (1.0 + 1e-9):
+        shown = ", ".join(str(int(k)) for k in idx_all[~keep][:10]) + (", ..." if (~keep).sum() > 10 else "")
+        notes.append(f"{int((~keep).sum())} point(s) at I <= 0 left out (points {shown}): ln I is undefined there")
+    i, v, idx, pu = i_all[keep], v_all[keep], idx_all[keep], pu_all.subset(keep)
+    if unresolved is None:
+        unres = unresolved_points(i, v, pu, conduction=True)
+    else:
+        unres = np.asarray(unresolved, dtype=bool).ravel()
+        if unres.shape != i_all.shape:
+            raise FitError(f"the unresolved mask has {unres.size} entries for {i_all.size} points")
+        unres = unres[keep]
+    used = ~unres
+    some_unresolved = bool(unres.any())
+    iu, vu, puu = (i[used], v[used], pu.subset(used)) if some_unresolved else (i, v, pu)
+    if iu.size < 4:
+        raise FitError(f"{iu.size} resolved point(s) at I > 0; the diode law with its scatter needs at least 4")
+    if float(np.max(iu)) <= float(np.min(iu)) * (1.0 + 1e-9):
         raise FitError("the current does not vary: the diode law cannot be fitted")
     vt = thermal_voltage_v(temperature_c)
 
-    def solve(i, v, w):
-        sw = None if w is None else np.sqrt(w)
-        p0 = _start(i, v, sw, vt)
-
-        def residual(p):
-            r = Shockley(p[0], p[1], p[2], vt).value(i) - v
-            return r if sw is None else r * sw
-
-        def jac(p):
-            j = Shockley(p[0], p[1], p[2], vt).gradient(i)
-            return j if sw is None else j * sw[:, None]
-
-        # Bounds only keep a hopeless fit (data with no exponential region) from overflowing;
-        # on a real diode they are far from the answer and inactive.
-        lo = np.array([0.05, -300.0, -np.inf])
-        hi = np.array([100.0, math.log(float(np.max(i))) + 30.0, np.inf])
-        p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
-        with np.errstate(over="ignore", invalid="ignore"):
-            sol = optimize.least_squares(residual, p0, jac=jac, bounds=(lo, hi), method="trf",
-                                         x_scale="jac", xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=400)
-        if sol.status <= 0 or not np.all(np.isfinite(sol.x)):
-            raise FitError(f"the diode fit did not converge ({sol.message})")
-        curve = Shockley(float(sol.x[0]), float(sol.x[1]), float(sol.x[2]), vt)
-        jw = jac(sol.x)
-        e = v - curve.value(i)
-        dof = i.size - 3
-        ew = e if sw is None else e * sw
-        s2 = float(ew @ ew) / dof
-        try:
-            jtj_inv = np.linalg.inv(jw.T @ jw)
-        except np.linalg.LinAlgError as exc:
-            raise FitError("the diode parameters are not separable on these points") from exc
-        lev = np.einsum("ij,jk,ik->i", jw, jtj_inv, jw)
-        return curve, e, dof, s2, jtj_inv, lev, jw
-
-    curve, e, dof, s2, jtj_inv, lev, jw = solve(i, v, w)
-    flags = outlier_flags(externally_studentised(e, lev, w, dof), dof)
-    excluded = None
-    if exclude_outliers and flags.any():
-        keep2 = ~flags
-        curve, _, dof, s2, jtj_inv, _, _ = solve(i[keep2], v[keep2], None if w is None else w[keep2])
-        jw = curve.gradient(i) if w is None else curve.gradient(i) * np.sqrt(w)[:, None]
-        jw = jw[keep2]
-        e = v - curve.value(i)
-        excluded = flags.copy()
-        notes.append(f"refitted without {int(flags.sum())} outlier(s), as asked")
-    elif flags.any():
-        notes.append(f"{int(flags.sum())} outlier(s) flagged and kept in the fit")
+    (curve, e_u, dof, s2, jtj_inv, lev, jw, _), w, iterations, converged = _solve_weighted(iu, vu, puu, vt)
+    flags_u = outlier_flags(externally_studentised(e_u, lev, w, dof), dof)
+    fit_rows = np.ones(iu.size, dtype=bool)  # rows of the used points that carry weight in the final fit
+    if exclude_outliers and flags_u.any():
+        fit_rows = ~flags_u
+        (curve, _, dof, s2, jtj_inv, _, jw, _), w_keep, it2, converged = _solve_weighted(
+            iu[fit_rows], vu[fit_rows], puu.subset(fit_rows), vt)
+        iterations += it2
+        if w_keep is not None:
+            w = np.zeros(iu.size)
+            w[fit_rows] = w_keep
+        notes.append(f"refitted without {int(flags_u.sum())} outlier(s), as asked")
+    elif flags_u.any():
+        notes.append(f"{int(flags_u.sum())} outlier(s) flagged and kept in the fit")
+    if pu.errors_in_current:
+        notes += describe(int(unres.sum()), iterations, converged, idx[unres])
     cov = s2 * jtj_inv
 
     # Type B: project each meter error's shift of the data onto the parameters.
-    used = slice(None) if excluded is None else ~excluded
-    iu = i[used]
-    sw_u = None if w is None else np.sqrt(w[used])
+    iw = iu[fit_rows]
+    sw_u = None if w is None else np.sqrt(w[fit_rows])
     shifts: list[tuple[str, np.ndarray]] = []
     if accuracy is not None and accuracy.drop is not None:
-        shifts.append(("drop meter gain", curve.value(iu) * accuracy.drop.gain_u))
+        shifts.append(("drop meter gain", curve.value(iw) * accuracy.drop.gain_u))
         if not offset_removed:
-            shifts.append(("drop meter offset", np.full(iu.size, accuracy.drop.offset_u)))
+            shifts.append(("drop meter offset", np.full(iw.size, accuracy.drop.offset_u)))
     if accuracy is not None and accuracy.current is not None:
-        slope = curve.slope(iu)
-        shifts.append(("current meter gain", slope * iu * accuracy.current.gain_u))
+        slope = curve.slope(iw)
+        shifts.append(("current meter gain", slope * iw * accuracy.current.gain_u))
         shifts.append(("current meter offset", slope * accuracy.current.offset_u))
     if not shifts:
         notes.append("no accuracy spec: type B omitted, uncertainty is type A only")
@@ -175,8 +230,23 @@ def fit_diode(
         comps += [Component(name, "B", factor * abs(float(dp[k]))) for name, dp in projected]
         budgets[key] = combine(comps)
     std_u, expanded = budgets_to_dicts(budgets)
-    if i_s >= float(np.max(i)):
+    if i_s >= float(np.max(iu)):
         notes.append("fitted Is exceeds the largest current: no exponential region in the data")
+
+    # Everything aligned with the points at I > 0, unresolved ones included.
+    e = v - curve.value(i)
+    flags = np.zeros(i.size, dtype=bool)
+    flags[used] = flags_u
+    excluded = None
+    if some_unresolved or not fit_rows.all():
+        excluded = unres.copy()
+        excluded[np.flatnonzero(used)[~fit_rows]] = True
+    weights = None
+    if w is not None:
+        weights = np.zeros(i.size)
+        weights[used] = w
+        if excluded is not None:
+            weights[excluded] = 0.0
     return FitResult(
         model="diode",
         params={"ideality": n, "i_s_a": i_s, "r_s_ohm": rs},
@@ -197,4 +267,6 @@ def fit_diode(
         accuracy=accuracy,
         offset_removed=offset_removed,
         excluded=excluded,
+        unresolved=unres if some_unresolved else None,
+        weights=weights,
     )

@@ -8,6 +8,11 @@ meters' errors enter the line (see `fit_result`):
   - a drop-meter gain g_V scales every reading, so it scales R: u_rel(R) = u(g_V);
   - a current-meter gain g_I reads I·(1+g_I), so R appears as R/(1+g_I): u_rel(R) = u(g_I);
   - both offsets shift the line up or down and are taken up by V0: they do not touch R.
+Errors in the current enter the weights as the effective variance u(V)² + R²·u(I)²
+(Orear 1982, `effective_variance`); from a meter spec, whose offsets are one number
+for the sweep, those weights are equal and the fit stays the ordinary least
+squares. Points whose current is within 2·u(I) of zero are flagged unresolved and
+carry no weight.
 """
 
 from __future__ import annotations
@@ -24,23 +29,26 @@ from .fit_result import (
     budgets_to_dicts,
     externally_studentised,
 )
+from .effective_variance import (
+    MAX_ITERATIONS,
+    PointUncertainty,
+    describe,
+    point_uncertainty,
+    unresolved_points,
+    weights_converged,
+)
 from .uncertainty import Component, MeasurementAccuracy, combine
 
 
-def _as_arrays(current_a, drop_v, u_drop_v):
+def _as_arrays(current_a, drop_v, u_drop_v, accuracy=None, u_current_a=None, offset_removed=False):
     x = np.asarray(current_a, dtype=float).ravel()
     y = np.asarray(drop_v, dtype=float).ravel()
     if x.shape != y.shape:
         raise FitError(f"current and drop differ in length ({x.size} vs {y.size})")
-    w = None
-    if u_drop_v is not None:
-        u = np.broadcast_to(np.asarray(u_drop_v, dtype=float), x.shape)
-        if not np.all(np.isfinite(u)) or np.any(u <= 0):
-            raise FitError("every point's standard uncertainty must be finite and > 0")
-        w = 1.0 / (u * u)
     if not (np.isfinite(x).all() and np.isfinite(y).all()):
         raise FitError("current and drop must be finite (drop overloads before fitting)")
-    return x, y, w
+    pu = point_uncertainty(x, y, accuracy, u_drop_v, u_current_a, offset_removed=offset_removed, error=FitError)
+    return x, y, pu
 
 
 class _LineSolution:
@@ -124,9 +132,31 @@ class _LineSolution:
 
 def studentised_residuals(current_a, drop_v, u_drop_v=None) -> np.ndarray:
     """Externally studentised residuals of the straight-line fit, for every point (reports, tests)."""
-    x, y, w = _as_arrays(current_a, drop_v, u_drop_v)
+    x, y, pu = _as_arrays(current_a, drop_v, u_drop_v)
+    w = pu.drop_weights()
     sol = _LineSolution(x, y, w)
     return externally_studentised(sol.res, sol.leverage(), w, sol.dof)
+
+
+def _solve_line(x: np.ndarray, y: np.ndarray, pu: PointUncertainty) -> tuple[_LineSolution, np.ndarray | None, int, bool]:
+    """The weighted line with effective-variance weights at its own slope, iterated to a fixed point."""
+    w = pu.drop_weights()
+    if not pu.errors_in_current:
+        return _LineSolution(x, y, w), w, 0, True
+    if pu.equal_weights:
+        # u_eff the same at every point whatever the slope (the spec's offsets): equal weights, no iteration
+        return _LineSolution(x, y, None), None, 0, True
+    sol = _LineSolution(x, y, w)
+    for iteration in range(1, MAX_ITERATIONS + 1):
+        new = pu.weights(sol.slope)
+        if new is None:  # no u(V) and a zero slope: u_eff is 0 everywhere, i.e. equal weights
+            return (sol, w, iteration, True) if w is None else (_LineSolution(x, y, None), None, iteration, True)
+        done = weights_converged(w, new)
+        w = new
+        sol = _LineSolution(x, y, w)
+        if done:
+            return sol, w, iteration, True
+    return sol, w, MAX_ITERATIONS, False
 
 
 def _line_fit(
@@ -134,7 +164,7 @@ def _line_fit(
     names: tuple[str, str],
     x: np.ndarray,
     y: np.ndarray,
-    w: np.ndarray | None,
+    pu: PointUncertainty,
     accuracy: MeasurementAccuracy | None,
     *,
     offset_removed: bool,
@@ -143,18 +173,34 @@ def _line_fit(
     temperature_c,
     notes: tuple[str, ...],
     reason: str,
+    unresolved: np.ndarray | None = None,
 ) -> FitResult:
-    sol = _LineSolution(x, y, w)
-    flags = sol.outliers()
-    excluded = None
+    index = np.arange(x.size) if point_index is None else np.asarray(point_index)
+    if unresolved is None:
+        unresolved = unresolved_points(x, y, pu, conduction=False)
+    unresolved = np.asarray(unresolved, dtype=bool)
+    some_unresolved = bool(unresolved.any())
+    used = ~unresolved
+    xs, ys, pus = (x[used], y[used], pu.subset(used)) if some_unresolved else (x, y, pu)
+    if xs.size < 3:
+        raise FitError(f"{xs.size} point(s) with a resolved current; a line with its scatter needs at least 3")
+    sol, w, iterations, converged = _solve_line(xs, ys, pus)
+    flags_used = sol.outliers()
+    excluded_used = None
     notes = list(notes)
-    if exclude_outliers and flags.any():
-        keep = ~flags
-        sol = _LineSolution(x[keep], y[keep], None if w is None else w[keep])
-        excluded = flags.copy()
-        notes.append(f"refitted without {int(flags.sum())} outlier(s), as asked")
-    elif flags.any():
-        notes.append(f"{int(flags.sum())} outlier(s) flagged and kept in the fit")
+    if exclude_outliers and flags_used.any():
+        keep = ~flags_used
+        sol, w_keep, it2, converged = _solve_line(xs[keep], ys[keep], pus.subset(keep))
+        iterations += it2
+        if w is not None and w_keep is not None:
+            w = np.zeros_like(w)
+            w[keep] = w_keep
+        excluded_used = flags_used.copy()
+        notes.append(f"refitted without {int(flags_used.sum())} outlier(s), as asked")
+    elif flags_used.any():
+        notes.append(f"{int(flags_used.sum())} outlier(s) flagged and kept in the fit")
+    if pu.errors_in_current:
+        notes += describe(int(unresolved.sum()), iterations, converged, index[unresolved], weighted=w is not None)
     v0, r = sol.intercept, sol.slope
     u_v0_a, u_r_a = math.sqrt(sol.cov[0, 0]), math.sqrt(sol.cov[1, 1])
     r_comps = [Component("fit residuals", "A", u_r_a, float(sol.dof))]
@@ -173,7 +219,15 @@ def _line_fit(
     budgets = {r_name: combine(r_comps), v0_name: combine(v0_comps)}
     std_u, expanded = budgets_to_dicts(budgets)
     line = Line(v0, r)
-    residuals = sol.res if excluded is None else y - line.value(x)
+    if not some_unresolved and excluded_used is None:
+        residuals, flags, excluded, weights = sol.res, flags_used, None, w
+    else:
+        residuals = y - line.value(x)
+        flags = _spread(flags_used, used, False)
+        excluded = unresolved | _spread(excluded_used, used, False) if excluded_used is not None else unresolved
+        weights = None if w is None else _spread(w, used, 0.0)
+        if weights is not None and excluded_used is not None:
+            weights[excluded] = 0.0
     return FitResult(
         model=model,
         params={r_name: r, v0_name: v0},
@@ -187,14 +241,25 @@ def _line_fit(
         temperature_c=temperature_c,
         current_a=x,
         drop_v=y,
-        point_index=np.arange(x.size) if point_index is None else np.asarray(point_index),
+        point_index=index,
         curve=line,
         covariance=sol.cov,
         dof=sol.dof,
         accuracy=accuracy,
         offset_removed=offset_removed,
         excluded=excluded,
+        unresolved=unresolved if some_unresolved else None,
+        weights=weights,
     )
+
+
+def _spread(values: np.ndarray | None, rows: np.ndarray, fill):
+    """Values of the used rows put back among all rows (`fill` elsewhere)."""
+    if values is None:
+        values = np.zeros(int(rows.sum()), dtype=bool)
+    out = np.full(rows.shape, fill, dtype=np.asarray(values).dtype)
+    out[rows] = values
+    return out
 
 
 def fit_resistive(
@@ -203,23 +268,29 @@ def fit_resistive(
     accuracy: MeasurementAccuracy | None = None,
     *,
     u_drop_v=None,
+    u_current_a=None,
     offset_removed: bool = False,
     exclude_outliers: bool = False,
     point_index=None,
     temperature_c: float | None = None,
+    unresolved=None,
     reason: str = "resistive model asked for",
 ) -> FitResult:
     """Fit V = V0 + R·I (a MOSFET channel, a resistor); `params` = {r_on_ohm, v0_v}.
 
-    `u_drop_v` (scalar or per point) sets the weights 1/u²; without it the points
-    weigh alike, which is optimal when every reading has the same noise.
+    Weights: with a u(I) (`u_current_a`, or the current meter's spec in `accuracy`)
+    the effective variance u(V)² + R²·u(I)², iterated with the fitted R
+    (`effective_variance`); else 1/u_drop_v² when given; else equal, which is
+    the ordinary least squares. Points with |I| ≤ 2·u(I) are flagged unresolved
+    and get zero weight (`unresolved` overrides the rule with a given mask).
     `offset_removed` says the zero-current offset was subtracted beforehand.
     """
-    x, y, w = _as_arrays(current_a, drop_v, u_drop_v)
+    x, y, pu = _as_arrays(current_a, drop_v, u_drop_v, accuracy, u_current_a, offset_removed)
     return _line_fit(
-        "resistive", ("v0_v", "r_on_ohm"), x, y, w, accuracy,
+        "resistive", ("v0_v", "r_on_ohm"), x, y, pu, accuracy,
         offset_removed=offset_removed, exclude_outliers=exclude_outliers,
         point_index=point_index, temperature_c=temperature_c, notes=(), reason=reason,
+        unresolved=unresolved,
     )
 
 
@@ -230,6 +301,7 @@ def fit_knee(
     *,
     above_a: float | None = None,
     u_drop_v=None,
+    u_current_a=None,
     offset_removed: bool = False,
     exclude_outliers: bool = False,
     point_index=None,
@@ -241,9 +313,11 @@ def fit_knee(
     The line stands for the diode over its operating range only, so only points
     with I ≥ `above_a` enter; by default the upper half of the measured currents
     (I ≥ I_max/2), where ln I changes by less than ln 2 and a line is a fair
-    stand-in (common practice for the piecewise-linear diode model).
+    stand-in (common practice for the piecewise-linear diode model). Weights as
+    in `fit_resistive`, with r_d as the slope; a junction's drop must be resolved
+    above zero too.
     """
-    x, y, w = _as_arrays(current_a, drop_v, u_drop_v)
+    x, y, pu = _as_arrays(current_a, drop_v, u_drop_v, accuracy, u_current_a, offset_removed)
     if x.size == 0:
         raise FitError("no points")
     limit = 0.5 * float(np.max(x)) if above_a is None else float(above_a)
@@ -251,7 +325,8 @@ def fit_knee(
     idx = np.arange(x.size) if point_index is None else np.asarray(point_index)
     note = f"knee line over {int(keep.sum())} point(s) with I >= {limit:.6g} A"
     return _line_fit(
-        "knee", ("v_knee_v", "r_d_ohm"), x[keep], y[keep], None if w is None else w[keep], accuracy,
+        "knee", ("v_knee_v", "r_d_ohm"), x[keep], y[keep], pu.subset(keep), accuracy,
         offset_removed=offset_removed, exclude_outliers=exclude_outliers,
         point_index=idx[keep], temperature_c=temperature_c, notes=(note,), reason=reason,
+        unresolved=unresolved_points(x[keep], y[keep], pu.subset(keep), conduction=True),
     )

@@ -104,8 +104,9 @@ class FitResult:
 
     `params` / `std_u` / `expanded_u` use SI-suffixed keys (`r_on_ohm`, `v0_v` |
     `ideality`, `i_s_a`, `r_s_ohm` | `v_knee_v`, `r_d_ohm`); `budgets` holds the
-    GUM budget behind each. `residuals_v` and `outliers` are aligned with
-    `current_a` / `drop_v` / `point_index` (the points the fit used).
+    GUM budget behind each. `residuals_v`, `outliers`, `unresolved`, `excluded`
+    and `weights` are aligned with `current_a` / `drop_v` / `point_index` (the
+    points given to the fit; `excluded` marks those with zero weight in it).
     """
 
     model: str
@@ -129,11 +130,25 @@ class FitResult:
     k: float = 2.0
     outlier_rule: str = OUTLIER_RULE
     criterion: dict[str, float] = field(default_factory=dict)  # AICc per candidate, when chosen automatically
-    excluded: np.ndarray | None = None  # points left out of the refit (only when asked to)
+    excluded: np.ndarray | None = None  # zero weight: unresolved points, and outliers when asked to refit without
+    unresolved: np.ndarray | None = None  # current (or a junction's drop) not resolved from zero (effective_variance)
+    weights: np.ndarray | None = None  # the fit's weights 1/u_eff² (None: equal weights)
 
     @property
     def points(self) -> int:
         return int(self.current_a.size)
+
+    @property
+    def points_used(self) -> int:
+        """Points with weight in the fit (the others are unresolved or excluded outliers)."""
+        return self.points if self.excluded is None else int(self.points - np.count_nonzero(self.excluded))
+
+    @property
+    def unresolved_index(self) -> np.ndarray:
+        """Run indices of the unresolved points."""
+        if self.unresolved is None:
+            return np.zeros(0, dtype=int)
+        return np.asarray(self.point_index)[self.unresolved]
 
     def drop_budget_at(self, current_a: float) -> Budget:
         """The GUM budget of the drop at a true current (see the module docstring)."""

@@ -12,6 +12,13 @@ the simpler, resistive model is kept unless the caller breaks the tie (`fit_run`
 uses the element kind recorded in the run); a diode fit whose Is exceeds the largest
 current (no exponential region) or with an ideality outside 0.5–10 is refused
 as unphysical.
+
+With errors in the current each model weighs the points by its own effective
+variance u_eff,i² = u(V)² + (f'(I)·u(I))² (`effective_variance`), so the
+weights no longer cancel between the models: the Gaussian log-likelihood with
+an unknown scale, −2 ln L = N·ln(RSS_w/N) + Σ ln u_eff,i² + const, keeps its
+Σ ln u_eff,i² term. Both are scored on the same points: those neither model
+calls unresolved (the junction's rule, drop resolved above zero, included).
 """
 
 from __future__ import annotations
@@ -22,6 +29,7 @@ import numpy as np
 
 from .fit_diode import fit_diode
 from .fit_resistive import fit_resistive
+from .effective_variance import point_uncertainty, unresolved_points
 from .fit_result import FitError, FitResult
 from .uncertainty import MeasurementAccuracy
 
@@ -44,6 +52,15 @@ def aicc(residuals_v: np.ndarray, parameters: int, weights=None) -> float:
     return n * math.log(rss / n) + 2 * k + 2 * k * (k + 1) / (n - k - 1)
 
 
+def _score(fit: FitResult, parameters: int, used: np.ndarray, varying_weights: bool) -> float:
+    """AICc of `fit` on the `used` points; with weights of its own, plus Σ ln u_eff² (module docstring)."""
+    w = None if fit.weights is None else fit.weights[used]
+    score = aicc(fit.residuals_v[used], parameters, w)
+    if varying_weights and w is not None:
+        score -= float(np.sum(np.log(w)))
+    return score
+
+
 def fit_auto(
     current_a,
     drop_v,
@@ -51,6 +68,7 @@ def fit_auto(
     accuracy: MeasurementAccuracy | None = None,
     *,
     u_drop_v=None,
+    u_current_a=None,
     offset_removed: bool = False,
     exclude_outliers: bool = False,
     point_index=None,
@@ -65,17 +83,26 @@ def fit_auto(
     """
     i_all = np.asarray(current_a, dtype=float).ravel()
     v_all = np.asarray(drop_v, dtype=float).ravel()
-    common = dict(u_drop_v=u_drop_v, offset_removed=offset_removed, exclude_outliers=exclude_outliers,
-                  point_index=point_index)
-    u_all = None if u_drop_v is None else np.broadcast_to(np.asarray(u_drop_v, float), i_all.shape)
+    common = dict(u_drop_v=u_drop_v, u_current_a=u_current_a, offset_removed=offset_removed,
+                  exclude_outliers=exclude_outliers, point_index=point_index)
+    if i_all.shape != v_all.shape:
+        raise FitError(f"current and drop differ in length ({i_all.size} vs {v_all.size})")
+    if not (np.isfinite(i_all).all() and np.isfinite(v_all).all()):
+        raise FitError("current and drop must be finite (drop overloads before fitting)")
+    pu_all = point_uncertainty(i_all, v_all, accuracy, u_drop_v, u_current_a, offset_removed=offset_removed,
+                               error=FitError)
     # Both models are scored on the points with I > 0; a long run is scored on an even
     # stride of them (the choice needs the shape, not a million points), then refitted in full.
     positive = np.flatnonzero(i_all > 0)
     stride = max(1, -(-positive.size // CHOICE_POINTS))
     rows = positive[::stride]
-    i, v = i_all[rows], v_all[rows]
-    u_rows = None if u_all is None else u_all[rows]
-    w = None if u_rows is None else 1.0 / (u_rows * u_rows)
+    i, v, pu = i_all[rows], v_all[rows], pu_all.subset(rows)
+    unresolved = unresolved_points(i, v, pu, conduction=True)
+    used = ~unresolved
+    varying = pu.errors_in_current
+    choice = dict(u_drop_v=None if u_drop_v is None else pu.u_drop_v,
+                  u_current_a=None if u_current_a is None else pu.u_current_a,
+                  offset_removed=offset_removed, unresolved=unresolved)
     scores: dict[str, float] = {}
     why_not_diode = ""
     diode = None
@@ -83,19 +110,19 @@ def fit_auto(
         why_not_diode = "no temperature recorded, the diode law cannot be evaluated"
     else:
         try:
-            diode = fit_diode(i, v, temperature_c, None, u_drop_v=u_rows)
+            diode = fit_diode(i, v, temperature_c, accuracy, **choice)
         except FitError as exc:
             why_not_diode = f"diode fit failed: {exc}"
-    line = fit_resistive(i, v, None, u_drop_v=u_rows)
-    scores["resistive"] = aicc(line.residuals_v, 2, w)
+    line = fit_resistive(i, v, accuracy, **choice)
+    scores["resistive"] = _score(line, 2, used, varying)
     if diode is not None:
-        scores["diode"] = aicc(diode.residuals_v, 3, w)
+        scores["diode"] = _score(diode, 3, used, varying)
         n_fit, i_s = diode.params["ideality"], diode.params["i_s_a"]
         if i_s >= float(np.max(i)):
             why_not_diode = f"the diode fit's Is = {i_s:.3g} A exceeds the largest current: no exponential region"
         elif not IDEALITY_RANGE[0] <= n_fit <= IDEALITY_RANGE[1]:
             why_not_diode = f"the diode fit's ideality {n_fit:.3g} is outside {IDEALITY_RANGE[0]}–{IDEALITY_RANGE[1]}"
-    where = f"{rows.size} points" if stride == 1 else f"{rows.size} of {positive.size} points (every {stride}th)"
+    where = f"{int(used.sum())} points" if stride == 1 else f"{int(used.sum())} of {positive.size} points (every {stride}th)"
     head = f"AICc on {where}: resistive {scores['resistive']:.1f}"
     if "diode" in scores:
         head += f", diode {scores['diode']:.1f}"

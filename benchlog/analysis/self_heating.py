@@ -9,7 +9,8 @@ offset are common to every point, so only type A counts here):
      excess drop grows as R·α·θ·P·I for a resistance (∝ I³: the apparent R rises
      with I²) and as (dV/dT)·θ·P for a diode. The residuals are regressed on that
      shape after removing what the fitted model can already absorb (Frisch–Waugh–
-     Lovell), and the slope is t-tested (scipy.stats.t).
+     Lovell), and the slope is t-tested (scipy.stats.t); with the fit's weights
+     when it has them (weighted least squares, as the fit itself).
 For the trend the sign must be the heating sign — R_DS(on) rises with
 temperature, Vf falls (common practice); a significant bend of the other sign is
 reported as a poor model, not as heating. Up and down passes that disagree are
@@ -156,8 +157,13 @@ def _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco, alpha, found, q
         return
     power = i * v
     z = power * i if resistive else power
-    # projection on the model's own directions by scaled normal equations (p <= 3 columns, cheap at 1e6 points)
     basis = fit.curve.gradient(i)
+    if fit.weights is not None:
+        # the regression in the fit's own metric (its weights, e.g. the effective variance), so points
+        # the fit trusts little do not swamp the test
+        sw = np.sqrt(fit.weights[keep])
+        e, z, basis = e * sw, z * sw, basis * sw[:, None]
+    # projection on the model's own directions by scaled normal equations (p <= 3 columns, cheap at 1e6 points)
     norms = np.sqrt(np.einsum("ij,ij->j", basis, basis))
     norms[norms == 0] = 1.0
     scaled = basis / norms

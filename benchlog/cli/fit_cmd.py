@@ -87,6 +87,8 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
             "trend_p": heating.trend_p,
         },
         "points": fit.points,
+        "points_used": fit.points_used,
+        "unresolved": [int(x) for x in fit.unresolved_index],
         "temperature_c": fit.temperature_c,
         "notes": list(fit.notes),
         "drop_at": [],
@@ -102,6 +104,8 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
                         point_index=fit.point_index)
         payload["knee"] = {"params": dict(knee.params), "std_u": dict(knee.std_u),
                            "expanded_u": dict(knee.expanded_u), "points": knee.points,
+                           "points_used": knee.points_used,
+                           "unresolved": [int(x) for x in knee.unresolved_index],
                            "above_a": float(knee.current_a.min())}
     return payload
 
@@ -119,12 +123,16 @@ def _value(key: str, value: float, u: float | None = None, expanded: float | Non
 
 
 def print_human(payload: dict[str, Any]) -> None:
-    print(f"{payload['run']}: {payload['model']} fit of {payload['points']} points")
+    used = payload["points_used"]
+    of = f"{payload['points']} points" + ("" if used == payload["points"] else f" ({used} with weight)")
+    print(f"{payload['run']}: {payload['model']} fit of {of}")
     for key, value in payload["params"].items():
         print("  " + _value(key, value, payload["std_u"][key], payload["expanded_u"][key]))
     print(f"  model: {payload['reason']}")
     outliers = payload["outliers"]
     print(f"  outliers: {', '.join(map(str, outliers)) if outliers else 'none'} ({payload['outlier_rule']})")
+    if payload["unresolved"]:
+        print(f"  unresolved (zero weight): {', '.join(map(str, payload['unresolved']))}")
     heating = payload["self_heating"]
     print(f"  self-heating: {'yes' if heating['detected'] else 'no'} - {heating['reason']}")
     for row in payload["drop_at"]:
