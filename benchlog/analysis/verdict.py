@@ -7,6 +7,17 @@ guarded acceptance / guarded rejection), U = k·u with k = 2:
   lower limit L:  pass if x − U ≥ L;  fail if x + U < L;  otherwise conditional.
 A value exactly on an acceptance limit is accepted; the zone between the
 acceptance and rejection limits is reported as conditional, never rounded off.
+
+Extrapolation rule (ours, for `check_run`): the measured drop at the operating
+current comes from the fit, and a fit's uncertainty holds only where it has
+points. An operating current outside the currents the fit was made on (the
+points with weight in it) is an extrapolation and the verdict says so. Up to
+EXTRAPOLATION_MARGIN (10 %) beyond the range — above the largest current, or
+below the smallest — the outcome stands; further out a `pass` becomes
+`conditional` (the model may not hold there: self-heating, a bend the sweep
+never saw), and the reason is stated. `fail` and `conditional` stand, named as
+extrapolated. A run that did not finish as planned (no end record, or an end
+other than "complete") is named in the notes; its points are judged as they are.
 """
 
 from __future__ import annotations
@@ -22,6 +33,9 @@ from .predict import OperatingPoint, Prediction, predict
 from .spec import PartSpec
 
 OUTCOMES = ("pass", "fail", "conditional")
+
+#: How far beyond the fitted current range a value may still pass (module docstring): 10 %.
+EXTRAPOLATION_MARGIN = 0.10
 
 
 def rule_text(side: str, k: float) -> str:
@@ -45,15 +59,17 @@ class Verdict:
     limit: float | None  # None when no limit could be computed (the outcome is then conditional)
     side: str  # "upper" | "lower"
     limit_source: str
+    caveat: str = ""  # what else decided or qualifies the outcome (e.g. an extrapolated value)
 
     def explain(self) -> str:
+        caveat = f" {self.caveat}" if self.caveat else ""
         if self.limit is None:
-            return f"{self.outcome}: no limit for {self.quantity} ({self.limit_source})"
+            return f"{self.outcome}: no limit for {self.quantity} ({self.limit_source}).{caveat}"
         op = "≤" if self.side == "upper" else "≥"
         return (
             f"{self.outcome}: {self.quantity} = {self.measured:.6g} ± {self.expanded_u:.3g} (k = {self.k:g}) "
             f"against {'maximum' if self.side == 'upper' else 'minimum'} {self.limit:.6g} "
-            f"[{self.limit_source}]; needed x {'+' if self.side == 'upper' else '−'} U {op} limit to pass. "
+            f"[{self.limit_source}]; needed x {'+' if self.side == 'upper' else '−'} U {op} limit to pass.{caveat} "
             f"Rule: {self.rule}"
         )
 
@@ -130,10 +146,91 @@ class Check:
     drop_verdict: Verdict
     typical_comparison: str
     notes: tuple[str, ...]
+    extrapolation: "Extrapolation | None" = None  # the operating current against the fitted current range
+    run_complete: bool = True  # the run has its end record and ended "complete"
+    run_outcome: str = "complete"
 
     @property
     def outcome(self) -> str:
         return self.verdict.outcome
+
+
+@dataclass(frozen=True)
+class Extrapolation:
+    """Where the operating current sits against the currents the fit has points at."""
+
+    current_a: float
+    fitted_min_a: float
+    fitted_max_a: float
+    margin: float = EXTRAPOLATION_MARGIN
+
+    @property
+    def side(self) -> str:
+        """"above" or "below" the fitted range, "" inside it."""
+        if self.current_a > self.fitted_max_a:
+            return "above"
+        if self.current_a < self.fitted_min_a:
+            return "below"
+        return ""
+
+    @property
+    def beyond(self) -> float:
+        """How far outside, as a fraction of the nearer end of the range (0 inside)."""
+        if self.side == "above":
+            return self.current_a / self.fitted_max_a - 1.0
+        if self.side == "below":
+            return 1.0 - self.current_a / self.fitted_min_a
+        return 0.0
+
+    @property
+    def bars_pass(self) -> bool:
+        return self.beyond > self.margin
+
+    def text(self) -> str:
+        if not self.side:
+            return ""
+        end = "largest" if self.side == "above" else "smallest"
+        ref = self.fitted_max_a if self.side == "above" else self.fitted_min_a
+        text = (f"extrapolated: {self.current_a:.4g} A is {self.beyond * 100:.2g} % {self.side} the {end} "
+                f"fitted current {ref:.4g} A (fitted range {self.fitted_min_a:.4g}–{self.fitted_max_a:.4g} A)")
+        if self.bars_pass:
+            text += f"; more than {self.margin * 100:g} % outside, so at best conditional"
+        else:
+            text += f"; within the {self.margin * 100:g} % margin, outcome kept"
+        return text
+
+
+def extrapolation(fit, current_a: float) -> Extrapolation:
+    """The operating current against the currents with weight in `fit` (unresolved points do not count)."""
+    i = np.asarray(fit.current_a, dtype=float)
+    if fit.excluded is not None:
+        i = i[~fit.excluded]
+    return Extrapolation(float(current_a), float(i.min()), float(i.max()))
+
+
+def _extrapolated(v: Verdict, ext: Extrapolation) -> Verdict:
+    """Apply the extrapolation rule (module docstring) to one verdict."""
+    if not ext.side:
+        return v
+    why = ext.text()
+    if ext.bars_pass and v.outcome == "pass":
+        return replace(v, outcome="conditional", caveat=f"Would pass by the guard band, but the value is {why}.")
+    return replace(v, caveat=f"The value is {why}.")
+
+
+def run_state(meta) -> tuple[bool, str, str]:
+    """(finished as planned, outcome, a note when it did not)."""
+    outcome = str(getattr(meta, "outcome", "complete") or "complete")
+    has_end = bool(getattr(meta, "complete", True))
+    if not has_end:
+        return False, outcome, ("the run is incomplete: no end record (the recording stopped early); "
+                                "the verdict rests on the points recorded")
+    if outcome != "complete":
+        finished = getattr(meta, "finished", None)
+        message = getattr(finished, "message", "") if finished is not None else ""
+        return False, outcome, (f"the run ended '{outcome}'" + (f" ({message})" if message else "")
+                                + ", not as planned; the verdict rests on the points recorded")
+    return True, outcome, ""
 
 
 def _number(value) -> float | None:
@@ -255,7 +352,11 @@ def _verdict_or_none(value, u, limit, k, quantity, source) -> Verdict:
 
 
 def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
-    """Judge a loaded run against `spec`: measured loss and drop at the operating current vs the prediction."""
+    """Judge a loaded run against `spec`: measured loss and drop at the operating current vs the prediction.
+
+    The guard-band rule decides; an extrapolated operating current and an unfinished run are
+    named in the verdict and the notes, and extrapolation far outside bars a pass (module docstring).
+    """
     from .fits import fit_run  # the fit layer is imported late: a spec-only user never needs it
 
     cond = run_conditions(frame, meta, spec, at_a)
@@ -265,16 +366,19 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
     # The current is where the curve is evaluated, not a reading: u(P) = I·u(V).
     loss, u_loss = drop * cond.current_a, u_drop * cond.current_a
     env = limit_envelope(spec, cond.current_a, cond.ambient_c, cond.vin_v, cond.zener_v)
-    verdict = _verdict_or_none(loss, k * u_loss, env.loss_w, k, "loss_w", env.source)
-    drop_verdict = _verdict_or_none(drop, k * u_drop, env.drop_v, k, "drop_v", env.source)
-    notes = list(cond.notes) + list(env.heated.notes) + list(fit.notes)
+    ext = extrapolation(fit, cond.current_a)
+    verdict = _extrapolated(_verdict_or_none(loss, k * u_loss, env.loss_w, k, "loss_w", env.source), ext)
+    drop_verdict = _extrapolated(_verdict_or_none(drop, k * u_drop, env.drop_v, k, "drop_v", env.source), ext)
+    complete, run_outcome, run_note = run_state(meta)
+    notes = [n for n in (run_note, ext.text()) if n]
+    notes += list(cond.notes) + list(env.heated.notes) + list(fit.notes)
     return Check(
         part=spec.name, run=str(getattr(meta, "path", "")), current_a=cond.current_a,
         current_source=cond.current_source, ambient_c=cond.ambient_c, model=fit.model,
         measured_drop_v=drop, drop_std_u_v=u_drop, measured_loss_w=loss, loss_std_u_w=u_loss, k=k,
         predicted=env.heated, unheated=env.cold, verdict=verdict, drop_verdict=drop_verdict,
         typical_comparison=typical_comparison(loss, k * u_loss, env.heated.typical, env.cold.typical),
-        notes=tuple(dict.fromkeys(notes)),
+        notes=tuple(dict.fromkeys(notes)), extrapolation=ext, run_complete=complete, run_outcome=run_outcome,
     )
 
 

@@ -127,7 +127,17 @@ def _estimate(args) -> int:
 # --------------------------------------------------------------------------- check
 def _verdict(v) -> dict[str, Any]:
     return {"outcome": v.outcome, "quantity": v.quantity, "measured": v.measured, "expanded_u": v.expanded_u,
-            "k": v.k, "limit": v.limit, "side": v.side, "limit_source": v.limit_source, "rule": v.rule}
+            "k": v.k, "limit": v.limit, "side": v.side, "limit_source": v.limit_source, "rule": v.rule,
+            "caveat": v.caveat}
+
+
+def _extrapolation(c) -> dict[str, Any]:
+    e = c.extrapolation
+    if e is None:
+        return {"extrapolated": False}
+    return {"extrapolated": bool(e.side), "side": e.side or None, "beyond_fraction": e.beyond,
+            "margin_fraction": e.margin, "bars_pass": bool(e.side) and e.bars_pass,
+            "fitted_min_a": e.fitted_min_a, "fitted_max_a": e.fitted_max_a}
 
 
 def check_entry(c) -> dict[str, Any]:
@@ -148,6 +158,9 @@ def check_entry(c) -> dict[str, Any]:
         "limit_loss_w": c.verdict.limit, "limit_drop_v": c.drop_verdict.limit,
         "limit_source": c.verdict.limit_source, "rule": c.verdict.rule,
         "drop_verdict": c.drop_verdict.outcome,
+        "caveat": c.verdict.caveat,
+        "extrapolation": _extrapolation(c),
+        "run_complete": c.run_complete, "run_outcome": c.run_outcome,
         "typical_comparison": c.typical_comparison,
         "explanation": c.verdict.explain(),
         "iterations": p.iterations, "converged": p.converged, "runaway": p.runaway, "conduction": p.conduction,
@@ -169,6 +182,9 @@ def _check(args) -> int:
     else:
         print(f"{c.outcome.upper()}  {c.part}, run {c.run}")
         print(f"  at {c.current_a:.4g} A ({c.current_source}), ambient {c.ambient_c:g} °C, fit: {c.model}")
+        flagged = [n for n in c.notes if n.startswith(("extrapolated:", "the run is incomplete", "the run ended"))]
+        for note in flagged:  # what qualifies the verdict comes first, not among the notes
+            print(f"  ! {note}")
         print(f"  measured drop {c.measured_drop_v:.6g} V ± {c.k * c.drop_std_u_v:.2g} V, "
               f"loss {c.measured_loss_w:.6g} W ± {c.k * c.loss_std_u_w:.2g} W (k = {c.k:g})")
         print(f"  limit {_fmt(c.verdict.limit, '.6g', 'W')}: {c.verdict.limit_source}")
@@ -177,7 +193,8 @@ def _check(args) -> int:
         print(f"  {c.typical_comparison}")
         print(f"  rule: {c.verdict.rule}")
         for note in c.notes:
-            print(f"  note: {note}")
+            if note not in flagged:
+                print(f"  note: {note}")
     return EXIT_CODES[c.outcome]
 
 

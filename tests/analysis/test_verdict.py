@@ -58,10 +58,11 @@ def test_nonsense_is_bad_input(args):
 
 
 # --------------------------------------------------------------------------- check_run
-def sweep(r_ohm, noise_v=20e-6, n=21, seed=1, operating_a=None, kind="pmos"):
+def sweep(r_ohm, noise_v=20e-6, n=21, seed=1, operating_a=None, kind="pmos", top_a=3.0, complete=True,
+          outcome="complete"):
     """Invented demo data: a resistive drop with meter noise (dependency injection of a loaded run)."""
     rng = np.random.default_rng(seed)
-    current = np.linspace(0.1, 3.0, n)
+    current = np.linspace(0.1, top_a, n)
     drop = r_ohm * current + rng.normal(0.0, noise_v, n)
     frame = pd.DataFrame({"index": np.arange(n), "t_s": np.arange(n, dtype=float), "setpoint_a": current,
                           "current_a": current, "drop_v": drop, "supply_v": np.nan, "supply_mode": "CC",
@@ -70,7 +71,7 @@ def sweep(r_ohm, noise_v=20e-6, n=21, seed=1, operating_a=None, kind="pmos"):
     element = {"id": "U1", "kind": kind, "serial": "S1", "lot": "L1", "ambient_c": 25.0}
     plan = {"element": dict(element, operating_a=operating_a, gate="driven")}
     meta = SimpleNamespace(path="demo.run", header={"plan": plan, "element": element}, element=element,
-                           offset_v=None, outcome="complete", complete=True)
+                           offset_v=None, outcome=outcome, complete=complete, finished=None)
     return frame, meta
 
 
@@ -103,3 +104,51 @@ def test_check_default_current_is_largest_measured():
 def test_check_refuses_a_spec_of_another_kind():
     with pytest.raises(BadInput, match="kind"):
         check_run(*sweep(0.026), spec(RECT, "rect.toml"))
+
+
+# --------------------------------------------------------------------------- extrapolation and unfinished runs
+def test_an_operating_current_far_above_the_sweep_is_at_best_conditional():
+    # Sweep to 1.2 A, judged at 2 A: 67 % beyond the largest fitted current. The guard band alone would
+    # pass it (the same part passes at 2 A from a sweep to 3 A, above); the extrapolation rule bars that.
+    full = check_run(*sweep(0.026, operating_a=2.0), MOS)
+    short = check_run(*sweep(0.026, operating_a=2.0, top_a=1.2), MOS)
+    assert full.outcome == "pass" and not full.extrapolation.side
+    assert short.measured_loss_w == pytest.approx(full.measured_loss_w, rel=5e-3)
+    assert decide(short.measured_loss_w, short.verdict.expanded_u, short.verdict.limit).outcome == "pass"
+    assert short.outcome == "conditional" and short.drop_verdict.outcome == "conditional"
+    ext = short.extrapolation
+    assert ext.side == "above" and ext.fitted_max_a == pytest.approx(1.2)
+    assert ext.beyond == pytest.approx(2.0 / 1.2 - 1.0) and ext.bars_pass
+    assert "extrapolated" in short.verdict.explain() and "at best conditional" in short.verdict.caveat
+    assert any("extrapolated" in note for note in short.notes)
+
+
+def test_a_small_extrapolation_keeps_the_outcome_and_says_so():
+    # 1.3 A on a sweep to 1.2 A is 8.3 % beyond: within the 10 % margin
+    c = check_run(*sweep(0.026, top_a=1.2), MOS, at_a=1.3)
+    assert c.extrapolation.side == "above" and not c.extrapolation.bars_pass
+    assert c.outcome == "pass" and "extrapolated" in c.verdict.caveat
+    inside = check_run(*sweep(0.026, top_a=1.2), MOS, at_a=1.0)
+    assert inside.extrapolation.side == "" and inside.verdict.caveat == ""
+    assert not any("extrapolated" in note for note in inside.notes)
+
+
+def test_an_extrapolated_fail_stays_a_fail():
+    c = check_run(*sweep(0.045, top_a=1.2), MOS, at_a=2.0)
+    assert c.outcome == "fail" and "extrapolated" in c.verdict.caveat
+
+
+def test_below_the_smallest_fitted_current_is_an_extrapolation_too():
+    c = check_run(*sweep(0.026), MOS, at_a=0.05)  # the sweep starts at 0.1 A: 50 % below
+    assert c.extrapolation.side == "below" and c.extrapolation.bars_pass
+    assert c.outcome != "pass"
+
+
+def test_an_unfinished_run_is_named():
+    killed = check_run(*sweep(0.026, operating_a=2.0, complete=False, outcome="incomplete"), MOS)
+    assert killed.run_complete is False and killed.run_outcome == "incomplete"
+    assert any("incomplete" in note for note in killed.notes)
+    cancelled = check_run(*sweep(0.026, operating_a=2.0, outcome="cancelled"), MOS)
+    assert cancelled.run_complete is False and any("'cancelled'" in note for note in cancelled.notes)
+    whole = check_run(*sweep(0.026, operating_a=2.0), MOS)
+    assert whole.run_complete is True and not any("incomplete" in note for note in whole.notes)

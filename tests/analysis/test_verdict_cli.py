@@ -119,3 +119,20 @@ def test_bad_input_is_one_line_and_exit_2(argv):
 def test_wrong_kind_spec_is_bad_input(runs):
     code, _, err = cli("check", runs["proto"], "--spec", RECT)
     assert code == 2 and err.count("\n") == 1 and "kind" in err
+
+
+def test_check_of_the_killed_sample_run_at_2_a_is_extrapolated_and_incomplete():
+    # sample_runs/pmos-killed.run: SIGKILLed after 12 of 30 points, the last at 1.22 A; 2 A is 63 % beyond
+    run = Path(benchlog.__file__).parents[1] / "sample_runs" / "pmos-killed.run"
+    code, out, _ = cli("check", run, "--spec", PFET, "--at", 2, "--json")
+    c = json.loads(out)
+    assert c["verdict"] == "conditional" and code == 3
+    assert c["run_complete"] is False and c["run_outcome"] == "incomplete"
+    assert c["extrapolation"]["extrapolated"] is True and c["extrapolation"]["side"] == "above"
+    assert c["extrapolation"]["fitted_max_a"] == pytest.approx(1.2233, abs=1e-3)
+    assert c["extrapolation"]["bars_pass"] is True and "extrapolated" in c["caveat"]
+    # the guard band alone would have passed it: the rule, not the numbers, made it conditional
+    assert decide(c["measured_loss_w"], c["expanded_u"]["measured_loss_w"], c["limit_loss_w"]).outcome == "pass"
+    code, text, _ = cli("check", run, "--spec", PFET, "--at", 2)
+    assert code == 3 and text.startswith("CONDITIONAL")
+    assert "extrapolated" in text and "incomplete" in text
