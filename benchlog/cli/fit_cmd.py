@@ -122,6 +122,11 @@ def _value(key: str, value: float, u: float | None = None, expanded: float | Non
     return text
 
 
+def _in_print_order(params: dict[str, float], first: tuple[str, ...]) -> list[str]:
+    """`first` in that order (those present), then the rest as they come: V = V_knee + r_d·I reads left to right."""
+    return [k for k in first if k in params] + [k for k in params if k not in first]
+
+
 def print_human(payload: dict[str, Any]) -> None:
     used = payload["points_used"]
     of = f"{payload['points']} points" + ("" if used == payload["points"] else f" ({used} with weight)")
@@ -141,8 +146,8 @@ def print_human(payload: dict[str, Any]) -> None:
     if "knee" in payload:
         knee = payload["knee"]
         print(f"  knee line above {knee['above_a']:.4g} A:")
-        for key, value in knee["params"].items():
-            print("    " + _value(key, value, knee["std_u"][key], knee["expanded_u"][key]))
+        for key in _in_print_order(knee["params"], ("v_knee_v", "r_d_ohm")):
+            print("    " + _value(key, knee["params"][key], knee["std_u"][key], knee["expanded_u"][key]))
     for note in payload["notes"]:
         print(f"  note: {note}")
 

@@ -137,6 +137,8 @@ def test_cli_diode_model_and_human_output(tmp_path, capsys):
     assert main(["fit", str(path)]) == 0
     text = capsys.readouterr().out
     assert "diode fit of 25 points" in text and "Is" in text and "knee line" in text
+    knee = text[text.index("knee line"):]
+    assert knee.index("V_knee") < knee.index("r_d")  # V = V_knee + r_d·I, in the order of the formula
 
 
 @pytest.mark.parametrize("content", ["", "not a run file\n", '{"record": "header"}\n'])
