@@ -149,17 +149,22 @@ class SweepRunner:
         """
         gen = self.events()
         pending: BaseException | None = None
-        while True:
-            try:
-                event = gen.throw(pending) if pending is not None else next(gen)
-            except StopIteration:
-                break
-            pending = None
-            if on_event is not None:
+        try:
+            while True:
                 try:
-                    on_event(event)
-                except KeyboardInterrupt as exc:
-                    pending = exc
+                    event = gen.throw(pending) if pending is not None else next(gen)
+                except StopIteration:
+                    break
+                pending = None
+                if on_event is not None:
+                    try:
+                        on_event(event)
+                    except KeyboardInterrupt as exc:
+                        pending = exc
+        finally:
+            # Any other failure of `on_event` (a closed pipe, a UI error) must not leave the
+            # sweep suspended inside the safe-state guard: closing it switches off now.
+            gen.close()
         return self.outcome or "fault"
 
     def events(self) -> Iterator[Event]:

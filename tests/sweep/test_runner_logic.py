@@ -293,6 +293,28 @@ def test_ctrl_c_in_the_consumer_records_cancel_then_propagates():
     assert writer.events[-1].points == 2
 
 
+def test_a_failing_consumer_switches_off_at_once_and_records_the_end():
+    # A closed stdout pipe or a UI error in on_event must not leave power on until garbage collection.
+    clock = FakeClock()
+    rig, bench = fake_rig(clock)
+    writer = ListWriter()
+    runner = SweepRunner(plan_of(), rig, clock=clock, sleep=clock.sleep, writer=writer)
+
+    def on_event(event):
+        if isinstance(event, Point) and event.index == 1:
+            raise BrokenPipeError(32, "Broken pipe")
+
+    try:
+        runner.run(on_event)
+    except BrokenPipeError as exc:
+        held = exc  # the traceback keeps run()'s frame, and so the event generator, alive
+        assert held.__traceback__ is not None
+        assert not bench.supply.output_on and bench.supply.safe_calls == 1
+        assert writer.events[-1].outcome == "cancelled" and writer.events[-1].points == 2
+    else:
+        pytest.fail("the consumer's error must propagate")
+
+
 def test_instrument_fault_stops_with_one_message():
     clock = FakeClock()
     rig, bench = fake_rig(clock)
