@@ -11,6 +11,7 @@ Each subcommand lives in its own module with a `register(subparsers)` function.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 
 from benchlog import __version__
@@ -62,6 +63,11 @@ def main(argv: list[str] | None = None) -> int:
     except BadInput as exc:
         sys.stderr.write(f"benchlog: {exc.line()}\n")
         return EXIT_BAD_INPUT
+    except BrokenPipeError:
+        # The reader of stdout went away (`benchlog fit RUN | head`); a sweep was closed safely by
+        # then. Point stdout at /dev/null so Python's own final flush does not print a traceback.
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return EXIT_FAILED
     except KeyboardInterrupt:
         sys.stderr.write("benchlog: interrupted; outputs were switched off\n")
         return EXIT_INTERRUPTED
