@@ -313,14 +313,46 @@ def open_rig(setup: BenchSetup, *, timeout_s: float | None = None) -> Rig:
     """Connect every role of the bench (no output is switched on); closes what it opened on failure."""
     from benchlog.instruments.connect import open_role
 
+    profiles = load_role_profiles(setup)  # every profile checked before any link is opened
     opened: dict[str, Any] = {}
     try:
         for name, spec in setup.roles.items():
-            role = "meter" if name == "current_meter" else name
-            opened[name] = open_role(role, spec.resource, spec.profile, backend=spec.backend, timeout_s=timeout_s)
+            role = _profile_role(name)
+            opened[name] = open_role(role, spec.resource, profiles[name], backend=spec.backend, timeout_s=timeout_s)
     except BaseException:
         Rig(setup, meter=None, **{k: v for k, v in opened.items() if k != "meter"}).close()
         if "meter" in opened:
             opened["meter"].close()
         raise
     return Rig(setup, **opened)
+
+
+def _profile_role(bench_role: str) -> str:
+    return "meter" if bench_role == "current_meter" else bench_role
+
+
+def load_role_profiles(setup: BenchSetup) -> dict[str, Any]:
+    """Load and check the profile of every role, so a bad profile is reported as such before connecting.
+
+    A profile name that matches no file is the bench file's fault and is reported at its key;
+    a broken profile file is reported at its own file and key.
+    """
+    from benchlog.badinput import BadInput
+    from benchlog.instruments.errors import ProfileError
+    from benchlog.instruments.profile import load_profile
+
+    profiles: dict[str, Any] = {}
+    for name, spec in setup.roles.items():
+        try:
+            profile = load_profile(spec.profile)
+        except ProfileError as exc:
+            if exc.source == "profile" and exc.where == spec.profile:  # no profile of that name
+                raise BadInput(setup.source or "bench", f"[{name}].profile", f"{exc.problem}: {spec.profile!r}",
+                               exc.expected) from None
+            raise
+        if profile.role != _profile_role(name):
+            raise BadInput(setup.source or "bench", f"[{name}].profile",
+                           f"{profile.name!r} is a {profile.role} profile",
+                           f"a profile whose role is {_profile_role(name)!r}")
+        profiles[name] = profile
+    return profiles

@@ -136,14 +136,8 @@ FILES += [
     ("bench/unknown-profile.toml", BENCH, ["[supply].profile", "no-such-profile"]),
 ]
 
-# Defects found by this corpus, left to the owners of benchlog/sweep and benchlog/cli/sim_cmd.py
-# (strict: the test starts passing, and so fails, once one is fixed; then move it into the tables).
-KNOWN_DEFECTS = {
-    "bench/unknown-profile.toml-sweep": "a profile name in a bench file is only looked up when the role is "
-    "opened: the line names neither the bench file nor [supply].profile",
-    "bench/broken-meter-profile.toml-sweep": "profiles are loaded role by role while connecting: with the supply "
-    "unreachable the user is told 'cannot open' (exit 1), not that the meter's profile is broken (exit 2)",
-}
+# Defects found by this corpus are recorded here as strict xfails until fixed (none open now).
+KNOWN_DEFECTS: dict[str, str] = {}
 FILES += [
     ("bench/broken-meter-profile.toml", BENCH, ["[link].timeout_s", "nan"]),
 ]
