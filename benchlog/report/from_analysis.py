@@ -57,10 +57,18 @@ def fit_curve(fit: FitResult, grid: np.ndarray) -> FitCurve:
 
 
 def residuals(fit: FitResult, label: str) -> Residuals:
-    """Residuals of the points the fit used, with the residual scatter s = √(Σe²/ν) as the ± line."""
-    e = np.asarray(fit.residuals_v, dtype=float)
+    """Residuals of the points the fit used, with the residual scatter s = √(Σe²/ν) as the ± line.
+
+    Points with no weight in the fit (current not resolved from zero) are left out of the plot and
+    of s: their residuals say nothing about the fit and would hide the scale of the others.
+    """
+    used = np.ones(len(fit.residuals_v), dtype=bool) if fit.excluded is None else ~np.asarray(fit.excluded, bool)
+    e = np.asarray(fit.residuals_v, dtype=float)[used]
     s = math.sqrt(float(e @ e) / fit.dof) if fit.dof > 0 else None
-    return Residuals(label, fit.current_a, e, fit.outliers, u_v=s, k=fit.k, u_label="residual scatter s")
+    outliers = None if fit.outliers is None else np.asarray(fit.outliers, bool)[used]
+    dropped = int(np.count_nonzero(~used))
+    label = f"{label} ({dropped} unweighted points not shown)" if dropped else label
+    return Residuals(label, np.asarray(fit.current_a)[used], e, outliers, u_v=s, k=fit.k, u_label="residual scatter s")
 
 
 def spec_curves(spec: PartSpec, grid: np.ndarray, ambient_c: float, vin_v: float | None,
