@@ -17,6 +17,7 @@ from textual.app import App
 from textual.binding import Binding
 from textual.message import Message
 
+from .collector import CollectorPolicy
 from .feed import EventFeed
 from .findings import MODELS, RunFindings, study_run
 from .liverun import LiveRun
@@ -152,9 +153,11 @@ class BenchApp(App):
         self._sweep_started_at: float | None = None
         self._generation = 0
         self.messages: list[str] = []  # every message shown, for tests and the help view's log
+        self._collector = CollectorPolicy()
 
     # -- modes ----------------------------------------------------------------
     def on_mount(self) -> None:
+        self._collector.start()
         self.set_interval(1.0 / REDRAW_HZ, self._pump)
         self.switch_mode(self._start_view)
         if self._probe_on_start:
@@ -448,6 +451,7 @@ class BenchApp(App):
     def on_unmount(self) -> None:
         if self.session is not None:
             self.session.cancel()
+        self._collector.stop()
 
 
 class ReplayEnded(Message):

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Sequence
 
+from rich.cells import cell_len
 from rich.style import Style
 from rich.text import Text
 from textual.widget import Widget
@@ -21,10 +22,29 @@ class Plain(Static):
         super().__init__(content, **kwargs)
 
     def update(self, content="", *, layout: bool = True) -> None:
-        """Show `content`; the same text again is no change, so a 15 Hz redraw costs no layout pass."""
-        if isinstance(content, str) and isinstance(self.content, str) and content == self.content:
-            return
+        """Show `content`; the same text again is no change, and text that keeps the widget's size
+        needs no layout pass (a layout re-arranges the whole screen; the live view updates ~15 times a second)."""
+        old = self.content
+        if isinstance(content, str) and isinstance(old, str):
+            if content == old:
+                return
+            if layout and self.is_mounted and not self._size_may_change(old, content):
+                layout = False
         super().update(content, layout=layout)
+
+    def _size_may_change(self, old: str, new: str) -> bool:
+        """True unless the new text surely takes the same cells: a fixed size, or an auto height
+        with the same number of lines and no line that wraps (old or new)."""
+        styles = self.styles
+        if styles.width is not None and styles.width.is_auto:
+            return True  # (unset width fills the container, whatever the text)
+        if styles.height is not None and not styles.height.is_auto:
+            return False
+        width = self.content_region.width
+        old_lines, new_lines = old.split("\n"), new.split("\n")
+        if width <= 0 or len(old_lines) != len(new_lines):
+            return True
+        return any(cell_len(line) > width for line in (*old_lines, *new_lines))
 
 
 def cells(*values: object) -> tuple[Text, ...]:
@@ -36,6 +56,7 @@ class KeyBar(Static):
     """Every key that works here, wrapped over as many lines as the width needs (textual's footer scrolls instead)."""
 
     DEFAULT_CSS = "KeyBar { height: auto; }"
+    _shown: tuple | None = None  # the text the bar shows and the size it was drawn at
 
     def on_mount(self) -> None:
         self.screen.bindings_updated_signal.subscribe(self, self._bindings_changed)
@@ -85,7 +106,19 @@ class KeyBar(Static):
             text.append(f" {key} ", key_style)
             text.append(f"{description} ", current_style if here else text_style)
             line_len += piece_len
-        self.update(text)
+        lines = text.plain.count("\n") + 1
+        max_height = self.styles.max_height
+        wanted = min(lines, int(max_height.value)) if max_height is not None and max_height.is_cells else lines
+        drawn = (text, self.size)
+        if drawn == self._shown and self.size.height >= wanted:
+            return  # the bindings signal fires on every cursor move; the same keys, laid out, need no redraw
+        lines_before = self._shown[0].plain.count("\n") + 1 if self._shown else -1
+        self._shown = drawn
+        if lines != lines_before or self.size.height < wanted:
+            self.clear_cached_dimensions()  # `Static.update` keeps the auto height measured for the old text
+            self.update(text)
+        else:
+            self.update(text, layout=False)  # each line is cut to the width: the same lines take the same cells
 
     COMPONENT_CLASSES = {"keybar--key", "keybar--text", "keybar--current"}
 
