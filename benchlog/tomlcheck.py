@@ -18,8 +18,8 @@ from benchlog.badinput import BadInput
 _MISSING = object()
 
 
-def load_toml(path: str | Path) -> "Table":
-    """Parse a TOML file into its root `Table`; unreadable or malformed files raise `BadInput`."""
+def read_utf8(path: str | Path) -> tuple[str, bytes]:
+    """The text of one of our files and its raw bytes (for content hashes); faults raise `BadInput`."""
     path = Path(path)
     try:
         raw = path.read_bytes()
@@ -28,9 +28,14 @@ def load_toml(path: str | Path) -> "Table":
     except OSError as exc:
         raise BadInput(path, "", f"cannot be read ({exc.strerror})", "a readable file") from None
     try:
-        text = raw.decode("utf-8")
+        return raw.decode("utf-8"), raw
     except UnicodeDecodeError as exc:
         raise BadInput(path, f"byte {exc.start}", "is not UTF-8 text", "a UTF-8 TOML file") from None
+
+
+def load_toml(path: str | Path) -> "Table":
+    """Parse a TOML file into its root `Table`; unreadable or malformed files raise `BadInput`."""
+    text, _raw = read_utf8(path)
     return parse_toml(text, str(path))
 
 

@@ -22,7 +22,7 @@ from typing import Mapping
 from benchlog.badinput import BadInput
 from benchlog.scpi.errors import ScpiError
 from benchlog.scpi.numbers import fill_template
-from benchlog.tomlcheck import Table, parse_toml
+from benchlog.tomlcheck import Table, parse_toml, read_utf8
 
 from .errors import ProfileError
 
@@ -233,15 +233,9 @@ def read_profile(path: str | Path) -> Profile:
     """Read and validate one profile file."""
     path = Path(path)
     try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise ProfileError(path, "", "file not found", "an existing profile file (.toml)") from None
-    except OSError as exc:
-        raise ProfileError(path, "", f"cannot be read ({exc.strerror})", "a readable file") from None
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError as exc:
-        raise ProfileError(path, f"byte {exc.start}", "is not UTF-8 text", "a UTF-8 TOML file") from None
+        text, raw = read_utf8(path)
+    except BadInput as exc:
+        raise ProfileError(exc.source, exc.where, exc.problem, exc.expected) from None
     return parse_profile(text, str(path), path=path, sha256=hashlib.sha256(raw).hexdigest())
 
 
