@@ -6,7 +6,7 @@ from benchlog.scpi.tree import CommandError, CommandTree, bool_param, choice_par
 
 from . import specs
 from .device import ScpiDevice, fmt
-from .specs import spec_for
+from .specs import draw_fixed_error, spec_for
 
 CURRENT = "[SOURce:]CURRent[:LEVel][:IMMediate][:AMPLitude]"
 
@@ -17,12 +17,9 @@ class LoadSim(ScpiDevice):
     def __init__(self, bench, role: str, serial: str) -> None:
         rng = bench.stream(f"{role}/errors")
 
-        def draw(spec):
-            return rng.uniform(-1, 1) * spec.reading_pct / 100.0, rng.uniform(-1, 1) * spec.range_pct / 100.0 * spec.range
-
-        self.program_a = draw(spec_for(specs.LOAD_PROGRAMMING, "program_current"))
-        self.readback_v = draw(spec_for(specs.LOAD_READBACK, "readback_voltage"))
-        self.readback_a = draw(spec_for(specs.LOAD_READBACK, "readback_current"))
+        self.program_a = draw_fixed_error(rng, spec_for(specs.LOAD_PROGRAMMING, "program_current"))
+        self.readback_v = draw_fixed_error(rng, spec_for(specs.LOAD_READBACK, "readback_voltage"))
+        self.readback_a = draw_fixed_error(rng, spec_for(specs.LOAD_READBACK, "readback_current"))
         self.noise = bench.stream(f"{role}/noise")
         super().__init__(bench, role, serial)
 

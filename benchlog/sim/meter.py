@@ -26,7 +26,7 @@ from benchlog.scpi.tree import CommandError, CommandTree, bool_param, choice_par
 
 from . import specs
 from .device import ScpiDevice, fmt
-from .specs import RangeSpec, range_for
+from .specs import RangeSpec, draw_fixed_error, range_for
 
 
 def integration_time_s(nplc: float, line_frequency_hz: float) -> float:
@@ -67,8 +67,7 @@ class MeterSim(ScpiDevice):
         self.offset = {}
         for function, table in FUNCTIONS.items():
             for spec in table:
-                self.gain[(function, spec.range)] = rng.uniform(-1, 1) * spec.reading_pct / 100.0
-                self.offset[(function, spec.range)] = rng.uniform(-1, 1) * spec.range_pct / 100.0 * spec.range
+                self.gain[(function, spec.range)], self.offset[(function, spec.range)] = draw_fixed_error(rng, spec)
         self.emf_v = rng.uniform(-1, 1) * specs.THERMAL_EMF_MAX_V
         self.noise = bench.stream(f"{role}/noise")
         super().__init__(bench, role, serial)

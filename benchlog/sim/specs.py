@@ -96,3 +96,11 @@ def range_for(specs: tuple[RangeSpec, ...], value: float) -> RangeSpec:
 
 def spec_for(specs: tuple[RangeSpec, ...], function: str) -> RangeSpec:
     return next(s for s in specs if s.function == function)
+
+
+def draw_fixed_error(rng, spec: RangeSpec) -> tuple[float, float]:
+    """A seeded (gain, offset) pair drawn uniformly within ±(reading_pct % of reading + range_pct % of range).
+
+    Uniform, so that the rectangular type-B treatment of the spec (GUM 4.3.7) is honest against the sim.
+    """
+    return rng.uniform(-1, 1) * spec.reading_pct / 100.0, rng.uniform(-1, 1) * spec.range_pct / 100.0 * spec.range

@@ -11,7 +11,7 @@ from benchlog.scpi.tree import CommandError, CommandTree, bool_param, choice_par
 
 from . import specs
 from .device import ScpiDevice, fmt
-from .specs import spec_for
+from .specs import draw_fixed_error, spec_for
 
 CV_BIT = 256
 CC_BIT = 1024
@@ -25,13 +25,10 @@ class SupplySim(ScpiDevice):
     def __init__(self, bench, role: str, serial: str) -> None:
         rng = bench.stream(f"{role}/errors")
 
-        def draw(spec):
-            return rng.uniform(-1, 1) * spec.reading_pct / 100.0, rng.uniform(-1, 1) * spec.range_pct / 100.0 * spec.range
-
-        self.program_v = draw(spec_for(specs.SUPPLY_PROGRAMMING, "program_voltage"))
-        self.program_a = draw(spec_for(specs.SUPPLY_PROGRAMMING, "program_current"))
-        self.readback_v = draw(spec_for(specs.SUPPLY_READBACK, "readback_voltage"))
-        self.readback_a = draw(spec_for(specs.SUPPLY_READBACK, "readback_current"))
+        self.program_v = draw_fixed_error(rng, spec_for(specs.SUPPLY_PROGRAMMING, "program_voltage"))
+        self.program_a = draw_fixed_error(rng, spec_for(specs.SUPPLY_PROGRAMMING, "program_current"))
+        self.readback_v = draw_fixed_error(rng, spec_for(specs.SUPPLY_READBACK, "readback_voltage"))
+        self.readback_a = draw_fixed_error(rng, spec_for(specs.SUPPLY_READBACK, "readback_current"))
         self.noise = bench.stream(f"{role}/noise")
         self.tripped = False
         super().__init__(bench, role, serial)
