@@ -1,6 +1,6 @@
 """Design review of an input-protection element: candidates side by side against the product's input, load and ambient.
 
-The design file is our own TOML (see `load_design`):
+The design file is our own TOML, read by `benchlog.specfiles.load_design` (analysis does no file I/O):
 
     name, application ("bench" | "industrial" | "automotive" | "mains" | "other"), note
     [input]    nominal_v, min_v (incl. cold-crank dips), max_v (incl. transients), reverse_v (optional)
@@ -19,13 +19,12 @@ to ground; the gate draws no DC current), at the input voltage Vin:
 from __future__ import annotations
 
 from dataclasses import dataclass
-from pathlib import Path
-
-from benchlog.tomlcheck import Table, load_toml
 
 from . import eseries
 from .predict import Prediction, predict, reverse_leakage
-from .spec import PartSpec, load_spec
+from benchlog.kinds import kind as element_kind
+
+from .spec import PartSpec
 from .thermal import solve_junction
 
 APPLICATIONS = ("bench", "industrial", "automotive", "mains", "other")
@@ -43,6 +42,11 @@ REMINDERS = {
         "codes govern; this review covers the low-voltage protection element only"
     ),
 }
+SWITCHED_GROUND = (
+    "{label}: an element in the return switches the board's ground, which then sits the drop above the "
+    "supply's return; any other path to ground (a shield or chassis bond, a grounded probe or interface) "
+    "bypasses the protection, so every return must pass through the element"
+)
 GENERAL_CAUTION = (
     "predictions come from datasheet values and simple models; confirm on the real board with a "
     "measurement before release"
@@ -91,78 +95,6 @@ class Design:
     margins: Margins
     candidates: tuple[Candidate, ...]
     path: str = ""
-
-
-def load_design(path: str | Path) -> Design:
-    """Read and validate a design file and every candidate's spec (errors name the file and key)."""
-    path = Path(path)
-    t = load_toml(path)
-    t.only(("name", "application", "note", "input", "load", "ambient", "clamp", "margins", "candidate"))
-    inp = t.table("input")
-    inp.only(("nominal_v", "min_v", "max_v", "reverse_v"))
-    nominal = inp.number("nominal_v", positive=True, max=1000.0, unit="V")
-    vmin = inp.number("min_v", positive=True, unit="V")
-    vmax = inp.number("max_v", positive=True, unit="V")
-    if not vmin <= nominal <= vmax:
-        raise inp.fail("nominal_v", f"is {nominal:g} V, outside min_v {vmin:g} V .. max_v {vmax:g} V",
-                       "min_v <= nominal_v <= max_v")
-    load = t.table("load")
-    load.only(("nominal_a", "max_a"))
-    i_nom = load.number("nominal_a", positive=True, unit="A")
-    i_max = load.number("max_a", i_nom, positive=True, unit="A")
-    if i_max < i_nom:
-        raise load.fail("max_a", f"is {i_max:g} A, below nominal_a {i_nom:g} A", "max_a >= nominal_a")
-    amb = t.table("ambient")
-    amb.only(("max_c",))
-    candidates = tuple(_candidate(c, path) for c in t.tables("candidate"))
-    if not candidates:
-        raise t.fail("candidate", "no [[candidate]] given", "one or more [[candidate]] tables with a spec path")
-    return Design(
-        name=t.string("name"), application=t.string("application", "other", choices=APPLICATIONS),
-        note=t.string("note", ""), vin_nominal_v=nominal, vin_min_v=vmin, vin_max_v=vmax,
-        reverse_v=inp.number("reverse_v", None, positive=True, unit="V"),
-        load_nominal_a=i_nom, load_max_a=i_max, ambient_max_c=amb.number("max_c", min=-60.0, max=200.0, unit="°C"),
-        clamp=_clamp(t.table("clamp", required=False)), margins=_margins(t.table("margins", required=False)),
-        candidates=candidates, path=str(path),
-    )
-
-
-def _candidate(c: Table, design_path: Path) -> Candidate:
-    c.only(("spec", "label"))
-    rel = c.string("spec")
-    spec_path = Path(rel) if Path(rel).is_absolute() else design_path.parent / rel
-    if not spec_path.is_file():
-        raise c.fail("spec", f"names {rel!r}, which is not a file (looked at {spec_path})",
-                     "a part spec path relative to the design file")
-    spec = load_spec(spec_path)
-    return Candidate(c.string("label", spec.name), spec)
-
-
-def _clamp(c: Table | None) -> ClampDesign | None:
-    if c is None:
-        return None
-    c.only(("zener_v", "zener_power_w", "resistor_ohm", "series", "target_current_a"))
-    return ClampDesign(
-        zener_v=c.number("zener_v", positive=True, max=100.0, unit="V"),
-        zener_power_w=c.number("zener_power_w", None, positive=True, unit="W"),
-        resistor_ohm=c.number("resistor_ohm", None, positive=True, unit="Ω"),
-        series=c.string("series", "E24", choices=tuple(eseries.SERIES)),
-        target_current_a=c.number("target_current_a", 5e-3, positive=True, max=1.0, unit="A"),
-    )
-
-
-def _margins(m: Table | None) -> Margins:
-    if m is None:
-        return Margins()
-    m.only(("voltage_derating", "tj_margin_k", "power_derating", "leakage_max_a", "threshold_margin_v"))
-    d = Margins()
-    return Margins(
-        voltage_derating=m.number("voltage_derating", d.voltage_derating, positive=True, max=1.0),
-        tj_margin_k=m.number("tj_margin_k", d.tj_margin_k, min=0.0, unit="K"),
-        power_derating=m.number("power_derating", d.power_derating, positive=True, max=1.0),
-        leakage_max_a=m.number("leakage_max_a", d.leakage_max_a, positive=True, unit="A"),
-        threshold_margin_v=m.number("threshold_margin_v", d.threshold_margin_v, min=0.0, unit="V"),
-    )
 
 
 # --------------------------------------------------------------------------- the gate clamp
@@ -272,7 +204,8 @@ class CandidateReview:
 
 def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None) -> CandidateReview:
     spec, m = cand.spec, design.margins
-    zener = clamp.zener_v if (clamp is not None and spec.is_mosfet) else None
+    has_gate = spec.element.has_gate
+    zener = clamp.zener_v if (clamp is not None and has_gate) else None
     ta = design.ambient_max_c
     nominal = predict(spec, design.load_nominal_a, ta, vin_v=design.vin_nominal_v, zener_v=zener)
     worst = predict(spec, design.load_max_a, ta, vin_v=design.vin_min_v, zener_v=zener)
@@ -296,10 +229,9 @@ def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None)
 
     # Blocking voltage: the element must stand off the highest input, and the reversed input.
     needed = max(design.vin_max_v, design.reverse_v or 0.0)
-    rating = spec.diode.vr_max_v if spec.diode else (spec.mosfet.vds_max_v if spec.mosfet else None)
-    rating_name = "VR" if spec.diode else "Vds"
+    rating, rating_name, _key = spec.part.blocking
     headroom = None
-    if spec.resistor is not None:
+    if not spec.element.blocks_reverse:
         checks.append(DesignCheck("blocking voltage", None, "a resistor does not block reverse polarity"))
     elif rating is None:
         checks.append(DesignCheck("blocking voltage", None, f"the spec gives no {rating_name} rating"))
@@ -312,9 +244,9 @@ def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None)
 
     # Gate: rating with and without the clamp, and the drive left at the lowest input.
     vgs_un = vgs_cl = vgs_max = thr_margin = None
-    min_mode = worst.conduction if spec.is_mosfet else None
-    if spec.is_mosfet:
-        mos = spec.mosfet
+    min_mode = worst.conduction if has_gate else None
+    if has_gate:
+        mos = spec.part
         vgs_max = mos.vgs_max_v
         at_max = predict(spec, design.load_nominal_a, ta, vin_v=design.vin_max_v)
         vgs_un = at_max.vgs_v
@@ -351,7 +283,7 @@ def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None)
 
     # Reverse leakage (and its own heating) at the reverse voltage and the maximum ambient.
     leak_a = rev_tj = None
-    if design.reverse_v is not None and spec.resistor is None:
+    if design.reverse_v is not None and spec.element.blocks_reverse:
         leak = reverse_leakage(spec, design.reverse_v, ta)
         if leak.current_a is None:
             checks.append(DesignCheck("reverse leakage", None, leak.note))
@@ -367,12 +299,11 @@ def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None)
                     "reverse leakage", leak_a <= m.leakage_max_a,
                     f"{leak_a * 1e6:.3g} µA at {design.reverse_v:g} V reversed, Tj {rev_tj:.1f} °C "
                     f"(wanted ≤ {m.leakage_max_a * 1e6:g} µA){'; ' + leak.note if leak.note else ''}"))
-    if spec.diode is not None and spec.diode.if_max_a is not None:
-        checks.append(DesignCheck("forward current rating", design.load_max_a <= spec.diode.if_max_a,
-                                  f"{design.load_max_a:g} A against IF rating {spec.diode.if_max_a:g} A"))
-    if spec.mosfet is not None and spec.mosfet.id_max_a is not None:
-        checks.append(DesignCheck("drain current rating", design.load_max_a <= spec.mosfet.id_max_a,
-                                  f"{design.load_max_a:g} A against ID rating {spec.mosfet.id_max_a:g} A"))
+    current_rating, check_name, symbol = spec.part.current_rating
+    if current_rating is not None:
+        checks.append(DesignCheck(check_name, design.load_max_a <= current_rating,
+                                  f"{design.load_max_a:g} A against {symbol} rating {current_rating:g} A"))
+
     return CandidateReview(
         label=cand.label, part=spec.name, kind=spec.kind, spec_path=spec.path,
         drop_v=nominal.drop_v, loss_w=nominal.loss_w, efficiency=efficiency,
@@ -418,7 +349,7 @@ def review(design: Design) -> DesignReview:
         if best.tj_margin_k is not None:
             reasons.append(f"Tj margin {best.tj_margin_k:.0f} K at {design.ambient_max_c:g} °C ambient")
         text = f"recommended: {best.label} ({best.part})"
-        if clamp is not None and best.kind in ("pmos", "nmos"):
+        if clamp is not None and element_kind(best.kind).has_gate:
             text += f", with the {clamp.zener_v:g} V zener and {clamp.resistor_ohm:g} Ω gate clamp"
         recommended = best.label
     else:
@@ -427,6 +358,9 @@ def review(design: Design) -> DesignReview:
         for r in rows:
             reasons.append(f"{r.label}: " + ("; ".join(f"{c.name} ({c.detail})" for c in r.failed) or "no loss result"))
     reminders = [REMINDERS[design.application]] if design.application in REMINDERS else []
+    for r in rows:
+        if element_kind(r.kind).switches_ground:
+            reminders.append(SWITCHED_GROUND.format(label=r.label))
     reminders.append(GENERAL_CAUTION)
     m = design.margins
     margins_note = (f"margins: voltage ratings used to {m.voltage_derating * 100:g} %, Tj ≥ {m.tj_margin_k:g} K below "
@@ -435,11 +369,7 @@ def review(design: Design) -> DesignReview:
     return DesignReview(design, rows, clamp, recommended, text, tuple(reasons), tuple(reminders), margins_note)
 
 
-def review_file(path: str | Path) -> DesignReview:
-    return review(load_design(path))
-
-
 __all__ = [
     "Design", "Margins", "ClampDesign", "Candidate", "ClampSizing", "DesignCheck", "CandidateReview",
-    "DesignReview", "load_design", "review", "review_file", "size_clamp", "clamp_currents", "suggest_zener_v",
+    "DesignReview", "review", "size_clamp", "clamp_currents", "suggest_zener_v",
 ]

@@ -13,6 +13,7 @@ import numpy as np
 import pandas as pd
 
 from benchlog.badinput import BadInput
+from benchlog.kinds import ELEMENT_KINDS, kind as element_kind
 
 from .fit_diode import fit_diode, shockley_drop_v, thermal_voltage_v
 from .fit_resistive import fit_knee, fit_resistive, studentised_residuals
@@ -42,9 +43,6 @@ __all__ = [
 ]
 
 MODELS = ("auto", "resistive", "diode", "knee")
-
-#: Element kinds whose forward drop is a junction: they break an AICc tie towards the diode law.
-DIODE_KINDS = ("rectifier", "schottky")
 
 #: Temperature taken when a run records none at all (common practice: the datasheet reference).
 DEFAULT_TEMPERATURE_C = 25.0
@@ -128,7 +126,8 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
             notes.append(t_note)
         else:
             kind = str((getattr(meta, "element", None) or {}).get("kind") or "")
-            tie = "diode" if kind in DIODE_KINDS else "resistive"
+            # A junction kind (the registry's conduction) breaks an AICc tie towards the diode law.
+            tie = element_kind(kind).tie_break() if kind in ELEMENT_KINDS else "resistive"
             why = f"the run records a {kind} element" if kind else ""
             fit = fit_auto(current, drop, temperature_c, accuracy, tie_break=tie, tie_why=why, **common)
             if fit.model == "diode":

@@ -16,7 +16,7 @@ any part fails; otherwise conditional.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Sequence
 
@@ -197,18 +197,12 @@ def summarize(
 # --------------------------------------------------------------------------- from run files
 def lot_quantity(spec: PartSpec, body_diode: bool = False) -> str:
     """Vf at the operating current for diodes (and a body diode measured on purpose), else R_on."""
-    return "drop_v" if spec.is_diode or body_diode else "r_on_ohm"
+    return spec.element.lot_quantity("body_diode" if body_diode else "channel")
 
 
 def _min_variant_spec(spec: PartSpec) -> PartSpec | None:
     """The spec with its minimum in the place of the maximum, so `predict` gives the lower limit."""
-    if spec.diode is not None and spec.diode.vf_min_v is not None:
-        return replace(spec, diode=replace(spec.diode, vf_max_v=spec.diode.vf_min_v))
-    if spec.mosfet is not None and spec.mosfet.rds_on_min_ohm is not None:
-        return replace(spec, mosfet=replace(spec.mosfet, rds_on_max_ohm=spec.mosfet.rds_on_min_ohm, vgs_th_max_v=None))
-    if spec.resistor is not None and spec.resistor.resistance_min_ohm is not None:
-        return replace(spec, resistor=replace(spec.resistor, resistance_max_ohm=spec.resistor.resistance_min_ohm))
-    return None
+    return spec.min_as_max()
 
 
 def lot_limits(

@@ -12,9 +12,10 @@ Models, each a textbook form scaled through the one datasheet point we have:
   further fall is credited (also cautious). R_DS(on)(Tj) follows the spec's
   tempco or normalised curve. Loss = I²·R_DS(on), with the body diode in
   parallel (it takes over below threshold);
-- P-MOSFET with gate to ground (N-MOSFET with gate to the input in the
-  return path alike): |Vgs| = Vin − drop, clamped at the zener voltage when
-  the design has one;
+- P-MOSFET in the supply line with its gate to ground, and N-MOSFET in the
+  return with its gate to the input (Kirchhoff's voltage law gives both the
+  same magnitude): |Vgs| = Vin − drop, clamped at the zener voltage when the
+  design has one;
 - resistor: R(Tj) = R0·(1 + α(Tj − T0)).
 The junction temperature comes from `thermal.solve_junction`.
 """
@@ -105,7 +106,7 @@ class Prediction:
 
 # --------------------------------------------------------------------------- diodes
 def _diode_params(spec: PartSpec, notes: list[str]) -> tuple[float, float]:
-    d = spec.diode
+    d = spec.part
     n = d.ideality
     if n is None:
         n, why = DEFAULT_IDEALITY[spec.kind]
@@ -280,8 +281,8 @@ def predict(
         drop_at = _drop_function(spec, variant, current_a, vin_v, zener_v, notes)
         solution = solve_junction(lambda t: current_a * drop_at(t)[0], ambient_c, spec.thermal.rth_ja_k_per_w)
         points[variant] = _operating_point(spec, variant, current_a, solution, drop_at)
-    if vin_v is None and spec.is_mosfet:
-        notes.append(f"no input voltage given: gate taken as driven at {spec.mosfet.rds_on_vgs_v:g} V (the spec's rds_on_vgs_v)")
+    if vin_v is None and spec.element.has_gate:
+        notes.append(f"no input voltage given: gate taken as driven at {spec.part.rds_on_vgs_v:g} V (the spec's rds_on_vgs_v)")
     if not spec.has_max:
         notes.append("the spec gives no maximum; only the typical prediction exists")
     return Prediction(
@@ -296,25 +297,35 @@ DropAt = Callable[[float], tuple[float, str, float | None, float | None, float |
 
 
 def _drop_function(spec, variant, current_a, vin_v, zener_v, notes) -> DropAt:
-    if spec.diode is not None:
-        n, tc = _diode_params(spec, notes)
-        ref = spec.diode.vf_max_v if variant == "max" else spec.diode.vf_v
-        return lambda t: (diode_drop_v(spec.diode, n, tc, current_a, t, ref), "forward", None, None, None)
-    if spec.resistor is not None:
-        r = spec.resistor
-        r0 = r.resistance_max_ohm if variant == "max" else r.resistance_ohm
+    """The drop model of the spec's family (the registry's `family`)."""
+    return _DROP_MODELS[spec.element.family](spec, variant, current_a, vin_v, zener_v, notes)
 
-        def resistive(t):
-            rt = r0 * (1.0 + r.resistance_tempco_per_k * (t - r.resistance_at_c))
-            return current_a * rt, "resistive", None, rt, None
 
-        return resistive
-    channel = channel_model(spec.mosfet, variant, notes)
-    body = body_diode(spec.mosfet, notes)
+def _diode_drop(spec, variant, current_a, vin_v, zener_v, notes) -> DropAt:
+    n, tc = _diode_params(spec, notes)
+    d = spec.part
+    ref = d.vf_max_v if variant == "max" else d.vf_v
+    return lambda t: (diode_drop_v(d, n, tc, current_a, t, ref), "forward", None, None, None)
+
+
+def _resistor_drop(spec, variant, current_a, vin_v, zener_v, notes) -> DropAt:
+    r = spec.part
+    r0 = r.resistance_max_ohm if variant == "max" else r.resistance_ohm
+
+    def resistive(t):
+        rt = r0 * (1.0 + r.resistance_tempco_per_k * (t - r.resistance_at_c))
+        return current_a * rt, "resistive", None, rt, None
+
+    return resistive
+
+
+def _mosfet_drop(spec, variant, current_a, vin_v, zener_v, notes) -> DropAt:
+    channel = channel_model(spec.part, variant, notes)
+    body = body_diode(spec.part, notes)
 
     def mosfet(t):
         if vin_v is None:
-            vgs = spec.mosfet.rds_on_vgs_v
+            vgs = spec.part.rds_on_vgs_v
             r = channel.rds_on_ohm(vgs, t)
             drop, share = channel_with_body(current_a, r, body, t)
         else:
@@ -345,6 +356,9 @@ def _drop_function(spec, variant, current_a, vin_v, zener_v, notes) -> DropAt:
         return drop, mode, max(vgs, 0.0), (r if math.isfinite(r) else None), share
 
     return mosfet
+
+
+_DROP_MODELS = {"diode": _diode_drop, "mosfet": _mosfet_drop, "resistor": _resistor_drop}
 
 
 def _operating_point(spec, variant, current_a, solution: ThermalSolution, drop_at: DropAt) -> OperatingPoint:
@@ -379,14 +393,10 @@ def reverse_leakage(spec: PartSpec, reverse_v: float, tj_c: float) -> Leakage:
     Voltage: at or below the datasheet's test voltage the datasheet value is used (leakage rises
     with reverse voltage, so this is cautious); above it the value is scaled in proportion.
     """
-    if spec.diode is not None:
-        value, at_v, at_c, doubling = spec.diode.ir_max_a, spec.diode.ir_at_v, spec.diode.ir_at_c, spec.diode.ir_doubling_k
-        rating, rating_key = spec.diode.vr_max_v, "vr_max_v"
-    elif spec.mosfet is not None:
-        value, at_v, at_c, doubling = spec.mosfet.idss_a, spec.mosfet.idss_at_v, 25.0, None
-        rating, rating_key = spec.mosfet.vds_max_v, "vds_max_v"
-    else:
-        return Leakage(None, reverse_v, tj_c, "a resistor does not block")
+    if not spec.element.blocks_reverse:
+        return Leakage(None, reverse_v, tj_c, f"a {spec.element.title} does not block")
+    value, at_v, at_c, doubling = spec.part.leakage
+    rating, _symbol, rating_key = spec.part.blocking
     if value is None:
         return Leakage(None, reverse_v, tj_c, "the spec gives no reverse leakage")
     notes = []

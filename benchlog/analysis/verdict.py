@@ -271,15 +271,16 @@ def run_conditions(frame, meta, spec: PartSpec, at_a: float | None = None) -> Ru
         ambient = 25.0
         notes.append("no ambient recorded for the element: 25 °C assumed")
     kind = element.get("kind")
-    body = bool(spec.is_mosfet and element.get("measure") == "body_diode")
-    if isinstance(kind, str) and kind and kind != spec.kind and not (kind == "pmos" and spec.kind == "nmos"):
+    gated = spec.element.has_gate
+    body = bool(gated and element.get("measure") == "body_diode")
+    if isinstance(kind, str) and kind and kind != spec.kind:
         raise BadInput(spec.path or "spec", "kind", f"is '{spec.kind}' but the run measured a '{kind}'",
                        "the spec of the part in the run")
     vin, zener = None, _number(element.get("zener_v"))
-    if spec.is_mosfet and body:
+    if gated and body:
         vin = 0.0
         notes.append("the run measured the body diode on purpose: gate off, body diode predicted")
-    elif spec.is_mosfet and element.get("gate", "return") == "return":
+    elif gated and element.get("gate", spec.element.passive_gate) == spec.element.passive_gate:
         supply = frame["supply_v"].to_numpy(dtype=float) if "supply_v" in frame.columns else np.array([])
         supply = supply[np.isfinite(supply)]
         header = getattr(meta, "header", None) or {}
@@ -287,19 +288,19 @@ def run_conditions(frame, meta, spec: PartSpec, at_a: float | None = None) -> Ru
         wiring = bench.get("wiring") if isinstance(bench.get("wiring"), dict) else {}
         if supply.size:
             vin = float(np.median(supply))
-            notes.append(f"gate to the return: |Vgs| from the median recorded supply voltage {vin:.4g} V")
+            notes.append(f"gate to {spec.element.gate_to}: |Vgs| from the median recorded supply voltage {vin:.4g} V")
         elif _number(wiring.get("input_v")) is not None:
             vin = _number(wiring["input_v"])
-            notes.append(f"gate to the return: |Vgs| from the bench's input voltage {vin:.4g} V")
+            notes.append(f"gate to {spec.element.gate_to}: |Vgs| from the bench's input voltage {vin:.4g} V")
         else:
-            notes.append("gate to the return but no input voltage recorded: gate taken as fully driven")
+            notes.append(f"gate to {spec.element.gate_to} but no input voltage recorded: gate taken as fully driven")
     if zener is not None and vin is not None and not body:
         notes.append(f"gate clamp zener {zener:g} V")
     return RunConditions(current, where, ambient, vin, zener if not body else None, body, tuple(notes))
 
 
 def _fit_model(spec: PartSpec, body_diode: bool) -> str:
-    return "resistive" if (spec.kind in ("pmos", "nmos", "resistor") and not body_diode) else "auto"
+    return spec.element.fit_model("body_diode" if body_diode else "channel")
 
 
 @dataclass(frozen=True)

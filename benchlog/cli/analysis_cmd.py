@@ -94,7 +94,7 @@ def _argument(name: str, value: float | None, *, positive: bool = False, minimum
 
 def _estimate(args) -> int:
     from benchlog.analysis.predict import predict
-    from benchlog.analysis.spec import load_spec
+    from benchlog.specfiles import load_spec
 
     _argument("--at", args.at, minimum=0.0)
     _argument("--ambient", args.ambient, minimum=-273.15)
@@ -169,7 +169,7 @@ def check_entry(c) -> dict[str, Any]:
 
 
 def _check(args) -> int:
-    from benchlog.analysis.spec import load_spec
+    from benchlog.specfiles import load_spec
     from benchlog.analysis.verdict import check_run
     from benchlog.runs import load
 
@@ -221,7 +221,7 @@ def lot_entry(s) -> dict[str, Any]:
 
 def _lot(args) -> int:
     from benchlog.analysis.lot import lot_from_runs
-    from benchlog.analysis.spec import load_spec
+    from benchlog.specfiles import load_spec
 
     _argument("--at", args.at, positive=True)
     spec = load_spec(args.spec)
@@ -279,7 +279,7 @@ def design_entry(r) -> dict[str, Any]:
 
 
 def _design(args) -> int:
-    from benchlog.analysis.design import review_file
+    from benchlog.specfiles import review_file
 
     r = review_file(args.design)
     if args.json:

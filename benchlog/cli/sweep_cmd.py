@@ -254,7 +254,7 @@ def _analysis_summary(run_file: Path, plan) -> dict[str, Any]:
     if spec_path is None:
         return out
     try:
-        from benchlog.analysis.spec import load_spec
+        from benchlog.specfiles import load_spec
         from benchlog.analysis.verdict import check_run
 
         check = check_run(frame, meta, load_spec(spec_path))

@@ -21,14 +21,14 @@ from typing import Any, Sequence
 import numpy as np
 
 import benchlog
-from benchlog.analysis.design import load_design
 from benchlog.analysis.design import review as design_review
 from benchlog.analysis.fits import detect_self_heating, fit_run
 from benchlog.analysis.predict import predict
-from benchlog.analysis.spec import PartSpec, load_spec
+from benchlog.analysis.spec import PartSpec
 from benchlog.analysis.verdict import check_run, run_conditions, run_element
 from benchlog.badinput import BadInput
 from benchlog.runs import load
+from benchlog.specfiles import load_design, load_spec
 
 from . import figures
 from . import from_analysis as fa

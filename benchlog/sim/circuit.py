@@ -21,7 +21,9 @@ from dataclasses import dataclass
 
 from scipy.optimize import brentq
 
-from .elements import Element, gate_source_v
+from benchlog.kinds import kind as element_kind
+
+from .elements import Element
 
 
 @dataclass(frozen=True)
@@ -67,7 +69,7 @@ def solve(element: Element, drive: Drive, junction_c: float) -> OperatingPoint:
 def _vgs(element: Element, input_v: float, drop_v: float) -> float | None:
     if not element.gate_driven:
         return None
-    return gate_source_v(input_v, drop_v, element.params.zener_v)  # type: ignore[attr-defined]
+    return element.vgs_v(input_v, drop_v)  # type: ignore[attr-defined]
 
 
 def _solve_forward(element: Element, drive: Drive, tj: float) -> OperatingPoint:
@@ -125,4 +127,4 @@ def _solve_reverse(element: Element, drive: Drive, tj: float) -> OperatingPoint:
         vr = brentq(lambda v: element.reverse_current_a(v, tj) - limit, 0.0, v_set, xtol=1e-15, rtol=1e-13)
     supply_v = vr + current * r_path
     return OperatingPoint(-current, -vr, supply_v, -current * r_path, mode, vgs,
-                          "blocking" if element.kind != "resistor" else "reverse")
+                          "blocking" if element_kind(element.kind).blocks_reverse else "reverse")

@@ -20,7 +20,7 @@ LOOPBACK_HOSTS = ("127.0.0.1", "localhost", "::1")
 
 @dataclass(frozen=True)
 class SimConfig:
-    element: str = "pmos"  # "rectifier" | "schottky" | "pmos" | "resistor"
+    element: str = "pmos"  # a kind of the element registry (benchlog.kinds)
     seed: int = 1
     ambient_c: float = 25.0
     line_frequency_hz: float = 50.0

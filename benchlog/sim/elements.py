@@ -1,9 +1,10 @@
-"""The protection elements under test: rectifier, Schottky, P-MOSFET with its body diode, resistor.
+"""The protection elements under test: rectifier, Schottky, P- and N-MOSFET with their body diodes, resistor.
 
 Every element answers two questions for the circuit solver: the forward drop
-at a given current (the P-MOSFET also needs its input voltage, because its
-gate is tied to the return and |Vgs| comes from the circuit), and the reverse
-current at a given reverse voltage.
+at a given current (a MOSFET also needs its input voltage, because its gate is
+tied to the supply and |Vgs| comes from the circuit), and the reverse current
+at a given reverse voltage. Which physics a kind gets is the registry's
+`family` (benchlog.kinds).
 
 Sources of the formulas:
 - Shockley diode with series resistance, V = n·Vt·ln(I/Is + 1) + I·Rs, Vt = kT/q
@@ -14,10 +15,15 @@ Sources of the formulas:
   (about 2 mV/K for silicon, common practice) at the reference current.
 - Reverse leakage doubles about every 10 K (common practice for Schottky diodes;
   used for all elements with its own doubling interval).
-- P-MOSFET: channel off for |Vgs| <= Vth; above it R_DS(on) = r_on·[(1-f) +
+- MOSFET (P- or N-channel): channel off for |Vgs| <= Vth; above it R_DS(on) = r_on·[(1-f) +
   f·(Vfull - Vth)/(min(|Vgs|, Vfull) - Vth)]·(1 + α·(Tj - 25 °C)), i.e. a fixed
   part (drift region, package) plus a channel part inversely proportional to
   the gate overdrive, flat from the full-enhancement Vgs on (common practice).
+- Gate wiring (Kirchhoff's voltage law): a P-MOSFET in the supply line with its
+  gate on the return has its source at the input less the drop, so
+  Vgs = -(Vin - drop); an N-MOSFET in the return with its gate on the input has
+  its source at the board's ground, the drop above the supply's return, so
+  Vgs = +(Vin - drop). Same |Vgs|, opposite sign; reversed, both gates are off.
 """
 
 from __future__ import annotations
@@ -29,6 +35,8 @@ from typing import Mapping
 from scipy import constants
 from scipy.optimize import brentq
 from scipy.special import lambertw
+
+from benchlog.kinds import ELEMENT_KINDS, kind as element_kind
 
 from .thermal import Thermal
 
@@ -74,14 +82,15 @@ def shockley_current_a(drop_v: float, i_s_a: float, ideality: float, r_s_ohm: fl
     return max(0.0, nvt / r_s_ohm * _w_of_exp(x) - i_s_a)
 
 
-def gate_source_v(input_v: float, drop_v: float, zener_v: float | None) -> float:
-    """Vgs of a high-side P-MOSFET whose gate is tied to the return.
+def gate_source_v(input_v: float, drop_v: float, zener_v: float | None, channel: str = "p") -> float:
+    """Vgs of a protection MOSFET whose gate is tied to the supply (module docstring).
 
-    The source sits at input - drop, so Vgs = -(input - drop); a zener from gate
-    to source clamps |Vgs| to its voltage (common practice in reverse-protection
-    circuits). Negative = enhancing a P-channel device; positive = firmly off.
+    P-channel in the supply line, gate on the return: Vgs = -(input - drop).
+    N-channel in the return, gate on the input: Vgs = +(input - drop).
+    A zener from gate to source clamps |Vgs| to its voltage (common practice in
+    reverse-protection circuits). The enhancing sign is negative for P, positive for N.
     """
-    vgs = -(input_v - drop_v)
+    vgs = (input_v - drop_v) * (-1.0 if channel == "p" else 1.0)
     if zener_v is not None:
         vgs = max(-zener_v, min(zener_v, vgs))
     return vgs
@@ -189,7 +198,7 @@ class Diode(Element):
 
 
 @dataclass(frozen=True)
-class PmosParams:
+class MosfetParams:
     r_on_ohm: float  # at 25 °C and full enhancement
     vgs_th_v: float
     vgs_full_v: float
@@ -207,13 +216,19 @@ class PmosParams:
     cth_j_per_k: float
 
 
-class Pmos(Element):
-    """P-MOSFET as reverse protection: drain at the input, source to the load, gate to the return."""
+class Mosfet(Element):
+    """A MOSFET as reverse protection, its gate tied to the supply (module docstring).
 
-    kind = "pmos"
+    P-channel: drain at the input, source to the load, gate to the return.
+    N-channel: drain at the supply's return, source to the board's ground, gate to the input.
+    """
+
     gate_driven = True
 
-    def __init__(self, params: PmosParams) -> None:
+    def __init__(self, kind: str, params: MosfetParams) -> None:
+        self.kind = kind
+        self.channel = element_kind(kind).channel
+        self._enhance_sign = -1.0 if self.channel == "p" else 1.0
         self.params = params
         self.body = DiodeLaw(params.body_ideality, params.body_i_s_a, params.body_r_s_ohm, params.body_tempco_v_per_k)
         self.leakage = Leakage(params.leak_a, params.leak_doubling_k)
@@ -222,12 +237,15 @@ class Pmos(Element):
     def channel_ohm(self, vgs_v: float, temperature_c: float) -> float | None:
         """R_DS(on) at this Vgs and Tj; None when the channel is off."""
         p = self.params
-        drive = -vgs_v
+        drive = self._enhance_sign * vgs_v
         if drive <= p.vgs_th_v:
             return None
         overdrive = min(drive, p.vgs_full_v) - p.vgs_th_v
         shape = (1.0 - p.channel_fraction) + p.channel_fraction * (p.vgs_full_v - p.vgs_th_v) / overdrive
         return p.r_on_ohm * shape * (1.0 + p.tempco_per_k * (temperature_c - T0_C))
+
+    def vgs_v(self, input_v: float, drop_v: float) -> float:
+        return gate_source_v(input_v, drop_v, self.params.zener_v, self.channel)
 
     def _current_at(self, drop_v: float, vgs_v: float, temperature_c: float) -> float:
         r = self.channel_ohm(vgs_v, temperature_c)
@@ -237,26 +255,25 @@ class Pmos(Element):
     def forward_drop_v(self, current_a, temperature_c, *, input_v=None, source_v=None):
         if current_a <= 0:
             return 0.0
-        zener = self.params.zener_v
         diode_only = self.body.drop_v(current_a, temperature_c)
         if source_v is not None:
-            vgs = gate_source_v(source_v, 0.0, zener)
+            vgs = self.vgs_v(source_v, 0.0)
             if self.channel_ohm(vgs, temperature_c) is None:
                 return diode_only
             g = lambda v: self._current_at(v, vgs, temperature_c) - current_a  # noqa: E731
         elif input_v is not None:
-            if self.channel_ohm(gate_source_v(input_v, 0.0, zener), temperature_c) is None:
+            if self.channel_ohm(self.vgs_v(input_v, 0.0), temperature_c) is None:
                 return diode_only  # even with no drop the gate cannot open the channel
-            g = lambda v: self._current_at(v, gate_source_v(input_v, v, zener), temperature_c) - current_a  # noqa: E731
+            g = lambda v: self._current_at(v, self.vgs_v(input_v, v), temperature_c) - current_a  # noqa: E731
         else:
             raise ValueError("a gate-driven element needs input_v or source_v")
         if g(diode_only) <= 0:
             return diode_only
         if input_v is not None:
             # strongly enhanced channel: V = (I - I_body(V))·R(Vgs(V)) converges in a few steps
-            v = current_a * (self.channel_ohm(gate_source_v(input_v, 0.0, zener), temperature_c) or 0.0)
+            v = current_a * (self.channel_ohm(self.vgs_v(input_v, 0.0), temperature_c) or 0.0)
             for _ in range(30):
-                r = self.channel_ohm(gate_source_v(input_v, v, zener), temperature_c)
+                r = self.channel_ohm(self.vgs_v(input_v, v), temperature_c)
                 if r is None:
                     break
                 nxt = (current_a - self.body.current_a(v, temperature_c)) * r
@@ -268,7 +285,7 @@ class Pmos(Element):
         return brentq(g, 0.0, diode_only, xtol=1e-13, rtol=1e-12)
 
     def reverse_current_a(self, reverse_v, temperature_c):
-        # reversed, Vgs >= 0: the channel is off and the body diode blocks
+        # reversed, the gate is pulled the off way: the channel is off and the body diode blocks
         return self.leakage.current_a(reverse_v, temperature_c)
 
     def conduction(self, current_a, temperature_c, vgs_v):
@@ -281,7 +298,7 @@ class Pmos(Element):
     def truth(self) -> dict:
         p = self.params
         return {
-            "kind": "pmos", "r_on_ohm": p.r_on_ohm, "vgs_th_v": p.vgs_th_v, "vgs_full_v": p.vgs_full_v,
+            "kind": self.kind, "r_on_ohm": p.r_on_ohm, "vgs_th_v": p.vgs_th_v, "vgs_full_v": p.vgs_full_v,
             "channel_fraction": p.channel_fraction, "tempco_per_k": p.tempco_per_k, "zener_v": p.zener_v,
             "gate_resistor_ohm": p.gate_resistor_ohm,
             "body_diode": {"ideality": p.body_ideality, "i_s_a": p.body_i_s_a, "r_s_ohm": p.body_r_s_ohm,
@@ -300,9 +317,8 @@ class ResistorParams:
 
 
 class Resistor(Element):
-    kind = "resistor"
-
-    def __init__(self, params: ResistorParams) -> None:
+    def __init__(self, kind: str, params: ResistorParams) -> None:
+        self.kind = kind
         self.params = params
         self.thermal = Thermal(params.rth_ja_k_per_w, params.cth_j_per_k)
 
@@ -317,7 +333,7 @@ class Resistor(Element):
 
     def truth(self) -> dict:
         p = self.params
-        return {"kind": "resistor", "r_on_ohm": p.r_on_ohm, "tempco_per_k": p.tempco_per_k,
+        return {"kind": self.kind, "r_on_ohm": p.r_on_ohm, "tempco_per_k": p.tempco_per_k,
                 "rth_ja_k_per_w": p.rth_ja_k_per_w, "cth_j_per_k": p.cth_j_per_k}
 
 
@@ -327,13 +343,21 @@ NOMINAL: dict[str, object] = {
                              leak_a=1e-6, leak_doubling_k=10.0, rth_ja_k_per_w=50.0, cth_j_per_k=0.5),
     "schottky": DiodeParams(ideality=1.05, i_s_a=5e-8, r_s_ohm=0.040, tempco_v_per_k=-1.5e-3,
                             leak_a=20e-6, leak_doubling_k=10.0, rth_ja_k_per_w=50.0, cth_j_per_k=0.5),
-    "pmos": PmosParams(r_on_ohm=0.010, vgs_th_v=2.0, vgs_full_v=10.0, channel_fraction=0.3, tempco_per_k=0.005,
+    "pmos": MosfetParams(r_on_ohm=0.010, vgs_th_v=2.0, vgs_full_v=10.0, channel_fraction=0.3, tempco_per_k=0.005,
                        zener_v=None, gate_resistor_ohm=100e3, body_ideality=1.3, body_i_s_a=1e-10,
                        body_r_s_ohm=0.010, body_tempco_v_per_k=-2.0e-3, leak_a=0.1e-6, leak_doubling_k=10.0,
                        rth_ja_k_per_w=62.5, cth_j_per_k=0.2),
+    # An N-channel die of the same size has about a third of the P-channel's resistance (electron
+    # mobility is 2-3x the hole mobility; common practice), so the invented N part is lower.
+    "nmos": MosfetParams(r_on_ohm=0.004, vgs_th_v=1.8, vgs_full_v=10.0, channel_fraction=0.3, tempco_per_k=0.005,
+                         zener_v=None, gate_resistor_ohm=100e3, body_ideality=1.3, body_i_s_a=1e-10,
+                         body_r_s_ohm=0.008, body_tempco_v_per_k=-2.0e-3, leak_a=0.1e-6, leak_doubling_k=10.0,
+                         rth_ja_k_per_w=62.5, cth_j_per_k=0.2),
     "resistor": ResistorParams(r_on_ohm=0.050, tempco_per_k=1e-4, rth_ja_k_per_w=40.0, cth_j_per_k=0.5),
 }
-KINDS = tuple(NOMINAL)
+KINDS = ELEMENT_KINDS
+#: The physics of each registry family.
+FAMILIES = {"diode": Diode, "mosfet": Mosfet, "resistor": Resistor}
 # relative half-width of the uniform part-to-part spread applied to these fields (seeded)
 SPREAD = {"r_on_ohm": 0.10, "i_s_a": 0.30, "r_s_ohm": 0.10, "ideality": 0.03, "vgs_th_v": 0.10,
           "rth_ja_k_per_w": 0.05}
@@ -358,11 +382,7 @@ def build_element(kind: str, rng, overrides: Mapping[str, float | None] | None =
     if unknown:
         raise ValueError(f"unknown parameter(s) for {kind}: {', '.join(sorted(unknown))}")
     params = replace(params, **overrides)  # type: ignore[type-var]
-    if kind in ("rectifier", "schottky"):
-        return Diode(kind, params)  # type: ignore[arg-type]
-    if kind == "pmos":
-        return Pmos(params)  # type: ignore[arg-type]
-    return Resistor(params)  # type: ignore[arg-type]
+    return FAMILIES[element_kind(kind).family](kind, params)  # type: ignore[arg-type]
 
 
 def params_dict(element: Element) -> dict:

@@ -10,30 +10,28 @@ import math
 from typing import Any
 
 from benchlog.badinput import BadInput
+from benchlog.kinds import MIN_ENHANCE_V, kind as element_kind
 
 from .bench_file import BenchSetup
 from .plan import Plan
 from .rig import reverse_resolution_a
 
-#: Least voltage at which each kind carries a measurable forward current (well below
-#: the knee of a silicon rectifier, about 0.6-0.7 V, and of a Schottky, about 0.2-0.4 V;
-#: common practice, values from memory). A compliance below this cannot push any current.
-MIN_FORWARD_V = {"rectifier": 0.5, "schottky": 0.15, "pmos": 0.0, "resistor": 0.0}
-
-#: A P-MOSFET with its gate on the return needs the input to pull V_GS well past its
-#: threshold (logic-level parts are specified at |V_GS| = 4.5 V; common practice).
-PMOS_MIN_ENHANCE_V = 4.5
+#: The least voltages (forward conduction, gate enhancement) are the registry's
+#: data (benchlog.kinds: ElementKind.min_forward_v_for, MIN_ENHANCE_V); the rules are here.
 
 
 def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
     """Static checks from the two files; returns warnings, raises BadInput for a refusal."""
     warnings: list[str] = []
     e, w, lim = plan.element, bench.wiring, plan.limits
-    if e.kind == "pmos" and e.gate == "return" and e.measure == "channel" and w.force == "supply":
+    k = element_kind(e.kind)
+    floor = k.min_forward_v_for(e.measure)
+    gate_on_supply = e.gate_on_supply and e.measure == "channel"
+    if gate_on_supply and w.force == "supply":
         raise BadInput(
             bench.source, "[wiring].force",
-            "a P-MOSFET with its gate tied to the return, forced by the supply into a near-short, cannot "
-            "enhance (V_GS is only minus the element drop), so its body diode would be measured instead",
+            f"a {k.title.split(',')[0]} with its gate tied to {k.gate_to}, forced by the supply into a near-short, "
+            "cannot enhance (|V_GS| is only the element drop), so its body diode would be measured instead",
             "force = 'load' with input_v above the gate threshold, [element].gate = 'driven', or "
             "[element].measure = 'body_diode' to measure the body diode on purpose",
         )
@@ -41,7 +39,6 @@ def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
         if lim.compliance_v is None:
             raise BadInput(plan.source, "[limits].compliance_v", "is missing",
                            "the supply voltage limit when the supply forces the current (force = 'supply')")
-        floor = MIN_FORWARD_V["rectifier" if e.behaves_as_diode and e.kind == "pmos" else e.kind]
         if lim.compliance_v < floor:
             raise BadInput(plan.source, "[limits].compliance_v",
                            f"is {lim.compliance_v:g} V, below the {floor:g} V a {e.kind} needs before any "
@@ -52,20 +49,19 @@ def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
             raise BadInput(bench.source, "[wiring].input_v",
                            f"is {w.input_v:g} V, above the plan's compliance_v {lim.compliance_v:g} V",
                            "an input voltage within [limits].compliance_v")
-        need = MIN_FORWARD_V["rectifier" if e.behaves_as_diode and e.kind == "pmos" else e.kind]
-        if w.input_v <= need:
+        if w.input_v <= floor:
             raise BadInput(bench.source, "[wiring].input_v",
                            f"is {w.input_v:g} V, not enough to drive current through a {e.kind}",
-                           f"an input voltage well above {need:g} V")
-        if e.kind == "pmos" and e.gate == "return" and e.measure == "channel":
-            if e.zener_v is not None and e.zener_v < PMOS_MIN_ENHANCE_V:
+                           f"an input voltage well above {floor:g} V")
+        if gate_on_supply:
+            if e.zener_v is not None and e.zener_v < MIN_ENHANCE_V:
                 warnings.append(f"the gate clamp zener ({e.zener_v:g} V) limits |V_GS| below "
-                                f"{PMOS_MIN_ENHANCE_V:g} V: the channel may not enhance fully")
-            if w.input_v < PMOS_MIN_ENHANCE_V:
+                                f"{MIN_ENHANCE_V:g} V: the channel may not enhance fully")
+            if w.input_v < MIN_ENHANCE_V:
                 raise BadInput(bench.source, "[wiring].input_v",
-                               f"is {w.input_v:g} V: with the gate on the return, |V_GS| = input_v is too low "
+                               f"is {w.input_v:g} V: with the gate on {k.gate_to}, |V_GS| = input_v is too low "
                                "to enhance the channel, so the body diode would carry the current",
-                               f"at least {PMOS_MIN_ENHANCE_V:g} V")
+                               f"at least {MIN_ENHANCE_V:g} V")
     if plan.reverse is not None and plan.reverse.voltage_v > 0 and w.force == "load":
         warnings.append("reverse step: the load's input is off during the reverse step; the reverse "
                         "current is read from the supply")

@@ -6,7 +6,8 @@ table and key is checked here; a wrong value raises `BadInput` naming the file,
 the nearest valid name, because a typo in a limit must not silently disable it.
 
     [element]   id, kind, label, serial, lot, ambient_c, note, operating_a,
-                gate ("return" | "driven", pmos), zener_v, measure ("channel" | "body_diode", pmos)
+                gate (the kind's protection wiring — pmos "return", nmos "input" — or "driven"; MOSFETs),
+                zener_v, measure ("channel" | "body_diode", MOSFETs); kinds: benchlog.kinds
     [steps]     mode (linear | log | list | updown | adaptive), start_a, stop_a, count,
                 currents_a (list), spacing (updown: linear | log), target_rel_u (adaptive)
     [settle]    dwell_s, tolerance_v, consecutive, timeout_s, max_reads
@@ -26,11 +27,10 @@ from pathlib import Path
 from typing import Any
 
 from benchlog.badinput import BadInput
+from benchlog.kinds import ELEMENT_KINDS, kind as element_kind
 from benchlog.tomlcheck import Table, load_toml, parse_toml
 
-ELEMENT_KINDS = ("rectifier", "schottky", "pmos", "resistor")
 STEP_MODES = ("linear", "log", "list", "updown", "adaptive")
-DIODE_KINDS = ("rectifier", "schottky")
 
 _TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse")
 
@@ -47,14 +47,20 @@ class Element:
     ambient_c: float = 25.0
     note: str = ""
     operating_a: float | None = None  # the current the verdict is given at
-    gate: str = "return"  # pmos: gate tied to the return (the usual protection circuit) or driven
-    zener_v: float | None = None  # pmos: gate clamp zener voltage, if fitted
-    measure: str = "channel"  # pmos: "body_diode" measures the body diode on purpose
+    gate: str = "return"  # MOSFETs: the protection wiring (the kind's passive_gate) or "driven"
+    zener_v: float | None = None  # MOSFETs: gate clamp zener voltage, if fitted
+    measure: str = "channel"  # MOSFETs: "body_diode" measures the body diode on purpose
 
     @property
     def behaves_as_diode(self) -> bool:
-        """A diode law describes the drop (rectifier, Schottky, or a P-MOSFET's body diode)."""
-        return self.kind in DIODE_KINDS or (self.kind == "pmos" and self.measure == "body_diode")
+        """A diode law describes the drop (a junction, or a MOSFET's body diode measured on purpose)."""
+        return element_kind(self.kind).drop_is_junction(self.measure)
+
+    @property
+    def gate_on_supply(self) -> bool:
+        """The gate is wired for protection (tied to the supply, enhanced by the input), not driven."""
+        k = element_kind(self.kind)
+        return k.has_gate and self.gate == k.passive_gate
 
 
 @dataclass(frozen=True)
@@ -185,17 +191,18 @@ def _element(t: Table, limits: Limits) -> Element:
     if not element_id.strip():
         raise t.fail("id", "is empty", "a name for the element, such as 'D1'")
     kind = t.string("kind", choices=ELEMENT_KINDS)
+    k = element_kind(kind)
     operating_a = t.number("operating_a", None, positive=True, unit="A")
     if operating_a is not None and operating_a > limits.max_current_a:
         raise t.fail("operating_a", f"is {operating_a:g} A, above [limits].max_current_a {limits.max_current_a:g} A",
                      "an operating current the sweep may reach")
-    gate = t.string("gate", "return", choices=("return", "driven"))
-    measure = t.string("measure", "channel", choices=("channel", "body_diode"))
-    zener_v = t.number("zener_v", None, positive=True, unit="V")
-    if kind != "pmos":
+    if not k.has_gate:
         for key in ("gate", "measure", "zener_v"):
             if t.has(key):
-                raise t.fail(key, f"only applies to a P-MOSFET, but kind is {kind!r}", "no such key for this kind")
+                raise t.fail(key, f"only applies to a MOSFET, but kind is {kind!r}", "no such key for this kind")
+    gate = t.string("gate", k.passive_gate or "return", choices=k.gate_choices or None)
+    measure = t.string("measure", "channel", choices=("channel", "body_diode"))
+    zener_v = t.number("zener_v", None, positive=True, unit="V")
     return Element(
         id=element_id,
         kind=kind,

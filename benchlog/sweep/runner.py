@@ -24,6 +24,7 @@ from datetime import datetime, timezone
 from typing import Any, Callable, Iterator
 
 from benchlog import __version__
+from benchlog.kinds import kind as element_kind
 from benchlog.runs.events import (
     SCHEMA_VERSION,
     FLAG_COMPLIANCE,
@@ -437,7 +438,7 @@ class SweepRunner:
             "id": e.id, "kind": e.kind, "label": e.label, "lot": e.lot, "serial": e.serial,
             "ambient_c": e.ambient_c, "note": e.note, "operating_a": e.operating_a,
         }
-        if e.kind == "pmos":
+        if element_kind(e.kind).has_gate:
             element.update({"gate": e.gate, "zener_v": e.zener_v, "measure": e.measure})
         from benchlog.runs.format import FORMAT_NAME, POINT_COLUMNS
 

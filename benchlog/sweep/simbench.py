@@ -9,19 +9,21 @@ from __future__ import annotations
 
 from typing import Any
 
+from benchlog.kinds import kind as element_kind
+
 from .bench_file import BenchSetup, RoleSpec, Wiring
 from .plan import Element
 
-#: Input voltage of the load wiring: a typical 12 V rail fully enhances a P-MOSFET whose gate is on the return.
+#: Input voltage of the load wiring: a typical 12 V rail fully enhances a MOSFET whose gate is tied to the supply.
 SIM_INPUT_V = 12.0
 
 SIM_PROFILES = {"supply": "sim-supply", "load": "sim-load", "meter": "sim-meter", "current_meter": "sim-meter"}
 
 
 def sim_wiring(element: Element | str, current_from: str = "supply", shunt_ohm: float | None = None) -> Wiring:
-    """Load wiring at 12 V for a P-MOSFET channel (it must see its input), supply CC for the rest."""
+    """Load wiring at 12 V for a MOSFET channel (its gate must see the input), supply CC for the rest."""
     kind = element if isinstance(element, str) else element.kind
-    channel = kind == "pmos" and (isinstance(element, str) or element.measure == "channel")
+    channel = element_kind(kind).has_gate and (isinstance(element, str) or element.measure == "channel")
     if channel:
         source = "load" if current_from == "supply" else current_from
         return Wiring(force="load", current_from=source, shunt_ohm=shunt_ohm, input_v=SIM_INPUT_V)

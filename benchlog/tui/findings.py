@@ -60,7 +60,7 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
     check_error = ""
     if spec_path is not None:
         try:
-            from benchlog.analysis.spec import load_spec
+            from benchlog.specfiles import load_spec
             from benchlog.analysis.verdict import check_run
 
             spec = load_spec(spec_path)

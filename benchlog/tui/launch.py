@@ -22,7 +22,7 @@ def demo_specs() -> list[Path]:
 
 def spec_for_kind(kind: str, specs: list[Path]) -> Path | None:
     """The first spec of the same element kind (the demo has one spec per kind)."""
-    from benchlog.analysis.spec import load_spec
+    from benchlog.specfiles import load_spec
 
     for path in specs:
         try:

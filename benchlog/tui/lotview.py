@@ -49,6 +49,6 @@ def summarise(run_paths: Sequence[Path], spec_path: Path | None):
     if spec_path is None or not run_paths:
         return None
     from benchlog.analysis.lot import lot_from_runs
-    from benchlog.analysis.spec import load_spec
+    from benchlog.specfiles import load_spec
 
     return lot_from_runs([str(p) for p in run_paths], load_spec(spec_path))

@@ -1,6 +1,6 @@
 """Small spec texts shared by the spec-side analysis tests (invented parts)."""
 
-from benchlog.analysis.spec import spec_from_table
+from benchlog.specfiles import spec_from_table
 from benchlog.tomlcheck import parse_toml
 
 

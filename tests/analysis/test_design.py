@@ -8,14 +8,12 @@ import benchlog
 from benchlog.analysis.design import (
     ClampDesign,
     clamp_currents,
-    load_design,
     review,
-    review_file,
     size_clamp,
     suggest_zener_v,
 )
-from benchlog.analysis.spec import load_spec
 from benchlog.badinput import BadInput
+from benchlog.specfiles import load_design, load_spec, review_file
 
 from .spec_texts import PMOS, RECT, SCHOTTKY
 

@@ -15,7 +15,7 @@ import pytest
 
 from benchlog.analysis.fits import fit_run
 from benchlog.analysis.lot import fit_points, lot_from_runs, lot_model
-from benchlog.analysis.spec import load_spec
+from benchlog.specfiles import load_spec
 from benchlog.analysis.verdict import run_conditions
 from benchlog.badinput import BadInput
 from benchlog.runs import RunWriter, load, load_points

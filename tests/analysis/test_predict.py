@@ -65,7 +65,7 @@ def test_rds_on_temperature_table_and_tempco():
 
 
 def test_two_rds_on_points_are_both_reproduced():
-    m = spec(PMOS + "rds_on_2_ohm = 0.040\nrds_on_2_vgs_v = 4.5\n").mosfet
+    m = spec(PMOS + "rds_on_2_ohm = 0.040\nrds_on_2_vgs_v = 4.5\n").part
     ch = channel_model(m, "typical", [])
     assert ch.rds_on_ohm(10.0, 25.0) == pytest.approx(0.026, rel=1e-12)
     assert ch.rds_on_ohm(4.5, 25.0) == pytest.approx(0.040, rel=1e-12)

@@ -2,8 +2,9 @@
 
 import pytest
 
-from benchlog.analysis.spec import load_spec
+from benchlog.analysis.spec import MosfetSpec
 from benchlog.badinput import BadInput
+from benchlog.specfiles import load_spec
 
 from .spec_texts import PMOS, RECT, spec
 
@@ -17,15 +18,15 @@ def test_keys_land_in_the_right_places(tmp_path):
     )
     s = load_spec(path)
     assert (s.name, s.kind, s.path) == ("T-PMOS", "pmos", str(path))
-    assert s.mosfet.rds_on_ohm == 0.026 and s.mosfet.rds_on_max_ohm == 0.032
-    assert s.mosfet.rds_on_tj_c == (-50.0, 25.0, 150.0)
+    assert s.part.rds_on_ohm == 0.026 and s.part.rds_on_max_ohm == 0.032
+    assert s.part.rds_on_tj_c == (-50.0, 25.0, 150.0)
     assert s.thermal.rth_ja_k_per_w == 62.0 and s.thermal.tj_max_c == 150.0
-    assert s.has_max and s.is_mosfet and s.diode is None
+    assert s.has_max and s.element.has_gate and isinstance(s.part, MosfetSpec)
 
 
 def test_integers_are_numbers_and_defaults_apply():
     s = spec(RECT.replace("vf_at_a = 2.0", "vf_at_a = 2"))
-    assert s.diode.vf_at_a == 2.0 and s.diode.vf_at_c == 25.0 and s.diode.rs_ohm == 0.0
+    assert s.part.vf_at_a == 2.0 and s.part.vf_at_c == 25.0 and s.part.rs_ohm == 0.0
     assert not s.has_max and s.thermal.rth_ja_k_per_w is None
 
 

@@ -9,7 +9,7 @@ import pytest
 
 import benchlog
 from benchlog.analysis.predict import predict
-from benchlog.analysis.spec import load_spec
+from benchlog.specfiles import load_spec
 from benchlog.analysis.verdict import decide
 from benchlog.cli import main
 from benchlog.sweep.plan import load_plan

@@ -174,7 +174,7 @@ def test_mutated_profile_loads_or_is_bad_input(text):
 @FUZZ
 @given(mutated(SPEC_TEXT))
 def test_mutated_part_spec_loads_or_is_bad_input(text):
-    from benchlog.analysis.spec import load_spec
+    from benchlog.specfiles import load_spec
 
     _only_bad_input(lambda t: _in_file("fuzz-spec.toml", t, load_spec), text, "fuzz-spec.toml")
 
@@ -182,7 +182,7 @@ def test_mutated_part_spec_loads_or_is_bad_input(text):
 @FUZZ
 @given(mutated(DESIGN_TEXT))
 def test_mutated_design_file_loads_or_is_bad_input(text):
-    from benchlog.analysis.design import load_design
+    from benchlog.specfiles import load_design
 
     def read(path: Path):
         specs = path.parent / "specs"

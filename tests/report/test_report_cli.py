@@ -11,7 +11,7 @@ import pytest
 
 from benchlog.analysis.fits import fit_run
 from benchlog.analysis.lot import lot_from_runs
-from benchlog.analysis.spec import load_spec
+from benchlog.specfiles import load_spec
 from benchlog.analysis.verdict import check_run
 from benchlog.cli import main
 from benchlog.report import pdffile
@@ -181,7 +181,7 @@ def test_bad_run_file_in_a_real_process(tmp_path):
 
 
 def test_design_review_section_and_figure(tmp_path):
-    from benchlog.analysis.design import review_file
+    from benchlog.specfiles import review_file
 
     design = runfiles.design_file(tmp_path)
     run = runfiles.pfet_run(tmp_path)

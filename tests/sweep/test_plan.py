@@ -99,7 +99,7 @@ BROKEN = [
     (_replace("off_s = 0.5", "off_s = 1e9"), "[cooldown].off_s", "at most"),
     (_replace('id = "D1"', 'id = ""'), "[element].id", "a name"),
     (_replace("operating_a = 1.0", "operating_a = 9.0"), "[element].operating_a", "the sweep may reach"),
-    (_replace("operating_a = 1.0", 'gate = "return"'), "[element].gate", "only applies to a P-MOSFET"),
+    (_replace("operating_a = 1.0", 'gate = "return"'), "[element].gate", "only applies to a MOSFET"),
     (GOOD + "\n[extra]\nx = 1\n", "extra", "unknown key"),
     (_replace("[limits]", "[limit]"), "limit", "did you mean 'limits'"),
     (GOOD.replace("[steps]\nmode", "[steps]\ncurrents_a = [1.0]\nmode"), "[steps].currents_a", "only used with mode 'list'"),

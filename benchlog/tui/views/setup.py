@@ -146,7 +146,7 @@ class SetupView(View):
             box.update("part spec: none (k picks one)\nwithout a spec there is no verdict")
             return
         try:
-            from benchlog.analysis.spec import load_spec
+            from benchlog.specfiles import load_spec
 
             spec = load_spec(path)
         except Exception as exc:
@@ -198,11 +198,11 @@ class SetupView(View):
 
 
 def _find(obj, attr: str):
-    """A spec value wherever the spec keeps it (top level or its diode/mosfet/thermal part)."""
+    """A spec value wherever the spec keeps it (top level, its kind's part or its thermal data)."""
     value = getattr(obj, attr, None)
     if isinstance(value, (int, float)):
         return float(value)
-    for part in ("diode", "mosfet", "thermal", "resistor"):
+    for part in ("part", "thermal"):
         inner = getattr(obj, part, None)
         value = getattr(inner, attr, None) if inner is not None else None
         if isinstance(value, (int, float)):
