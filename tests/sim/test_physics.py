@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import random
 
@@ -160,7 +161,7 @@ def test_load_cannot_draw_more_than_the_supply_limit():
 
 
 def test_reversed_elements_block_with_small_leakage_and_a_resistor_conducts():
-    for kind in ("rectifier", "schottky", "pmos"):
+    for kind in ("rectifier", "schottky", "pmos", "nmos"):
         op = solve(_element(kind), _drive(inverted=True, voltage_v=12.0), 25.0)
         assert op.current_a < 0 and abs(op.current_a) < 1e-3
         assert op.element_v == pytest.approx(-12.0, rel=1e-3)
@@ -169,7 +170,7 @@ def test_reversed_elements_block_with_small_leakage_and_a_resistor_conducts():
 
 
 def test_forward_drop_rises_monotonically_with_current():
-    for kind in ("rectifier", "schottky", "pmos", "resistor"):
+    for kind in ("rectifier", "schottky", "pmos", "nmos", "resistor"):
         element = _element(kind)
         drops = [solve(element, _drive(current_limit_a=i), 25.0).element_v for i in np.linspace(0.01, 9.0, 40)]
         assert all(b > a for a, b in zip(drops, drops[1:])), kind
@@ -187,3 +188,54 @@ def test_pmos_drop_solves_its_own_current_balance(input_v, current):
     carried = (drop / r if r else 0.0) + pmos.body.current_a(drop, 40.0)
     assert carried == pytest.approx(current, rel=1e-8)
     assert 0.0 < drop <= pmos.body.drop_v(current, 40.0) * (1 + 1e-12)
+
+
+def test_nmos_in_the_return_gate_facts():
+    # Kirchhoff's voltage law around the return (common practice for an N-MOSFET in the ground
+    # return with its gate on the input): the source sits at the board's ground, the drop above
+    # the supply's return, so Vgs = +(Vin - drop); reversed it is negative and the channel is off.
+    nmos = _element("nmos", vgs_th_v=1.8)
+    assert gate_source_v(12.0, 1.0, None, "n") == pytest.approx(11.0)
+    assert nmos.vgs_v(12.0, 1.0) == pytest.approx(11.0)
+    assert nmos.channel_ohm(nmos.vgs_v(12.0, 1.0), 25.0) is not None
+    assert nmos.vgs_v(-12.0, 0.0) == pytest.approx(-12.0)
+    assert nmos.channel_ohm(nmos.vgs_v(-12.0, 0.0), 25.0) is None
+    assert nmos.channel_ohm(-11.0, 25.0) is None  # the P-channel's enhancing sign leaves an N-channel off
+    # 30 V input with a 10 V zener from gate to source: Vgs clamped to +10 V
+    assert gate_source_v(30.0, 1.0, 10.0, "n") == pytest.approx(10.0)
+    clamped = _element("nmos", zener_v=10.0)
+    assert clamped.vgs_v(30.0, 1.0) == pytest.approx(10.0)
+
+
+def test_nmos_is_the_mirror_of_the_pmos():
+    # The same die and wiring magnitudes: |Vgs| = Vin - drop for both (KVL), so with equal parameters
+    # the two kinds drop exactly the same at every operating point, in both wirings.
+    pmos = _element("pmos", r_on_ohm=0.008, vgs_th_v=2.0)
+    nmos = _element("nmos", **dataclasses.asdict(pmos.params))
+    for drive in (_drive(voltage_v=12.0, current_limit_a=8.0, load_on=True, load_current_a=3.0),
+                  _drive(voltage_v=3.0, current_limit_a=8.0, load_on=True, load_current_a=3.0),
+                  _drive(voltage_v=12.0, current_limit_a=2.0)):
+        p, n = solve(pmos, drive, 40.0), solve(nmos, drive, 40.0)
+        assert n.element_v == p.element_v and n.conduction == p.conduction
+        assert n.vgs_v == pytest.approx(-p.vgs_v)
+
+
+def test_nmos_powers_up_on_its_body_diode_then_the_channel_takes_over():
+    nmos = _element("nmos", r_on_ohm=0.004, vgs_th_v=1.8)
+    # Supply in CC into the near-short: the gate sees only I·R_lead, below threshold: body diode.
+    cc = solve(nmos, _drive(voltage_v=12.0, current_limit_a=5.0), 25.0)
+    assert cc.conduction == "body_diode" and cc.element_v > 0.6 and cc.vgs_v == pytest.approx(0.1)
+    # The load draws 5 A from a 12 V rail: Vgs ≈ 12 V, the channel carries it: V = I·R (Ohm's law).
+    on = solve(nmos, _drive(voltage_v=12.0, current_limit_a=8.0, load_on=True, load_current_a=5.0), 25.0)
+    assert on.conduction == "channel" and on.vgs_v > 10.0
+    assert on.element_v == pytest.approx(5.0 * 0.004, rel=1e-3)
+
+
+@pytest.mark.parametrize("input_v", [1.5, 2.3, 3.0, 12.0, 30.0])
+@pytest.mark.parametrize("current", [0.01, 1.0, 5.0])
+def test_nmos_drop_solves_its_own_current_balance(input_v, current):
+    nmos = _element("nmos", zener_v=10.0)
+    drop = nmos.forward_drop_v(current, 40.0, input_v=input_v)
+    r = nmos.channel_ohm(gate_source_v(input_v, drop, 10.0, "n"), 40.0)
+    carried = (drop / r if r else 0.0) + nmos.body.current_a(drop, 40.0)
+    assert carried == pytest.approx(current, rel=1e-8)
