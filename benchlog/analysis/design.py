@@ -6,12 +6,13 @@ The design file is our own TOML, read by `benchlog.specfiles.load_design` (analy
     [input]    nominal_v, min_v (incl. cold-crank dips), max_v (incl. transients), reverse_v (optional)
     [load]     nominal_a, max_a
     [ambient]  max_c
-    [clamp]    zener_v, zener_power_w, resistor_ohm, series ("E24"), target_current_a   (optional)
+    [clamp]    zener_v, zener_power_w, resistor_ohm, series ("E24"), target_current_a   (optional, MOSFETs)
     [margins]  voltage_derating, tj_margin_k, power_derating, leakage_max_a, threshold_margin_v (optional)
     [[candidate]]  spec (path, relative to the design file), label
 
-Circuit equations of the gate clamp (zener from gate to source, resistor from gate
-to ground; the gate draws no DC current), at the input voltage Vin:
+Circuit equations of the gate clamp (zener from gate to source, resistor from the gate to the rail it is
+tied to: ground for a P-MOSFET, the input for an N-MOSFET in the return; the gate draws no DC current),
+at the input voltage Vin (the same loop for both):
     I = (Vin − Vz)/R,  P_zener = Vz·I,  P_resistor = (Vin − Vz)·I = I²·R
 (Ohm's and Kirchhoff's laws). R is picked from the IEC 60063 series.
 """

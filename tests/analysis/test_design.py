@@ -129,12 +129,15 @@ def test_no_acceptable_candidate_is_said_plainly(tmp_path):
 
 
 def test_demo_design_and_specs():
-    # The demo scenario (invented product and parts) loads and its review picks the MOSFET.
+    # The demo scenario (invented product and parts) loads and its review picks the lower-loss MOSFET,
+    # the N-channel part in the return, and names the switched ground it brings.
     for path in sorted((DEMO / "specs").glob("*.toml")):
         assert load_spec(path).name.startswith("DEMO-")
     r = review(load_design(DEMO / "design.toml"))
-    assert [c.kind for c in r.candidates] == ["rectifier", "schottky", "pmos"]
-    assert r.recommended.startswith("C") and r.clamp.resistor_ohm == 5100.0
+    assert [c.kind for c in r.candidates] == ["rectifier", "schottky", "pmos", "nmos"]
+    assert r.recommended.startswith("D") and r.clamp.resistor_ohm == 5100.0
+    assert [c.acceptable for c in r.candidates] == [False, False, True, True]
+    assert any("switches the board's ground" in m and m.startswith("D:") for m in r.reminders)
     assert any("automotive" in m for m in r.reminders)
 
 

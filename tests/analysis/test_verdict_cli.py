@@ -95,10 +95,10 @@ def test_lot_json(runs):
 def test_design_cli_demo():
     code, out, _ = cli("design", DEMO / "design.toml", "--json")
     r = json.loads(out)
-    assert code == 0 and r["recommended"].startswith("C")
+    assert code == 0 and r["recommended"].startswith("D")
     assert r["clamp"]["resistor_ohm"] == 5100.0
     code, text, _ = cli("design", DEMO / "design.toml")
-    assert code == 0 and "recommended: C" in text and "ISO 7637-2" in text
+    assert code == 0 and "recommended: D" in text and "ISO 7637-2" in text
 
 
 @pytest.mark.parametrize(

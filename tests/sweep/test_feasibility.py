@@ -71,6 +71,41 @@ def test_a_low_zener_clamp_is_a_warning():
     assert any("zener" in w for w in warnings)
 
 
+def nmos_plan(element="", extra=""):
+    return parse_plan(PMOS.replace('kind = "pmos"', 'kind = "nmos"').format(element=element, extra=extra), "plan.toml")
+
+
+def test_nmos_gate_on_the_input_forced_by_the_supply_is_refused():
+    # Same KVL as the P-MOSFET: forced into a near-short, |Vgs| is only the lead drop (registry: gate to the input).
+    with pytest.raises(BadInput) as err:
+        check_plan_on_bench(nmos_plan(), bench("supply"))
+    line = err.value.line()
+    assert line.startswith("bench.toml: [wiring].force") and "gate tied to the input" in line
+    assert "N-MOSFET" in line and "cannot enhance" in line
+
+
+@pytest.mark.parametrize("element", ['measure = "body_diode"', 'gate = "driven"'])
+def test_nmos_explicit_overrides_are_accepted(element):
+    assert check_plan_on_bench(nmos_plan(element), bench("supply")) == []
+
+
+def test_nmos_body_diode_needs_a_silicon_junction_compliance():
+    # A body diode measured on purpose is a silicon junction: nothing flows below about 0.5 V (common practice).
+    p = parse_plan(PMOS.replace('kind = "pmos"', 'kind = "nmos"').replace("compliance_v = 3.0", "compliance_v = 0.3")
+                   .format(element='measure = "body_diode"', extra=""), "plan.toml")
+    with pytest.raises(BadInput, match=r"compliance_v: is 0.3 V, below the 0.5 V"):
+        check_plan_on_bench(p, bench("supply"))
+
+
+def test_nmos_load_wiring_needs_enough_input_for_the_gate():
+    p = parse_plan(PMOS.replace('kind = "pmos"', 'kind = "nmos"').replace("compliance_v = 3.0", "")
+                   .format(element="", extra=""), "plan.toml")
+    assert p.element.gate == "input"  # the registry's protection wiring for an N-MOSFET in the return
+    with pytest.raises(BadInput, match=r"\[wiring\].input_v.*gate on the input.*too low to enhance"):
+        check_plan_on_bench(p, bench("load", input_v=3.3))
+    assert check_plan_on_bench(p, bench("load", input_v=12.0, current_from="load")) == []
+
+
 class _Role:
     def __init__(self, profile, can_reverse=False):
         self.profile, self.can_reverse = profile, can_reverse

@@ -100,6 +100,10 @@ BROKEN = [
     (_replace('id = "D1"', 'id = ""'), "[element].id", "a name"),
     (_replace("operating_a = 1.0", "operating_a = 9.0"), "[element].operating_a", "the sweep may reach"),
     (_replace("operating_a = 1.0", 'gate = "return"'), "[element].gate", "only applies to a MOSFET"),
+    ("[element]\nid='q'\nkind='nmos'\ngate='return'\n[steps]\nmode='log'\nstart_a=0.1\nstop_a=1\ncount=3\n"
+     "[limits]\nmax_current_a=1\n", "[element].gate", "one of 'input', 'driven'"),
+    ("[element]\nid='q'\nkind='pmos'\ngate='input'\n[steps]\nmode='log'\nstart_a=0.1\nstop_a=1\ncount=3\n"
+     "[limits]\nmax_current_a=1\n", "[element].gate", "one of 'return', 'driven'"),
     (GOOD + "\n[extra]\nx = 1\n", "extra", "unknown key"),
     (_replace("[limits]", "[limit]"), "limit", "did you mean 'limits'"),
     (GOOD.replace("[steps]\nmode", "[steps]\ncurrents_a = [1.0]\nmode"), "[steps].currents_a", "only used with mode 'list'"),

@@ -152,3 +152,47 @@ async def test_an_instrument_fault_is_a_clear_message_with_outputs_off(tmp_path)
             assert "FAULT:" in text and "outputs are off" in text and "Traceback" not in text
     finally:
         app.session.close()
+
+
+async def test_the_nmos_kind_is_picked_run_and_judged_with_the_footer_keys(tmp_path):
+    # The N-MOSFET appears where the other kinds do: its demo plan with `n`, its spec with `k`; the
+    # session restarts the simulated bench with the plan's kind, and the sweep gets a verdict.
+    from benchlog.tui.launch import demo_plans
+
+    plans = demo_plans()
+    start = demo_plan("pmos-prototype")
+    from benchlog.sweep.plan import load_plan
+
+    session = BenchSession.simulated(load_plan(start).element, runs_dir=tmp_path / "runs", seed=3)
+    specs = demo_specs()
+    app = BenchApp(session, runs_dir=tmp_path / "runs", plans=plans, specs=specs, plan=start,
+                   spec=spec_for_kind("pmos", specs))
+    try:
+        async with app.run_test(size=(100, 30)) as pilot:
+            await settle(pilot, app, lambda: all(r.state == "connected" for r in app.state.roles))
+            await pilot.press("2")
+            for _ in plans:
+                if "Q2 (nmos)" in screen_text(app):
+                    break
+                await pilot.press("n")
+                await pilot.pause(0.1)
+            assert "Q2 (nmos)" in screen_text(app) and app.state.plan_path.stem == "nmos-prototype"
+            for _ in specs:
+                if "DEMO-NFET-4M (nmos)" in screen_text(app):
+                    break
+                await pilot.press("k")
+                await pilot.pause(0.1)
+            assert "DEMO-NFET-4M (nmos)" in screen_text(app)
+            await pilot.press("r")
+            await settle(pilot, app, lambda: isinstance(app.screen, CautionScreen))
+            await pilot.press("y")
+            await settle(pilot, app, lambda: app.state.findings is not None, timeout=60)
+            assert app.state.last_outcome.outcome == "complete"
+            assert app.session.sim.config.element == "nmos"
+            assert not app.session.sim.bench.supply.output_on and not app.session.sim.bench.load.input_on
+            await pilot.press("4")
+            await pilot.pause(0.2)
+            text = screen_text(app)
+            assert "VERDICT:" in text and "PASS ✔" in text
+    finally:
+        app.session.close()
