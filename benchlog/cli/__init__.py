@@ -41,7 +41,8 @@ def build_parser() -> argparse.ArgumentParser:
         prog="benchlog",
         description=(
             "Measure the reverse-polarity protection element of a board (rectifier, Schottky, "
-            "P-MOSFET) over SCPI, fit it, predict its loss from the part spec and give a verdict."
+            "P-MOSFET in the supply line, N-MOSFET in the return) over SCPI, fit it, predict its loss "
+            "from the part spec and give a verdict."
         ),
     )
     parser.add_argument("--version", action="version", version=f"benchlog {__version__}")
