@@ -63,6 +63,9 @@ class ElementKind:
     passive_gate: str = ""  # the plan's [element].gate value for the protection wiring ("return" | "input")
     gate_to: str = ""  # where that gate is tied, in words
     switches_ground: bool = False  # the board's ground is the supply return plus the element's drop
+    # Junction kinds: what a prediction assumes when the datasheet is silent, with the reason it states.
+    default_ideality: tuple[float, str] | None = None
+    default_vf_tempco_v_per_k: tuple[float, str] | None = None
 
     @property
     def has_gate(self) -> bool:
@@ -101,8 +104,17 @@ class ElementKind:
 REGISTRY: dict[str, ElementKind] = {
     k.name: k
     for k in (
-        ElementKind("rectifier", "silicon rectifier", "diode", "junction", True, SILICON_MIN_FORWARD_V),
-        ElementKind("schottky", "Schottky diode", "diode", "junction", True, 0.15),
+        ElementKind(
+            "rectifier", "silicon rectifier", "diode", "junction", True, SILICON_MIN_FORWARD_V,
+            default_ideality=(2.0, "silicon PN rectifiers at rated current run in high-level injection, "
+                                   "n ≈ 2 (common practice)"),
+            default_vf_tempco_v_per_k=(-2.0e-3, "silicon junction Vf falls about 2 mV/K (common practice)"),
+        ),
+        ElementKind(
+            "schottky", "Schottky diode", "diode", "junction", True, 0.15,
+            default_ideality=(1.2, "metal-semiconductor barriers are near-ideal, n ≈ 1.0–1.3 (common practice)"),
+            default_vf_tempco_v_per_k=(-1.5e-3, "Schottky Vf falls about 1–2 mV/K (common practice)"),
+        ),
         ElementKind("pmos", "P-MOSFET in the supply line, gate to the return", "mosfet", "channel", True, 0.0,
                     channel="p", passive_gate="return", gate_to="the return"),
         ElementKind("nmos", "N-MOSFET in the return, gate to the input", "mosfet", "channel", True, 0.0,

@@ -34,10 +34,8 @@ from benchlog.badinput import BadInput
 
 from .spec import (
     DEFAULT_BODY_DIODE,
-    DEFAULT_IDEALITY,
     DEFAULT_IR_DOUBLING_K,
     DEFAULT_RDS_ON_TEMPCO_PER_K,
-    DEFAULT_VF_TEMPCO_V_PER_K,
     DiodeSpec,
     MosfetSpec,
     PartSpec,
@@ -109,11 +107,11 @@ def _diode_params(spec: PartSpec, notes: list[str]) -> tuple[float, float]:
     d = spec.part
     n = d.ideality
     if n is None:
-        n, why = DEFAULT_IDEALITY[spec.kind]
+        n, why = spec.element.default_ideality
         notes.append(f"ideality n = {n:g} assumed: {why}")
     tc = d.vf_tempco_v_per_k
     if tc is None:
-        tc, why = DEFAULT_VF_TEMPCO_V_PER_K[spec.kind]
+        tc, why = spec.element.default_vf_tempco_v_per_k
         notes.append(f"Vf tempco {tc * 1e3:g} mV/K assumed: {why}")
     return n, tc
 

@@ -28,15 +28,8 @@ from dataclasses import dataclass, replace
 
 from benchlog.kinds import ElementKind, kind as element_kind
 
-# Defaults used when a datasheet is silent; each prediction that uses one says so.
-DEFAULT_IDEALITY = {
-    "rectifier": (2.0, "silicon PN rectifiers at rated current run in high-level injection, n ≈ 2 (common practice)"),
-    "schottky": (1.2, "metal-semiconductor barriers are near-ideal, n ≈ 1.0–1.3 (common practice)"),
-}
-DEFAULT_VF_TEMPCO_V_PER_K = {
-    "rectifier": (-2.0e-3, "silicon junction Vf falls about 2 mV/K (common practice)"),
-    "schottky": (-1.5e-3, "Schottky Vf falls about 1–2 mV/K (common practice)"),
-}
+# Defaults used when a datasheet is silent; each prediction that uses one says so. A junction kind's
+# ideality and Vf tempco defaults are the registry's (ElementKind.default_ideality, ...).
 DEFAULT_RDS_ON_TEMPCO_PER_K = (
     5.0e-3, "R_DS(on) rises about 0.5 %/K, roughly 1.6x from 25 to 150 °C (common practice)"
 )

@@ -80,6 +80,9 @@ def test_each_kind_is_consistent(name):
         assert k.fit_model("body_diode") == "auto" and k.fit_model() == "resistive"
     assert k.fit_model() == ("auto" if k.conduction == "junction" else "resistive")
     assert k.lot_quantity() == ("drop_v" if k.conduction == "junction" else "r_on_ohm")
+    # a junction kind's spec may leave out n and the tempco: the registry must supply both
+    junction_defaults = (k.default_ideality, k.default_vf_tempco_v_per_k)
+    assert all(d is not None for d in junction_defaults) == (k.conduction == "junction")
 
 
 def test_unknown_kind_names_the_known_ones():
