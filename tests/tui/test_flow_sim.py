@@ -176,7 +176,9 @@ async def test_the_nmos_kind_is_picked_run_and_judged_with_the_footer_keys(tmp_p
                     break
                 await pilot.press("n")
                 await pilot.pause(0.1)
-            assert "Q2 (nmos)" in screen_text(app) and app.state.plan_path.stem == "nmos-prototype"
+            text = screen_text(app)
+            assert "Q2 (nmos)" in text and app.state.plan_path.stem == "nmos-prototype"
+            assert "N-MOSFET in the return" in text and "switches the board's ground" in text
             for _ in specs:
                 if "DEMO-NFET-4M (nmos)" in screen_text(app):
                     break

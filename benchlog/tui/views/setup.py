@@ -10,6 +10,8 @@ from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, Static
 
+from benchlog.kinds import kind as element_kind
+
 from ..tomltext import dump_tables
 from ..widgets import Plain, cells
 from .base import View
@@ -132,9 +134,12 @@ class SetupView(View):
             span = f"{steps.mode} {steps.start_a:g}–{steps.stop_a:g} A, {steps.count} steps"
         e = plan.element
         lim = plan.limits
-        lines = [f"✔ plan checked: {e.id} ({e.kind})", f"  {span}",
+        k = element_kind(e.kind)
+        lines = [f"✔ plan checked: {e.id} ({e.kind})", f"  {k.title}", f"  {span}",
                  f"  stops at {lim.max_current_a:g} A" + (f", {lim.compliance_v:g} V" if lim.compliance_v else "")
                  + (f", {lim.max_power_w:g} W" if lim.max_power_w else "")]
+        if k.switches_ground:
+            lines.append("  ⚠ switches the board's ground: every return must pass through the element")
         if not self.app.state.caution_confirmed:
             lines.append("  r shows the safety caution first")
         box.update("\n".join(lines))
