@@ -53,7 +53,7 @@ class ElementKind:
     """What the whole program needs to know about one kind of protection element."""
 
     name: str  # the word in plan, spec and sim files
-    title: str  # how the UI and reports name it
+    title: str  # how the UI and reports name it (with `described` adding the gate wiring)
     family: str  # "diode" | "mosfet" | "resistor": the physics, the spec part and the prediction model
     conduction: str  # "junction" | "channel" | "resistive": what carries the forward current
     blocks_reverse: bool  # a reversed supply meets a blocking element
@@ -66,6 +66,11 @@ class ElementKind:
     # Junction kinds: what a prediction assumes when the datasheet is silent, with the reason it states.
     default_ideality: tuple[float, str] | None = None
     default_vf_tempco_v_per_k: tuple[float, str] | None = None
+
+    @property
+    def described(self) -> str:
+        """The title with the gate wiring, e.g. 'N-MOSFET in the return, gate to the input'."""
+        return f"{self.title}, gate to {self.gate_to}" if self.has_gate else self.title
 
     @property
     def has_gate(self) -> bool:
@@ -115,9 +120,9 @@ REGISTRY: dict[str, ElementKind] = {
             default_ideality=(1.2, "metal-semiconductor barriers are near-ideal, n ≈ 1.0–1.3 (common practice)"),
             default_vf_tempco_v_per_k=(-1.5e-3, "Schottky Vf falls about 1–2 mV/K (common practice)"),
         ),
-        ElementKind("pmos", "P-MOSFET in the supply line, gate to the return", "mosfet", "channel", True, 0.0,
+        ElementKind("pmos", "P-MOSFET in the supply line", "mosfet", "channel", True, 0.0,
                     channel="p", passive_gate="return", gate_to="the return"),
-        ElementKind("nmos", "N-MOSFET in the return, gate to the input", "mosfet", "channel", True, 0.0,
+        ElementKind("nmos", "N-MOSFET in the return", "mosfet", "channel", True, 0.0,
                     channel="n", position="return", passive_gate="input", gate_to="the input",
                     switches_ground=True),
         ElementKind("resistor", "series resistor", "resistor", "resistive", False, 0.0),

@@ -30,7 +30,7 @@ def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
     if gate_on_supply and w.force == "supply":
         raise BadInput(
             bench.source, "[wiring].force",
-            f"a {k.title.split(',')[0]} with its gate tied to {k.gate_to}, forced by the supply into a near-short, "
+            f"a {k.title} with its gate tied to {k.gate_to}, forced by the supply into a near-short, "
             "cannot enhance (|V_GS| is only the element drop), so its body diode would be measured instead",
             "force = 'load' with input_v above the gate threshold, [element].gate = 'driven', or "
             "[element].measure = 'body_diode' to measure the body diode on purpose",

@@ -135,7 +135,7 @@ class SetupView(View):
         e = plan.element
         lim = plan.limits
         k = element_kind(e.kind)
-        lines = [f"✔ plan checked: {e.id} ({e.kind})", f"  {k.title}", f"  {span}",
+        lines = [f"✔ plan checked: {e.id} ({e.kind})", f"  {k.described}", f"  {span}",
                  f"  stops at {lim.max_current_a:g} A" + (f", {lim.compliance_v:g} V" if lim.compliance_v else "")
                  + (f", {lim.max_power_w:g} W" if lim.max_power_w else "")]
         if k.switches_ground:
