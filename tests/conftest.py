@@ -2,12 +2,17 @@
 
 from __future__ import annotations
 
+import os
+import tempfile
 import time
 
 import pytest
 
 from benchlog.sim.config import SimConfig
 from benchlog.sim.server import RunningBench, serve_bench
+
+# Instrument locks go to a folder of this test session, never the user's own (child processes inherit it).
+os.environ.setdefault("BENCHLOG_LOCK_DIR", tempfile.mkdtemp(prefix="benchlog-test-locks-"))
 
 
 @pytest.fixture

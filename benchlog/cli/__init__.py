@@ -1,9 +1,11 @@
 """The `benchlog` command: argument parsing, `--json` output and exit codes; the work is done by the packages.
 
 Exit codes: 0 success or `pass`; 1 a measurement or check that ran but did not
-succeed (`fail`, limit hit, fault, cancel); 2 bad input (file, argument or an
-instrument's nonsense reply), always as one line on stderr; 3 a `conditional`
-verdict; 130 interrupted by Ctrl-C.
+succeed (`fail`, limit hit, fault, cancel, an output not confirmed off); 2 bad
+input (file, argument or an instrument's nonsense reply), always as one line on
+stderr; 3 a `conditional` verdict; 75 an instrument is in use by another
+session (one sweep per bench; EX_TEMPFAIL of BSD sysexits: try again later);
+130 interrupted by Ctrl-C; 143 SIGTERM.
 
 Each subcommand lives in its own module with a `register(subparsers)` function.
 """
@@ -23,6 +25,7 @@ EXIT_OK = 0
 EXIT_FAILED = 1
 EXIT_BAD_INPUT = 2
 EXIT_CONDITIONAL = 3
+EXIT_IN_USE = 75
 EXIT_INTERRUPTED = 130
 
 _COMMAND_MODULES = (ui_cmd, sweep_cmd, fit_cmd, analysis_cmd, report_cmd, sim_cmd, profiles_cmd, export_cmd)
@@ -70,14 +73,14 @@ def main(argv: list[str] | None = None) -> int:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return EXIT_FAILED
     except KeyboardInterrupt:
-        sys.stderr.write("benchlog: interrupted; outputs were switched off\n")
+        sys.stderr.write("benchlog: interrupted\n")  # a sweep has said what its outputs read back
         return EXIT_INTERRUPTED
     except Exception as exc:
         # An instrument fault outside a sweep (probe, connect): one line, not a traceback.
         # Imported here so that `benchlog --help` does not pay for pyvisa.
-        from benchlog.instruments.errors import BenchError
+        from benchlog.instruments.errors import BenchError, BenchInUse
 
         if not isinstance(exc, BenchError):
             raise
         sys.stderr.write(f"benchlog: {exc}\n")
-        return EXIT_FAILED
+        return EXIT_IN_USE if isinstance(exc, BenchInUse) else EXIT_FAILED

@@ -47,6 +47,10 @@ def register(sub) -> None:
     faults.add_argument("--queue-error-after", type=int, metavar="N", help="queue a spurious error after N messages")
     faults.add_argument("--trip-after", type=int, metavar="N",
                         help="trip the supply's protection after N supply messages")
+    faults.add_argument("--trickle-after", type=int, metavar="N",
+                        help="send the first reply after N messages one byte at a time")
+    faults.add_argument("--trickle-byte-s", type=float, metavar="S",
+                        help="seconds between the bytes of a trickled reply (default 0.5)")
     faults.add_argument("--fault-role", choices=ROLES, help="limit the faults to one instrument")
     p.set_defaults(handler=run)
 
@@ -60,6 +64,7 @@ def _config(args: argparse.Namespace):
         "drop_after_commands": args.drop_after, "extra_latency_s": args.extra_latency_s,
         "garbage_after": args.garbage_after, "hang_after": args.hang_after,
         "queue_error_after": args.queue_error_after, "supply_trip_after": args.trip_after, "role": args.fault_role,
+        "trickle_after": args.trickle_after, "trickle_byte_s": args.trickle_byte_s,
     }
     for name, value in fault_args.items():
         if name != "role" and value is not None and value < 0:
@@ -70,7 +75,10 @@ def _config(args: argparse.Namespace):
     if any(v is not None for v in fault_args.values()):
         merged = {k: getattr(faults, k) for k in fault_args}
         merged.update({k: v for k, v in fault_args.items() if v is not None})
-        faults = FaultPlan(**merged)
+        try:
+            faults = FaultPlan(**merged)
+        except ValueError as exc:
+            raise BadInput("argument", "", str(exc), "fault settings the simulated bench accepts") from None
     changes = {
         "element": args.element, "port": args.port, "host": args.host, "seed": args.seed,
         "latency_s": args.latency_s, "current_meter": args.current_meter,

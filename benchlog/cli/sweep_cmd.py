@@ -1,8 +1,15 @@
 """Subcommands `sweep` (run a plan on a bench, or on the built-in simulated bench) and `demo`.
 
-Exit codes: 0 the sweep completed; 1 it stopped on a limit, a fault or a
-cancel; 2 bad input (plan, bench, wiring refused, or an instrument's nonsense
-reply); 130 Ctrl-C (outputs are off before the process exits).
+Exit codes: 0 the sweep completed and the outputs were read back off; 1 it
+stopped on a limit, a fault or a cancel, or an output was not confirmed off
+(`OUTPUTS MAY BE ON` on stderr); 2 bad input (plan, bench, wiring refused, or an
+instrument's nonsense reply); 75 an instrument of the bench is in use by another
+session (one line naming the holder; nothing was sent); 130 Ctrl-C; 143 SIGTERM.
+
+Every sweep ends with one statement about the outputs: `outputs verified off`
+(stdout, or the `safe_state` key of `--json`) when every supply and load read
+back off, else `OUTPUTS MAY BE ON: ...` on stderr naming each role and
+resource that did not confirm.
 """
 
 from __future__ import annotations
@@ -36,7 +43,8 @@ def register(sub) -> None:
     p.add_argument("plan", metavar="PLAN.toml", help="the sweep plan")
     p.add_argument("--bench", metavar="BENCH.toml", help="the bench file (default: built-in simulated bench)")
     p.add_argument("--out", metavar="DIR", default="runs", help="folder for the run file (default: ./runs)")
-    p.add_argument("--json", action="store_true", help='print {"run_file", "points", "outcome"} as JSON')
+    p.add_argument("--json", action="store_true",
+                   help='print {"run_file", "points", "outcome", "safe_state"} as JSON')
     p.add_argument("--yes", action="store_true", help="do not ask before switching a real bench on")
     p.add_argument("--seed", type=int, default=0, help="seed of the built-in simulated bench (default 0)")
     p.set_defaults(handler=_sweep)
@@ -142,18 +150,25 @@ def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, 
         if isinstance(event, Point) and progress is not None:
             progress.point()
         elif isinstance(event, Note) and event.kind in ("limit", "fault", "warning", "cancel"):
+            if event.message.startswith(UNSAFE_START):
+                return  # the one statement about the outputs comes once, at the end
             if progress is not None and progress.tty and progress.done:
                 sys.stderr.write("\n")
             sys.stderr.write(f"benchlog: {event.kind}: {event.message}\n")
 
+    def on_safe_state(report) -> None:
+        state["safe"] = report
+
     try:
         result = run_sweep(plan, bench, out, seed=seed, on_event=on_event, on_runner=on_runner,
-                           before_power_on=_power_prompt(bench is not None, assume_yes))
-    except KeyboardInterrupt:
+                           before_power_on=_power_prompt(bench is not None, assume_yes),
+                           on_safe_state=on_safe_state)
+    except BaseException as exc:
         runner = state["runner"]
         if state["progress"] is not None:
             state["progress"].end()
-        if runner is not None and runner.run_file is not None:
+        _state_after_exception(state.get("safe"), exc)
+        if isinstance(exc, KeyboardInterrupt) and runner is not None and runner.run_file is not None:
             sys.stderr.write(f"benchlog: run file (cancelled): {runner.run_file}\n")
         raise
     if state["progress"] is not None:
@@ -161,7 +176,31 @@ def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, 
     return plan, result
 
 
+#: How the statement that an output was not confirmed off begins (instruments.guard.SafeStateReport).
+UNSAFE_START = "OUTPUTS MAY BE ON"
+
+
+def _state_after_exception(report, exc: BaseException) -> None:
+    """The statement about the outputs when the sweep ended by an exception.
+
+    Not verified: always said, on stderr (unless the exception is itself that statement,
+    which the caller prints). Verified: said after Ctrl-C or SIGTERM, where the user most
+    wants to know; after bad input or a connect fault the one line of the error stands alone.
+    """
+    if report is None:
+        return  # nothing was connected: no output was touched
+    from benchlog.instruments.errors import SafeStateFailed
+
+    if not report.verified:
+        if not isinstance(exc, SafeStateFailed):  # that one is printed by the caller: it is the statement
+            sys.stderr.write(f"benchlog: {report.statement()}\n")
+    elif isinstance(exc, (KeyboardInterrupt, SystemExit)):
+        sys.stderr.write(f"benchlog: {report.statement()}\n")
+
+
 def _exit_code(result) -> int:
+    if result.safe_state == "unverified":
+        return 1
     if result.outcome == "complete":
         return 0
     if result.outcome == "fault" and isinstance(result.fault, BadInput):
@@ -172,11 +211,22 @@ def _exit_code(result) -> int:
 def _sweep(args) -> int:
     plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes)
     if args.json:
-        print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome})
+        print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome,
+                    "safe_state": result.safe_state})
     else:
         print(f"run file: {result.run_file}")
         print(f"{result.points} points, outcome {result.outcome}" + (f": {result.message}" if result.message else ""))
+    _say_safe_state(result, text=not args.json)
     return _exit_code(result)
+
+
+def _say_safe_state(result, *, text: bool) -> None:
+    """The one statement about the outputs: stdout when verified (text mode), stderr otherwise."""
+    if result.safe_state == "verified":
+        if text:
+            print(result.safe_statement)
+    elif result.safe_statement:
+        sys.stderr.write(f"benchlog: {result.safe_statement}\n")
 
 
 # -- demo -------------------------------------------------------------------------
@@ -212,6 +262,7 @@ def _demo(args) -> int:
         "run_file": str(result.run_file),
         "points": result.points,
         "outcome": result.outcome,
+        "safe_state": result.safe_state,
         "plan": str(plan_path),
         "element": {"id": plan.element.id, "kind": plan.element.kind, "label": plan.element.label},
     }
@@ -233,6 +284,7 @@ def _demo(args) -> int:
             print(f"verdict: {verdict['outcome']} ({verdict['rule']})")
         if summary.get("analysis_note"):
             print(summary["analysis_note"])
+    _say_safe_state(result, text=not args.json)
     return _exit_code(result)
 
 

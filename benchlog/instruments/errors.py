@@ -10,7 +10,8 @@ Nothing above `instruments/` ever sees a pyvisa or socket exception; it sees one
      │    ├── InstrumentError          the instrument reported an error (.code, .text, .command)
      │    ├── SafetyLimit              a setpoint refused before sending (outside the profile's ranges,
      │    │                            not a finite number, or a value that would change the command)
-     │    ├── SafeStateFailed          the safe state could not be reached on every role (.failures)
+     │    ├── SafeStateFailed          an output/input not confirmed off (.report, .failures)
+     │    ├── BenchInUse               another session holds an instrument's lock (.holder)
      │    ├── NonsenseReply  ──┐       a reply that is not what was asked for (.command, .reply)
      │    └── WrongInstrument ─┤       the *IDN? reply does not match the profile's idn_pattern
      └── BadInput              │       (benchlog.badinput) input a user must fix: one line, exit 2
@@ -71,12 +72,32 @@ class SafetyLimit(BenchError):
 
 
 class SafeStateFailed(BenchError):
-    """One or more roles could not be put in their safe state; `.failures` lists (role, step, error)."""
+    """An output or input was not confirmed off; `.report` holds every role's read-back state.
 
-    def __init__(self, failures: list[tuple[str, str, BaseException]]) -> None:
-        self.failures = tuple(failures)
-        parts = [f"{who}: {step} failed ({err})" for who, step, err in failures]
-        super().__init__("safe state not reached: " + "; ".join(parts) + " -- check the outputs by hand")
+    Built from a guard's `SafeStateReport` (its message is the report's one statement), or
+    from a plain list of (role, step, error) failures.
+    """
+
+    def __init__(self, report_or_failures) -> None:
+        failures = getattr(report_or_failures, "failures", None)
+        if failures is not None:
+            self.report = report_or_failures
+            self.failures = tuple(failures)
+            message = report_or_failures.statement()
+        else:
+            self.report = None
+            self.failures = tuple(report_or_failures)
+            parts = [f"{who}: {step} failed ({err})" for who, step, err in self.failures]
+            message = "OUTPUTS MAY BE ON: " + "; ".join(parts) + " -- switch them off by hand now"
+        super().__init__(message)
+
+
+class BenchInUse(BenchError):
+    """Another session holds the lock of an instrument resource: one sweep per bench."""
+
+    def __init__(self, message: str, *, resource: str = "", holder: object = None) -> None:
+        self.holder = holder
+        super().__init__(message, resource=resource)
 
 
 class ProfileError(BadInput):

@@ -1,14 +1,26 @@
-"""The one place that leaves the bench safe: every output and input off on any way out of a block.
+"""The one place that leaves the bench safe: every output and input off on any way out, and read back.
 
-    with safe_state_guard(supply, load, meter):
+    with safe_state_guard(supply, load, meter) as guard:
         ...  # switch power on, sweep
+    guard.outcome.state   # "verified" | "unverified" | "unknown"
 
 On normal exit, an exception, Ctrl-C (KeyboardInterrupt) and SIGTERM the guard
-switches every role's output/input off first, then sets every setpoint to zero,
-then reads each error queue. Each role and each step is tried independently: one
-instrument that fails (a dropped link, a timeout) never stops the others, and a
-lost link is reopened once to reach the off state. While the guard cleans up, a
-second Ctrl-C or SIGTERM is held back until the bench is safe.
+first drains each power role's error queue (an error an earlier command caused
+is reported as such, never blamed on the safe state; a reply still owed to an
+interrupted query is read first, so the off command does not provoke -410),
+then switches every output/input off, sets every setpoint to zero, reads the
+error queues again, and finally reads each output/input state back with the
+profile's state query. Each role and each step is tried independently: one
+instrument that fails never stops the others, and a lost link is reopened (a
+few tries, a fresh connection) to switch off and then to read back.
+
+The result is one `SafeStateReport` with one statement: outputs verified off,
+or `OUTPUTS MAY BE ON` naming each role and resource that did not confirm.
+"unknown" means the off command was sent without error but the profile has no
+state query to read it back. Roles added with `add()` (right after each
+connects) are switched off and read back at once; an output found on then is
+reported. While the guard cleans up, a second Ctrl-C or SIGTERM is held back
+until the bench is safe.
 
 SIGTERM: while the guard is active in the main thread, a handler turns SIGTERM
 into `Terminated` (a SystemExit with code 143 = 128 + 15, the shell convention),
@@ -22,11 +34,56 @@ from __future__ import annotations
 import signal
 import sys
 import threading
+from dataclasses import dataclass
 from typing import Any, Callable
 
 from .errors import SafeStateFailed
 
 Failure = tuple[str, str, BaseException]
+
+SAFE_STATES = ("verified", "unverified", "unknown")
+
+
+@dataclass(frozen=True)
+class RoleSafety:
+    """One power role after the safe state: what its own state query said."""
+
+    label: str  # "supply TCPIP0::...::SOCKET"
+    state: str  # "verified" | "unverified" | "unknown"
+    why: str = ""  # why it is not verified
+
+
+@dataclass(frozen=True)
+class SafeStateReport:
+    """Every power role's read-back state, the step failures and the errors earlier commands left."""
+
+    roles: tuple[RoleSafety, ...] = ()
+    failures: tuple[Failure, ...] = ()
+    earlier_errors: tuple[str, ...] = ()
+
+    @property
+    def state(self) -> str:
+        """'verified' only when every power role read back off; 'unverified' when any did not."""
+        states = [r.state for r in self.roles]
+        if "unverified" in states:
+            return "unverified"
+        if states and all(s == "verified" for s in states):
+            return "verified"
+        return "unknown"
+
+    @property
+    def verified(self) -> bool:
+        return self.state == "verified"
+
+    def statement(self) -> str:
+        """The one sentence about the outputs: verified off, or OUTPUTS MAY BE ON naming what did not confirm."""
+        if self.verified:
+            return "outputs verified off (read back): " + ", ".join(r.label for r in self.roles)
+        open_ = [r for r in self.roles if r.state != "verified"]
+        parts = [f"{r.label} did not confirm off ({r.why})" if r.state == "unverified"
+                 else f"{r.label} was sent off but not read back ({r.why})" for r in open_]
+        which = "it" if len(open_) == 1 else "them"
+        return "OUTPUTS MAY BE ON: " + "; ".join(parts) + f" -- switch {which} off by hand now"
 
 
 class Terminated(SystemExit):
@@ -58,9 +115,24 @@ def _steps(role: Any) -> tuple[Callable[[], list[Failure]], ...]:
     return (whole, lambda: [], lambda: [])
 
 
-def reach_safe_state(*roles: Any) -> list[Failure]:
-    """All roles off, then all setpoints to zero, then all error queues; returns every failure."""
+def _call(role: Any, name: str, default: Any) -> Any:
+    method = getattr(role, name, None)
+    if method is None:
+        return default
+    try:
+        return method()
+    except Exception as exc:  # noqa: BLE001 -- a role whose own step broke must not stop the others
+        return exc
+
+
+def reach_safe_state(*roles: Any) -> SafeStateReport:
+    """Errors drained, all roles off, all setpoints to zero, error queues read, states read back."""
     present = [r for r in roles if r is not None]
+    earlier: list[str] = []
+    for role in present:
+        found = _call(role, "safe_prepare", ())
+        if isinstance(found, tuple):
+            earlier.extend(found)
     phased = [_steps(r) for r in present]
     failures: list[Failure] = []
     for phase in range(3):
@@ -68,21 +140,87 @@ def reach_safe_state(*roles: Any) -> list[Failure]:
             try:
                 failures.extend(steps[phase]())
             except Exception as exc:  # a role whose own collector broke still must not stop the others
-                failures.append((getattr(role, "label", repr(role)), f"phase {phase + 1}", exc))
-    return failures
+                failures.append((_label(role), f"phase {phase + 1}", exc))
+    results: list[RoleSafety] = []
+    for role in present:
+        if not getattr(role, "has_power", True):
+            continue
+        label = _label(role)
+        verdict = _call(role, "safe_verify", None)
+        if isinstance(verdict, tuple):
+            state, why = verdict
+        elif isinstance(verdict, BaseException):
+            state, why = "unverified", f"state query failed: {verdict}"
+        else:
+            state, why = "unknown", "it cannot read its state back"
+        if state == "unknown":
+            own = [f"{step} failed ({err})" for who, step, err in failures if who == label]
+            if own:  # the off command itself failed and nothing can read the state: not confirmed
+                state, why = "unverified", "; ".join(own)
+        results.append(RoleSafety(label, state, why))
+    return SafeStateReport(tuple(results), tuple(failures), tuple(earlier))
+
+
+def _label(role: Any) -> str:
+    return getattr(role, "label", None) or repr(role)
+
+
+def _report_unless_verified(report: SafeStateReport) -> None:
+    if not report.verified:
+        _report_to_stderr(report.statement())
 
 
 class safe_state_guard:  # noqa: N801 - used like a function: `with safe_state_guard(...)`
-    """Context manager that leaves every given role in its safe state; `None` roles are skipped."""
+    """Context manager that leaves every given role in its safe state and reads it back; `None` roles are skipped.
 
-    def __init__(self, *roles: Any, report: Callable[[str], None] = _report_to_stderr) -> None:
-        self.roles = roles
+    `report` receives the `SafeStateReport` on every exit (the default prints the
+    statement to stderr unless the outputs were verified off). Leaving a block
+    without an exception but with an output not confirmed off raises SafeStateFailed
+    (unless `raise_unverified` is False: then `report` alone tells it).
+    """
+
+    def __init__(self, *roles: Any, report: Callable[[SafeStateReport], None] | None = _report_unless_verified,
+                 raise_unverified: bool = True) -> None:
+        self.roles = tuple(r for r in roles if r is not None)
         self.report = report
-        self.failures: list[Failure] = []
+        self.raise_unverified = raise_unverified
+        self.outcome: SafeStateReport | None = None
+        self.connect_notes: list[str] = []
         self._previous_term: Any = None
         self._installed = False
         self._cleaning = False
         self._held: list[int] = []
+
+    @property
+    def failures(self) -> list[Failure]:
+        return list(self.outcome.failures) if self.outcome is not None else []
+
+    def add(self, role: Any) -> None:
+        """Take a role just connected into the guard: switch it off now and read it back.
+
+        An output found on is noted in `connect_notes`; one that does not read back off
+        raises SafeStateFailed at once (the block then unwinds through this guard).
+        """
+        if role is None:
+            return
+        self.roles = self.roles + (role,)
+        if not getattr(role, "has_power", False):
+            return
+        was_on = None
+        if getattr(role, "can_read_state", False):
+            try:
+                was_on = role.power_is_on()
+            except Exception:  # noqa: BLE001 -- the off command and its read-back still follow
+                was_on = None
+        report = reach_safe_state(role)
+        entry = report.roles[0] if report.roles else RoleSafety(_label(role), "unknown", "")
+        if was_on:
+            found = "switched off (read back)" if entry.state == "verified" else "NOT confirmed off"
+            self.connect_notes.append(f"{entry.label}: output was ON when benchlog connected; {found}")
+        for text in report.earlier_errors:
+            self.connect_notes.append(text)
+        if entry.state == "unverified":
+            raise SafeStateFailed(report)
 
     # -- signals ------------------------------------------------------------------------
     def _on_signal(self, signum: int, frame: Any) -> None:
@@ -116,7 +254,7 @@ class safe_state_guard:  # noqa: N801 - used like a function: `with safe_state_g
             except ValueError:
                 shielded = False
         try:
-            self.failures = reach_safe_state(*self.roles)
+            self.outcome = reach_safe_state(*self.roles)
         finally:
             if shielded:
                 signal.signal(signal.SIGINT, previous_int)
@@ -125,16 +263,16 @@ class safe_state_guard:  # noqa: N801 - used like a function: `with safe_state_g
                 self._installed = False
             self._cleaning = False
 
-        if self.failures:
-            error = SafeStateFailed(self.failures)
-            self.report(str(error))
+        outcome = self.outcome
+        if self.report is not None:
+            self.report(outcome)
+        if outcome.state == "unverified":
             if exc is None:
-                raise error
-            exc.add_note(str(error))
-        else:
-            done = ", ".join(getattr(r, "label", type(r).__name__) for r in self.roles if r is not None)
-            if exc is not None and done:
-                exc.add_note(f"safe state reached: {done}")
+                if self.raise_unverified:
+                    raise SafeStateFailed(outcome)
+            exc.add_note(outcome.statement())
+        elif exc is not None and outcome.roles:
+            exc.add_note(outcome.statement())
         if exc is None and self._held:
             raise Terminated() if signal.SIGTERM in self._held else KeyboardInterrupt
         return False

@@ -61,6 +61,10 @@ OPERATIONS: Mapping[str, Mapping[str, tuple[Operation, bool]]] = MappingProxyTyp
                 "output_off": (_op(False), True),
                 "measure_voltage": (_op(True), True),
                 "measure_current": (_op(True), True),
+                "output_state": (_op(True), False),
+                "over_voltage_protection": (_op(False, ("voltage_v",)), False),
+                "over_current_protection": (_op(False, ("current_a",)), False),
+                "output_timer": (_op(False, ("duration_s",)), False),
                 "protection_tripped": (_op(True), False),
                 "protection_clear": (_op(False), False),
                 "polarity_normal": (_op(False), False),
@@ -75,6 +79,7 @@ OPERATIONS: Mapping[str, Mapping[str, tuple[Operation, bool]]] = MappingProxyTyp
                 "set_current": (_op(False, ("current_a",)), True),
                 "input_on": (_op(False), True),
                 "input_off": (_op(False), True),
+                "input_state": (_op(True), False),
                 "measure_voltage": (_op(True), True),
                 "measure_current": (_op(True), True),
                 "error_query": (_op(True), False),
@@ -111,7 +116,22 @@ ACCURACY_FUNCTIONS: Mapping[str, tuple[str, ...]] = MappingProxyType(
 )
 
 # Sample values used to dry-run every template through fill_template at load time.
-_SAMPLE_VALUES = {"voltage_v": 1.5, "current_a": 0.25, "range_v": 10.0, "range_a": 1.0, "nplc": 1.0, "count": 4}
+_SAMPLE_VALUES = {"voltage_v": 1.5, "current_a": 0.25, "range_v": 10.0, "range_a": 1.0, "nplc": 1.0, "count": 4,
+                  "duration_s": 60.0}
+
+#: Program headers a connect command must not carry: they switch power on or program a setpoint
+#: (SCPI-99 vol. 2 SOURce, OUTPut and INPut subsystems; APPLy sets voltage and current at once).
+#: A connect command runs before the plan is checked and before the caution, so it must leave
+#: the instrument harmless; the sweep programs every setpoint itself.
+SETPOINT_HEADERS = (
+    "[SOURce:]VOLTage[:LEVel][:IMMediate][:AMPLitude]",
+    "[SOURce:]CURRent[:LEVel][:IMMediate][:AMPLitude]",
+    "[SOURce:]POWer[:LEVel][:IMMediate][:AMPLitude]",
+    "[SOURce:]RESistance[:LEVel][:IMMediate][:AMPLitude]",
+    "APPLy",
+)
+#: Headers whose boolean parameter switches an output or input: refused unless it says OFF / 0.
+SWITCH_HEADERS = ("OUTPut[:STATe]", "INPut[:STATe]")
 
 
 @dataclass(frozen=True)
@@ -325,6 +345,8 @@ def _build(root: Table, path: Path | None, sha256: str) -> Profile:
             raise link.fail(f"connect_commands[{i}]", f"has a placeholder in {command!r}", "fixed command text")
 
     commands = _commands(root.table("commands"), role)
+    for i, command in enumerate(connect):
+        _check_harmless(link, f"connect_commands[{i}]", command, commands)
     mode = _mode(root, role)
     limits = _limits(root.table("limits"), role, commands)
     accuracy = _accuracy(root, role, limits, commands)
@@ -346,6 +368,50 @@ def _build(root: Table, path: Path | None, sha256: str) -> Profile:
         path=path,
         sha256=sha256,
     )
+
+
+def _check_harmless(table: Table, key: str, command: str, commands: Mapping[str, str]) -> None:
+    """Refuse a connect command that switches power on or programs a setpoint.
+
+    Headers are compared with the SCPI short/long-form matcher (`VOLT`, `SOUR:VOLTAGE`
+    and `:source:volt:lev` are all the same header), unit by unit after `;`; the
+    profile's own power templates (output_on, set_voltage, ...) are refused in any form.
+    """
+    from benchlog.scpi.errors import ScpiError as _ScpiError
+    from benchlog.scpi.headers import matches
+    from benchlog.scpi.messages import split_message
+
+    try:
+        units = split_message(command)
+    except _ScpiError as exc:
+        raise table.fail(key, f"is not a SCPI program message ({exc})", "SCPI command text") from None
+    expected = "connect commands that leave every output off and program no setpoint (the sweep sets them)"
+    own = {}
+    for op in ("output_on", "input_on", "set_voltage", "set_current_limit", "set_current"):
+        template = commands.get(op)
+        if template is None:
+            continue
+        try:
+            for unit in split_message(fill_template(template, **{n: _SAMPLE_VALUES[n] for n in _SAMPLE_VALUES})):
+                own.setdefault(unit.header.upper(), (op, unit.params))
+        except _ScpiError:
+            continue
+    for unit in units:
+        if unit.is_query or unit.header.startswith("*"):
+            continue
+        if any(matches(pattern, unit.header) for pattern in SETPOINT_HEADERS):
+            raise table.fail(key, f"programs a setpoint ({command!r})", expected)
+        if any(matches(pattern, unit.header) for pattern in SWITCH_HEADERS):
+            value = unit.params[0].strip().upper() if unit.params else ""
+            if value not in ("OFF", "0"):
+                raise table.fail(key, f"switches an output or input on ({command!r})", expected)
+        hit = own.get(unit.header.upper())
+        if hit is not None:
+            op, params = hit
+            if op in ("output_on", "input_on") and tuple(p.upper() for p in unit.params) != tuple(
+                    p.upper() for p in params):
+                continue  # the same header with another argument (OFF) is the off command
+            raise table.fail(key, f"is this profile's {op} command ({command!r})", expected)
 
 
 def _idn_pattern(root: Table) -> str:
@@ -428,6 +494,9 @@ def _example(op_name: str) -> str:
         "configure_voltage": "CONF:VOLT:DC {range_v};:VOLT:DC:NPLC {nplc}",
         "configure_current": "CONF:CURR:DC {range_a};:CURR:DC:NPLC {nplc}",
         "set_samples": "SAMP:COUN {count}",
+        "over_voltage_protection": "VOLT:PROT {voltage_v}",
+        "over_current_protection": "CURR:PROT {current_a}",
+        "output_timer": "OUTP:PROT:TIM {duration_s}",
     }.get(op_name, "")
 
 

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import math
 import numbers
+import time
 from collections import deque
 from typing import Callable
 
@@ -39,6 +40,11 @@ MAX_ERROR_READS = 32
 _LONGEST_PLC_S = 0.020
 # Allowance for autozero and settling per reading, as a factor on the integration time (common practice: ~2x).
 _READ_OVERHEAD = 2.0
+#: A lost link is reopened at most this often per safe-state step, waiting these seconds before each try
+#: (an instrument that reset its interface may refuse connections for a moment).
+REOPEN_WAITS_S = (0.0, 0.25, 1.0)
+#: How often the state query is asked (with the off command sent again in between) before "not confirmed".
+VERIFY_ATTEMPTS = 3
 
 Failure = tuple[str, str, BaseException]
 
@@ -191,6 +197,20 @@ class Role:
     def _safe_steps_zero(self) -> list[tuple[str, Callable[[], None]]]:
         return []
 
+    def _reopen(self) -> None:
+        """A fresh link after a lost or confused one: a few tries, then the last error is raised."""
+        last: BaseException | None = None
+        for wait_s in REOPEN_WAITS_S:
+            if wait_s:
+                time.sleep(wait_s)
+            try:
+                self.transport.reopen()
+                return
+            except TransportError as exc:
+                last = exc
+        assert last is not None
+        raise last
+
     def _run_safe(self, steps: list[tuple[str, Callable[[], None]]]) -> list[Failure]:
         failures: list[Failure] = []
         for step, action in steps:
@@ -198,12 +218,78 @@ class Role:
                 try:
                     action()
                 except TransportError:
-                    # A lost or confused link leaves the output as it was: open a fresh link and try once more.
-                    self.transport.reopen()
+                    # A lost or confused link leaves the output as it was: open a fresh link and try again.
+                    self._reopen()
                     action()
-            except Exception as exc:  # every failure is collected and reported; the next step still runs
+            except Exception as exc:  # noqa: BLE001 -- collected and reported; the next step still runs
                 failures.append((self.label, step, exc))
         return failures
+
+    # The operation that reads the output/input state back, and the command that switches it off.
+    _state_operation = ""
+    _off_operation = ""
+
+    @property
+    def has_power(self) -> bool:
+        """True for a role that can deliver or sink power (a supply or a load)."""
+        return bool(self._off_operation)
+
+    @property
+    def can_read_state(self) -> bool:
+        return bool(self._state_operation) and self.profile.has(self._state_operation)
+
+    def power_is_on(self) -> bool:
+        """The output/input state as the instrument reports it (its profile's state query)."""
+        command = self._command(self._state_operation)
+        reply = self._query(command)
+        try:
+            return parse_bool(reply)
+        except ScpiReplyError:
+            raise NonsenseReply(command, reply, "1, 0, ON or OFF", resource=self.resource) from None
+
+    def safe_prepare(self) -> tuple[str, ...]:
+        """Before the off commands: discard a reply still owed and drain the error queue.
+
+        Entries found here were caused by earlier commands; they are returned as text so they
+        are reported as what they are, not blamed on the safe-state commands. Nothing here may
+        stop the off commands: a failure (a lost link) is left for them to meet and reopen.
+        """
+        if not self.has_power:
+            return ()
+        try:
+            entries, _ = self._drain_errors()
+        except Exception:  # noqa: BLE001 -- the off commands go out regardless
+            return ()
+        command = " ; ".join(self._pending) or "an earlier command"
+        self._pending.clear()
+        return tuple(f"{self.label}: error {e.code:+d} \"{e.text}\" after {command!r} (before the safe state)"
+                     for e in entries)
+
+    def safe_verify(self) -> tuple[str, str]:
+        """Read the output/input state back: ('verified' | 'unverified' | 'unknown', why not verified)."""
+        if not self.has_power:
+            return "verified", ""
+        if not self.can_read_state:
+            return "unknown", f"its profile {self.profile.name!r} has no {self._state_operation} query"
+        last = ""
+        for attempt in range(VERIFY_ATTEMPTS):
+            try:
+                try:
+                    on = self.power_is_on()
+                except TransportError:
+                    self._reopen()
+                    on = self.power_is_on()
+            except Exception as exc:  # noqa: BLE001 -- every failure means "not confirmed"
+                last = f"state query failed: {exc}"
+                continue
+            if not on:
+                return "verified", ""
+            last = f"{self._state_operation} reads ON after the off command"
+            try:
+                self._write(self._command(self._off_operation))
+            except Exception as exc:  # noqa: BLE001
+                last += f"; sending off again failed: {exc}"
+        return "unverified", last
 
     def safe_off(self) -> list[Failure]:
         """Output or input off; returns the failures instead of raising, so the guard can go on."""
@@ -344,6 +430,42 @@ class Supply(Role):
         self.check_errors()
         self.reversed = bool(on)
 
+    _state_operation = "output_state"
+    _off_operation = "output_off"
+
+    @property
+    def protection_operations(self) -> tuple[str, ...]:
+        """The instrument's own protection this profile can program (a second line of defence)."""
+        return tuple(op for op in ("over_voltage_protection", "over_current_protection", "output_timer")
+                     if self.profile.has(op))
+
+    def program_protection(self, *, over_voltage_v: float | None, over_current_a: float | None,
+                           timer_s: float | None) -> list[str]:
+        """Program the levels the profile has operations for; returns what was set, as text.
+
+        Sent with the output off, before the first output-on, and checked through the error
+        queue: a level the instrument refused must not pass as a protection it does not have.
+        """
+        done: list[str] = []
+        sent: list[str] = []
+        if over_voltage_v is not None and self.profile.has("over_voltage_protection"):
+            v = self._setpoint("over_voltage_v", over_voltage_v, None, "V", "")
+            sent.append(self._command("over_voltage_protection", voltage_v=v))
+            done.append(f"over-voltage {v:g} V")
+        if over_current_a is not None and self.profile.has("over_current_protection"):
+            a = self._setpoint("over_current_a", over_current_a, None, "A", "")
+            sent.append(self._command("over_current_protection", current_a=a))
+            done.append(f"over-current {a:g} A")
+        if timer_s is not None and self.profile.has("output_timer"):
+            t = self._setpoint("timer_s", timer_s, None, "s", "")
+            sent.append(self._command("output_timer", duration_s=t))
+            done.append(f"output timer {t:g} s")
+        for command in sent:
+            self._write(command)
+        if sent:
+            self.check_errors(after=" ; ".join(sent))
+        return done
+
     def _safe_steps_off(self):
         def off() -> None:
             self._write(self._command("output_off"))
@@ -391,6 +513,9 @@ class Load(Role):
 
     def measure_current(self) -> float:
         return self._reading("measure_current")
+
+    _state_operation = "input_state"
+    _off_operation = "input_off"
 
     def _safe_steps_off(self):
         def off() -> None:

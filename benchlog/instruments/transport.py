@@ -20,10 +20,22 @@ between two exchanges is then seen before anything is sent into the dead link).
 In a back-to-back exchange a closed link shows up at once as a reset or, for a
 query, as the timeout that the peek then explains. Bytes that pyvisa-py already
 read past a reply are checked before every query without a system call.
+
+A reply must be complete within its timeout in total, not per byte: pyvisa-py's
+socket read restarts its wait whenever a byte arrives, so an instrument that
+trickles one byte at a time could hold a query for ever. On a pyvisa-py socket
+the reply is therefore read here against one deadline (select + recv into the
+session's own buffer); a reply still incomplete at the deadline abandons the
+link (it is closed; the next exchange, or the guard, opens a fresh one). Other
+backends keep their own read, and a reply that came in past the deadline is
+still refused. A write also waits for (and discards) a reply still owed to an
+interrupted query first, so a command never interrupts a query (-410, IEEE
+488.2 6.3.2.3).
 """
 
 from __future__ import annotations
 
+import select
 import socket
 import threading
 import time
@@ -234,6 +246,8 @@ class VisaTransport(Transport):
         _check_command(command, self.resource)
         with self._lock:
             self._ensure_open(command)
+            if self._stale or self._buffered():
+                self._drain()  # a reply still owed to an interrupted query: never answer it with a command
             self._write(command)
             self._last_io = _monotonic()
 
@@ -285,15 +299,77 @@ class VisaTransport(Transport):
         self._res_timeout_ms = ms
 
     def _read(self, command: str, timeout_s: float | None) -> str:
+        limit_s = self._timeout_s if timeout_s is None else float(timeout_s)
+        if self._sock is not None:
+            raw = self._read_by_deadline(command, limit_s)
+        else:
+            raw = self._read_visa(command, limit_s)
+        # latin-1 maps every byte, so a garbage reply reaches the parser (NonsenseReply), not a decode error.
+        text = raw.decode("latin-1")
+        if text.endswith(self.read_termination):
+            text = text[: -len(self.read_termination)]
+        return text.rstrip("\r\n")
+
+    def _read_visa(self, command: str, limit_s: float) -> bytes:
         # The resource keeps the last timeout set on it; it is changed only when a query needs
         # another one (the meter's reads add their integration time), not set and restored each time.
-        wanted = max(1, round((self._timeout_s if timeout_s is None else timeout_s) * 1000))
+        wanted = max(1, round(limit_s * 1000))
+        started = _monotonic()
         try:
             if wanted != self._res_timeout_ms:
                 self._set_timeout_ms(wanted)
             raw = self._res.read_raw()
         except self._pyvisa_errors as exc:
             raise self._convert(exc, command) from None
+        took = _monotonic() - started
+        if took > limit_s * 1.05 + 0.05:  # the backend waited per chunk: the reply is late as a whole
+            self._abandon(f"reply to {command!r} took {took:.3g} s, past its {limit_s:g} s deadline")
+            raise InstrumentTimeout(f"{self._lost}; link closed", resource=self.resource)
+        return raw
+
+    def _read_by_deadline(self, command: str, limit_s: float) -> bytes:
+        """One reply from a pyvisa-py socket, complete within `limit_s` in total."""
+        session, sock = self._session, self._sock
+        term = self.read_termination.encode("ascii")[-1:]
+        deadline = _monotonic() + limit_s
+        buffer = session._pending_buffer
+        while True:
+            end = buffer.find(term)
+            if end >= 0:
+                raw = bytes(buffer[: end + 1])
+                del buffer[: end + 1]
+                return raw
+            left = deadline - _monotonic()
+            if left <= 0:
+                break
+            try:
+                ready, _, _ = select.select([sock], [], [], left)
+                data = sock.recv(65536) if ready else None
+            except (OSError, ValueError) as exc:
+                raise self._convert(exc, command) from None
+            if data is None:
+                continue
+            if not data:
+                self._lose("connection closed by the instrument")
+                raise ConnectionLost(f"{self._lost} (no reply to {command!r})", resource=self.resource)
+            buffer.extend(data)
+        if buffer:
+            got = len(buffer)
+            self._abandon(f"reply to {command!r} incomplete after {limit_s:g} s ({got} bytes received)")
+            raise InstrumentTimeout(f"{self._lost}; link closed", resource=self.resource)
+        self._stale = True
+        return self._timed_out(command, limit_s)
+
+    def _timed_out(self, command: str, limit_s: float) -> bytes:
+        if self._peer_state() == "closed":
+            self._lose("connection closed by the instrument")
+            raise ConnectionLost(f"{self._lost} (no reply to {command!r})", resource=self.resource)
+        raise InstrumentTimeout(f"no reply to {command!r} within {limit_s:g} s", resource=self.resource)
+
+    def _abandon(self, reason: str) -> None:
+        """A reply still trickling in at its deadline: the link's state is unknown, so close it."""
+        self._lose(reason)
+        self._drop()
         # latin-1 maps every byte, so a garbage reply reaches the parser (NonsenseReply), not a decode error.
         text = raw.decode("latin-1")
         if text.endswith(self.read_termination):
@@ -302,6 +378,22 @@ class VisaTransport(Transport):
 
     def _drain(self) -> None:
         """Read and discard replies that arrived late, so the next reply belongs to the next query."""
+        if self._sock is not None:
+            wait_s = self.timeout_s
+            for _ in range(_DRAIN_MAX_READS):
+                try:
+                    self._read_by_deadline("(discarding a late reply)", wait_s)
+                except InstrumentTimeout:
+                    if self._lost is not None:  # still trickling: the link was abandoned
+                        raise ConnectionLost(f"{self._lost} (while discarding a late reply)",
+                                             resource=self.resource) from None
+                    break
+                wait_s = _DRAIN_FOLLOW_S
+            self._stale = False
+            return
+        self._drain_visa()
+
+    def _drain_visa(self) -> None:
         wait_s = self.timeout_s
         try:
             for _ in range(_DRAIN_MAX_READS):

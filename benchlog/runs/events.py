@@ -87,12 +87,20 @@ class Note:
     message: str
 
 
+SafeState = Literal["verified", "unverified", "unknown"]
+"""What the instruments said about their outputs after the run: read back off, tried but not
+confirmed, or not readable (the profile has no state query)."""
+
+SAFE_STATES: tuple[str, ...] = ("verified", "unverified", "unknown")
+
+
 @dataclass(frozen=True)
 class RunFinished:
     t_s: float
     outcome: Outcome
     points: int
     message: str = ""
+    safe_state: SafeState | None = None  # None: not recorded (files written before it existed)
 
 
 Event = Union[RunStarted, Offset, Point, ReverseResult, Note, RunFinished]

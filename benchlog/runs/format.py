@@ -30,7 +30,11 @@ Every other record is one JSON object with a ``"record"`` key:
     note     {"record": "note", "t_s", "kind", "message"}          limit, fault, warning, cancel, info
     reverse  {"record": "reverse", "t_s", "voltage_v", "duration_s",
               "current_a", "limit_a", "passed"}                    reverse-polarity step
-    end      {"record": "end", "t_s", "outcome", "points", "message"}   last record of a finished run
+    end      {"record": "end", "t_s", "outcome", "points", "message"[, "safe_state"]}
+                                                                    last record of a finished run;
+             safe_state (optional): "verified" (every output/input read back off),
+             "unverified" (switched off but not confirmed: may be on), "unknown"
+             (off sent, but a profile has no state query to read it back)
 
 Numbers everywhere must be finite (JSON has no NaN; ``1e400`` overflows and
 is refused) and, in SI units, no larger than `MAX_MAGNITUDE`.

@@ -17,7 +17,7 @@ from typing import Any
 
 from benchlog.badinput import BadInput
 
-from .events import Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
+from .events import SAFE_STATES, Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
 from .format import (
     ABSOLUTE_ZERO_C,
     DIRECTIONS,
@@ -49,7 +49,7 @@ _RECORD_KEYS: dict[str, tuple[str, ...]] = {
     "offset": ("record", "t_s", "drop_v"),
     "note": ("record", "t_s", "kind", "message"),
     "reverse": ("record", "t_s", "voltage_v", "duration_s", "current_a", "limit_a", "passed"),
-    "end": ("record", "t_s", "outcome", "points", "message"),
+    "end": ("record", "t_s", "outcome", "points", "message", "safe_state"),
 }
 
 
@@ -172,8 +172,10 @@ def decode_record(obj: dict[str, Any], at: _Line) -> Event:
     points = obj.get("points")
     if isinstance(points, bool) or not isinstance(points, int) or not 0 <= points <= MAX_INDEX:
         raise at.bad(f"end points is {_shown(points)}", "a whole number >= 0")
+    safe_state = _string(obj, "safe_state", kind, at, SAFE_STATES) if "safe_state" in obj else None
     return RunFinished(t_s=t_s, outcome=_string(obj, "outcome", kind, at, END_OUTCOMES),  # type: ignore[arg-type]
-                       points=points, message=_string(obj, "message", kind, at))
+                       points=points, message=_string(obj, "message", kind, at),
+                       safe_state=safe_state)  # type: ignore[arg-type]
 
 
 # --- the header -------------------------------------------------------------------------------

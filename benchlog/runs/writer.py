@@ -23,7 +23,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable
 
-from .events import Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
+from .events import SAFE_STATES, Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
 from .format import (
     ABSOLUTE_ZERO_C,
     DIRECTIONS,
@@ -130,10 +130,15 @@ def encode_event(event: Event) -> str:
     if isinstance(event, RunFinished):
         if event.outcome not in END_OUTCOMES:
             raise ValueError(f"outcome must be one of {END_OUTCOMES}, got {event.outcome!r}")
-        return _json_line({"record": "end", "t_s": float(_number("t_s", event.t_s)),
-                           "outcome": event.outcome,
-                           "points": int(_integer("points", event.points, 0, MAX_INDEX)),
-                           "message": str(event.message)})
+        record = {"record": "end", "t_s": float(_number("t_s", event.t_s)),
+                  "outcome": event.outcome,
+                  "points": int(_integer("points", event.points, 0, MAX_INDEX)),
+                  "message": str(event.message)}
+        if event.safe_state is not None:
+            if event.safe_state not in SAFE_STATES:
+                raise ValueError(f"safe_state must be one of {SAFE_STATES}, got {event.safe_state!r}")
+            record["safe_state"] = event.safe_state
+        return _json_line(record)
     raise TypeError(f"not a run event: {event!r}")
 
 

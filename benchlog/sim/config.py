@@ -69,7 +69,8 @@ class SimConfig:
 _TOP_KEYS = ("element", "seed", "ambient_c", "line_frequency_hz", "latency_s", "host", "port",
              "meter_has_measure", "current_meter", "shunt_ohm", "lead_resistance_ohm",
              "meter_integration_delay", "element_params", "faults")
-_FAULT_COUNTS = ("drop_after_commands", "garbage_after", "hang_after", "queue_error_after", "supply_trip_after")
+_FAULT_COUNTS = ("drop_after_commands", "garbage_after", "hang_after", "queue_error_after", "supply_trip_after",
+                 "trickle_after")
 
 
 def load_sim_config(path: str | Path) -> SimConfig:
@@ -101,10 +102,12 @@ def load_sim_config(path: str | Path) -> SimConfig:
         values["element_params"] = {k: params.number(k) for k in params.keys()}
     faults = root.table("faults", required=False)
     if faults is not None:
-        faults.only(_FAULT_COUNTS + ("extra_latency_s", "role"))
+        faults.only(_FAULT_COUNTS + ("extra_latency_s", "trickle_byte_s", "role"))
         plan: dict = {k: faults.integer(k, min=0) for k in _FAULT_COUNTS if faults.has(k)}
         if faults.has("extra_latency_s"):
             plan["extra_latency_s"] = faults.number("extra_latency_s", min=0, max=3600, unit="s")
+        if faults.has("trickle_byte_s"):
+            plan["trickle_byte_s"] = faults.number("trickle_byte_s", positive=True, max=60, unit="s")
         if faults.has("role"):
             plan["role"] = faults.string("role", choices=ROLES)
         values["faults"] = FaultPlan(**plan)

@@ -164,7 +164,9 @@ class _InstrumentServer:
                 self.device.push_error(-101, "Invalid character; only ASCII is understood")
                 reply = None
             else:
+                bench.supply.check_protection()
                 reply = self.device.execute(text)
+                bench.supply.check_protection()
             delay = bench.config.latency_s + self.faults.extra_latency_s + self.device.reply_delay_s
         if reply is None or "hang" in fired:
             return True
@@ -174,10 +176,24 @@ class _InstrumentServer:
             with bench.lock:
                 self.device.push_error(-410, "Query INTERRUPTED; a new message came before the reply was read")
             return True
+        data = reply.encode("ascii", "replace") + b"\n"
+        if "trickle" in fired:
+            return self._trickle(conn, data)
         try:
-            conn.sendall(reply.encode("ascii", "replace") + b"\n")
+            conn.sendall(data)
         except OSError:
             return False
+        return True
+
+    def _trickle(self, conn: socket.socket, data: bytes) -> bool:
+        """Send a reply one byte at a time (the trickle fault); messages that arrive meanwhile wait."""
+        for i in range(len(data)):
+            if i and self.stopping.wait(self.faults.trickle_byte_s):
+                return False
+            try:
+                conn.sendall(data[i : i + 1])
+            except OSError:
+                return False
         return True
 
     def _interrupted(self, conn: socket.socket, delay: float, buffer: bytearray) -> bool:

@@ -3,6 +3,11 @@
 STATus:OPERation:CONDition? reports bit 8 (256) in CV and bit 10 (1024) in CC,
 0 with the output off. Readback is the magnitude at the supply's own
 terminals, before the polarity switch (as with a polarity relay on the output).
+
+The supply's own protection, a second line of defence behind the bench's
+limits: over-voltage and over-current levels and an output timer, each off
+until programmed. A level exceeded, or the timer run out, switches the output
+off; a level trip reads 1 on OUTPut:PROTection:TRIPped? until CLEar.
 """
 
 from __future__ import annotations
@@ -38,6 +43,10 @@ class SupplySim(ScpiDevice):
         self.current_set_a = 0.1
         self.output_on = False
         self.inverted = False
+        self.ovp_v: float | None = None
+        self.ocp_a: float | None = None
+        self.timer_s: float | None = None
+        self.on_since: float | None = None
 
     # -- actual output (with programming error) ---------------------------------------------------
     @property
@@ -69,6 +78,12 @@ class SupplySim(ScpiDevice):
         tree.query("STATus:OPERation:CONDition?", self._condition)
         tree.query("OUTPut:PROTection:TRIPped?", lambda: "1" if self.tripped else "0")
         tree.command("OUTPut:PROTection:CLEar", self._clear_protection)
+        tree.command("[SOURce:]VOLTage:PROTection[:LEVel]", self._set_ovp, 1)
+        tree.query("[SOURce:]VOLTage:PROTection[:LEVel]?", lambda: fmt(self.ovp_v or 0.0))
+        tree.command("[SOURce:]CURRent:PROTection[:LEVel]", self._set_ocp, 1)
+        tree.query("[SOURce:]CURRent:PROTection[:LEVel]?", lambda: fmt(self.ocp_a or 0.0))
+        tree.command("OUTPut:PROTection:TIMer", self._set_timer, 1)
+        tree.query("OUTPut:PROTection:TIMer?", lambda: fmt(self.timer_s or 0.0))
         tree.command("OUTPut:POLarity", self._set_polarity, 1)
         tree.query("OUTPut:POLarity?", lambda: "INV" if self.inverted else "NORM")
 
@@ -87,7 +102,39 @@ class SupplySim(ScpiDevice):
         if on and self.tripped:
             raise CommandError(-200, "output protection tripped; send OUTPut:PROTection:CLEar first")
         self.bench.changed()
+        if on and not self.output_on:
+            self.on_since = self.bench.clock()
         self.output_on = on
+
+    def _set_ovp(self, text: str) -> None:
+        value = number_param(text, lo=0.0, hi=specs.SUPPLY_MAX_VOLTAGE_V * 1.1, default=0.0,
+                             name="over-voltage level", unit=" V")
+        self.ovp_v = value or None  # 0 switches the protection off
+
+    def _set_ocp(self, text: str) -> None:
+        value = number_param(text, lo=0.0, hi=specs.SUPPLY_MAX_CURRENT_A * 1.1, default=0.0,
+                             name="over-current level", unit=" A")
+        self.ocp_a = value or None
+
+    def _set_timer(self, text: str) -> None:
+        value = number_param(text, lo=0.0, hi=1e6, default=0.0, name="output timer", unit=" s")
+        self.timer_s = value or None
+
+    def check_protection(self) -> None:
+        """Switch off on an exceeded level or an expired timer (called around every message)."""
+        if not self.output_on:
+            return
+        if self.timer_s is not None and self.on_since is not None \
+                and self.bench.clock() - self.on_since >= self.timer_s:
+            self.bench.changed()
+            self.output_on = False
+            return
+        if self.ovp_v is None and self.ocp_a is None:
+            return
+        op = self.bench.operating_point()
+        if (self.ovp_v is not None and op.supply_v > self.ovp_v) or \
+                (self.ocp_a is not None and abs(op.current_a) > self.ocp_a):
+            self.trip()
 
     def _clear_protection(self) -> None:
         self.tripped = False

@@ -91,6 +91,11 @@ def check_plan_on_rig(plan: Plan, rig: Any) -> list[str]:
         if load.limits.max_voltage_v is not None and w.input_v > load.limits.max_voltage_v:
             raise BadInput(bench.source, "[wiring].input_v", f"is {w.input_v:g} V, above the load profile "
                            f"{load.name!r} maximum {load.limits.max_voltage_v:g} V", "an input the load can take")
+    from .protection import protection_warning
+
+    unprotected = protection_warning(rig)
+    if unprotected:
+        warnings.append(unprotected)
     meter = rig.meter.profile
     ranges = tuple(meter.limits.voltage_ranges_v)
     if plan.meter.range_v is not None and ranges and not any(math.isclose(plan.meter.range_v, r, rel_tol=1e-9) for r in ranges):

@@ -309,8 +309,13 @@ def finite(value: float | None) -> bool:
     return value is not None and math.isfinite(value)
 
 
-def open_rig(setup: BenchSetup, *, timeout_s: float | None = None) -> Rig:
-    """Connect every role of the bench (no output is switched on); closes what it opened on failure."""
+def open_rig(setup: BenchSetup, *, timeout_s: float | None = None, on_open: Any = None) -> Rig:
+    """Connect every role of the bench (no output is switched on); closes what it opened on failure.
+
+    `on_open(role)` is called as soon as each role is connected (the safe-state guard takes
+    it there, switching it off and reading it back); the caller then owns every role handed
+    to it, also on failure, and closes them after its guard is done.
+    """
     from benchlog.instruments.connect import open_role
 
     profiles = load_role_profiles(setup)  # every profile checked before any link is opened
@@ -319,7 +324,11 @@ def open_rig(setup: BenchSetup, *, timeout_s: float | None = None) -> Rig:
         for name, spec in setup.roles.items():
             role = _profile_role(name)
             opened[name] = open_role(role, spec.resource, profiles[name], backend=spec.backend, timeout_s=timeout_s)
+            if on_open is not None:
+                on_open(opened[name])
     except BaseException:
+        if on_open is not None:
+            raise
         Rig(setup, meter=None, **{k: v for k, v in opened.items() if k != "meter"}).close()
         if "meter" in opened:
             opened["meter"].close()

@@ -3,8 +3,10 @@
 Events (`benchlog.runs.events`) go out in time order: RunStarted (the header),
 Offset, Point..., Note, ReverseResult, RunFinished. Each is handed to the
 `RunWriter` first (it returns at once; its thread makes the record durable),
-then to the consumer. The outputs are off before the final Note and RunFinished
-are emitted, whatever ended the run.
+then to the consumer. The outputs are off and read back before the final Note and
+RunFinished are emitted, whatever ended the run; RunFinished carries what the
+instruments said (`safe_state`). Before the first output-on the instruments' own
+protection is programmed from the plan's limits where the profiles can.
 
 Per point the runner makes only the exchanges the plan needs: one setpoint
 write and a sync with that instrument (its profile's `*OPC?`, so the dwell and the
@@ -39,6 +41,7 @@ from benchlog.runs.events import (
 )
 
 from .plan import Plan
+from .protection import program_protection
 from .rig import Rig, accuracy_block, drop_range_v, reverse_limit_a
 from .settle import Interrupted, Overload, settle
 from .steps import StepSource, step_source
@@ -117,6 +120,9 @@ class SweepRunner:
         self.fault: BaseException | None = None
         self.message = ""
         self.power_applied = False
+        #: "verified" | "unverified" | "unknown": what the instruments said about their outputs at the end
+        self.safe_state = "unknown"
+        self.safe_report: Any = None  # the guard's SafeStateReport, when it gives one
         self.run_file = None  # set by whoever records the run (session.run_sweep)
         self._header: dict[str, Any] | None = None
         self._t0 = 0.0
@@ -183,28 +189,33 @@ class SweepRunner:
             yield self._emit(Note(self._t(), "warning", text))
         stop: _Stop
         reraise: BaseException | None = None
+        guarding = guard(*self.rig.roles())
         try:
-            with guard(*self.rig.roles()):
+            with guarding:
                 yield from self._measure()
                 stop = _Stop("complete", "", "")
         except _Stop as exc:
             stop = exc
         except GeneratorExit:
+            self._take_safe_state(guarding)
             self._finish_unyielded("cancel", "cancelled: the event stream was closed")
             raise
         except (KeyboardInterrupt, SystemExit) as exc:
-            stop = _Stop("cancelled", "cancel", "cancelled by interrupt; outputs switched off")
+            stop = _Stop("cancelled", "cancel", "cancelled by interrupt")
             reraise = exc
         except Exception as exc:  # noqa: BLE001 -- every failure must end with outputs off and a record
             stop = self._classify(exc)
             self.fault = exc
             if not self._is_bench_error(exc) and not isinstance(exc, _safety_limit_type()):
                 reraise = exc
+        report = self._take_safe_state(guarding)
+        for text in getattr(report, "earlier_errors", ()):
+            yield self._emit(Note(self._t(), "warning", text))
         self.outcome = stop.outcome
         self.message = stop.message
         if stop.kind:
             yield self._emit(Note(self._t(), stop.kind, stop.message))
-        yield self._emit(RunFinished(self._t(), stop.outcome, len(self.points), stop.message))
+        yield self._emit(RunFinished(self._t(), stop.outcome, len(self.points), stop.message, self.safe_state))
         if reraise is not None:
             raise reraise
 
@@ -221,6 +232,9 @@ class SweepRunner:
         self._check_cancel()
         if self._before_power_on is not None and self._before_power_on() is False:
             raise _Stop("cancelled", "cancel", "cancelled before power was applied")
+        self._check_cancel()
+        for text in program_protection(rig, plan):
+            yield self._emit(Note(self._t(), "info", text))
         self._check_cancel()
         rig.power_on()
         self.power_applied = True
@@ -363,6 +377,14 @@ class SweepRunner:
         yield self._emit(ReverseResult(self._t(), rev.voltage_v, rev.duration_s, current, rev.max_current_a, passed))
 
     # -- helpers -------------------------------------------------------------
+    def _take_safe_state(self, guarding: Any) -> Any:
+        """The guard's read-back of the outputs (a guard without one leaves the state "unknown")."""
+        report = getattr(guarding, "outcome", None)
+        self.safe_report = report
+        state = getattr(report, "state", None)
+        self.safe_state = state if state in ("verified", "unverified", "unknown") else "unknown"
+        return report
+
     def _emit(self, event: Event) -> Event:
         if self.writer is not None:
             self.writer.write(event)
@@ -372,7 +394,7 @@ class SweepRunner:
         self.outcome = "cancelled"
         self.message = message
         self._emit(Note(self._t(), kind, message))
-        self._emit(RunFinished(self._t(), "cancelled", len(self.points), message))
+        self._emit(RunFinished(self._t(), "cancelled", len(self.points), message, self.safe_state))
 
     def _t(self) -> float:
         return self._clock() - self._t0
@@ -386,8 +408,7 @@ class SweepRunner:
             self._sleep(seconds)
 
     def _cancel_stop(self) -> _Stop:
-        return _Stop("cancelled", "cancel", f"cancelled by the operator after {len(self.points)} points; "
-                     "outputs switched off")
+        return _Stop("cancelled", "cancel", f"cancelled by the operator after {len(self.points)} points")
 
     def _check_cancel(self) -> None:
         if self._cancel.is_set():
@@ -414,12 +435,15 @@ class SweepRunner:
         return isinstance(exc, BenchError)
 
     def _classify(self, exc: BaseException) -> _Stop:
+        report = getattr(exc, "report", None)
+        if report is not None and hasattr(report, "statement"):  # the guard could not confirm the outputs off
+            return _Stop("fault", "fault", report.statement())
         if isinstance(exc, _safety_limit_type()):
             return _Stop("limit", "limit", f"setpoint refused by the instrument profile: {exc}")
         if self._is_bench_error(exc):
             line = exc.line() if hasattr(exc, "line") else str(exc)
-            return _Stop("fault", "fault", f"instrument fault: {line}; outputs switched off")
-        return _Stop("fault", "fault", f"internal error: {type(exc).__name__}: {exc}; outputs switched off")
+            return _Stop("fault", "fault", f"instrument fault: {line}")
+        return _Stop("fault", "fault", f"internal error: {type(exc).__name__}: {exc}")
 
     # -- header --------------------------------------------------------------
     def _build_header(self) -> dict[str, Any]:

@@ -1,13 +1,21 @@
-"""One recorded sweep from files to run file: check, connect, check again, run, record, close.
+"""One recorded sweep from files to run file: check, lock, connect, check again, run, record, close.
 
 Shared by the CLI and the UI so both refuse the same setups for the same
 reasons, before any output is switched on. Without a bench the built-in
 simulated bench is started for the plan's element kind and stopped afterwards.
+
+Every instrument resource is locked before the first command is sent (one sweep
+per bench). From the first connection on, one safe-state guard holds every
+opened role: each is switched off and read back right after it connects, and
+every way out after that (a plan refused by the instruments' profiles, an
+unreachable second instrument, a fault, Ctrl-C) goes through the guard. Its
+report is the one statement about the outputs, given to `on_safe_state`.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import partial
 from pathlib import Path
 from typing import Any, Callable
 
@@ -28,6 +36,8 @@ class SweepResult:
     message: str
     fault: BaseException | None = None  # the instrument error behind a "fault" outcome
     power_applied: bool = False
+    safe_state: str = "unknown"  # "verified" | "unverified" | "unknown", read after the last exit
+    safe_statement: str = ""  # the one sentence about the outputs
 
 
 def run_sweep(
@@ -40,8 +50,17 @@ def run_sweep(
     before_power_on: Callable[[], bool | None] | None = None,
     on_runner: Callable[[SweepRunner], None] | None = None,
     sim_options: dict[str, Any] | None = None,
+    on_safe_state: Callable[[Any], None] | None = None,
+    lock_dir: str | Path | None = None,
 ) -> SweepResult:
-    """Run `plan` on `bench` (None: the built-in simulated bench) and record it under `out_dir`."""
+    """Run `plan` on `bench` (None: the built-in simulated bench) and record it under `out_dir`.
+
+    `on_safe_state` gets the guard's SafeStateReport on every way out after the first
+    connection (without it, a statement other than "verified" is printed to stderr).
+    Raises BenchInUse when another session holds one of the bench's resources.
+    """
+    from benchlog.instruments.benchlock import BenchLock
+    from benchlog.instruments.guard import safe_state_guard
     from benchlog.runs.writer import RunWriter, new_run_path
 
     running = None
@@ -51,23 +70,42 @@ def run_sweep(
         # a reverse test needs a series current meter: the supply's read-back cannot resolve leakage
         wiring = sim_wiring(plan.element, current_from="meter" if plan.reverse is not None else "supply")
         bench, running = builtin_bench(plan.element, seed, wiring=wiring, **(sim_options or {}))
-    rig: Rig | None = None
+    guard_kwargs = {} if on_safe_state is None else {"report": on_safe_state}
+    guard = safe_state_guard(raise_unverified=False, **guard_kwargs)
     try:
         warnings = check_plan_on_bench(plan, bench)
-        rig = open_rig(bench)
-        warnings += check_plan_on_rig(plan, rig)
-        runner = SweepRunner(plan, rig, before_power_on=before_power_on, warnings=warnings)
-        path = new_run_path(out_dir, runner.header)
-        runner.run_file = path
-        if on_runner is not None:
-            on_runner(runner)
-        with RunWriter(path) as writer:
-            runner.writer = writer
-            runner.run(on_event)
+        resources = [spec.resource for spec in bench.roles.values()]
+        with BenchLock(resources, directory=Path(lock_dir) if lock_dir is not None else None) as lock:
+            try:
+                with guard:
+                    rig = open_rig(bench, on_open=guard.add)
+                    warnings += lock.notes + guard.connect_notes
+                    warnings += check_plan_on_rig(plan, rig)
+                    # the runner's own guard reads the outputs back for the run file; this one reports
+                    runner = SweepRunner(plan, rig, before_power_on=before_power_on, warnings=warnings,
+                                         guard=partial(safe_state_guard, report=None))
+                    path = new_run_path(out_dir, runner.header)
+                    runner.run_file = path
+                    if on_runner is not None:
+                        on_runner(runner)
+                    with RunWriter(path) as writer:
+                        runner.writer = writer
+                        runner.run(on_event)
+            finally:
+                _close_all(guard.roles)
+        report = guard.outcome
         return SweepResult(path, len(runner.points), runner.outcome or "fault", runner.message,
-                           runner.fault, runner.power_applied)
+                           runner.fault, runner.power_applied,
+                           safe_state=getattr(report, "state", "unknown"),
+                           safe_statement=report.statement() if report is not None else "")
     finally:
-        if rig is not None:
-            rig.close()
         if running is not None:
             running.stop()
+
+
+def _close_all(roles) -> None:
+    for role in roles:
+        try:
+            role.close()
+        except Exception:  # noqa: BLE001 -- closing after a fault must not hide the fault
+            pass

@@ -19,11 +19,22 @@ class ScriptedTransport(Transport):
         self.lost = False
         self.reopened = 0
         self.closed = False
+        # The output/input state as a real instrument keeps it: switched by the sim profiles'
+        # on/off commands, read by their state queries; `stuck_on` ignores the off command.
+        self.power = False
+        self.stuck_on = False
+        self.on_commands = {"OUTPut:STATe ON", "INPut ON"}
+        self.off_commands = {"OUTPut:STATe OFF", "INPut OFF"}
+        self.state_queries = {"OUTPut:STATe?", "INPut:STATe?"}
 
     def write(self, command: str) -> None:
         if self.lost or command in self.fail_writes:
             raise ConnectionLost(f"scripted loss at {command!r}", resource=self.resource)
         self.sent.append(command)
+        if command in self.on_commands:
+            self.power = True
+        elif command in self.off_commands and not self.stuck_on:
+            self.power = False
 
     def query(self, command: str, *, timeout_s: float | None = None) -> str:
         if self.lost:
@@ -33,6 +44,8 @@ class ScriptedTransport(Transport):
             return self.idn
         if command.startswith("SYST") and "ERR" in command:
             return self.errors.pop(0) if self.errors else '+0,"No error"'
+        if command in self.state_queries and command not in self.replies:
+            return "1" if self.power else "0"
         return self.replies[command]
 
     def reopen(self) -> None:

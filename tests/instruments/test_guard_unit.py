@@ -42,7 +42,7 @@ def test_exception_passes_through_after_safe_state():
         with safe_state_guard(s, l, m, report=lambda text: None):
             raise RuntimeError("sweep failed")
     assert _switched_off(ts, tl)
-    assert any("safe state reached" in note for note in info.value.__notes__)
+    assert any("outputs verified off (read back): supply S, load L" in note for note in info.value.__notes__)
 
 
 def test_keyboard_interrupt():
@@ -79,7 +79,8 @@ def test_one_failing_role_does_not_stop_the_others():
             pass
     assert "INPut OFF" in tl.sent and "CURR 0.0" in tl.sent
     assert {who for who, _, _ in info.value.failures} == {"supply S"}
-    assert len(reports) == 1 and "check the outputs by hand" in reports[0]
+    assert len(reports) == 1 and reports[0].state == "unverified"
+    assert reports[0].statement().startswith("OUTPUTS MAY BE ON: supply S did not confirm off")
 
 
 def test_failure_during_exception_is_attached_not_masking():

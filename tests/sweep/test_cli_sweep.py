@@ -63,7 +63,8 @@ def test_sweep_on_the_builtin_sim_prints_json(tmp_path, capsys):
     out, err = capsys.readouterr()
     assert rc == 0
     payload = json.loads(out)
-    assert set(payload) == {"run_file", "points", "outcome"}
+    assert set(payload) == {"run_file", "points", "outcome", "safe_state"}
+    assert payload["safe_state"] == "verified"  # the sim profiles read their output states back
     assert payload["outcome"] == "complete" and payload["points"] == 5
     frame, meta = load(payload["run_file"])
     assert meta.complete and len(frame) == 5
@@ -214,7 +215,7 @@ def test_ctrl_c_exits_130_with_outputs_off(sim_bench, tmp_path):
     child.send_signal(signal.SIGINT)
     _, err = child.communicate(timeout=30)
     assert child.returncode == 130, err
-    assert "outputs were switched off" in err and "Traceback" not in err
+    assert "outputs verified off (read back)" in err and "Traceback" not in err
     assert not running.bench.supply.output_on and not running.bench.load.input_on
     frame, meta = load(path)
     assert meta.outcome == "cancelled" and meta.complete and len(frame) == meta.finished.points

@@ -1,0 +1,85 @@
+"""The instrument's own protection as a second line of defence, programmed from the plan's limits.
+
+benchlog stops a sweep on its own limits, but only between readings and only while
+it runs. A supply's over-voltage and over-current protection act inside the
+instrument, at once, even if benchlog or its link dies; an output timer switches
+the output off after a fixed time with nothing else working. They are programmed
+with the output off, before the first output-on, where the supply profile has the
+operations (`over_voltage_protection`, `over_current_protection`, `output_timer`).
+
+The levels sit a margin above the highest setting the sweep itself programs, so
+ordinary regulation and read-back error never trip them: a trip means something
+went wrong (common practice: set protection about 10 % above the working level).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from .plan import Plan
+
+#: Protection levels sit this fraction above the highest voltage / current the sweep programs.
+PROTECTION_MARGIN = 0.10
+#: The output timer allows the plan's max_time_s this many times over, plus TIMER_EXTRA_S, so that
+#: benchlog's own time limit, the cool-downs and the reverse step always come first.
+TIMER_FACTOR = 1.5
+TIMER_EXTRA_S = 60.0
+
+
+@dataclass(frozen=True)
+class ProtectionLevels:
+    """What the supply's own protection is set to (None: not set from this plan)."""
+
+    over_voltage_v: float | None
+    over_current_a: float | None
+    timer_s: float | None
+
+
+def protection_levels(plan: Plan, rig: Any) -> ProtectionLevels:
+    """Levels from the plan's limits and the wiring, capped at the supply profile's own maxima."""
+    from .rig import supply_limit_for_load_wiring
+
+    wiring, lim = rig.wiring, plan.limits
+    profile = rig.supply.profile
+    volts = [lim.compliance_v if wiring.force == "supply" else wiring.input_v]
+    if plan.reverse is not None:
+        volts.append(plan.reverse.voltage_v)
+    volts = [v for v in volts if v is not None]
+    amps = lim.max_current_a if wiring.force == "supply" else supply_limit_for_load_wiring(plan, profile)
+    ovp = max(volts) * (1 + PROTECTION_MARGIN) if volts else None
+    ocp = amps * (1 + PROTECTION_MARGIN) if amps else None
+    most_v, most_a = profile.limits.max_voltage_v, profile.limits.max_current_a
+    if ovp is not None and most_v is not None:
+        ovp = min(ovp, most_v)
+    if ocp is not None and most_a is not None:
+        ocp = min(ocp, most_a)
+    timer = lim.max_time_s * TIMER_FACTOR + TIMER_EXTRA_S if lim.max_time_s is not None else None
+    return ProtectionLevels(ovp, ocp, timer)
+
+
+def program_protection(rig: Any, plan: Plan) -> list[str]:
+    """Program the supply's own protection where its profile can; returns one note saying what was set."""
+    supply = rig.supply
+    program = getattr(supply, "program_protection", None)
+    if program is None or not getattr(supply, "protection_operations", ()):
+        return []
+    levels = protection_levels(plan, rig)
+    done = program(over_voltage_v=levels.over_voltage_v, over_current_a=levels.over_current_a,
+                   timer_s=levels.timer_s)
+    if not done:
+        return []
+    return [f"supply protection set before power-on: {', '.join(done)}"]
+
+
+def protection_warning(rig: Any) -> str | None:
+    """The plan check's note when the supply profile cannot program the instrument's own protection."""
+    ops = getattr(rig.supply, "protection_operations", None)
+    if ops is None:
+        return None
+    missing = [name for name in ("over_voltage_protection", "over_current_protection") if name not in ops]
+    if not missing:
+        return None
+    name = getattr(rig.supply.profile, "name", "?")
+    return (f"supply profile {name!r} has no {' or '.join(missing)} operation: the instrument's own "
+            "protection is not programmed, only benchlog's limits guard this sweep")
