@@ -187,8 +187,8 @@ def _state_after_exception(report, exc: BaseException) -> None:
     which the caller prints). Verified: said after Ctrl-C or SIGTERM, where the user most
     wants to know; after bad input or a connect fault the one line of the error stands alone.
     """
-    if report is None:
-        return  # nothing was connected: no output was touched
+    if report is None or not report.roles:
+        return  # nothing with an output was connected: no output was touched
     from benchlog.instruments.errors import SafeStateFailed
 
     if not report.verified:

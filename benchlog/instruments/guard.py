@@ -77,6 +77,8 @@ class SafeStateReport:
 
     def statement(self) -> str:
         """The one sentence about the outputs: verified off, or OUTPUTS MAY BE ON naming what did not confirm."""
+        if not self.roles:
+            return "no instrument with an output or input was connected"
         if self.verified:
             return "outputs verified off (read back): " + ", ".join(r.label for r in self.roles)
         open_ = [r for r in self.roles if r.state != "verified"]
@@ -166,7 +168,7 @@ def _label(role: Any) -> str:
 
 
 def _report_unless_verified(report: SafeStateReport) -> None:
-    if not report.verified:
+    if report.roles and not report.verified:
         _report_to_stderr(report.statement())
 
 

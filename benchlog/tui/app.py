@@ -21,7 +21,7 @@ from .collector import CollectorPolicy
 from .feed import EventFeed
 from .findings import MODELS, RunFindings, study_run
 from .liverun import LiveRun
-from .session import BenchSession, RoleStatus, SweepOutcome
+from .session import BenchSession, RoleStatus, SweepOutcome, outputs_sentence
 from .views import VIEWS
 
 REDRAW_HZ = 15.0
@@ -281,7 +281,8 @@ class BenchApp(App):
         try:
             outcome = self.session.sweep(plan, lambda event: push(event, generation))
         except Exception as exc:  # BadInput, BenchError or anything else: a sentence, never a traceback
-            outcome = SweepOutcome("fault", None, 0, _sentence(exc))
+            failed = getattr(self.session, "failed_outcome", None)
+            outcome = failed(_sentence(exc)) if failed is not None else SweepOutcome("fault", None, 0, _sentence(exc))
         self.post_message(SweepEnded(generation, outcome))
 
     def on_sweep_ended(self, message: SweepEnded) -> None:
@@ -292,13 +293,15 @@ class BenchApp(App):
         self.state.last_outcome = outcome
         self.state.sweep_state = "finished"
         text = {
-            "complete": "Run complete; outputs are off.",
-            "cancelled": "Run stopped by you; outputs are off.",
-            "limit": "Run stopped at a limit; outputs are off.",
-            "fault": "Run stopped by an instrument fault; outputs are off.",
-        }.get(outcome.outcome, f"Run ended ({outcome.outcome}); outputs are off.")
+            "complete": "Run complete",
+            "cancelled": "Run stopped by you",
+            "limit": "Run stopped at a limit",
+            "fault": "Run stopped by an instrument fault",
+        }.get(outcome.outcome, f"Run ended ({outcome.outcome})")
+        text += "; " + outputs_sentence(getattr(outcome, "safe_state", ""), getattr(outcome, "safe_statement", ""))
         detail = f" {outcome.message}" if outcome.message else ""
-        self.say(text + detail, severity="information" if outcome.outcome == "complete" else "warning")
+        safe = getattr(outcome, "safe_state", "") in ("verified", "")
+        self.say(text + detail, severity="information" if outcome.outcome == "complete" and safe else "warning")
         if outcome.run_path is not None:
             self.analyse(outcome.run_path)
         if self.state.lot_pending_serial is not None:

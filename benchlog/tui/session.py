@@ -36,6 +36,8 @@ class SweepOutcome:
     run_path: Path | None
     points: int
     message: str = ""
+    safe_state: str = ""  # "verified" | "unverified" | "unknown"; "" when nothing was connected
+    safe_statement: str = ""  # the guard's one sentence about the outputs
 
 
 class BenchSession:
@@ -52,6 +54,7 @@ class BenchSession:
         self._runner = None
         self._lock = threading.Lock()
         self._cancelled = False
+        self.last_safe_report: Any = None  # the guard's read-back after the last sweep (None: never connected)
 
     @classmethod
     def simulated(cls, element: Any, *, runs_dir: Path, seed: int = 1, sim_options: dict | None = None,
@@ -93,18 +96,36 @@ class BenchSession:
         """Open the role, read `*IDN?`, match it to its profile, leave it in its safe state and close it."""
         from benchlog.instruments.connect import open_role
 
+        from benchlog.instruments.benchlock import BenchLock
+        from benchlog.instruments.errors import BenchInUse
+        from benchlog.instruments.guard import safe_state_guard
+
         spec = self.setup.roles[role]
         try:
-            instrument = open_role(role, spec.resource, spec.profile, backend=spec.backend)
-        except Exception as exc:  # shown to the user as a sentence, never a traceback
-            return RoleStatus(role, spec.resource, str(spec.profile), state="no answer", message=_sentence(exc))
+            lock = BenchLock([spec.resource]).acquire()  # a probe sends connect commands: never during a sweep
+        except BenchInUse as exc:
+            return RoleStatus(role, spec.resource, str(spec.profile), state="in use", message=_sentence(exc))
         try:
-            idn = instrument.idn
-            idn_text = ",".join((idn.manufacturer, idn.model, idn.serial, idn.firmware)) if hasattr(idn, "model") else str(idn)
-            profile = getattr(instrument.profile, "name", str(spec.profile))
-            return RoleStatus(role, spec.resource, profile, idn_text, "connected")
+            try:
+                instrument = open_role(role, spec.resource, spec.profile, backend=spec.backend)
+            except Exception as exc:  # shown to the user as a sentence, never a traceback
+                return RoleStatus(role, spec.resource, str(spec.profile), state="no answer", message=_sentence(exc))
+            try:
+                guard = safe_state_guard(report=None, raise_unverified=False)
+                with guard:
+                    guard.add(instrument)  # switched off and read back, like every connection
+                idn = instrument.idn
+                idn_text = ",".join((idn.manufacturer, idn.model, idn.serial, idn.firmware)) if hasattr(idn, "model") else str(idn)
+                profile = getattr(instrument.profile, "name", str(spec.profile))
+                report = guard.outcome
+                message = "" if report is None or report.verified or not report.roles else report.statement()
+                return RoleStatus(role, spec.resource, profile, idn_text, "connected", message)
+            except Exception as exc:  # noqa: BLE001
+                return RoleStatus(role, spec.resource, str(spec.profile), state="no answer", message=_sentence(exc))
+            finally:
+                _close(instrument)
         finally:
-            _close(instrument)
+            lock.release()
 
     def sweep(self, plan: Any, on_event: Callable[[Event], None]) -> SweepOutcome:
         """Run one sweep to its end (or cancel); every event goes to `on_event` as it happens.
@@ -117,13 +138,26 @@ class BenchSession:
 
         with self._lock:
             self._cancelled = False
+        self.last_safe_report = None
         self._bench_for(plan)
         try:
-            result = run_sweep(plan, self.setup, self.runs_dir, on_event=on_event, on_runner=self._hold_runner)
+            result = run_sweep(plan, self.setup, self.runs_dir, on_event=on_event, on_runner=self._hold_runner,
+                               on_safe_state=self._hold_safe_state)
         finally:
             with self._lock:
                 self._runner = None
-        return SweepOutcome(result.outcome, result.run_file, result.points, result.message)
+        return SweepOutcome(result.outcome, result.run_file, result.points, result.message,
+                            result.safe_state, result.safe_statement)
+
+    def _hold_safe_state(self, report: Any) -> None:
+        self.last_safe_report = report
+
+    def failed_outcome(self, sentence: str) -> SweepOutcome:
+        """A sweep that ended by an exception, with what the guard read back (if anything was connected)."""
+        report = self.last_safe_report
+        if report is None or not report.roles:
+            return SweepOutcome("fault", None, 0, sentence)
+        return SweepOutcome("fault", None, 0, sentence, report.state, report.statement())
 
     def _hold_runner(self, runner: Any) -> None:
         with self._lock:
@@ -144,6 +178,19 @@ class BenchSession:
         self.cancel()
         if self.sim is not None:
             self.sim.stop()
+
+
+def outputs_sentence(safe_state: str, statement: str) -> str:
+    """What the UI says about the outputs: only what the instruments read back.
+
+    "verified": the outputs are off (read back). "" (nothing was connected, or a replay):
+    no output was switched. Anything else: the guard's OUTPUTS MAY BE ON statement.
+    """
+    if safe_state == "verified":
+        return "outputs are off."
+    if safe_state == "":
+        return "no output was switched."
+    return (statement or "OUTPUTS MAY BE ON: not read back -- switch them off by hand now") + "."
 
 
 def _sentence(exc: BaseException) -> str:

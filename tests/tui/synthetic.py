@@ -102,13 +102,13 @@ def events(serial: str = "DEMO-0001", r_ohm: float = 0.027, n: int = 30, seed: i
     t = 0.5
     for k, (i, v) in enumerate(zip(current, drop)):
         if stop_after is not None and k >= stop_after:
-            out.append(Note(t, "cancel", "cancelled by the operator; outputs switched off"))
-            out.append(RunFinished(t, "cancelled", k, "cancelled by the operator"))
+            out.append(Note(t, "cancel", "cancelled by the operator"))
+            out.append(RunFinished(t, "cancelled", k, "cancelled by the operator", "verified"))
             return out
         t += 0.25
         out.append(Point(index=k, t_s=t, setpoint_a=float(round(i, 6)), current_a=float(i), drop_v=float(v),
                          supply_v=float(12.0 - 0.05 * i), supply_mode="CV", settle_reads=2))
-    out.append(RunFinished(t + 0.1, "complete", n, ""))
+    out.append(RunFinished(t + 0.1, "complete", n, "", "verified"))
     return out
 
 
@@ -170,16 +170,20 @@ class ScriptedSession(BenchSession):
                         self.gate.wait(10)
                     if self.cancel_seen.is_set():
                         self.output_on = False
-                        for tail in (Note(event.t_s, "cancel", "cancelled by the operator; outputs switched off"),
-                                     RunFinished(event.t_s, "cancelled", event.index, "cancelled by the operator")):
+                        # this scripted bench's own output flag, off again: what its read-back would say
+                        for tail in (Note(event.t_s, "cancel", "cancelled by the operator"),
+                                     RunFinished(event.t_s, "cancelled", event.index, "cancelled by the operator",
+                                                 "verified")):
                             writer.write(tail)
                             on_event(tail)
-                        return SweepOutcome("cancelled", path, event.index, "cancelled by the operator")
+                        return SweepOutcome("cancelled", path, event.index, "cancelled by the operator",
+                                            "verified", "outputs verified off (read back): scripted bench")
                 if isinstance(event, RunFinished):
                     self.output_on = False
                 writer.write(event)
                 on_event(event)
-        return SweepOutcome("complete", path, self.n, "")
+        return SweepOutcome("complete", path, self.n, "", "verified",
+                            "outputs verified off (read back): scripted bench")
 
     def cancel(self) -> None:
         self.cancel_seen.set()

@@ -98,11 +98,12 @@ class LiveView(View):
         alert = self.query_one("#live-alert", Static)
         serious = [n for n in live.notes if n.kind in ("limit", "fault", "cancel")]
         outcome = self.app.state.last_outcome
+        state = _safe_state(outcome, live.finished)
         if serious:
             note = serious[-1]
-            alert.update(f" {note.kind.upper()}: {_with_outputs_off(note.message)}")
+            alert.update(f" {note.kind.upper()}: {_with_outputs(note.message, state)}")
         elif outcome is not None and outcome.outcome not in ("complete",) and outcome.message:
-            alert.update(f" {outcome.outcome.upper()}: {_with_outputs_off(outcome.message)}")
+            alert.update(f" {outcome.outcome.upper()}: {_with_outputs(outcome.message, state)}")
         elif live.finished is not None:
             alert.update(f" Run {live.finished.outcome}: {live.finished.points} points. Results: 4.")
         else:
@@ -113,6 +114,18 @@ class LiveView(View):
         self.app.request_sweep()
 
 
-def _with_outputs_off(message: str) -> str:
-    return message if "outputs switched off" in message or "outputs are off" in message \
-        else f"{message} — outputs are off."
+def _safe_state(outcome, finished) -> tuple[str, str] | None:
+    """(state, statement) from the session's outcome, else from the run's end record; None while running."""
+    if outcome is not None and getattr(outcome, "safe_state", ""):
+        return outcome.safe_state, outcome.safe_statement
+    recorded = getattr(finished, "safe_state", None)
+    return (recorded, "") if recorded else None
+
+
+def _with_outputs(message: str, state: tuple[str, str] | None) -> str:
+    """A note with what the instruments said about the outputs; nothing is claimed before it is read back."""
+    if state is None or message.startswith("OUTPUTS MAY BE ON"):
+        return message
+    if state[0] == "verified":
+        return f"{message} — outputs are off."
+    return f"{message} — {state[1] or 'OUTPUTS MAY BE ON: not read back, switch them off by hand'}."
