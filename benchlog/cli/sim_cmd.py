@@ -51,6 +51,8 @@ def register(sub) -> None:
                         help="send the first reply after N messages one byte at a time")
     faults.add_argument("--trickle-byte-s", type=float, metavar="S",
                         help="seconds between the bytes of a trickled reply (default 0.5)")
+    faults.add_argument("--stuck-on-after", type=int, metavar="N",
+                        help="after N supply messages the supply ignores output off")
     faults.add_argument("--fault-role", choices=ROLES, help="limit the faults to one instrument")
     p.set_defaults(handler=run)
 
@@ -65,6 +67,7 @@ def _config(args: argparse.Namespace):
         "garbage_after": args.garbage_after, "hang_after": args.hang_after,
         "queue_error_after": args.queue_error_after, "supply_trip_after": args.trip_after, "role": args.fault_role,
         "trickle_after": args.trickle_after, "trickle_byte_s": args.trickle_byte_s,
+        "stuck_on_after": args.stuck_on_after,
     }
     for name, value in fault_args.items():
         if name != "role" and value is not None and value < 0:

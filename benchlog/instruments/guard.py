@@ -272,7 +272,8 @@ class safe_state_guard:  # noqa: N801 - used like a function: `with safe_state_g
             if exc is None:
                 if self.raise_unverified:
                     raise SafeStateFailed(outcome)
-            exc.add_note(outcome.statement())
+            else:
+                exc.add_note(outcome.statement())
         elif exc is not None and outcome.roles:
             exc.add_note(outcome.statement())
         if exc is None and self._held:

@@ -198,7 +198,14 @@ class Role:
         return []
 
     def _reopen(self) -> None:
-        """A fresh link after a lost or confused one: a few tries, then the last error is raised."""
+        """A fresh link after a lost or confused one: a few tries, then the last error is raised.
+
+        Once the tries failed within one safe-state pass, the later steps of that pass fail at
+        once instead of waiting again, so one dead instrument does not hold up the others.
+        """
+        failed = getattr(self, "_reopen_failed", None)
+        if failed is not None:
+            raise failed
         last: BaseException | None = None
         for wait_s in REOPEN_WAITS_S:
             if wait_s:
@@ -209,6 +216,7 @@ class Role:
             except TransportError as exc:
                 last = exc
         assert last is not None
+        self._reopen_failed = last
         raise last
 
     def _run_safe(self, steps: list[tuple[str, Callable[[], None]]]) -> list[Failure]:
@@ -254,6 +262,7 @@ class Role:
         are reported as what they are, not blamed on the safe-state commands. Nothing here may
         stop the off commands: a failure (a lost link) is left for them to meet and reopen.
         """
+        self._reopen_failed: BaseException | None = None  # a new pass tries to reopen again
         if not self.has_power:
             return ()
         try:

@@ -370,11 +370,6 @@ class VisaTransport(Transport):
         """A reply still trickling in at its deadline: the link's state is unknown, so close it."""
         self._lose(reason)
         self._drop()
-        # latin-1 maps every byte, so a garbage reply reaches the parser (NonsenseReply), not a decode error.
-        text = raw.decode("latin-1")
-        if text.endswith(self.read_termination):
-            text = text[: -len(self.read_termination)]
-        return text.rstrip("\r\n")
 
     def _drain(self) -> None:
         """Read and discard replies that arrived late, so the next reply belongs to the next query."""

@@ -70,7 +70,7 @@ _TOP_KEYS = ("element", "seed", "ambient_c", "line_frequency_hz", "latency_s", "
              "meter_has_measure", "current_meter", "shunt_ohm", "lead_resistance_ohm",
              "meter_integration_delay", "element_params", "faults")
 _FAULT_COUNTS = ("drop_after_commands", "garbage_after", "hang_after", "queue_error_after", "supply_trip_after",
-                 "trickle_after")
+                 "trickle_after", "stuck_on_after")
 
 
 def load_sim_config(path: str | Path) -> SimConfig:

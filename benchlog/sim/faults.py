@@ -12,7 +12,9 @@ fires once, on the first message after its count has been served:
 - supply_trip_after: the supply trips into protection: output off,
   OUTPut:PROTection:TRIPped? answers 1 until OUTPut:PROTection:CLEar;
 - trickle_after: the next query's reply is sent one byte every
-  `trickle_byte_s` seconds (a link or instrument that stalls mid-reply).
+  `trickle_byte_s` seconds (a link or instrument that stalls mid-reply);
+- stuck_on_after: from then on the supply ignores the command that switches
+  its output off (a welded relay, a firmware fault); OUTPut:STATe? tells the truth.
 
 `role` limits every fault to one instrument ("supply", "load", "meter",
 "current_meter"); None means each instrument counts and fires on its own.
@@ -37,11 +39,12 @@ class FaultPlan:
     supply_trip_after: int | None = None
     trickle_after: int | None = None
     trickle_byte_s: float = 0.5
+    stuck_on_after: int | None = None
     role: str | None = None
 
     def __post_init__(self) -> None:
         for name in ("drop_after_commands", "garbage_after", "hang_after", "queue_error_after", "supply_trip_after",
-                     "trickle_after"):
+                     "trickle_after", "stuck_on_after"):
             value = getattr(self, name)
             if value is not None and (isinstance(value, bool) or not isinstance(value, int) or value < 0):
                 raise ValueError(f"{name} must be a whole number >= 0 or None, got {value!r}")
@@ -77,6 +80,7 @@ class FaultCounter:
             "queue_error": plan.queue_error_after if active else None,
             "trip": plan.supply_trip_after if active and role == "supply" else None,
             "trickle": plan.trickle_after if active else None,
+            "stuck_on": plan.stuck_on_after if active and role == "supply" else None,
         }
 
     def next_message(self, has_query: bool) -> set[str]:

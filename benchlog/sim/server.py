@@ -159,6 +159,8 @@ class _InstrumentServer:
                 self.device.push_error(*QUEUE_ERROR)
             if "trip" in fired:
                 bench.supply.trip()
+            if "stuck_on" in fired:
+                bench.supply.stuck_on = True
             self.device.reply_delay_s = 0.0
             if text is None:
                 self.device.push_error(-101, "Invalid character; only ASCII is understood")

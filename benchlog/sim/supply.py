@@ -36,6 +36,7 @@ class SupplySim(ScpiDevice):
         self.readback_a = draw_fixed_error(rng, spec_for(specs.SUPPLY_READBACK, "readback_current"))
         self.noise = bench.stream(f"{role}/noise")
         self.tripped = False
+        self.stuck_on = False  # fault: the output ignores "off" (OUTPut:STATe? still tells the truth)
         super().__init__(bench, role, serial)
 
     def reset(self) -> None:
@@ -99,6 +100,8 @@ class SupplySim(ScpiDevice):
 
     def _set_output(self, text: str) -> None:
         on = bool_param(text, "output")
+        if not on and self.stuck_on and self.output_on:
+            return
         if on and self.tripped:
             raise CommandError(-200, "output protection tripped; send OUTPut:PROTection:CLEar first")
         self.bench.changed()
