@@ -1,0 +1,143 @@
+"""The instrument's own protection, programmed from the plan before the first output-on.
+
+Levels sit 10 % above the highest setting the sweep programs (common practice: a
+protection level a margin above the working level, so regulation and read-back
+error never trip it). The sim implements over-voltage, over-current and an output
+timer; a trip switches the output off and reads back.
+"""
+
+from __future__ import annotations
+
+import math
+from types import SimpleNamespace
+
+import pytest
+
+from benchlog.instruments import open_role
+from benchlog.instruments.profile import load_profile
+from benchlog.instruments.roles import Supply
+from benchlog.runs.events import Note
+from benchlog.sweep.bench_file import Wiring
+from benchlog.sweep.plan import parse_plan
+from benchlog.sweep.protection import protection_levels, protection_warning
+from benchlog.sweep.session import run_sweep
+from benchlog.sweep.simbench import builtin_bench
+
+from ..instruments.scripted import ScriptedTransport
+
+PLAN = """
+[element]
+id = "D1"
+kind = "rectifier"
+serial = "PROT-1"
+[steps]
+mode = "linear"
+start_a = 0.1
+stop_a = 1.0
+count = 4
+[settle]
+dwell_s = 0.0
+tolerance_v = 0.001
+[limits]
+max_current_a = 2.0
+compliance_v = 5.0
+max_time_s = 100.0
+{extra}
+"""
+
+
+def _rig(force, input_v=None, profile="sim-supply"):
+    supply = SimpleNamespace(profile=load_profile(profile))
+    return SimpleNamespace(wiring=Wiring(force=force, current_from="supply", input_v=input_v), supply=supply)
+
+
+def test_levels_sit_ten_percent_above_what_the_sweep_programs():
+    plan = parse_plan(PLAN.format(extra=""), "plan.toml")
+    levels = protection_levels(plan, _rig("supply"))
+    assert math.isclose(levels.over_voltage_v, 5.0 * 1.1)  # compliance 5 V + 10 %
+    assert math.isclose(levels.over_current_a, 2.0 * 1.1)  # max_current_a 2 A + 10 %
+    assert math.isclose(levels.timer_s, 100.0 * 1.5 + 60.0)
+
+
+def test_levels_follow_the_load_wiring_and_the_reverse_step_and_stop_at_the_profile():
+    plan = parse_plan(PLAN.format(extra="[reverse]\nvoltage_v = 8.0\nduration_s = 1.0\nmax_current_a = 0.001"),
+                      "plan.toml")
+    levels = protection_levels(plan, _rig("load", input_v=12.0))
+    assert math.isclose(levels.over_voltage_v, 12.0 * 1.1)  # the input voltage is the highest setting
+    assert math.isclose(levels.over_current_a, 2.0 * 1.05 * 1.1)  # the supply's limit in the load wiring
+    capped = protection_levels(parse_plan(PLAN.replace("compliance_v = 5.0", "compliance_v = 29.0").format(extra=""),
+                                          "plan.toml"), _rig("supply"))
+    assert capped.over_voltage_v == 30.0  # 31.9 V wanted, the sim-supply profile's maximum is 30 V
+
+
+def _supply_into_element(bench, **protection):
+    """The supply on, forcing 2 A through the element (it sits in CC at about 0.85 V at its terminals)."""
+    supply = open_role("supply", bench.resources["supply"], "sim-supply")
+    supply.set_voltage(10.0)
+    supply.set_current_limit(2.0)
+    done = supply.program_protection(**{"over_voltage_v": None, "over_current_a": None, "timer_s": None,
+                                        **protection})
+    supply.set_output(True)
+    return supply, done
+
+
+@pytest.mark.parametrize("level_v, trips", [(0.5, True), (5.0, False)])
+def test_over_voltage_protection_trips_the_sim_supply_off(sim_bench, level_v, trips):
+    bench = sim_bench("pmos")
+    supply, done = _supply_into_element(bench, over_voltage_v=level_v)
+    try:
+        assert done == [f"over-voltage {level_v:g} V"]
+        assert bench.bench.supply.ovp_v == level_v  # what the instrument was told, read on its side
+        assert supply.power_is_on() is (not trips) and supply.tripped() is trips
+    finally:
+        supply.set_output(False)
+        supply.close()
+
+
+@pytest.mark.parametrize("level_a, trips", [(0.5, True), (2.5, False)])
+def test_over_current_protection_trips_the_sim_supply_off(sim_bench, level_a, trips):
+    bench = sim_bench("pmos")
+    supply, done = _supply_into_element(bench, over_current_a=level_a)
+    try:
+        assert done == [f"over-current {level_a:g} A"]
+        assert supply.power_is_on() is (not trips) and supply.tripped() is trips
+    finally:
+        supply.set_output(False)
+        supply.close()
+
+
+def test_the_output_timer_switches_off_after_its_time(sim_bench):
+    now = [1000.0]
+    bench = sim_bench("rectifier", clock=lambda: now[0])
+    supply = open_role("supply", bench.resources["supply"], "sim-supply")
+    try:
+        supply.set_voltage(2.0)
+        supply.set_current_limit(0.1)
+        supply.program_protection(over_voltage_v=None, over_current_a=None, timer_s=5.0)
+        supply.set_output(True)
+        now[0] += 4.0
+        assert supply.power_is_on() is True
+        now[0] += 2.0
+        assert supply.power_is_on() is False and supply.tripped() is False  # timed out, not a fault trip
+    finally:
+        supply.close()
+
+
+def test_a_sweep_programs_the_protection_before_power_on(tmp_path):
+    plan = parse_plan(PLAN.format(extra=""), "plan.toml")
+    events = []
+    result = run_sweep(plan, None, tmp_path, on_event=events.append, on_safe_state=lambda report: None)
+    assert result.outcome == "complete" and result.safe_state == "verified"
+    notes = [e.message for e in events if isinstance(e, Note) and e.kind == "info"]
+    assert "supply protection set before power-on: over-voltage 5.5 V, over-current 2.2 A, output timer 210 s" \
+        in notes
+
+
+def test_the_plan_check_says_when_the_profile_cannot_program_protection():
+    generic = Supply(ScriptedTransport("ACME,PSU,1,1"), load_profile("generic-dc-supply"))
+    rig = SimpleNamespace(supply=generic)
+    warning = protection_warning(rig)
+    assert warning is not None and "'generic-dc-supply' has no over_voltage_protection or " \
+        "over_current_protection" in warning
+    sim = SimpleNamespace(supply=Supply(ScriptedTransport("BENCHLOG,SIM-SUPPLY,1,1"), load_profile("sim-supply")))
+    assert protection_warning(sim) is None
