@@ -55,7 +55,7 @@ class SimProcess:
             self._lines.put(line.rstrip("\n"))
         self._lines.put(None)
 
-    def wait_ready(self, timeout_s: float = 20.0) -> "SimProcess":
+    def wait_ready(self, timeout_s: float = 90.0) -> "SimProcess":  # generous: CI machines may be loaded
         deadline = time.monotonic() + timeout_s
         while time.monotonic() < deadline:
             try:

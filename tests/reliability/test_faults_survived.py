@@ -51,6 +51,8 @@ class Scenario:
 # Counts are messages per instrument; connect and configuration take about a dozen,
 # so 30..60 lands the fault mid-sweep (the sweep tests in tests/sweep pick alike).
 SCENARIOS = [
+    Scenario("link lost or output not obeying off: verified off or declared unverified", "drop-supply",
+             ("--drop-after", "40", "--fault-role", "supply"), PMOS_PLAN, LOAD_WIRING, r"connection closed", 1),
     Scenario("dropped connection", "drop-load", ("--drop-after", "40", "--fault-role", "load"),
              PMOS_PLAN, LOAD_WIRING, r"connection closed", 1),
     Scenario("dropped connection", "drop-meter", ("--drop-after", "40", "--fault-role", "meter"),
@@ -68,6 +70,10 @@ SCENARIOS = [
     Scenario("supply trip", "trip-supply-wiring", ("--element", "rectifier", "--trip-after", "40"),
              RECT_PLAN, SUPPLY_WIRING, r"supply output went off .*protection tripped", 1),
     # the sim profiles wait 2 s (supply, load) and 3 s (meter) for a reply
+    # one byte every 0.3 s: the meter's FETCh? reply would take about 4 s; its deadline is 3 s in total
+    Scenario("trickling reply past the deadline", "trickle-meter",
+             ("--trickle-after", "40", "--trickle-byte-s", "0.3", "--fault-role", "meter"),
+             PMOS_PLAN, LOAD_WIRING, r"reply to .* incomplete after [\d.]+ s", 1),
     Scenario("added latency past the timeout", "latency-load", ("--extra-latency-s", "2.5", "--fault-role", "load"),
              PMOS_PLAN, LOAD_WIRING, r"no reply to '\*IDN\?' within 2 s", 1, mid_sweep=False),
 ]
@@ -120,6 +126,8 @@ def _check(scenario: Scenario, got: Outcome) -> None:
     # every point the sweep reported is in the run file, in order, and the file says how it ended
     summary = json.loads(got.stdout)
     assert summary["outcome"] == "fault" and [Path(summary["run_file"])] == runs, context
+    # the outputs were read back off (after reopening a lost link): said once, in the JSON and the end record
+    assert summary["safe_state"] == "verified", context
     reported = summary["points"]
     progress = [int(m.group(1)) for line in stderr_lines(got.stderr) if (m := re.match(r"sweep: (\d+)/", line))]
     assert all(k <= reported for k in progress), context
@@ -134,7 +142,7 @@ def _check(scenario: Scenario, got: Outcome) -> None:
     events = list(read_events(runs[0]))
     assert sum(isinstance(e, Point) for e in events) == reported
     end = events[-1]
-    assert isinstance(end, RunFinished) and end.points == reported
+    assert isinstance(end, RunFinished) and end.points == reported and end.safe_state == "verified"
 
 
 @pytest.mark.parametrize("scenario", [pytest.param(s, marks=pytest.mark.fault_survival(s.fault), id=s.case)
@@ -149,11 +157,15 @@ def test_every_fault_of_the_simulator_is_exercised():
 
     from benchlog.sim.faults import FaultPlan
 
+    from .test_safety_survived import SIM_OPTIONS_USED
+
     option_of = {"drop_after_commands": "--drop-after", "hang_after": "--hang-after",
                  "garbage_after": "--garbage-after", "queue_error_after": "--queue-error-after",
-                 "supply_trip_after": "--trip-after", "extra_latency_s": "--extra-latency-s"}
+                 "supply_trip_after": "--trip-after", "extra_latency_s": "--extra-latency-s",
+                 "trickle_after": "--trickle-after", "trickle_byte_s": "--trickle-byte-s",
+                 "stuck_on_after": "--stuck-on-after"}
     injectable = {f.name for f in fields(FaultPlan)} - {"role"}
     assert injectable == set(option_of)
-    used = {arg for s in SCENARIOS for arg in s.sim_args}
+    used = {arg for s in SCENARIOS for arg in s.sim_args} | set(SIM_OPTIONS_USED)
     assert set(option_of.values()) <= used
-    assert len({s.fault for s in SCENARIOS}) == 6
+    assert len({s.fault for s in SCENARIOS}) == 8
