@@ -215,9 +215,16 @@ def _sweep(args) -> int:
                     "safe_state": result.safe_state})
     else:
         print(f"run file: {result.run_file}")
-        print(f"{result.points} points, outcome {result.outcome}" + (f": {result.message}" if result.message else ""))
+        print(f"{result.points} points, outcome {result.outcome}" + _detail(result))
     _say_safe_state(result, text=not args.json)
     return _exit_code(result)
+
+
+def _detail(result) -> str:
+    """': message' after the outcome, unless the message is the statement about the outputs (said once, below)."""
+    if not result.message or result.message.startswith(UNSAFE_START):
+        return ""
+    return f": {result.message}"
 
 
 def _say_safe_state(result, *, text: bool) -> None:
@@ -274,7 +281,7 @@ def _demo(args) -> int:
     else:
         print(f"demo plan: {plan_path.name} ({plan.element.kind} {plan.element.label or plan.element.id})")
         print(f"run file: {result.run_file}")
-        print(f"{result.points} points, outcome {result.outcome}" + (f": {result.message}" if result.message else ""))
+        print(f"{result.points} points, outcome {result.outcome}" + _detail(result))
         fit = summary.get("fit")
         if fit:
             parts = ", ".join(f"{k} = {v:.6g} ± {fit['std_u'].get(k, float('nan')):.2g}" for k, v in fit["params"].items())

@@ -299,7 +299,8 @@ class BenchApp(App):
             "fault": "Run stopped by an instrument fault",
         }.get(outcome.outcome, f"Run ended ({outcome.outcome})")
         text += "; " + outputs_sentence(getattr(outcome, "safe_state", ""), getattr(outcome, "safe_statement", ""))
-        detail = f" {outcome.message}" if outcome.message else ""
+        said = outcome.message.startswith("OUTPUTS MAY BE ON")  # already the statement above: once is enough
+        detail = f" {outcome.message}" if outcome.message and not said else ""
         safe = getattr(outcome, "safe_state", "") in ("verified", "")
         self.say(text + detail, severity="information" if outcome.outcome == "complete" and safe else "warning")
         if outcome.run_path is not None:
