@@ -14,19 +14,19 @@ from pathlib import Path
 from typing import Any, Iterable
 
 from benchlog.badinput import BadInput
+from benchlog.filecheck import TOML_MAX_BYTES, read_input
 
 _MISSING = object()
 
 
 def read_utf8(path: str | Path) -> tuple[str, bytes]:
-    """The text of one of our files and its raw bytes (for content hashes); faults raise `BadInput`."""
+    """The text of one of our files and its raw bytes (for content hashes); faults raise `BadInput`.
+
+    Only a regular file of at most `TOML_MAX_BYTES` is read (`filecheck.read_input`):
+    a FIFO, a device such as /dev/zero or a folder is refused before any byte is read.
+    """
     path = Path(path)
-    try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise BadInput(path, "", "file not found", "an existing TOML file") from None
-    except OSError as exc:
-        raise BadInput(path, "", f"cannot be read ({exc.strerror})", "a readable file") from None
+    raw = read_input(path, "TOML file", max_bytes=TOML_MAX_BYTES)
     try:
         return raw.decode("utf-8"), raw
     except UnicodeDecodeError as exc:
@@ -46,6 +46,9 @@ def parse_toml(text: str, source: str) -> "Table":
     except tomllib.TOMLDecodeError as exc:
         # tomllib puts "(at line N, column M)" in its message; keep it, it is the place.
         raise BadInput(source, "", f"is not valid TOML: {exc}", "TOML syntax") from None
+    except RecursionError:
+        # tomllib parses nested arrays and inline tables recursively; thousands of levels exhaust the stack.
+        raise BadInput(source, "", "is nested too deeply to be read", "tables and arrays a few levels deep") from None
     return Table(source, "", data)
 
 

@@ -1,8 +1,9 @@
 """Subcommands `sweep` (run a plan on a bench, or on the built-in simulated bench) and `demo`.
 
 Exit codes: 0 the sweep completed; 1 it stopped on a limit, a fault or a
-cancel; 2 bad input (plan, bench, wiring refused, or an instrument's nonsense
-reply); 130 Ctrl-C (outputs are off before the process exits).
+cancel; 2 bad input (plan, bench, wiring refused, an --out folder that cannot
+be written, or an instrument's nonsense reply); 4 the run file could not be
+written part way (disk full: the points written before are kept); 130 Ctrl-C (outputs are off before the process exits).
 """
 
 from __future__ import annotations
@@ -170,6 +171,9 @@ def _exit_code(result) -> int:
 
 
 def _sweep(args) -> int:
+    from benchlog.filecheck import check_output_dir
+
+    check_output_dir(args.out, "--out")
     plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes)
     if args.json:
         print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome})
@@ -206,7 +210,10 @@ def _demo(args) -> int:
                              "use 'benchlog demo --headless'\n")
             return 2
         return int(run_demo_ui(args) or 0)
+    from benchlog.filecheck import check_output_dir
+
     plan_path = demo_plan_path(args.plan)
+    check_output_dir(args.out, "--out")
     plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True)
     summary: dict[str, Any] = {
         "run_file": str(result.run_file),

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
 
+from benchlog.filecheck import write_failure
 from benchlog.runs.events import Event
 
 from .bench_file import BenchSetup
@@ -61,9 +62,16 @@ def run_sweep(
         runner.run_file = path
         if on_runner is not None:
             on_runner(runner)
-        with RunWriter(path) as writer:
-            runner.writer = writer
-            runner.run(on_event)
+        writer = None
+        try:
+            with RunWriter(path) as writer:
+                runner.writer = writer
+                runner.run(on_event)
+        except OSError as exc:  # RunWriteError (disk full, I/O error) or the file could not be created
+            cause = exc.__cause__ if isinstance(exc.__cause__, OSError) else exc
+            kept = writer.durable_points if writer is not None else 0
+            raise write_failure(path, cause, f"the sweep was stopped there and the safe state commanded; "
+                                f"the {kept} points written before are kept in it") from None
         return SweepResult(path, len(runner.points), runner.outcome or "fault", runner.message,
                            runner.fault, runner.power_applied)
     finally:
