@@ -102,6 +102,11 @@ def open_input(path: str | os.PathLike[str], what: str, *, max_bytes: int | None
         raise
 
 
+def check_input(path: str | os.PathLike[str], what: str) -> None:
+    """Refuse at once an input that is missing or not a regular file (before slower work starts)."""
+    open_input(path, what).close()
+
+
 def read_input(path: str | os.PathLike[str], what: str, *, max_bytes: int) -> bytes:
     """All bytes of a regular file of at most `max_bytes` (a file that grows meanwhile is cut and refused)."""
     with open_input(path, what, max_bytes=max_bytes) as f:

@@ -12,7 +12,7 @@ import sys
 from pathlib import Path
 
 from benchlog.badinput import BadInput
-from benchlog.filecheck import check_output_dir, check_output_file, write_failure
+from benchlog.filecheck import check_input, check_output_dir, check_output_file, write_failure
 
 SUFFIXES = (".html", ".htm", ".pdf")
 MODELS = ("auto", "resistive", "diode", "knee")
@@ -63,14 +63,13 @@ def run(args) -> int:
         check_output_dir(args.figures, "--figures")
     at_a = _current(args.at) if args.at is not None else None
     for path in args.runs:
-        if not Path(path).is_file():
-            raise BadInput(path, "", "file not found", "an existing .run file")
+        check_input(path, "run file")
     if not args.runs and args.design is None:
         raise BadInput("argument", "RUN", "no run file given", "one or more .run files, or --design DESIGN.toml")
-    if args.design is not None and not Path(args.design).is_file():
-        raise BadInput(args.design, "", "file not found", "an existing design file (.toml)")
-    if args.spec is not None and not Path(args.spec).is_file():
-        raise BadInput(args.spec, "", "file not found", "an existing part spec (.toml)")
+    if args.design is not None:
+        check_input(args.design, "design file (.toml)")
+    if args.spec is not None:
+        check_input(args.spec, "part spec (.toml)")
 
     # imported here so that `benchlog --help` stays fast (matplotlib loads only for a report)
     from benchlog.report import write_report

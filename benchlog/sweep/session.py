@@ -71,7 +71,7 @@ def run_sweep(
             cause = exc.__cause__ if isinstance(exc.__cause__, OSError) else exc
             kept = writer.durable_points if writer is not None else 0
             raise write_failure(path, cause, f"the sweep was stopped there and the safe state commanded; "
-                                f"the {kept} points written before are kept in it") from None
+                                f"the {kept} points confirmed on disk before are kept in it") from None
         return SweepResult(path, len(runner.points), runner.outcome or "fault", runner.message,
                            runner.fault, runner.power_applied)
     finally:
