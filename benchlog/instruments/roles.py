@@ -39,6 +39,8 @@ MAX_ERROR_READS = 32
 _LONGEST_PLC_S = 0.020
 # Allowance for autozero and settling per reading, as a factor on the integration time (common practice: ~2x).
 _READ_OVERHEAD = 2.0
+# The integration time assumed for the read timeout of a meter whose profile cannot set NPLC (a slow setting).
+_UNKNOWN_NPLC = 10.0
 
 Failure = tuple[str, str, BaseException]
 
@@ -425,8 +427,11 @@ class Meter(Role):
         raise SafetyLimit(f"{name} {value!r} {unit} refused: not a range of {self.profile.name} (ranges: {listed})",
                           resource=self.resource, name=name, value=value)
 
-    def _check_nplc(self, nplc: object) -> float:
+    def _check_nplc(self, nplc: object) -> float | None:
+        """The NPLC to send, or None for a meter whose profile has no NPLC command (it keeps its own)."""
         limits = self.profile.limits
+        if not self.profile.sets_nplc:
+            return None
         if not _ok_number(nplc) or not math.isfinite(float(nplc)):  # type: ignore[arg-type]
             raise SafetyLimit(f"nplc {nplc!r} refused: not a finite number", resource=self.resource, name="nplc", value=nplc)
         n = float(nplc)  # type: ignore[arg-type]
@@ -446,7 +451,7 @@ class Meter(Role):
     def configure_voltage(self, range_v: float, nplc: float) -> None:
         r = self._check_range(range_v, self.profile.limits.voltage_ranges_v, "range_v", "V")
         n = self._check_nplc(nplc)
-        command = self._command("configure_voltage", range_v=r, nplc=n)
+        command = self._command("configure_voltage", range_v=r, **({} if n is None else {"nplc": n}))
         self._write(command)
         self.check_errors(after=command)
         self.function, self.range, self.nplc = "dc_voltage", r, n
@@ -455,7 +460,7 @@ class Meter(Role):
     def configure_current(self, range_a: float, nplc: float) -> None:
         r = self._check_range(range_a, self.profile.limits.current_ranges_a, "range_a", "A")
         n = self._check_nplc(nplc)
-        command = self._command("configure_current", range_a=r, nplc=n)
+        command = self._command("configure_current", range_a=r, **({} if n is None else {"nplc": n}))
         self._write(command)
         self.check_errors(after=command)
         self.function, self.range, self.nplc = "dc_current", r, n
@@ -481,7 +486,8 @@ class Meter(Role):
 
     def read_timeout_s(self) -> float:
         """Link timeout plus the integration time of the configured readings at the longer (50 Hz) cycle."""
-        nplc = self.nplc if self.nplc is not None else 1.0
+        # A meter that does not take our NPLC integrates at its own setting: allow for a slow one.
+        nplc = self.nplc if self.nplc is not None else (1.0 if self.profile.sets_nplc else _UNKNOWN_NPLC)
         base = getattr(self.transport, "timeout_s", None) or self.profile.timeout_s
         return base + self.samples * nplc * _LONGEST_PLC_S * _READ_OVERHEAD
 
