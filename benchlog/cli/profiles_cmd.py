@@ -1,10 +1,13 @@
-"""Subcommands `benchlog profiles list | check FILE... | probe RESOURCE`: instrument profiles and identification.
+"""Subcommands `benchlog profiles list | check FILE... | probe RESOURCE [--exercise] | scan`: profiles and identification.
 
 Exit codes: `check` 0 when every file is a valid profile, 2 otherwise (one line
 per broken file: file, key, problem, expectation). `probe` 0 when the resource
 answered `*IDN?` (whether or not a profile matches), 1 when it could not be
 reached or did not answer in time, 2 for a malformed resource string or a reply
-that is not a four-field `*IDN?`.
+that is not a four-field `*IDN?`. `probe --exercise` 0 when the instrument
+accepted every operation, 1 when it refused one (or did not answer), 2 for bad
+input (no such profile, an instrument that does not match it). `scan` 0 when
+every resource found answered `*IDN?`, 1 when one did not or none was found.
 """
 
 from __future__ import annotations
@@ -35,8 +38,14 @@ def register(sub) -> None:
 
     probe = actions.add_parser("probe", help="ask a resource for *IDN? and name the profiles that match")
     probe.add_argument("resource", metavar="RESOURCE", help="VISA resource, e.g. TCPIP0::127.0.0.1::5025::SOCKET")
+    probe.add_argument("--exercise", action="store_true",
+                       help="with the outputs off, send every operation of the profile once and report what the "
+                            "instrument accepted or refused (its error code and text)")
+    probe.add_argument("--profile", metavar="NAME_OR_PATH",
+                       help="the profile to exercise (default: the first one whose *IDN? pattern matches)")
     probe.add_argument("--backend", default="@py", help="pyvisa backend (default @py = pyvisa-py)")
-    probe.add_argument("--timeout", type=float, default=2.0, metavar="S", help="reply timeout in seconds (default 2)")
+    probe.add_argument("--timeout", type=float, default=None, metavar="S",
+                       help="reply timeout in seconds (default 2; with --exercise, the profile's)")
     probe.add_argument("--json", action="store_true", help="print JSON instead of text")
     probe.set_defaults(handler=_probe)
 
@@ -85,10 +94,16 @@ def _probe(args) -> int:
     from benchlog.instruments.errors import TransportError
 
     _check_resource(args.resource)
-    if not 0.05 <= args.timeout <= 600:
+    if args.timeout is not None and not 0.05 <= args.timeout <= 600:
         raise BadInput("argument", "--timeout", f"is {args.timeout:g}", "seconds between 0.05 and 600")
+    if args.profile is not None and not args.exercise:
+        raise BadInput("argument", "--profile", "is given without --exercise", "--exercise --profile NAME_OR_PATH")
+    if args.exercise:
+        from .exercise_cmd import exercise_resource
+
+        return exercise_resource(args)
     try:
-        result = probe(args.resource, backend=args.backend, timeout_s=args.timeout)
+        result = probe(args.resource, backend=args.backend, timeout_s=args.timeout or 2.0)
     except TransportError as exc:
         sys.stderr.write(f"benchlog: {exc} (is the instrument on, and is the address right?)\n")
         return EXIT_FAILED
