@@ -49,6 +49,17 @@ def register(sub) -> None:
     probe.add_argument("--json", action="store_true", help="print JSON instead of text")
     probe.set_defaults(handler=_probe)
 
+    scan = actions.add_parser("scan", help="list the VISA resources the installed backends see and ask each *IDN?")
+    scan.add_argument("--resource", action="append", default=[], metavar="RESOURCE",
+                      help="also probe this resource (raw-socket LAN instruments cannot be discovered); repeatable")
+    scan.add_argument("--lan", action="store_true",
+                      help="also look for LAN instruments (sends a VXI-11 broadcast on the local network)")
+    scan.add_argument("--backend", default="@py", help="pyvisa backend (default @py = pyvisa-py)")
+    scan.add_argument("--timeout", type=float, default=2.0, metavar="S",
+                      help="reply timeout per resource in seconds (default 2)")
+    scan.add_argument("--json", action="store_true", help="print JSON instead of text")
+    scan.set_defaults(handler=_scan)
+
 
 def _list(args) -> int:
     from benchlog.instruments.profile import scan_profiles
@@ -130,6 +141,52 @@ def _probe(args) -> int:
     if not result.matches:
         print("matches       none; write a profile for it (see docs/adding-a-profile.md)")
     return EXIT_OK
+
+
+def _scan(args) -> int:
+    from benchlog.instruments.connect import probe
+    from benchlog.instruments.discovery import list_resources, missing_extras
+    from benchlog.instruments.errors import BenchError
+
+    if not 0.05 <= args.timeout <= 60:
+        raise BadInput("argument", "--timeout", f"is {args.timeout:g}", "seconds between 0.05 and 60")
+    for resource in args.resource:
+        _check_resource(resource)
+    missing = missing_extras()
+    for extra in missing:
+        sys.stderr.write(f"benchlog: note: {extra.line()}\n")
+    try:
+        listed = list_resources(args.backend, lan=args.lan)
+    except BenchError as exc:
+        sys.stderr.write(f"benchlog: {exc}\n")
+        return EXIT_FAILED
+    resources = list(dict.fromkeys([*listed, *args.resource]))
+    found = []
+    for resource in resources:
+        entry = {"resource": resource, "listed": resource in listed}
+        try:
+            result = probe(resource, backend=args.backend, timeout_s=args.timeout)
+        except BenchError as exc:  # unreachable, no answer in time, or not an *IDN? reply
+            entry.update(answered=False, problem=str(exc))
+        else:
+            entry.update(answered=True, idn=result.idn_text,
+                         matches=[{"name": p.name, "role": p.role, "generic": p.generic} for p in result.matches])
+        found.append(entry)
+    if args.json:
+        print_json({"resources": found, "missing_extras": [{"extra": m.extra, "package": m.package,
+                                                            "buses": m.buses} for m in missing]})
+    else:
+        if not resources:
+            print("no VISA resources found by the installed backends"
+                  + ("" if args.lan else " (LAN instruments: --lan, or --resource for a raw socket)"))
+        width = max((len(e["resource"]) for e in found), default=0)
+        for e in found:
+            if e["answered"]:
+                names = ", ".join(f"{m['name']} ({m['role']})" for m in e["matches"]) or "no profile matches"
+                print(f"{e['resource']:<{width}}  {e['idn']}  -> {names}")
+            else:
+                print(f"{e['resource']:<{width}}  no answer: {e['problem']}")
+    return EXIT_OK if found and all(e["answered"] for e in found) else EXIT_FAILED
 
 
 def _check_resource(resource: str) -> None:
