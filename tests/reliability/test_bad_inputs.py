@@ -193,7 +193,9 @@ SIM_CASES = [
     (("sim", "--port", "-5"), None, ["port", "-5"]),
     (("sim", "--port", "0", "--latency-s", "nan"), None, ["latency_s", "nan"]),
     (("sim", "--element", "triode"), None, ["--element", "'triode'"]),
-    (("sim", "--port", "0", "--truth", "{tmp}/no-such-dir/truth.json"), None, ["truth.json", "cannot be written"]),
+    (("sim", "--port", "0", "--truth", GOOD_RUN), None, ["--truth", "existing run file"]),
+    (("sim", "--port", "0", "--truth", "/proc/benchlog-truth.json"), None, ["--truth", "/proc"]),
+    (("sim", "--port", "0", "--truth", "{tmp}/no-such-dir/truth.json"), None, ["truth.json", "does not exist"]),
 ]
 
 # A few of the in-process cases again as real processes (the installed command's path to exit code 2).
