@@ -9,6 +9,8 @@ off afterwards as the sim itself reports over a fresh connection.
 from __future__ import annotations
 
 import json
+import threading
+import time
 from pathlib import Path
 
 import pyvisa
@@ -76,7 +78,26 @@ def test_a_wrong_supply_form_is_found_with_the_output_off(sim_bench, tmp_path, c
     bench = sim_bench("pmos", seed=1)
     wrong = _copy("sim-supply", tmp_path, ('set_current_limit = "SOURce:CURRent {current_a}"',
                                            'set_current_limit = "SOURce:CURRent:LEVel:LIMiter {current_a}"'))
-    rc, report = _exercise(capsys, bench.resources["supply"], wrong)
+    _ask(bench.resources["supply"], "OUTPut:STATe ON;:OUTPut:STATe?")  # left on by someone before us
+    assert bench.bench.supply.output_on
+    seen: list[bool] = []
+    done = threading.Event()
+
+    def watch():  # the sim's own output state, sampled while the exercise runs
+        while not done.is_set():
+            seen.append(bench.bench.supply.output_on)
+            time.sleep(0.0005)
+
+    watcher = threading.Thread(target=watch)
+    watcher.start()
+    try:
+        rc, report = _exercise(capsys, bench.resources["supply"], wrong)
+    finally:
+        done.set()
+        watcher.join()
+    # on until the exercise's first command switched it off, and never on again
+    first_off = seen.index(False)
+    assert not any(seen[first_off:]), "the output came on during the exercise"
     assert rc == 1
     by_name = {op["operation"]: op for op in report["operations"]}
     assert by_name["set_current_limit current_a 0"]["errors"][0]["code"] == -113

@@ -105,3 +105,28 @@ def test_disk_full_on_a_real_small_file_system(tmp_path):
         assert state == OutputState(supply_output_on=False, load_input_on=False), context
     finally:
         subprocess.run(["umount", str(full)], capture_output=True, timeout=20)
+
+
+@pytest.mark.fault_survival("disk full during a sweep")
+@pytest.mark.parametrize("argv", [("export", "{run}", "--csv", "{full}/points.csv"),
+                                  ("report", "{run}", "-o", "{full}/report.html")], ids=["export", "report"])
+def test_export_and_report_onto_a_full_disk(argv, tmp_path, capsys):
+    from .test_bad_inputs import GOOD_RUN
+
+    full = tmp_path / "full"
+    full.mkdir()
+    mounted = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=4k", "tmpfs", str(full)],
+                             capture_output=True, timeout=20).returncode == 0
+    if not mounted:
+        pytest.skip("mounting a 4 kB tmpfs needs root")
+    try:
+        before = Path(GOOD_RUN).read_bytes()
+        (full / "filler").write_bytes(b"x" * 4096)  # the one page of this file system is taken: no room left
+        rc = main([a.replace("{run}", GOOD_RUN).replace("{full}", str(full)) for a in argv])
+        out, err = capsys.readouterr()
+        lines = [line for line in err.splitlines() if line.strip()]
+        assert rc == 4 and len(lines) == 1 and "Traceback" not in err, (rc, out, err)
+        assert "the disk is full" in lines[0] and "untouched" in lines[0], lines
+        assert Path(GOOD_RUN).read_bytes() == before
+    finally:
+        subprocess.run(["umount", str(full)], capture_output=True, timeout=20)
