@@ -79,14 +79,14 @@ def _profile_role(path: Path) -> str:
 def _spec_examples() -> list[Example]:
     import tomllib
 
-    from benchlog.analysis.spec import load_spec
+    from benchlog.specfiles import load_spec
 
     return [Example(str(tomllib.loads(p.read_text(encoding="utf-8")).get("kind", "")), lambda p=p: load_spec(p))
             for p in _files(DEMO / "specs")]
 
 
 def _design_examples() -> list[Example]:
-    from benchlog.analysis.design import load_design
+    from benchlog.specfiles import load_design
 
     return [Example("", lambda p=p: load_design(p)) for p in _files(DEMO, "design*.toml")]
 
