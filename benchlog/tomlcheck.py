@@ -9,24 +9,90 @@ from __future__ import annotations
 
 import difflib
 import math
+import re
 import tomllib
+from contextlib import contextmanager
+from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Any, Iterable, Iterator
 
 from benchlog.badinput import BadInput
+from benchlog.filecheck import TOML_MAX_BYTES, read_input
 
 _MISSING = object()
 
 
-def read_utf8(path: str | Path) -> tuple[str, bytes]:
-    """The text of one of our files and its raw bytes (for content hashes); faults raise `BadInput`."""
-    path = Path(path)
+@dataclass
+class KeyUse:
+    """What one reader asked of one key: its type, unit, default, bounds and choices (for the reference pages)."""
+
+    table: str  # "" for the top level, "limits", "accuracy[]" for an array of tables
+    key: str
+    kind: str = ""  # "string", "number", "whole number", "true or false", "list of ...", "table", "array of tables"
+    unit: str = ""
+    required: tuple[bool, ...] = ()  # as asked by the reader each time: (True,), (False,) or both ("depends")
+    default: Any = None
+    bounds: str = ""
+    choices: tuple[str, ...] = ()
+
+
+class KeyLog:
+    """Every key a reader asked for while `recording()` was on: the readers are the tables the docs come from."""
+
+    def __init__(self) -> None:
+        self.uses: dict[tuple[str, str], KeyUse] = {}
+
+    def note(self, table: str, key: str, **facts: Any) -> None:
+        use = self.uses.setdefault((_generic_name(table), key), KeyUse(_generic_name(table), key))
+        for name, value in facts.items():
+            if name == "required":
+                # required once and optional elsewhere means it depends on other keys
+                for seen in (value if isinstance(value, tuple) else (value,)):
+                    if seen is not None and seen not in use.required:
+                        use.required = tuple(sorted(use.required + (seen,)))
+            elif name == "choices":
+                use.choices = tuple(dict.fromkeys(use.choices + tuple(value)))
+            elif value not in (None, "", ()) and not getattr(use, name):
+                setattr(use, name, value)
+
+
+_LOG: KeyLog | None = None
+
+
+@contextmanager
+def recording() -> Iterator[KeyLog]:
+    """Record the keys every `Table` is asked for (used by `benchlog.docs_gen`; not thread-safe)."""
+    global _LOG
+    previous, _LOG = _LOG, KeyLog()
     try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise BadInput(path, "", "file not found", "an existing TOML file") from None
-    except OSError as exc:
-        raise BadInput(path, "", f"cannot be read ({exc.strerror})", "a readable file") from None
+        yield _LOG
+    finally:
+        _LOG = previous
+
+
+def _generic_name(name: str) -> str:
+    return re.sub(r"\[\d+\]", "[]", name)
+
+
+def _bounds(lo, hi, positive: bool) -> str:
+    parts = []
+    if positive:
+        parts.append("> 0")
+    if lo is not None:
+        parts.append(f">= {lo:g}")
+    if hi is not None:
+        parts.append(f"<= {hi:g}")
+    return ", ".join(parts)
+
+
+def read_utf8(path: str | Path) -> tuple[str, bytes]:
+    """The text of one of our files and its raw bytes (for content hashes); faults raise `BadInput`.
+
+    Only a regular file of at most `TOML_MAX_BYTES` is read (`filecheck.read_input`):
+    a FIFO, a device such as /dev/zero or a folder is refused before any byte is read.
+    """
+    path = Path(path)
+    raw = read_input(path, "TOML file", max_bytes=TOML_MAX_BYTES)
     try:
         return raw.decode("utf-8"), raw
     except UnicodeDecodeError as exc:
@@ -46,6 +112,9 @@ def parse_toml(text: str, source: str) -> "Table":
     except tomllib.TOMLDecodeError as exc:
         # tomllib puts "(at line N, column M)" in its message; keep it, it is the place.
         raise BadInput(source, "", f"is not valid TOML: {exc}", "TOML syntax") from None
+    except RecursionError:
+        # tomllib parses nested arrays and inline tables recursively; thousands of levels exhaust the stack.
+        raise BadInput(source, "", "is nested too deeply to be read", "tables and arrays a few levels deep") from None
     return Table(source, "", data)
 
 
@@ -71,6 +140,11 @@ class Table:
     def fail(self, key: str | None, problem: str, expected: str = "") -> BadInput:
         return BadInput(self.source, self.where(key), problem, expected)
 
+    def _note(self, key: str, default: Any = _MISSING, **facts: Any) -> None:
+        if _LOG is not None:
+            required = default is _MISSING
+            _LOG.note(self.name, key, required=required, default=None if required else default, **facts)
+
     # -- structure ----------------------------------------------------------
     def has(self, key: str) -> bool:
         return key in self.data
@@ -80,6 +154,8 @@ class Table:
 
     def table(self, key: str, required: bool = True) -> "Table | None":
         name = f"{self.name}.{key}" if self.name else key
+        if _LOG is not None:
+            _LOG.note(self.name, key, kind="table", required=required)
         if key not in self.data:
             if required:
                 raise BadInput(self.source, f"[{name}]", "table is missing", f"a [{name}] table")
@@ -93,6 +169,8 @@ class Table:
         """An array of tables (`[[key]]`), possibly empty."""
         value = self.data.get(key, [])
         name = f"{self.name}.{key}" if self.name else key
+        if _LOG is not None:
+            _LOG.note(self.name, key, kind="array of tables", required=False)
         if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
             raise self.fail(key, f"is {_describe(value)}", f"an array of tables [[{name}]]")
         return [Table(self.source, f"{name}[{i}]", v) for i, v in enumerate(value)]
@@ -100,6 +178,9 @@ class Table:
     def only(self, allowed: Iterable[str]) -> None:
         """Reject keys outside `allowed`, suggesting the nearest valid name (typos are common)."""
         allowed = list(allowed)
+        if _LOG is not None:
+            for key in allowed:
+                _LOG.note(self.name, key)
         for key in self.data:
             if key not in allowed:
                 near = difflib.get_close_matches(key, allowed, n=1)
@@ -115,6 +196,9 @@ class Table:
         return default
 
     def string(self, key: str, default: Any = _MISSING, choices: Iterable[str] | None = None) -> Any:
+        if choices is not None:
+            choices = list(choices)
+        self._note(key, default, kind="string", choices=tuple(choices or ()))
         value = self._get(key, default)
         if value is default and key not in self.data:
             return value
@@ -127,6 +211,7 @@ class Table:
         return value
 
     def boolean(self, key: str, default: Any = _MISSING) -> Any:
+        self._note(key, default, kind="true or false")
         value = self._get(key, default)
         if value is default and key not in self.data:
             return value
@@ -145,6 +230,7 @@ class Table:
         unit: str = "",
     ) -> Any:
         """A finite real number within bounds; integers are accepted as numbers."""
+        self._note(key, default, kind="number", unit=unit, bounds=_bounds(min, max, positive))
         value = self._get(key, default)
         if value is default and key not in self.data:
             return value
@@ -166,6 +252,7 @@ class Table:
         return value
 
     def integer(self, key: str, default: Any = _MISSING, *, min: int | None = None, max: int | None = None) -> Any:
+        self._note(key, default, kind="whole number", bounds=_bounds(min, max, False))
         value = self._get(key, default)
         if value is default and key not in self.data:
             return value
@@ -189,6 +276,7 @@ class Table:
         nonempty: bool = True,
     ) -> Any:
         """A list of finite numbers, returned as a tuple."""
+        self._note(key, default, kind="list of numbers", unit=unit, bounds=_bounds(min, max, positive))
         value = self._get(key, default)
         if value is default and key not in self.data:
             return value
@@ -201,6 +289,7 @@ class Table:
         )
 
     def strings(self, key: str, default: Any = _MISSING) -> Any:
+        self._note(key, default, kind="list of strings")
         value = self._get(key, default)
         if value is default and key not in self.data:
             return value

@@ -3,9 +3,13 @@
 Exit codes: 0 success or `pass`; 1 a measurement or check that ran but did not
 succeed (`fail`, limit hit, fault, cancel, an output not confirmed off); 2 bad
 input (file, argument or an instrument's nonsense reply), always as one line on
-stderr; 3 a `conditional` verdict; 75 an instrument is in use by another
-session (one sweep per bench; EX_TEMPFAIL of BSD sysexits: try again later);
-130 interrupted by Ctrl-C; 143 SIGTERM.
+stderr; 3 a `conditional` verdict; 4 an output could not be written part way
+through (disk full, I/O error; what was written before is kept and named); 75
+an instrument is in use by another session (one sweep per bench; EX_TEMPFAIL of
+BSD sysexits: try again later); 130 interrupted by Ctrl-C; 143 SIGTERM.
+An output path that would destroy an input or an existing run file, or that
+cannot be written at all (read-only, not a folder, under /proc or /sys), is
+refused before anything is written: bad input, exit 2.
 
 Each subcommand lives in its own module with a `register(subparsers)` function.
 """
@@ -18,6 +22,7 @@ import sys
 
 from benchlog import __version__
 from benchlog.badinput import BadInput
+from benchlog.filecheck import CannotWrite
 
 from . import analysis_cmd, export_cmd, fit_cmd, profiles_cmd, report_cmd, sim_cmd, sweep_cmd, ui_cmd
 
@@ -25,6 +30,7 @@ EXIT_OK = 0
 EXIT_FAILED = 1
 EXIT_BAD_INPUT = 2
 EXIT_CONDITIONAL = 3
+EXIT_CANNOT_WRITE = 4
 EXIT_IN_USE = 75
 EXIT_INTERRUPTED = 130
 
@@ -67,6 +73,9 @@ def main(argv: list[str] | None = None) -> int:
     except BadInput as exc:
         sys.stderr.write(f"benchlog: {exc.line()}\n")
         return EXIT_BAD_INPUT
+    except CannotWrite as exc:
+        sys.stderr.write(f"benchlog: {exc.line()}\n")
+        return EXIT_CANNOT_WRITE
     except BrokenPipeError:
         # The reader of stdout went away (`benchlog fit RUN | head`); a sweep was closed safely by
         # then. Point stdout at /dev/null so Python's own final flush does not print a traceback.

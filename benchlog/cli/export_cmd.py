@@ -1,4 +1,9 @@
-"""`benchlog export RUN --csv FILE`: a run's points as plain CSV for other tools."""
+"""`benchlog export RUN --csv FILE`: a run's points as plain CSV for other tools.
+
+Exit codes: 0 written; 2 bad run file, or a --csv path refused before writing
+(the run itself, an existing run file, read-only, under /proc or /sys); 4 the
+CSV could not be written part way (disk full; the run file is untouched).
+"""
 
 from __future__ import annotations
 
@@ -20,8 +25,10 @@ def register(sub) -> None:
 
 
 def _export(args: argparse.Namespace) -> int:
+    from benchlog.filecheck import check_output_file
     from benchlog.runs.export import export_csv
 
+    check_output_file(args.csv, "--csv", inputs=[args.run])
     meta = export_csv(args.run, args.csv)
     state = "" if meta.complete else " (run incomplete: no end record)"
     sys.stdout.write(f"{args.csv}: {meta.points} points{state}\n")

@@ -1,10 +1,13 @@
-"""Subcommands `benchlog profiles list | check FILE... | probe RESOURCE`: instrument profiles and identification.
+"""Subcommands `benchlog profiles list | check FILE... | probe RESOURCE [--exercise] | scan`: profiles and identification.
 
 Exit codes: `check` 0 when every file is a valid profile, 2 otherwise (one line
 per broken file: file, key, problem, expectation). `probe` 0 when the resource
 answered `*IDN?` (whether or not a profile matches), 1 when it could not be
 reached or did not answer in time, 2 for a malformed resource string or a reply
-that is not a four-field `*IDN?`.
+that is not a four-field `*IDN?`. `probe --exercise` 0 when the instrument
+accepted every operation, 1 when it refused one (or did not answer), 2 for bad
+input (no such profile, an instrument that does not match it). `scan` 0 when
+every resource found answered `*IDN?`, 1 when one did not or none was found.
 """
 
 from __future__ import annotations
@@ -35,10 +38,27 @@ def register(sub) -> None:
 
     probe = actions.add_parser("probe", help="ask a resource for *IDN? and name the profiles that match")
     probe.add_argument("resource", metavar="RESOURCE", help="VISA resource, e.g. TCPIP0::127.0.0.1::5025::SOCKET")
+    probe.add_argument("--exercise", action="store_true",
+                       help="with the outputs off, send every operation of the profile once and report what the "
+                            "instrument accepted or refused (its error code and text)")
+    probe.add_argument("--profile", metavar="NAME_OR_PATH",
+                       help="the profile to exercise (default: the first one whose *IDN? pattern matches)")
     probe.add_argument("--backend", default="@py", help="pyvisa backend (default @py = pyvisa-py)")
-    probe.add_argument("--timeout", type=float, default=2.0, metavar="S", help="reply timeout in seconds (default 2)")
+    probe.add_argument("--timeout", type=float, default=None, metavar="S",
+                       help="reply timeout in seconds (default 2; with --exercise, the profile's)")
     probe.add_argument("--json", action="store_true", help="print JSON instead of text")
     probe.set_defaults(handler=_probe)
+
+    scan = actions.add_parser("scan", help="list the VISA resources the installed backends see and ask each *IDN?")
+    scan.add_argument("--resource", action="append", default=[], metavar="RESOURCE",
+                      help="also probe this resource (raw-socket LAN instruments cannot be discovered); repeatable")
+    scan.add_argument("--lan", action="store_true",
+                      help="also look for LAN instruments (sends a VXI-11 broadcast on the local network)")
+    scan.add_argument("--backend", default="@py", help="pyvisa backend (default @py = pyvisa-py)")
+    scan.add_argument("--timeout", type=float, default=2.0, metavar="S",
+                      help="reply timeout per resource in seconds (default 2)")
+    scan.add_argument("--json", action="store_true", help="print JSON instead of text")
+    scan.set_defaults(handler=_scan)
 
 
 def _list(args) -> int:
@@ -85,10 +105,16 @@ def _probe(args) -> int:
     from benchlog.instruments.errors import TransportError
 
     _check_resource(args.resource)
-    if not 0.05 <= args.timeout <= 600:
+    if args.timeout is not None and not 0.05 <= args.timeout <= 600:
         raise BadInput("argument", "--timeout", f"is {args.timeout:g}", "seconds between 0.05 and 600")
+    if args.profile is not None and not args.exercise:
+        raise BadInput("argument", "--profile", "is given without --exercise", "--exercise --profile NAME_OR_PATH")
+    if args.exercise:
+        from .exercise_cmd import exercise_resource
+
+        return exercise_resource(args)
     try:
-        result = probe(args.resource, backend=args.backend, timeout_s=args.timeout)
+        result = probe(args.resource, backend=args.backend, timeout_s=args.timeout or 2.0)
     except TransportError as exc:
         sys.stderr.write(f"benchlog: {exc} (is the instrument on, and is the address right?)\n")
         return EXIT_FAILED
@@ -115,6 +141,52 @@ def _probe(args) -> int:
     if not result.matches:
         print("matches       none; write a profile for it (see docs/adding-a-profile.md)")
     return EXIT_OK
+
+
+def _scan(args) -> int:
+    from benchlog.instruments.connect import probe
+    from benchlog.instruments.discovery import list_resources, missing_extras
+    from benchlog.instruments.errors import BenchError
+
+    if not 0.05 <= args.timeout <= 60:
+        raise BadInput("argument", "--timeout", f"is {args.timeout:g}", "seconds between 0.05 and 60")
+    for resource in args.resource:
+        _check_resource(resource)
+    missing = missing_extras()
+    for extra in missing:
+        sys.stderr.write(f"benchlog: note: {extra.line()}\n")
+    try:
+        listed = list_resources(args.backend, lan=args.lan)
+    except BenchError as exc:
+        sys.stderr.write(f"benchlog: {exc}\n")
+        return EXIT_FAILED
+    resources = list(dict.fromkeys([*listed, *args.resource]))
+    found = []
+    for resource in resources:
+        entry = {"resource": resource, "listed": resource in listed}
+        try:
+            result = probe(resource, backend=args.backend, timeout_s=args.timeout)
+        except BenchError as exc:  # unreachable, no answer in time, or not an *IDN? reply
+            entry.update(answered=False, problem=str(exc))
+        else:
+            entry.update(answered=True, idn=result.idn_text,
+                         matches=[{"name": p.name, "role": p.role, "generic": p.generic} for p in result.matches])
+        found.append(entry)
+    if args.json:
+        print_json({"resources": found, "missing_extras": [{"extra": m.extra, "package": m.package,
+                                                            "buses": m.buses} for m in missing]})
+    else:
+        if not resources:
+            print("no VISA resources found by the installed backends"
+                  + ("" if args.lan else " (LAN instruments: --lan, or --resource for a raw socket)"))
+        width = max((len(e["resource"]) for e in found), default=0)
+        for e in found:
+            if e["answered"]:
+                names = ", ".join(f"{m['name']} ({m['role']})" for m in e["matches"]) or "no profile matches"
+                print(f"{e['resource']:<{width}}  {e['idn']}  -> {names}")
+            else:
+                print(f"{e['resource']:<{width}}  no answer: {e['problem']}")
+    return EXIT_OK if found and all(e["answered"] for e in found) else EXIT_FAILED
 
 
 def _check_resource(resource: str) -> None:

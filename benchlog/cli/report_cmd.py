@@ -1,4 +1,9 @@
-"""Subcommand `report`: one self-contained HTML or PDF file from one or more runs, optionally against a part spec."""
+"""Subcommand `report`: one self-contained HTML or PDF file from one or more runs, optionally against a part spec.
+
+Exit codes: 0 written; 2 bad input, or an -o / --figures path refused before
+writing (one of the inputs, an existing run file, a folder, read-only, under
+/proc or /sys); 4 the report could not be written part way (disk full).
+"""
 
 from __future__ import annotations
 
@@ -7,6 +12,7 @@ import sys
 from pathlib import Path
 
 from benchlog.badinput import BadInput
+from benchlog.filecheck import check_input, check_output_dir, check_output_file, write_failure
 
 SUFFIXES = (".html", ".htm", ".pdf")
 MODELS = ("auto", "resistive", "diode", "knee")
@@ -51,18 +57,19 @@ def run(args) -> int:
     out = Path(args.output)
     if out.suffix.lower() not in SUFFIXES:
         raise BadInput("argument", "-o", f"'{out}' has no report suffix", "a file name ending in .html or .pdf")
-    if not out.parent.is_dir():
-        raise BadInput("argument", "-o", f"folder '{out.parent}' does not exist", "an existing folder")
+    inputs = [*args.runs, *(p for p in (args.spec, args.design) if p is not None)]
+    check_output_file(out, "-o", inputs=inputs)
+    if args.figures:
+        check_output_dir(args.figures, "--figures")
     at_a = _current(args.at) if args.at is not None else None
     for path in args.runs:
-        if not Path(path).is_file():
-            raise BadInput(path, "", "file not found", "an existing .run file")
+        check_input(path, "run file")
     if not args.runs and args.design is None:
         raise BadInput("argument", "RUN", "no run file given", "one or more .run files, or --design DESIGN.toml")
-    if args.design is not None and not Path(args.design).is_file():
-        raise BadInput(args.design, "", "file not found", "an existing design file (.toml)")
-    if args.spec is not None and not Path(args.spec).is_file():
-        raise BadInput(args.spec, "", "file not found", "an existing part spec (.toml)")
+    if args.design is not None:
+        check_input(args.design, "design file (.toml)")
+    if args.spec is not None:
+        check_input(args.spec, "part spec (.toml)")
 
     # imported here so that `benchlog --help` stays fast (matplotlib loads only for a report)
     from benchlog.report import write_report
@@ -70,12 +77,20 @@ def run(args) -> int:
     from benchlog.report.figures import save
 
     doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a, design_path=args.design)
-    write_report(doc, out)
+    try:
+        write_report(doc, out)
+    except OSError as exc:
+        raise write_failure(out, exc, "the input files are untouched") from None
     if args.figures:
         folder = Path(args.figures)
-        folder.mkdir(parents=True, exist_ok=True)
-        for n, block in enumerate(doc.figures(), start=1):
-            for fmt in ("png", "svg"):
-                save(block.figure, folder / f"figure{n:02d}-{block.name}.{fmt}")
+        target = folder
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+            for n, block in enumerate(doc.figures(), start=1):
+                for fmt in ("png", "svg"):
+                    target = folder / f"figure{n:02d}-{block.name}.{fmt}"
+                    save(block.figure, target)
+        except OSError as exc:
+            raise write_failure(target, exc, f"the report {out} was written") from None
     sys.stdout.write(f"{out}\n")
     return 0

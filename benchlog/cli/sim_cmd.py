@@ -100,6 +100,10 @@ def run(args: argparse.Namespace) -> int:
     from benchlog.sim.server import serve_bench
 
     config = _config(args)
+    if args.truth is not None:  # refused before serving: never over the config or a run file, never under /proc
+        from benchlog.filecheck import check_output_file
+
+        check_output_file(args.truth, "--truth", inputs=[args.config] if args.config else [])
     try:
         running = serve_bench(config)
     except OSError as exc:

@@ -2,9 +2,11 @@
 
 Exit codes: 0 the sweep completed and the outputs were read back off; 1 it
 stopped on a limit, a fault or a cancel, or an output was not confirmed off
-(`OUTPUTS MAY BE ON` on stderr); 2 bad input (plan, bench, wiring refused, or an
-instrument's nonsense reply); 75 an instrument of the bench is in use by another
-session (one line naming the holder; nothing was sent); 130 Ctrl-C; 143 SIGTERM.
+(`OUTPUTS MAY BE ON` on stderr); 2 bad input (plan, bench, wiring refused, an
+--out folder that cannot be written, or an instrument's nonsense reply); 4 the
+run file could not be written part way (disk full: the points written before
+are kept); 75 an instrument of the bench is in use by another session (one line
+naming the holder; nothing was sent); 130 Ctrl-C; 143 SIGTERM.
 
 Every sweep ends with one statement about the outputs: `outputs verified off`
 (stdout, or the `safe_state` key of `--json`) when every supply and load read
@@ -209,6 +211,9 @@ def _exit_code(result) -> int:
 
 
 def _sweep(args) -> int:
+    from benchlog.filecheck import check_output_dir
+
+    check_output_dir(args.out, "--out")
     plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes)
     if args.json:
         print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome,
@@ -263,7 +268,10 @@ def _demo(args) -> int:
                              "use 'benchlog demo --headless'\n")
             return 2
         return int(run_demo_ui(args) or 0)
+    from benchlog.filecheck import check_output_dir
+
     plan_path = demo_plan_path(args.plan)
+    check_output_dir(args.out, "--out")
     plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True)
     summary: dict[str, Any] = {
         "run_file": str(result.run_file),

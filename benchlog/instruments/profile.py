@@ -88,8 +88,9 @@ OPERATIONS: Mapping[str, Mapping[str, tuple[Operation, bool]]] = MappingProxyTyp
         ),
         "meter": MappingProxyType(
             {
-                "configure_voltage": (_op(False, ("range_v", "nplc")), True),
-                "configure_current": (_op(False, ("range_a", "nplc")), False),
+                # {nplc} is optional: a meter without an integration-time command can be described
+                "configure_voltage": (_op(False, ("range_v",), ("nplc",)), True),
+                "configure_current": (_op(False, ("range_a",), ("nplc",)), False),
                 "set_samples": (_op(False, ("count",)), False),
                 "trigger": (_op(False), False),
                 "read": (_op(True), True),
@@ -200,6 +201,11 @@ class Profile:
 
     def has(self, operation: str) -> bool:
         return operation in self.commands
+
+    @property
+    def sets_nplc(self) -> bool:
+        """True when the meter's configure templates set the integration time ({nplc})."""
+        return "{nplc}" in self.commands.get("configure_voltage", "")
 
     def matches_idn(self, idn_text: str) -> bool:
         """`idn_pattern` is searched (Python `re.search`) in the *IDN? reply with outer whitespace removed."""
@@ -344,6 +350,8 @@ def _build(root: Table, path: Path | None, sha256: str) -> Profile:
         if "{" in command or "}" in command:
             raise link.fail(f"connect_commands[{i}]", f"has a placeholder in {command!r}", "fixed command text")
 
+    if generic:
+        _generic_connect(link, connect)
     commands = _commands(root.table("commands"), role)
     for i, command in enumerate(connect):
         _check_harmless(link, f"connect_commands[{i}]", command, commands)
@@ -412,6 +420,20 @@ def _check_harmless(table: Table, key: str, command: str, commands: Mapping[str,
                     p.upper() for p in params):
                 continue  # the same header with another argument (OFF) is the off command
             raise table.fail(key, f"is this profile's {op} command ({command!r})", expected)
+
+
+#: What a generic profile may send at connect: IEEE 488.2 mandatory common commands (clear status, reset,
+#: wait, the two enable registers) and SCPI-99's mandatory STATus:PRESet: every SCPI instrument accepts them.
+_SCPI99_CONNECT = re.compile(r"^(\*CLS|\*RST|\*WAI|\*ESE \d{1,3}|\*SRE \d{1,3}|STAT(?:US)?:PRES(?:ET)?)$", re.IGNORECASE)
+
+
+def _generic_connect(link: Table, connect: tuple[str, ...]) -> None:
+    """A generic profile serves instruments nobody checked it on: only commands all of them accept."""
+    for i, command in enumerate(connect):
+        if not _SCPI99_CONNECT.match(command.strip()):
+            raise link.fail(f"connect_commands[{i}]", f"is {command!r}, which not every SCPI-99 instrument accepts",
+                            "in a generic profile only *CLS, *RST, *WAI, *ESE n, *SRE n or STATus:PRESet "
+                            "(put other commands in a profile for your instrument, generic = false)")
 
 
 def _idn_pattern(root: Table) -> str:
@@ -554,7 +576,13 @@ def _limits(table: Table, role: str, commands: dict[str, str]) -> Limits:
     nplc_max = table.number("nplc_max", None, positive=True, max=1000.0)
     if choices and (nplc_min is not None or nplc_max is not None):
         raise table.fail("nplc_min", "is given together with nplc_choices", "either a list of choices or a min/max range")
-    if not choices:
+    sets_nplc = _check_nplc_templates(table, commands)
+    if not sets_nplc:
+        for key in ("nplc_choices", "nplc_min", "nplc_max"):
+            if table.has(key):
+                raise table.fail(key, "is given but no configure template has {nplc}",
+                                 "{nplc} in [commands].configure_voltage, or no NPLC keys for a meter without one")
+    elif not choices:
         if nplc_min is None:
             raise table.fail("nplc_choices", "is missing", "nplc_choices = [...] or nplc_min and nplc_max")
         if nplc_max is None:
@@ -575,6 +603,18 @@ def _limits(table: Table, role: str, commands: dict[str, str]) -> Limits:
         nplc_max=nplc_max,
         max_samples=max_samples,
     )
+
+
+def _check_nplc_templates(table: Table, commands: dict[str, str]) -> bool:
+    """Whether the meter sets NPLC; both configure templates must agree (one integration time per meter)."""
+    in_voltage = "{nplc}" in commands.get("configure_voltage", "")
+    current = commands.get("configure_current")
+    if current is not None and ("{nplc}" in current) != in_voltage:
+        raise BadInput(table.source, "[commands].configure_current",
+                       "has {nplc} where configure_voltage has not" if not in_voltage
+                       else "lacks {nplc} where configure_voltage has it",
+                       "{nplc} in both configure templates, or in neither")
+    return in_voltage
 
 
 def _ranges(table: Table, key: str, unit: str, required: bool) -> tuple[float, ...]:

@@ -45,6 +45,8 @@ _READ_OVERHEAD = 2.0
 REOPEN_WAITS_S = (0.0, 0.25, 1.0)
 #: How often the state query is asked (with the off command sent again in between) before "not confirmed".
 VERIFY_ATTEMPTS = 3
+# The integration time assumed for the read timeout of a meter whose profile cannot set NPLC (a slow setting).
+_UNKNOWN_NPLC = 10.0
 
 Failure = tuple[str, str, BaseException]
 
@@ -559,8 +561,11 @@ class Meter(Role):
         raise SafetyLimit(f"{name} {value!r} {unit} refused: not a range of {self.profile.name} (ranges: {listed})",
                           resource=self.resource, name=name, value=value)
 
-    def _check_nplc(self, nplc: object) -> float:
+    def _check_nplc(self, nplc: object) -> float | None:
+        """The NPLC to send, or None for a meter whose profile has no NPLC command (it keeps its own)."""
         limits = self.profile.limits
+        if not self.profile.sets_nplc:
+            return None
         if not _ok_number(nplc) or not math.isfinite(float(nplc)):  # type: ignore[arg-type]
             raise SafetyLimit(f"nplc {nplc!r} refused: not a finite number", resource=self.resource, name="nplc", value=nplc)
         n = float(nplc)  # type: ignore[arg-type]
@@ -580,7 +585,7 @@ class Meter(Role):
     def configure_voltage(self, range_v: float, nplc: float) -> None:
         r = self._check_range(range_v, self.profile.limits.voltage_ranges_v, "range_v", "V")
         n = self._check_nplc(nplc)
-        command = self._command("configure_voltage", range_v=r, nplc=n)
+        command = self._command("configure_voltage", range_v=r, **({} if n is None else {"nplc": n}))
         self._write(command)
         self.check_errors(after=command)
         self.function, self.range, self.nplc = "dc_voltage", r, n
@@ -589,7 +594,7 @@ class Meter(Role):
     def configure_current(self, range_a: float, nplc: float) -> None:
         r = self._check_range(range_a, self.profile.limits.current_ranges_a, "range_a", "A")
         n = self._check_nplc(nplc)
-        command = self._command("configure_current", range_a=r, nplc=n)
+        command = self._command("configure_current", range_a=r, **({} if n is None else {"nplc": n}))
         self._write(command)
         self.check_errors(after=command)
         self.function, self.range, self.nplc = "dc_current", r, n
@@ -615,7 +620,8 @@ class Meter(Role):
 
     def read_timeout_s(self) -> float:
         """Link timeout plus the integration time of the configured readings at the longer (50 Hz) cycle."""
-        nplc = self.nplc if self.nplc is not None else 1.0
+        # A meter that does not take our NPLC integrates at its own setting: allow for a slow one.
+        nplc = self.nplc if self.nplc is not None else (1.0 if self.profile.sets_nplc else _UNKNOWN_NPLC)
         base = getattr(self.transport, "timeout_s", None) or self.profile.timeout_s
         return base + self.samples * nplc * _LONGEST_PLC_S * _READ_OVERHEAD
 

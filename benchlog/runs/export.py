@@ -11,7 +11,7 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-from benchlog.badinput import BadInput
+from benchlog.filecheck import write_failure
 
 from .load import RunMeta, load
 
@@ -23,6 +23,5 @@ def export_csv(run_path: str | os.PathLike[str], csv_path: str | os.PathLike[str
     try:
         frame.to_csv(target, index=False, lineterminator="\n")
     except OSError as exc:
-        raise BadInput(str(target), "", f"cannot write the CSV file ({exc.strerror or exc})",
-                       "a writable path") from None
+        raise write_failure(target, exc, f"the run file {run_path} is untouched") from None
     return meta

@@ -22,6 +22,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from benchlog.badinput import BadInput
+from benchlog.filecheck import RUN_LINE_MAX_BYTES
 
 from .events import Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
 from .format import POINT_COLUMNS, POINT_FLOAT_COLUMNS, POINT_INTEGER_COLUMNS, POINT_TAG
@@ -232,7 +233,7 @@ def load(path: str | os.PathLike[str]) -> tuple[pd.DataFrame, RunMeta]:
     source = str(path)
     torn = is_torn(path)
     with _open(path) as f:
-        first = f.readline()
+        first = f.readline(RUN_LINE_MAX_BYTES + 1)  # an absurd first line goes to the line reader, which refuses it
     if first.endswith(b"\n"):
         try:
             text = first[:-1].decode("utf-8")

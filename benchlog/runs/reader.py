@@ -16,6 +16,7 @@ from datetime import datetime
 from typing import Any
 
 from benchlog.badinput import BadInput
+from benchlog.filecheck import RUN_LINE_MAX_BYTES, open_input
 
 from .events import SAFE_STATES, Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
 from .format import (
@@ -312,33 +313,40 @@ class PointDecoder:
 
 def is_torn(path: str | os.PathLike[str]) -> bool:
     """True when the file's last line has no newline (a write cut short by a kill)."""
-    try:
-        with open(path, "rb") as f:
+    with _open(path) as f:
+        try:
             f.seek(0, os.SEEK_END)
             if f.tell() == 0:
                 return False
             f.seek(-1, os.SEEK_END)
             return f.read(1) != b"\n"
-    except OSError as exc:
-        raise BadInput(str(path), "", f"cannot read the run file ({exc.strerror or exc})",
-                       "a readable run file") from None
+        except OSError as exc:
+            raise BadInput(str(path), "", f"cannot read the run file ({exc.strerror or exc})",
+                           "a readable run file") from None
 
 
 def _open(path: str | os.PathLike[str]):
-    try:
-        return open(path, "rb")
-    except OSError as exc:
-        raise BadInput(str(path), "", f"cannot read the run file ({exc.strerror or exc})",
-                       "a readable run file") from None
+    """A run file opened for reading: a regular file only (a FIFO, /dev/zero or a folder is refused at once)."""
+    return open_input(path, "run file")
 
 
 def iter_lines(path: str | os.PathLike[str]) -> Iterator[tuple[int, str]]:
-    """(line number, text without newline) for each complete line; a torn last line is skipped."""
+    """(line number, text without newline) for each complete line; a torn last line is skipped.
+
+    The file is streamed; a line longer than `RUN_LINE_MAX_BYTES` is refused (no
+    record we write comes near it, and reading it whole could exhaust memory).
+    """
     source = str(path)
     with _open(path) as f:
         number = 0
-        for raw in f:
+        while True:
+            raw = f.readline(RUN_LINE_MAX_BYTES + 1)
+            if not raw:
+                return
             number += 1
+            if len(raw) > RUN_LINE_MAX_BYTES:
+                raise _Line(source, number).bad(f"line is longer than {RUN_LINE_MAX_BYTES} bytes",
+                                                "one record per line, each well under 1 MB")
             if not raw.endswith(b"\n"):
                 return  # torn write: the process died inside this line
             try:

@@ -112,7 +112,7 @@ def check_plan_on_rig(plan: Plan, rig: Any) -> list[str]:
             raise BadInput(plan.source, "[meter].samples", f"is {plan.meter.samples}, more than the {role_name} "
                            f"profile {role.profile.name!r} takes ({ml.max_samples})",
                            f"at most {ml.max_samples}, or average with [settle].consecutive instead")
-        _check_nplc(plan, role_name, role.profile)
+        warnings += _check_nplc(plan, role_name, role.profile)
     if w.current_from == "meter" and rig.current_meter is not None:
         if not rig.current_meter.profile.has("configure_current"):
             raise BadInput(bench.source, "[wiring].current_from", "is 'meter', but the current_meter profile "
@@ -136,9 +136,12 @@ def check_plan_on_rig(plan: Plan, rig: Any) -> list[str]:
     return warnings
 
 
-def _check_nplc(plan: Plan, role_name: str, profile: Any) -> None:
+def _check_nplc(plan: Plan, role_name: str, profile: Any) -> list[str]:
     ml = profile.limits
     nplc = plan.meter.nplc
+    if not getattr(profile, "sets_nplc", True):
+        return [f"the {role_name} profile {profile.name!r} has no NPLC command: [meter].nplc = {nplc:g} cannot be "
+                "set, the meter integrates at its own setting (not recorded in the run)"]
     if ml.nplc_choices:
         if not any(math.isclose(nplc, c, rel_tol=1e-9) for c in ml.nplc_choices):
             raise BadInput(plan.source, "[meter].nplc", f"is {nplc:g}, not offered by the {role_name} profile "
@@ -146,6 +149,7 @@ def _check_nplc(plan: Plan, role_name: str, profile: Any) -> None:
     elif ml.nplc_min is not None and not (ml.nplc_min <= nplc <= ml.nplc_max):
         raise BadInput(plan.source, "[meter].nplc", f"is {nplc:g}, outside the {role_name} profile "
                        f"{profile.name!r} range", f"{ml.nplc_min:g} to {ml.nplc_max:g}")
+    return []
 
 
 def _over(plan: Plan, where: str, value: float, unit: str, profile: Any, most: float) -> BadInput:

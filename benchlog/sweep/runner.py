@@ -478,7 +478,9 @@ class SweepRunner:
             "plan": plan.to_dict(),
             "element": element,
             "accuracy": accuracy_block(rig, plan),
-            "meter": {"nplc": plan.meter.nplc, "samples": plan.meter.samples,
+            # NPLC is recorded only when the meter was told it (a profile without an NPLC command keeps its own)
+            "meter": {"nplc": plan.meter.nplc if getattr(rig.meter.profile, "sets_nplc", True) else None,
+                      "samples": plan.meter.samples,
                       "range_v": drop_range_v(plan, rig.meter.profile)},
             "line_frequency_hz": rig.setup.line_frequency_hz,
             "point_columns": list(POINT_COLUMNS),

@@ -19,6 +19,7 @@ from functools import partial
 from pathlib import Path
 from typing import Any, Callable
 
+from benchlog.filecheck import write_failure
 from benchlog.runs.events import Event
 
 from .bench_file import BenchSetup
@@ -88,9 +89,16 @@ def run_sweep(
                     runner.run_file = path
                     if on_runner is not None:
                         on_runner(runner)
-                    with RunWriter(path) as writer:
-                        runner.writer = writer
-                        runner.run(on_event)
+                    writer = None
+                    try:
+                        with RunWriter(path) as writer:
+                            runner.writer = writer
+                            runner.run(on_event)
+                    except OSError as exc:  # RunWriteError (disk full, I/O error) or the file could not be created
+                        cause = exc.__cause__ if isinstance(exc.__cause__, OSError) else exc
+                        kept = writer.durable_points if writer is not None else 0
+                        raise write_failure(path, cause, f"the sweep was stopped there and the safe state commanded; "
+                                            f"the {kept} points confirmed on disk before are kept in it") from None
             finally:
                 _close_all(guard.roles)
         report = guard.outcome

@@ -472,9 +472,13 @@ def _with_serial(plan, serial: str):
 
 
 def _read_text(path: Path) -> str:
+    """The plan's text, or "" when it is not a readable regular file (the plan check then names the fault)."""
+    from benchlog.badinput import BadInput
+    from benchlog.tomlcheck import read_utf8
+
     try:
-        return Path(path).read_text(encoding="utf-8")
-    except OSError:
+        return read_utf8(path)[0]
+    except BadInput:
         return ""
 
 

@@ -97,13 +97,12 @@ def run_ui(args) -> int:
 
 def run_replay(args) -> int:
     """`benchlog replay RUN [--speed X]`: the run played in the live view as if it were happening."""
-    from benchlog.badinput import BadInput
-
     from .app import BenchApp
 
+    from benchlog.filecheck import check_input
+
     run = Path(args.run)
-    if not run.is_file():
-        raise BadInput(run, "", "file not found", "a run file (*.run)")
+    check_input(run, "run file (*.run)")  # missing, a FIFO, a device or a folder: one line before the UI starts
     speed = None if args.speed in ("max", "0") else _speed(args.speed)
     specs = [Path(p) for p in (args.spec or [])] or demo_specs()
     app = BenchApp(None, runs_dir=run.parent, specs=specs, start_view="live", replay=run, replay_speed=speed)

@@ -166,8 +166,9 @@ BROKEN = [
     (SUPPLY, 'output_on = "OUTP ON"', 'output_on = "OUTP ON"\nsync = "*OPC? {current_a}"', "[commands].sync",
      "{current_a}"),
     (METER, 'read = "READ?"', 'read = "READ?"\nsync = "*OPC?\\n*RST"', "[commands].sync", "newline"),
+    # a template without {nplc} describes a meter that cannot set NPLC: then the NPLC limits make no sense
     (METER, 'configure_voltage = "CONF:VOLT:DC {range_v};:VOLT:DC:NPLC {nplc}"', 'configure_voltage = "CONF:VOLT:DC {range_v}"',
-     "[commands].configure_voltage", "{nplc}"),
+     "[limits].nplc_choices", "{nplc}"),
     (METER, "voltage_ranges_v = [0.1, 1.0]", "voltage_ranges_v = [1.0, 0.1]", "[limits].voltage_ranges_v", "rising"),
     (METER, "voltage_ranges_v = [0.1, 1.0]", "voltage_ranges_v = []", "[limits].voltage_ranges_v", "empty"),
     (METER, "voltage_ranges_v = [0.1, 1.0]", 'voltage_ranges_v = [0.1, "1"]', "[limits].voltage_ranges_v[1]", "'1'"),
@@ -343,3 +344,40 @@ def test_cli_list_reports_broken_files_in_profile_folders(tmp_path):
     )
     assert env_run.returncode == 0
     assert "test-supply" in env_run.stdout and "broken.toml" in env_run.stderr and "kettle" in env_run.stderr
+
+
+def test_a_meter_without_an_nplc_command_can_be_described():
+    text = _edit(_edit(METER, 'configure_voltage = "CONF:VOLT:DC {range_v};:VOLT:DC:NPLC {nplc}"',
+                       'configure_voltage = "CONF:VOLT:DC {range_v}"'), "nplc_choices = [1, 10]", "")
+    meter = parse_profile(text, "no-nplc.toml")
+    assert not meter.sets_nplc and meter.limits.nplc_choices == () and meter.limits.nplc_min is None
+    assert parse_profile(METER, "p.toml").sets_nplc
+
+
+def test_both_configure_templates_set_nplc_or_neither():
+    text = _edit(METER, 'configure_voltage = "CONF:VOLT:DC {range_v};:VOLT:DC:NPLC {nplc}"',
+                 'configure_voltage = "CONF:VOLT:DC {range_v};:VOLT:DC:NPLC {nplc}"\n'
+                 'configure_current = "CONF:CURR:DC {range_a}"')
+    text = _edit(text, "voltage_ranges_v", "current_ranges_a = [1.0]\nvoltage_ranges_v")
+    text += '\n[[accuracy]]\nfunction = "dc_current"\nrange = 1.0\nreading_pct = 0.1\nrange_pct = 0.01\n'
+    with pytest.raises(ProfileError) as info:
+        parse_profile(text, "p.toml")
+    assert info.value.where == "[commands].configure_current" and "lacks {nplc}" in info.value.line()
+
+
+@pytest.mark.parametrize("command, accepted", [
+    ("*CLS", True), ("*RST", True), ("*ESE 60", True), ("STATus:PRESet", True), ("stat:pres", True),
+    ("TRIG:SOUR IMM", False), ("SYST:REM", False), ("*CLS;TRIG:SOUR IMM", False),
+])
+def test_generic_profiles_send_only_what_every_scpi_99_instrument_accepts(command, accepted):
+    # IEEE 488.2-1992 section 10 (mandatory common commands) and SCPI-99 vol. 1 4.2.3 (STATus:PRESet) - from memory
+    text = _edit(METER, 'name = ', 'generic = true\nname = ')
+    text = _edit(text, "[link]", f'[link]\nconnect_commands = ["*CLS", "{command}"]')
+    if accepted:
+        assert parse_profile(text, "g.toml").connect_commands[1] == command
+        return
+    with pytest.raises(ProfileError) as info:
+        parse_profile(text, "g.toml")
+    assert info.value.where == "[link].connect_commands[1]" and "SCPI-99" in info.value.line()
+    # the same command is allowed in a profile written for one instrument
+    assert parse_profile(_edit(text, "generic = true", "generic = false"), "own.toml").connect_commands[1] == command

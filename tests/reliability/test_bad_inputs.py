@@ -10,7 +10,13 @@ subprocesses.
 
 from __future__ import annotations
 
+import contextlib
+import os
 import re
+import shutil
+import subprocess
+import threading
+import time
 from pathlib import Path
 
 import pytest
@@ -151,7 +157,7 @@ ARGUMENTS = [
     (("fit", GOOD_RUN, "--bogus"), ["--bogus"]),
     (("fit", GOOD_RUN, "--at", "nan"), ["--at", "nan"]),
     (("fit", GOOD_RUN, "--tempco", "inf"), ["--tempco", "inf"]),
-    (("fit", "{tmp}/no-such.run"), ["no-such.run", "No such file"]),
+    (("fit", "{tmp}/no-such.run"), ["no-such.run", "file not found"]),
     (("estimate", GOOD_SPEC, "--at", "abc"), ["--at", "'abc'"]),
     (("estimate", GOOD_SPEC, "--at", "nan"), ["--at", "nan"]),
     (("estimate", GOOD_SPEC, "--at", "-1"), ["--at", "-1"]),
@@ -169,7 +175,7 @@ ARGUMENTS = [
     (("report", GOOD_RUN), ["-o/--output"]),
     (("report", GOOD_RUN, "-o", "{tmp}/report.docx"), ["-o", "report.docx"]),
     (("export", GOOD_RUN), ["--csv"]),
-    (("export", GOOD_RUN, "--csv", "{tmp}/no-such-dir/points.csv"), ["points.csv", "cannot write"]),
+    (("export", GOOD_RUN, "--csv", "{tmp}/no-such-dir/points.csv"), ["points.csv", "does not exist"]),
     (("demo", "--headless", "--plan", "no-such-plan"), ["--plan", "no-such-plan"]),
     (("profiles", "frob"), ["ACTION", "'frob'"]),
     (("profiles", "probe", "not a resource"), ["RESOURCE", "not a resource"]),
@@ -187,7 +193,9 @@ SIM_CASES = [
     (("sim", "--port", "-5"), None, ["port", "-5"]),
     (("sim", "--port", "0", "--latency-s", "nan"), None, ["latency_s", "nan"]),
     (("sim", "--element", "triode"), None, ["--element", "'triode'"]),
-    (("sim", "--port", "0", "--truth", "{tmp}/no-such-dir/truth.json"), None, ["truth.json", "cannot be written"]),
+    (("sim", "--port", "0", "--truth", GOOD_RUN), None, ["--truth", "existing run file"]),
+    (("sim", "--port", "0", "--truth", "/proc/benchlog-truth.json"), None, ["--truth", "/proc"]),
+    (("sim", "--port", "0", "--truth", "{tmp}/no-such-dir/truth.json"), None, ["truth.json", "does not exist"]),
 ]
 
 # A few of the in-process cases again as real processes (the installed command's path to exit code 2).
@@ -273,3 +281,153 @@ def test_corpus_is_large_and_every_file_is_in_the_table():
     assert len(FILES) + len(ARGUMENTS) + len(SIM_CASES) >= 50
     assert (BAD / "plan" / "a-directory.toml").is_dir() and (BAD / "run" / "a-directory.run").is_dir()
     assert re.search(rb"[\x00-\x08\x80-\xff]", (BAD / "run" / "binary-garbage.run").read_bytes())
+
+
+# -- inputs that are not regular files, or absurd ones: made at test time (a FIFO cannot be committed) --------
+
+def _fifo(name):
+    def make(tmp: Path) -> Path:
+        path = tmp / name
+        os.mkfifo(path)
+        return path
+    return make
+
+
+def _device(_tmp: Path) -> Path:
+    return Path("/dev/zero")
+
+
+def _large_toml(tmp: Path) -> Path:
+    path = tmp / "large.toml"
+    path.write_bytes(b"# " + b"x" * (5 * 1024 * 1024) + b"\n")  # 5 MB of comment: valid TOML, too large
+    return path
+
+
+def _nested(kind: str):
+    def make(tmp: Path) -> Path:
+        path = tmp / f"nested-{kind}.toml"
+        if kind == "arrays":
+            path.write_text("a = " + "[" * 3000 + "]" * 3000 + "\n")
+        else:
+            path.write_text("a = " + "{b = " * 3000 + "1" + "}" * 3000 + "\n")
+        return path
+    return make
+
+
+def _run_with_long_line(tmp: Path) -> Path:
+    path = tmp / "long-line.run"
+    header = Path(GOOD_RUN).read_bytes().split(b"\n", 1)[0] + b"\n"
+    path.write_bytes(header + b"P\t" + b"1" * (2 * 1024 * 1024) + b"\n")
+    return path
+
+
+# (id, maker of the bad input in a scratch folder, command, words the one line must hold)
+SPECIAL_INPUTS = [
+    ("fifo-plan", _fifo("plan.toml"), SWEEP, ["FIFO", "a regular TOML file"]),
+    ("fifo-bench", _fifo("bench.toml"), BENCH, ["FIFO"]),
+    ("fifo-profile", _fifo("profile.toml"), PROFILE, ["FIFO"]),
+    ("fifo-spec", _fifo("spec.toml"), SPEC, ["FIFO"]),
+    ("fifo-run-fit", _fifo("a.run"), FIT, ["FIFO", "a regular run file"]),
+    ("fifo-run-report", _fifo("b.run"), REPORT, ["FIFO"]),
+    ("fifo-run-replay", _fifo("c.run"), ("replay", "{file}"), ["FIFO"]),
+    ("fifo-design-in-report", _fifo("d.toml"), ("report", GOOD_RUN, "--design", "{file}", "-o", "{tmp}/r.html"),
+     ["FIFO"]),
+    ("dev-zero-plan", _device, SWEEP, ["character device"]),
+    ("dev-zero-profile", _device, PROFILE, ["character device"]),
+    ("dev-zero-design", _device, DESIGN, ["character device"]),
+    ("dev-zero-run-fit", _device, FIT, ["character device"]),
+    ("dev-zero-run-export", _device, EXPORT, ["character device"]),
+    ("dev-zero-run-lot", _device, LOT, ["character device"]),
+    ("toml-5mb-plan", _large_toml, SWEEP, ["larger than the 4 MB limit"]),
+    ("toml-5mb-spec", _large_toml, SPEC, ["larger than the 4 MB limit"]),
+    ("toml-nested-3000-arrays-plan", _nested("arrays"), SWEEP, ["nested too deeply"]),
+    ("toml-nested-3000-tables-profile", _nested("tables"), PROFILE, ["nested too deeply"]),
+    ("toml-nested-3000-arrays-design", _nested("arrays"), DESIGN, ["nested too deeply"]),
+    ("run-2mb-line-fit", _run_with_long_line, FIT, ["line 2", "longer than"]),
+    ("run-2mb-line-check", _run_with_long_line, CHECK, ["line 2", "longer than"]),
+]
+
+
+@pytest.mark.parametrize("make, command, words", [row[1:] for row in SPECIAL_INPUTS],
+                         ids=[row[0] for row in SPECIAL_INPUTS])
+def test_special_input_is_refused_at_once_as_one_line(make, command, words, tmp_path, capsys):
+    path = make(tmp_path)
+    unblock = None
+    if path.is_fifo():
+        # Should a reader ever block on the FIFO again, this writer ends the wait after 10 s so the test
+        # fails instead of hanging the suite.
+        def open_and_close():
+            time.sleep(10)
+            with contextlib.suppress(OSError):
+                os.close(os.open(path, os.O_WRONLY | os.O_NONBLOCK))
+        unblock = threading.Thread(target=open_and_close, daemon=True)
+        unblock.start()
+    started = time.monotonic()
+    rc, out, err = _run_in_process(_fill(command, path, tmp_path), capsys)
+    _the_one_line(rc, out, err, words, path)
+    assert time.monotonic() - started < 8, "the reader waited on the input instead of refusing it at once"
+
+
+# -- outputs that would destroy an input or an existing run, or cannot be written ---------------------------
+
+def _copy_run(tmp: Path, name: str) -> Path:
+    target = tmp / name
+    shutil.copyfile(GOOD_RUN, target)
+    return target
+
+
+# (id, argv with {run} a scratch copy of a run file and {tmp} the scratch folder, words the one line must hold)
+OUTPUTS = [
+    ("export-over-its-run", ("export", "{run}", "--csv", "{run}"), ["--csv", "also an input"]),
+    ("export-over-another-run", ("export", GOOD_RUN, "--csv", "{run}"), ["--csv", "existing run file"]),
+    ("report-over-its-run", ("report", "{run}", "-o", "{run}"), ["-o", "also an input"]),
+    ("report-over-another-run", ("report", GOOD_RUN, "-o", "{run}"), ["-o", "existing run file"]),
+    ("report-over-its-spec", ("report", GOOD_RUN, "--spec", "{tmp}/spec.html", "-o", "{tmp}/spec.html"),
+     ["-o", "also an input"]),
+    ("export-under-proc", ("export", "{run}", "--csv", "/proc/benchlog-points.csv"), ["--csv", "/proc"]),
+    ("export-under-sys", ("export", "{run}", "--csv", "/sys/benchlog-points.csv"), ["--csv", "/sys"]),
+    ("report-under-proc", ("report", "{run}", "-o", "/proc/self/report.html"), ["-o", "/proc"]),
+    ("report-onto-a-folder", ("report", "{run}", "-o", "{tmp}/folder.html"), ["-o", "is a directory"]),
+    ("export-parent-is-a-file", ("export", "{run}", "--csv", "{run}/points.csv"), ["--csv", "not a folder"]),
+    ("report-figures-onto-a-file", ("report", "{run}", "-o", "{tmp}/r.html", "--figures", "{run}"),
+     ["--figures", "not a folder"]),
+    ("sweep-out-under-proc", ("sweep", GOOD_PLAN, "--out", "/proc/benchlog-runs"), ["--out", "/proc"]),
+    ("sweep-out-under-sys", ("sweep", GOOD_PLAN, "--out", "/sys/benchlog-runs"), ["--out", "/sys"]),
+    ("sweep-out-is-a-file", ("sweep", GOOD_PLAN, "--out", "{run}"), ["--out", "not a folder"]),
+]
+
+
+@pytest.mark.parametrize("argv, words", [row[1:] for row in OUTPUTS], ids=[row[0] for row in OUTPUTS])
+def test_output_that_would_destroy_or_cannot_be_written_is_refused(argv, words, tmp_path, capsys):
+    run = _copy_run(tmp_path, "copy.html" if "report" in argv[0] else "copy.run")
+    shutil.copyfile(GOOD_SPEC, tmp_path / "spec.html")
+    (tmp_path / "folder.html").mkdir()
+    before = {p: p.read_bytes() for p in (run, tmp_path / "spec.html", Path(GOOD_RUN))}
+    filled = [a.replace("{run}", str(run)) for a in _fill(argv, None, tmp_path)]
+    rc, out, err = _run_in_process(filled, capsys)
+    _the_one_line(rc, out, err, words, None)
+    for path, data in before.items():
+        assert path.read_bytes() == data, f"{path} was changed"
+
+
+def _mount_tmpfs(folder: Path, options: str) -> bool:
+    folder.mkdir(parents=True, exist_ok=True)
+    done = subprocess.run(["mount", "-t", "tmpfs", "-o", options, "tmpfs", str(folder)],
+                          capture_output=True, timeout=20)
+    return done.returncode == 0
+
+
+@pytest.mark.parametrize("argv, words", [
+    (("export", GOOD_RUN, "--csv", "{ro}/points.csv"), ["--csv", "read-only"]),
+    (("report", GOOD_RUN, "-o", "{ro}/report.html"), ["-o", "read-only"]),
+    (("sweep", GOOD_PLAN, "--out", "{ro}/runs"), ["--out", "read-only"]),
+], ids=["export", "report", "sweep"])
+def test_read_only_output_folder_is_refused_before_anything_runs(argv, words, tmp_path, capsys):
+    ro = tmp_path / "ro"
+    if not _mount_tmpfs(ro, "ro,size=64k"):
+        pytest.skip("mounting a read-only tmpfs needs root (a chmod is no test when the suite runs as root)")
+    try:
+        rc, out, err = _run_in_process([a.replace("{ro}", str(ro)) for a in _fill(argv, None, tmp_path)], capsys)
+        _the_one_line(rc, out, err, words, None)
+    finally:
+        subprocess.run(["umount", str(ro)], capture_output=True, timeout=20)

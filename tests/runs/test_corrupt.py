@@ -122,7 +122,7 @@ def test_newer_schema_names_found_and_supported(tmp_path, good_lines):
 
 
 def test_missing_file_is_bad_input(tmp_path):
-    with pytest.raises(BadInput, match="cannot read"):
+    with pytest.raises(BadInput, match="file not found"):
         load(tmp_path / "nope.run")
 
 

@@ -99,7 +99,7 @@ def test_missing_file_is_the_same_bad_input(tmp_path):
         with pytest.raises(BadInput) as caught:
             reader(tmp_path / "nope.run")
         errors.append(caught.value.line())
-    assert errors[0] == errors[1] and "cannot read" in errors[0]
+    assert errors[0] == errors[1] and "file not found" in errors[0]
 
 
 @pytest.mark.parametrize("cut", [1, 5, 20])

@@ -112,7 +112,7 @@ def test_export_command_in_a_real_process(tmp_path):
     missing = tmp_path / "missing.run"
     done = subprocess.run([sys.executable, "-m", "benchlog", "export", str(missing), "--csv",
                            str(tmp_path / "y.csv")], cwd=ROOT, capture_output=True, text=True, timeout=60)
-    assert done.returncode == 2 and done.stderr.count("\n") == 1 and "cannot read" in done.stderr
+    assert done.returncode == 2 and done.stderr.count("\n") == 1 and "file not found" in done.stderr
     assert "Traceback" not in done.stderr
 
 

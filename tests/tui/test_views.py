@@ -127,6 +127,25 @@ async def test_setup_edits_reach_the_plan_and_bad_values_are_named(scripted, run
         assert 'serial = "SN-42"' in saved.read_text()
 
 
+async def test_saving_the_plan_twice_never_replaces_a_file(scripted, runs_dir, demo_files):
+    app = make_app(scripted, runs_dir, demo_files)
+    folder = runs_dir / "plans"
+    folder.mkdir()
+    earlier = folder / "demo-pfet-edited.toml"
+    earlier.write_text("# saved earlier by hand\n")
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("2")
+        await pilot.pause(0.1)
+        await pilot.press("w")
+        await pilot.pause(0.1)
+        await pilot.press("w")
+        await pilot.pause(0.1)
+    assert earlier.read_text() == "# saved earlier by hand\n"
+    second, third = folder / "demo-pfet-edited-2.toml", folder / "demo-pfet-edited-3.toml"
+    assert second.read_text() == third.read_text() == app.state.plan_text
+    assert app.messages[-1] == f"Plan saved to {third}"
+
+
 async def test_live_view_draws_curves_table_progress_and_limits(scripted, runs_dir, demo_files):
     app = make_app(scripted, runs_dir, demo_files)
     async with app.run_test(size=(100, 30)) as pilot:

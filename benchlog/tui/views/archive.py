@@ -12,6 +12,9 @@ from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import DataTable, Static
 
+from benchlog.badinput import BadInput
+from benchlog.filecheck import RUN_LINE_MAX_BYTES, open_input
+
 from ..plotting import Axis, Series
 from ..widgets import CurvePlot, KeyBar, Plain, cells
 from .base import View
@@ -40,8 +43,8 @@ def scan_run(path: Path) -> RunEntry:
     """Header and end record of a run file, cheaply: the archive must list hundreds of runs at once."""
     started = element = kind = serial = ""
     outcome = "incomplete"
-    with open(path, "rb") as handle:
-        first = handle.readline()
+    with open_input(path, "run file") as handle:  # a FIFO or device named *.run must not hang the archive
+        first = handle.readline(RUN_LINE_MAX_BYTES + 1)
         try:
             header = json.loads(first)
             started = str(header.get("started_utc", ""))
@@ -68,7 +71,7 @@ def list_runs(folder: Path) -> list[RunEntry]:
     for path in sorted(folder.rglob("*.run")):
         try:
             entries.append(scan_run(path))
-        except OSError:
+        except (OSError, BadInput):
             continue
     return sorted(entries, key=lambda e: (e.started_utc, str(e.path)), reverse=True)
 

@@ -10,7 +10,10 @@ from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, Static
 
+from benchlog.badinput import BadInput
+from benchlog.filecheck import write_failure
 from benchlog.kinds import kind as element_kind
+from benchlog.tomlcheck import read_utf8
 
 from ..tomltext import dump_tables
 from ..widgets import Plain, cells
@@ -180,7 +183,11 @@ class SetupView(View):
             return
         index = (state.plans.index(state.plan_path) + 1) % len(state.plans) if state.plan_path in state.plans else 0
         state.plan_path = state.plans[index]
-        state.plan_text = Path(state.plan_path).read_text(encoding="utf-8")
+        try:
+            state.plan_text = read_utf8(state.plan_path)[0]
+        except BadInput as exc:
+            self.app.say(f"Plan not loaded: {exc.line()}")
+            return
         self._load_form()
         self.refresh_view()
 
@@ -190,12 +197,25 @@ class SetupView(View):
         self.refresh_view()
 
     def action_save_plan(self) -> None:
+        """Save the edited plan under a new name: never over the plan it came from nor an earlier save."""
         state = self.app.state
         folder = self.app.runs_dir / "plans"
-        folder.mkdir(parents=True, exist_ok=True)
         stem = state.plan_path.stem if state.plan_path else "plan"
         target = folder / f"{stem}-edited.toml"
-        target.write_text(state.plan_text, encoding="utf-8")
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+            serial = 1
+            while True:
+                target = folder / f"{stem}-edited{'' if serial == 1 else f'-{serial}'}.toml"
+                try:
+                    with open(target, "x", encoding="utf-8") as handle:  # "x": an existing file is never replaced
+                        handle.write(state.plan_text)
+                    break
+                except FileExistsError:
+                    serial += 1
+        except OSError as exc:
+            self.app.say(f"Plan not saved: {write_failure(target, exc).line()}")
+            return
         self.app.say(f"Plan saved to {target}")
 
     def action_run(self) -> None:
