@@ -200,3 +200,41 @@ def every_kind_header() -> bytes:
             for event in every_kind():
                 writer.write(event)
     return path.read_bytes().split(b"\n", 1)[0] + b"\n"
+
+
+def _columns(**change):
+    """Three valid points as float columns, with `change` = {column: (row, value)} applied (invented)."""
+    base = {"index": [0.0, 1.0, 2.0], "settle_reads": [1.0, 2.0, 3.0], "t_s": [0.1, 0.2, 0.3],
+            "setpoint_a": [0.1, 0.2, 0.3], "current_a": [0.1, 0.2, 0.3], "drop_v": [0.5, 0.6, 0.7],
+            "supply_v": [12.0, math.nan, 12.0], "temperature_c": [25.0, math.nan, 26.0]}
+    for name, (row, value) in change.items():
+        base[name][row] = value
+    return {k: np.array(v) for k, v in base.items()}
+
+
+@pytest.mark.parametrize("change, overload_row, ok", [
+    ({}, None, True),
+    ({"index": (1, -1.0)}, None, False),  # a negative index
+    ({"index": (2, 1.0)}, None, False),  # not increasing
+    ({"settle_reads": (0, 1.5)}, None, False),  # not a whole number
+    ({"t_s": (0, math.nan)}, None, False),  # t_s may never be empty
+    ({"drop_v": (1, math.nan)}, None, False),  # an empty reading without the overload flag
+    ({"drop_v": (1, math.nan)}, 1, True),  # ... with it
+    ({"current_a": (2, math.nan)}, 1, False),  # the flag on another point
+    ({"supply_v": (0, 2e9)}, None, False),  # beyond MAX_MAGNITUDE
+    ({"temperature_c": (2, -300.0)}, None, False),  # below absolute zero
+])
+def test_block_and_column_checks_are_the_same_rule(monkeypatch, change, overload_row, ok):
+    # The short-column block check and the per-column check must accept and refuse the same
+    # columns (the line reader is the reference for both; here they meet on crafted cases).
+    from benchlog.runs import point_rules
+
+    numbers = _columns(**change)
+    overload = np.zeros(3, dtype=bool)
+    if overload_row is not None:
+        overload[overload_row] = True
+    answers = []
+    for limit in (point_rules.BLOCK_MAX_POINTS, -1):
+        monkeypatch.setattr(point_rules, "BLOCK_MAX_POINTS", limit)
+        answers.append(point_rules.numbers_ok(numbers, overload))
+    assert answers == [ok, ok]
