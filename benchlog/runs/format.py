@@ -50,7 +50,7 @@ ignored. A file without an ``end`` record is reported ``incomplete``.
 A file whose ``schema`` is newer than this program knows is refused with the
 version found and the versions supported. Schema 1 (before run ids) is read
 into the same record: it has no ``run_id``, so its id is derived from its
-header line (a UUID5 of the line's SHA-256, `record.derived_run_id`): the same
+header line (the version 5 UUID of the line, `record.derived_run_id`): the same
 file always gets the same id. Schema 2 requires ``run_id``, a UUID4 written
 when the run starts.
 """

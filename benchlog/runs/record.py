@@ -7,13 +7,12 @@ content is kept as read-only tables (`Table`) beside the typed fields drawn
 from it, so a header rewritten from its record gives the same JSON.
 
 `run_id` is a UUID4 written at the start of a schema 2 run; a schema 1 file has
-none, so its id is derived from the SHA-256 of its header line (the same file
-always gets the same id, and `run_id_derived` says so).
+none, so its id is derived from a hash of its header line (a version 5 UUID,
+RFC 4122 4.3): the same file always gets the same id, and `run_id_derived` says so.
 """
 
 from __future__ import annotations
 
-import hashlib
 import math
 import uuid
 from collections.abc import Mapping
@@ -85,9 +84,8 @@ def _table(value: Any) -> Table:
 
 
 def derived_run_id(header_line: str) -> str:
-    """The id of a run file that has none: a UUID (version 5) of the SHA-256 of its header line."""
-    digest = hashlib.sha256(header_line.encode("utf-8")).hexdigest()
-    return str(uuid.uuid5(DERIVED_ID_NAMESPACE, digest))
+    """The id of a run file that has none: the name-based UUID (version 5, a SHA-1 hash) of its header line."""
+    return str(uuid.uuid5(DERIVED_ID_NAMESPACE, header_line))
 
 
 def new_run_id() -> str:

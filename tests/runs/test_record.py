@@ -157,10 +157,15 @@ def test_schema1_files_load_into_the_same_record(path):
     first = next(read_events(path)).header
     assert meta.header.schema == 1 and meta.header.run_id_derived
     assert meta == light and first == meta.header
-    # The derived id: a UUID5 (RFC 4122 name-based, SHA-1; Python's uuid module as the reference)
-    # of the SHA-256 of the header line, in our own namespace. Recomputed here from the raw bytes.
+    # The derived id: a UUID5 (RFC 4122 section 4.3, name-based with SHA-1) of the header line in
+    # our own namespace, recomputed here from the raw bytes by the RFC's own steps: SHA-1 of the
+    # namespace's 16 bytes followed by the name, first 16 bytes, version and variant bits set.
     line = path.read_bytes().split(b"\n", 1)[0]
-    expected = str(uuid.uuid5(DERIVED_ID_NAMESPACE, hashlib.sha256(line).hexdigest()))
+    digest = bytearray(hashlib.sha1(DERIVED_ID_NAMESPACE.bytes + line).digest()[:16])
+    digest[6] = (digest[6] & 0x0F) | 0x50  # version 5
+    digest[8] = (digest[8] & 0x3F) | 0x80  # RFC 4122 variant
+    expected = str(uuid.UUID(bytes=bytes(digest)))
+    assert expected == str(uuid.uuid5(DERIVED_ID_NAMESPACE, line.decode("utf-8")))  # Python's uuid module agrees
     assert meta.header.run_id == expected and uuid.UUID(expected).version == 5
     assert load(path)[1].header.run_id == expected  # stable: the same file, the same id
     # The same recording re-made under schema 2: everything but line 1 is the same, and the
