@@ -129,7 +129,7 @@ class Wiring:
                    _number(table.get("shunt_ohm")), _number(table.get("input_v")))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class BenchRecord:
     """The bench file's content (`table`, as written) and its wiring, typed."""
 
@@ -146,12 +146,18 @@ class BenchRecord:
         # Made read-only when first asked for: a lot reads thousands of headers and never looks.
         return _table(self.source)
 
+    def __eq__(self, other: object) -> bool:
+        # Compared as JSON content (a list read back equals the tuple it was written from).
+        return isinstance(other, BenchRecord) and self.table == other.table and self.wiring == other.wiring
+
+    __hash__ = object.__hash__
+
     @property
     def simulated(self) -> bool:
         return self.source.get("simulated") is True
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class PlanRecord:
     """The plan file's content (`table`, as written), with the parts the program reads named."""
 
@@ -160,6 +166,12 @@ class PlanRecord:
     @cached_property
     def table(self) -> Table:
         return _table(self.source)
+
+    def __eq__(self, other: object) -> bool:
+        # Compared as JSON content (a list read back equals the tuple it was written from).
+        return isinstance(other, PlanRecord) and self.table == other.table
+
+    __hash__ = object.__hash__
 
     @property
     def element(self) -> Table:

@@ -42,7 +42,7 @@ SCHEMA1 = sorted((Path(__file__).parent / "schema1").glob("*.run"))
 def full_header() -> RunHeader:
     """A header with every field set to a value other than its default (invented demo bench)."""
     plan = {"element": {"id": "Q7", "kind": "pmos", "operating_a": 2.5, "gate": "return"},
-            "steps": {"mode": "updown", "start_a": 0.1, "stop_a": 3.0, "count": 4},
+            "steps": {"mode": "updown", "start_a": 0.1, "stop_a": 3.0, "count": 4, "currents_a": [0.5, 1.0]},
             "limits": {"max_current_a": 3.2, "compliance_v": 15.0}}
     return RunHeader(
         tool_version="9.8.7",
