@@ -10,16 +10,18 @@ own encoder (the bytes a `RunWriter` would write).
 from __future__ import annotations
 
 import tempfile
+from dataclasses import replace
 from pathlib import Path
-from typing import Any
 
 import _common  # noqa: F401  (puts the repository on sys.path)
+
+from benchlog.runs.record import ElementRecord, RunHeader, new_run_id
 
 DEMO_PLAN = _common.REPO / "benchlog" / "demo" / "plans" / "pmos-prototype.toml"
 DEMO_SPEC = _common.REPO / "benchlog" / "demo" / "specs" / "demo-pfet-10m.toml"
 
 
-def recorded_header(out_dir: Path, seed: int = 0) -> tuple[dict[str, Any], Path]:
+def recorded_header(out_dir: Path, seed: int = 0) -> tuple[RunHeader, Path]:
     """The header of a real 30-point sweep on the simulated bench (and the run file it is in)."""
     from benchlog.runs import load
     from benchlog.sweep.plan import load_plan
@@ -29,17 +31,20 @@ def recorded_header(out_dir: Path, seed: int = 0) -> tuple[dict[str, Any], Path]
     if result.outcome != "complete":
         raise RuntimeError(f"template sweep ended {result.outcome}: {result.message}")
     _, meta = load(result.run_file)
-    return dict(meta.header), result.run_file
+    return meta.header, result.run_file
 
 
-def write_run(path: Path, header: dict[str, Any], current_a, drop_v, supply_v, t_s, setpoint_a,
+def write_run(path: Path, header: RunHeader, current_a, drop_v, supply_v, t_s, setpoint_a,
               serial: str | None = None, offset_v: float | None = 1.5e-6) -> None:
     """Write a complete run file: header, offset, one P line per point, end record."""
     from benchlog.runs.events import Offset, Point, RunFinished, RunStarted
     from benchlog.runs.writer import encode_event, encode_point
 
+    header = replace(header, run_id=new_run_id())  # each run file its own id
     if serial is not None:
-        header = dict(header, element=dict(header["element"], serial=serial))
+        plan_element = header.plan.element if header.plan is not None else {}
+        header = replace(header, element=ElementRecord.from_table({**header.element.table, "serial": serial},
+                                                                  plan_element))
     lines = [encode_event(RunStarted(header))]
     if offset_v is not None:
         lines.append(encode_event(Offset(0.0, offset_v)))

@@ -36,7 +36,6 @@ def main() -> int:
     from benchlog.analysis.fits import fit_resistive, fit_run
     from benchlog.analysis.lot import lot_from_runs
     from benchlog.specfiles import load_spec
-    from benchlog.analysis.uncertainty import MeasurementAccuracy
     from benchlog.runs import load
 
     figures: dict = {}
@@ -66,7 +65,7 @@ def main() -> int:
         # -- fit ----------------------------------------------------------------------------
         current = frame["current_a"].to_numpy(dtype=float)
         drop = frame["drop_v"].to_numpy(dtype=float)
-        accuracy = MeasurementAccuracy.from_header(meta.header)
+        accuracy = meta.header.accuracy
 
         def lstsq():
             design = np.column_stack([np.ones_like(current), current])

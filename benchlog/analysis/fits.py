@@ -20,7 +20,6 @@ from .fit_resistive import fit_knee, fit_resistive, studentised_residuals
 from .fit_result import OUTLIER_RULE, FitError, FitResult
 from .model_choice import aicc, fit_auto
 from .self_heating import SelfHeating, detect_self_heating
-from .uncertainty import MeasurementAccuracy
 
 __all__ = [
     "FitError",
@@ -77,16 +76,18 @@ def usable_points(frame) -> tuple[np.ndarray, list[str]]:
     return rows & ~overload, notes
 
 
-def run_temperature_c(frame, meta) -> tuple[float, str]:
-    """The temperature a diode fit uses: recorded point temperatures, else the element's ambient, else 25 °C."""
-    if "temperature_c" in frame.columns:
-        t = frame["temperature_c"].to_numpy(dtype=float)
-        t = t[np.isfinite(t)]
-        if t.size:
-            return float(t.mean()), f"temperature {t.mean():.2f} °C: mean of {t.size} recorded point(s)"
-    ambient = (getattr(meta, "element", None) or {}).get("ambient_c")
-    if isinstance(ambient, (int, float)) and not isinstance(ambient, bool) and math.isfinite(ambient):
-        return float(ambient), f"temperature {float(ambient):.2f} °C: the element's recorded ambient"
+def run_temperature_c(temperature_c: np.ndarray, meta) -> tuple[float, str]:
+    """The temperature a diode fit uses: recorded point temperatures, else the element's ambient, else 25 °C.
+
+    `temperature_c` is the run's point column (NaN where not read); `meta` a `runs.RunMeta`.
+    """
+    t = np.asarray(temperature_c, dtype=float)
+    t = t[np.isfinite(t)]
+    if t.size:
+        return float(t.mean()), f"temperature {t.mean():.2f} °C: mean of {t.size} recorded point(s)"
+    ambient = meta.header.element.ambient_c
+    if ambient is not None:
+        return ambient, f"temperature {ambient:.2f} °C: the element's recorded ambient"
     return DEFAULT_TEMPERATURE_C, f"no temperature recorded: {DEFAULT_TEMPERATURE_C:g} °C assumed"
 
 
@@ -95,13 +96,10 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
 
     Raises BadInput naming the run file when the run cannot be fitted as asked.
     """
-    source = str(getattr(meta, "path", "run"))
+    source = str(meta.path)
     if model not in MODELS:
         raise BadInput(source, "--model", f"unknown model {model!r}", " or ".join(MODELS))
-    header = getattr(meta, "header", None) or {}
-    accuracy = MeasurementAccuracy.from_header(header, source)
-    if accuracy.drop is None and accuracy.current is None:
-        accuracy = None
+    accuracy = meta.header.accuracy if meta.header.accuracy.known else None
     rows, notes = usable_points(frame)
     every = bool(rows.all())  # the usual case: no copies of a long run
     current = frame["current_a"].to_numpy(dtype=float)
@@ -109,12 +107,12 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
     index = frame["index"].to_numpy() if "index" in frame.columns else np.arange(rows.size)
     if not every:
         current, drop, index = current[rows], drop[rows], index[rows]
-    offset = getattr(meta, "offset_v", None)
+    offset = meta.offset_v
     offset_removed = offset is not None and math.isfinite(float(offset))
     if offset_removed:
         drop = drop - float(offset)
         notes.append(f"zero-current offset {float(offset) * 1e6:.4g} µV subtracted")
-    temperature_c, t_note = run_temperature_c(frame, meta)
+    temperature_c, t_note = run_temperature_c(frame["temperature_c"].to_numpy(dtype=float), meta)
     common = dict(offset_removed=offset_removed, exclude_outliers=exclude_outliers, point_index=index)
     try:
         if model == "resistive":
@@ -125,7 +123,7 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
             fit = fit_diode(current, drop, temperature_c, accuracy, **common)
             notes.append(t_note)
         else:
-            kind = str((getattr(meta, "element", None) or {}).get("kind") or "")
+            kind = meta.header.kind or ""
             # A junction kind (the registry's conduction) breaks an AICc tie towards the diode law.
             tie = element_kind(kind).tie_break() if kind in ELEMENT_KINDS else "resistive"
             why = f"the run records a {kind} element" if kind else ""

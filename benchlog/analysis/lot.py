@@ -273,21 +273,17 @@ def fit_points(points, meta, model: str):
     from .fit_resistive import fit_resistive
     from .fit_result import FitError
     from .fits import run_temperature_c
-    from .uncertainty import MeasurementAccuracy
-
-    source = str(getattr(meta, "path", "run"))
-    accuracy = MeasurementAccuracy.from_header(getattr(meta, "header", None) or {}, source)
-    if accuracy.drop is None and accuracy.current is None:
-        accuracy = None
+    source = str(meta.path)
+    accuracy = meta.header.accuracy if meta.header.accuracy.known else None
     current, drop, index = points.current_a, points.drop_v, points.index
     rows = np.isfinite(current) & np.isfinite(drop) & ~points.has_flag("overload")
     if not rows.all():
         current, drop, index = current[rows], drop[rows], index[rows]
-    offset = getattr(meta, "offset_v", None)
+    offset = meta.offset_v
     offset_removed = offset is not None and math.isfinite(float(offset))
     if offset_removed:
         drop = drop - float(offset)
-    temperature_c, _ = run_temperature_c(points, meta)  # reads points['temperature_c'] as from a frame
+    temperature_c, _ = run_temperature_c(points.temperature_c, meta)
     common = dict(offset_removed=offset_removed, exclude_outliers=False, point_index=index)
     try:
         if model == "resistive":
@@ -307,7 +303,7 @@ def _fit_part(path, spec: PartSpec, at_a: float | None, model: str | None, vf_at
     from benchlog.runs import load_points
 
     points, meta = load_points(path)
-    cond = run_conditions(points, meta, spec, at_a)  # reads columns only, as PointArrays offer them
+    cond = run_conditions(points.current_a, points.supply_v, meta, spec, at_a)
     if model is None:
         model = lot_model(spec, cond.body_diode)
         vf_at_a = cond.current_a
@@ -316,8 +312,7 @@ def _fit_part(path, spec: PartSpec, at_a: float | None, model: str | None, vf_at
         value, u = fit.params["r_on_ohm"], fit.std_u["r_on_ohm"]
     else:
         value, u = fit.drop_at(vf_at_a)
-    element = getattr(meta, "element", None) or {}
-    serial = str(element.get("serial") or element.get("id") or Path(path).stem)
+    serial = meta.header.serial or meta.header.element.id or Path(path).stem
     return _PartFit(float(value), float(u), float(fit.k), serial, str(path), cond)
 
 

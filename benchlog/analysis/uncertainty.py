@@ -14,92 +14,18 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any, Iterable, Mapping
+from typing import Iterable
 
-from benchlog.badinput import BadInput
+# The accuracy type is the leaf `benchlog.accuracy`, shared with profiles and the run header.
+from benchlog.accuracy import SQRT3, Accuracy, MeasurementAccuracy  # noqa: F401 - re-exported
 
 #: Coverage probability that k = 2 stands for with a normal distribution (GUM G.3, table G.2).
 COVERAGE_P = 0.9545
-
-SQRT3 = math.sqrt(3.0)
-
-
-@dataclass(frozen=True)
-class Accuracy:
-    """An accuracy spec ±(reading_pct % of reading + range_pct % of range) on one range.
-
-    `range` is in the unit of the reading (V for a voltage range, A for a current range).
-    The two terms are read as two independent errors that stay fixed over a sweep:
-    a gain error (the % of reading) and an offset (the % of range).
-    """
-
-    reading_pct: float
-    range_pct: float
-    range: float
-
-    def half_width(self, value: float) -> float:
-        """a = reading_pct/100·|value| + range_pct/100·range: the spec's bound for one reading."""
-        return self.reading_pct / 100.0 * abs(value) + self.range_pct / 100.0 * self.range
-
-    @property
-    def gain_u(self) -> float:
-        """Relative standard uncertainty of the gain: (reading_pct/100)/√3 (GUM 4.3.7)."""
-        return self.reading_pct / 100.0 / SQRT3
-
-    @property
-    def offset_u(self) -> float:
-        """Standard uncertainty of the offset: (range_pct/100·range)/√3 (GUM 4.3.7)."""
-        return self.range_pct / 100.0 * self.range / SQRT3
 
 
 def type_b_u(value: float, acc: Accuracy) -> float:
     """Standard uncertainty of one reading from its accuracy spec: a/√3 (rectangular, GUM 4.3.7)."""
     return acc.half_width(value) / SQRT3
-
-
-@dataclass(frozen=True)
-class MeasurementAccuracy:
-    """The accuracy of the two readings a sweep makes: the element drop and the current."""
-
-    drop: Accuracy | None = None
-    current: Accuracy | None = None
-
-    @classmethod
-    def from_header(cls, header: Mapping[str, Any], source: str = "run header") -> "MeasurementAccuracy":
-        """Read `header["accuracy"]` = {"drop": {reading_pct, range_pct, range_v}, "current": {..., range_a}}.
-
-        A missing `accuracy` (or a missing role in it) gives None for that reading;
-        a present but malformed one is bad input.
-        """
-        block = header.get("accuracy")
-        if block is None:
-            return cls()
-        if not isinstance(block, Mapping):
-            raise BadInput(source, "accuracy", f"is {type(block).__name__}", "a table with drop/current")
-        return cls(
-            drop=_accuracy_entry(block, "drop", "range_v", source),
-            current=_accuracy_entry(block, "current", "range_a", source),
-        )
-
-
-def _accuracy_entry(block: Mapping[str, Any], role: str, range_key: str, source: str) -> Accuracy | None:
-    entry = block.get(role)
-    if entry is None:
-        return None
-    if not isinstance(entry, Mapping):
-        raise BadInput(source, f"accuracy.{role}", f"is {type(entry).__name__}", "a table")
-    values = {}
-    for key in ("reading_pct", "range_pct", range_key):
-        raw = entry.get(key)
-        where = f"accuracy.{role}.{key}"
-        if raw is None:
-            raise BadInput(source, where, "is missing", "a number")
-        if isinstance(raw, bool) or not isinstance(raw, (int, float)) or not math.isfinite(raw):
-            raise BadInput(source, where, f"is {raw!r}", "a finite number")
-        if raw < 0 or (key == range_key and raw <= 0):
-            raise BadInput(source, where, f"is {raw!r}", "a positive number" if key == range_key else ">= 0")
-        values[key] = float(raw)
-    return Accuracy(values["reading_pct"], values["range_pct"], values[range_key])
 
 
 @dataclass(frozen=True)

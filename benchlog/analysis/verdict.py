@@ -219,78 +219,63 @@ def _extrapolated(v: Verdict, ext: Extrapolation) -> Verdict:
 
 
 def run_state(meta) -> tuple[bool, str, str]:
-    """(finished as planned, outcome, a note when it did not)."""
-    outcome = str(getattr(meta, "outcome", "complete") or "complete")
-    has_end = bool(getattr(meta, "complete", True))
-    if not has_end:
+    """(finished as planned, outcome, a note when it did not) of a loaded run (`runs.RunMeta`)."""
+    outcome = meta.outcome
+    if not meta.complete:
         return False, outcome, ("the run is incomplete: no end record (the recording stopped early); "
                                 "the verdict rests on the points recorded")
     if outcome != "complete":
-        finished = getattr(meta, "finished", None)
-        message = getattr(finished, "message", "") if finished is not None else ""
+        message = meta.finished.message if meta.finished is not None else ""
         return False, outcome, (f"the run ended '{outcome}'" + (f" ({message})" if message else "")
                                 + ", not as planned; the verdict rests on the points recorded")
     return True, outcome, ""
 
 
-def _number(value) -> float | None:
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        return None
-    return float(value) if math.isfinite(value) else None
+def run_conditions(current_a: np.ndarray, supply_v: np.ndarray, meta, spec: PartSpec,
+                   at_a: float | None = None) -> RunConditions:
+    """Operating current (argument, else the plan's operating_a, else the largest measured), ambient, gate drive.
 
-
-def run_element(meta) -> dict:
-    """The element table of a run: the header's element merged over the plan's [element]."""
-    header = getattr(meta, "header", None) or {}
-    plan = header.get("plan") if isinstance(header.get("plan"), dict) else {}
-    merged = dict(plan.get("element") or {}) if isinstance(plan.get("element"), dict) else {}
-    merged.update(getattr(meta, "element", None) or header.get("element") or {})
-    return merged
-
-
-def run_conditions(frame, meta, spec: PartSpec, at_a: float | None = None) -> RunConditions:
-    """Operating current (argument, else the plan's operating_a, else the largest measured), ambient, gate drive."""
-    source = str(getattr(meta, "path", "run"))
-    element = run_element(meta)
+    `current_a` and `supply_v` are the run's point columns (NaN where not read); `meta` a `runs.RunMeta`.
+    """
+    source = str(meta.path)
+    header = meta.header
+    element = header.element
     notes: list[str] = []
     if at_a is not None:
         current = _finite("--at", at_a)
         if current <= 0:
             raise BadInput("argument", "--at", f"is {current:g} A", "a current above 0 A")
         where = "given with --at"
-    elif _number(element.get("operating_a")) is not None:
-        current, where = _number(element["operating_a"]), "the plan's operating_a"
+    elif element.operating_a is not None:
+        current, where = element.operating_a, "the plan's operating_a"
     else:
-        measured = frame["current_a"].to_numpy(dtype=float)
+        measured = np.asarray(current_a, dtype=float)
         measured = measured[np.isfinite(measured)]
         if measured.size == 0:
             raise BadInput(source, "points", "has no measured current", "a run with points")
         current, where = float(measured.max()), "the largest measured current (no operating_a in the plan)"
-    ambient = _number(element.get("ambient_c"))
+    ambient = element.ambient_c
     if ambient is None:
         ambient = 25.0
         notes.append("no ambient recorded for the element: 25 °C assumed")
-    kind = element.get("kind")
+    kind = element.kind
     gated = spec.element.has_gate
-    body = bool(gated and element.get("measure") == "body_diode")
+    body = bool(gated and element.measure == "body_diode")
     if isinstance(kind, str) and kind and kind != spec.kind:
         raise BadInput(spec.path or "spec", "kind", f"is '{spec.kind}' but the run measured a '{kind}'",
                        "the spec of the part in the run")
-    vin, zener = None, _number(element.get("zener_v"))
+    vin, zener = None, element.zener_v
     if gated and body:
         vin = 0.0
         notes.append("the run measured the body diode on purpose: gate off, body diode predicted")
-    elif gated and element.get("gate", spec.element.passive_gate) == spec.element.passive_gate:
-        supply = frame["supply_v"].to_numpy(dtype=float) if "supply_v" in frame.columns else np.array([])
+    elif gated and (element.gate or spec.element.passive_gate) == spec.element.passive_gate:
+        supply = np.asarray(supply_v, dtype=float)
         supply = supply[np.isfinite(supply)]
-        header = getattr(meta, "header", None) or {}
-        bench = header.get("bench") if isinstance(header.get("bench"), dict) else {}
-        wiring = bench.get("wiring") if isinstance(bench.get("wiring"), dict) else {}
         if supply.size:
             vin = float(np.median(supply))
             notes.append(f"gate to {spec.element.gate_to}: |Vgs| from the median recorded supply voltage {vin:.4g} V")
-        elif _number(wiring.get("input_v")) is not None:
-            vin = _number(wiring["input_v"])
+        elif header.input_v is not None:
+            vin = header.input_v
             notes.append(f"gate to {spec.element.gate_to}: |Vgs| from the bench's input voltage {vin:.4g} V")
         else:
             notes.append(f"gate to {spec.element.gate_to} but no input voltage recorded: gate taken as fully driven")
@@ -360,7 +345,8 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
     """
     from .fits import fit_run  # the fit layer is imported late: a spec-only user never needs it
 
-    cond = run_conditions(frame, meta, spec, at_a)
+    cond = run_conditions(frame["current_a"].to_numpy(dtype=float), frame["supply_v"].to_numpy(dtype=float),
+                          meta, spec, at_a)
     fit = fit_run(frame, meta, _fit_model(spec, cond.body_diode))
     drop, u_drop = fit.drop_at(cond.current_a)
     k = float(fit.k)
@@ -374,7 +360,7 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
     notes = [n for n in (run_note, ext.text()) if n]
     notes += list(cond.notes) + list(env.heated.notes) + list(fit.notes)
     return Check(
-        part=spec.name, run=str(getattr(meta, "path", "")), current_a=cond.current_a,
+        part=spec.name, run=str(meta.path), current_a=cond.current_a,
         current_source=cond.current_source, ambient_c=cond.ambient_c, model=fit.model,
         measured_drop_v=drop, drop_std_u_v=u_drop, measured_loss_w=loss, loss_std_u_w=u_loss, k=k,
         predicted=env.heated, unheated=env.cold, verdict=verdict, drop_verdict=drop_verdict,

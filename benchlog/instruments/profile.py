@@ -19,6 +19,7 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import Mapping
 
+from benchlog.accuracy import Accuracy
 from benchlog.badinput import BadInput
 from benchlog.scpi.errors import ScpiError
 from benchlog.scpi.numbers import fill_template
@@ -137,16 +138,14 @@ SWITCH_HEADERS = ("OUTPut[:STATe]", "INPut[:STATe]")
 
 @dataclass(frozen=True)
 class AccuracySpec:
-    """±(reading_pct % of reading + range_pct % of range) for one function and range (the datasheet form)."""
+    """One `[[accuracy]]` entry: the datasheet's accuracy of one function on one range."""
 
     function: str
-    range: float
-    reading_pct: float
-    range_pct: float
+    accuracy: Accuracy
 
-    def half_width(self, value: float) -> float:
-        """Half-width a of the rectangular interval for one reading (GUM 4.3.7 uses a/√3 as u)."""
-        return self.reading_pct / 100.0 * abs(value) + self.range_pct / 100.0 * self.range
+    @property
+    def range(self) -> float:
+        return self.accuracy.range
 
 
 @dataclass(frozen=True)
@@ -224,11 +223,11 @@ class Profile:
     def source(self) -> str:
         return str(self.path) if self.path else self.name
 
-    def accuracy_for(self, function: str, range_: float) -> AccuracySpec:
-        """The spec for `function` on `range_` (ranges compared to 1 part in 10^9)."""
+    def accuracy_for(self, function: str, range_: float) -> Accuracy:
+        """The accuracy of `function` on `range_` (ranges compared to 1 part in 10^9)."""
         for spec in self.accuracy:
             if spec.function == function and math.isclose(spec.range, range_, rel_tol=1e-9):
-                return spec
+                return spec.accuracy
         listed = ", ".join(f"{s.range:g}" for s in self.accuracy if s.function == function) or "none"
         raise ProfileError(
             self.source, "[[accuracy]]", f"no {function} spec for range {range_:g}", f"one of: {listed}"
@@ -632,12 +631,13 @@ def _accuracy(root: Table, role: str, limits: Limits, commands: dict[str, str]) 
     specs: list[AccuracySpec] = []
     for entry in root.tables("accuracy"):
         entry.only(("function", "range", "reading_pct", "range_pct"))
-        spec = AccuracySpec(
-            function=entry.string("function", choices=allowed),
-            range=entry.number("range", positive=True, max=1e4),
+        function = entry.string("function", choices=allowed)
+        range_ = entry.number("range", positive=True, max=1e4)
+        spec = AccuracySpec(function, Accuracy(
             reading_pct=entry.number("reading_pct", min=0.0, max=100.0, unit="%"),
             range_pct=entry.number("range_pct", min=0.0, max=100.0, unit="%"),
-        )
+            range=range_,
+        ))
         for earlier in specs:
             if earlier.function == spec.function and math.isclose(earlier.range, spec.range, rel_tol=1e-9):
                 raise entry.fail("range", f"repeats {spec.function} range {spec.range:g}", "one entry per function and range")

@@ -18,6 +18,7 @@ import time
 from collections import deque
 from typing import Callable
 
+from benchlog.accuracy import Accuracy
 from benchlog.scpi.errors import ScpiError, ScpiReplyError
 from benchlog.scpi.numbers import fill_template
 from benchlog.scpi.replies import Idn, parse_bool, parse_error_entry, parse_idn, parse_int, parse_number, parse_numbers
@@ -31,7 +32,7 @@ from .errors import (
     TransportError,
     WrongInstrument,
 )
-from .profile import AccuracySpec, Profile
+from .profile import Profile
 from .transport import Transport
 
 # SYSTem:ERRor? is read at most this often per check: a queue that never empties is itself a fault.
@@ -662,7 +663,7 @@ class Meter(Role):
             values[key] = self._check_range(value, ranges, key, unit)
         return self._number(self._command(operation, **values), self.read_timeout_s())
 
-    def accuracy(self, function: str, range_: float) -> AccuracySpec:
+    def accuracy(self, function: str, range_: float) -> Accuracy:
         return self.profile.accuracy_for(function, range_)
 
     def range_for(self, function: str, magnitude: float) -> float:

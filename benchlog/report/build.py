@@ -11,7 +11,6 @@ incomplete, never left out. Every report ends with the safety note.
 
 from __future__ import annotations
 
-import math
 from collections import Counter
 from dataclasses import dataclass
 from datetime import datetime, timezone
@@ -25,7 +24,7 @@ from benchlog.analysis.design import review as design_review
 from benchlog.analysis.fits import detect_self_heating, fit_run
 from benchlog.analysis.predict import predict
 from benchlog.analysis.spec import PartSpec
-from benchlog.analysis.verdict import check_run, run_conditions, run_element
+from benchlog.analysis.verdict import check_run, run_conditions
 from benchlog.badinput import BadInput
 from benchlog.runs import load
 from benchlog.specfiles import load_design, load_spec
@@ -60,20 +59,15 @@ class RunAnalysis:
         return self.conditions.current_a if self.conditions is not None else None
 
     @property
-    def element(self) -> dict:
-        return dict(getattr(self.meta, "element", None) or {})
+    def element(self):
+        """The run's `runs.record.ElementRecord`."""
+        return self.meta.header.element
 
     @property
     def label(self) -> str:
         e = self.element
-        name = e.get("serial") or e.get("id") or e.get("label") or self.path.stem
+        name = e.serial or e.id or e.label or self.path.stem
         return f"{self.path.name} ({name})" if name != self.path.stem else self.path.name
-
-
-def _number(value) -> float | None:
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        return None
-    return float(value) if math.isfinite(value) else None
 
 
 @dataclass(frozen=True)
@@ -87,16 +81,16 @@ class Conditions:
 
 
 def _conditions(frame, meta, spec: PartSpec | None, at_a: float | None) -> Conditions:
-    element = run_element(meta)
+    element = meta.header.element
     if spec is not None:
-        c = run_conditions(frame, meta, spec, at_a)
+        c = run_conditions(frame["current_a"].to_numpy(dtype=float), frame["supply_v"].to_numpy(dtype=float),
+                           meta, spec, at_a)
         return Conditions(c.current_a, c.ambient_c, c.vin_v, c.zener_v)
-    ambient = _number(element.get("ambient_c"))
-    ambient = 25.0 if ambient is None else ambient
+    ambient = 25.0 if element.ambient_c is None else element.ambient_c
     if at_a is not None:
         return Conditions(float(at_a), ambient)
-    if _number(element.get("operating_a")) is not None:
-        return Conditions(_number(element["operating_a"]), ambient)
+    if element.operating_a is not None:
+        return Conditions(element.operating_a, ambient)
     current = frame["current_a"].to_numpy(dtype=float) if len(frame) else np.array([])
     current = current[np.isfinite(current)]
     return Conditions(float(current.max()) if current.size else None, ambient)
@@ -141,20 +135,23 @@ def analyse_run(path: str | Path, spec: PartSpec | None = None, *, model: str = 
 
 
 def _run_table(ra: RunAnalysis) -> Table:
-    h = getattr(ra.meta, "header", None) or {}
-    fin = getattr(ra.meta, "finished", None)
+    h = ra.meta.header
+    fin = ra.meta.finished
     rows = [
         ("file", str(ra.path)),
-        ("started (UTC)", str(h.get("started_utc", "—"))),
+        ("run id", h.run_id + (" (derived from the header: the file has none)" if h.run_id_derived else "")),
+        ("started (UTC)", h.started_utc or "—"),
         ("finished", f"{number(fin.t_s, 's')} after the start" if fin is not None else "no end record"),
-        ("outcome", str(getattr(ra.meta, "outcome", "—"))),
+        ("outcome", ra.meta.outcome),
         ("end message", fin.message if fin is not None and fin.message else "—"),
         ("points recorded", str(len(ra.frame))),
-        ("host", str(h.get("host", "—"))),
-        ("tool version", str(h.get("tool_version", "—"))),
-        ("run file schema", str(h.get("schema", "—"))),
-        ("line frequency", number(h.get("line_frequency_hz"), "Hz")),
+        ("host", h.host or "—"),
+        ("tool version", h.tool_version or "—"),
+        ("run file schema", str(h.schema)),
+        ("line frequency", number(h.line_frequency_hz, "Hz")),
     ]
+    if fin is not None and fin.safe_state is not None:
+        rows.insert(5, ("safe state at the end", fin.safe_state))
     if len(ra.frame):
         t = ra.frame["t_s"].to_numpy(dtype=float)
         rows.append(("time of the points", f"{number(t.min(), 's')} to {number(t.max(), 's')}"))
@@ -162,7 +159,7 @@ def _run_table(ra: RunAnalysis) -> Table:
 
 
 def _element_table(ra: RunAnalysis) -> Table:
-    e = ra.element
+    e = ra.element.table  # the element as the header records it
     rows = [(k, number(e.get(k), unit_of(k)) if k == "ambient_c" else str(e.get(k) if e.get(k) not in (None, "") else "—"))
             for k in ("id", "kind", "label", "lot", "serial", "ambient_c", "note")]
     rows += [(k, str(v)) for k, v in flatten({k: v for k, v in e.items()
@@ -172,12 +169,8 @@ def _element_table(ra: RunAnalysis) -> Table:
 
 
 def _instrument_table(ra: RunAnalysis) -> Table:
-    instruments = (getattr(ra.meta, "header", None) or {}).get("instruments") or {}
-    rows = []
-    for role, info in instruments.items():
-        info = info if isinstance(info, dict) else {"resource": info}
-        rows.append((str(role), str(info.get("resource", "—")), str(info.get("idn", "—")),
-                     str(info.get("profile", "—")), str(info.get("profile_sha256", "—"))))
+    rows = [(i.role, i.resource or "—", i.idn or "—", i.profile or "—", i.profile_sha256 or "—")
+            for i in ra.meta.header.instruments]
     return Table(("role", "VISA resource", "*IDN? reply", "profile", "profile SHA-256"), tuple(rows),
                  caption="Instruments")
 
@@ -255,21 +248,21 @@ def _event_blocks(ra: RunAnalysis) -> list:
     meta = ra.meta
     blocks: list = []
     rows = []
-    offset = getattr(meta, "offset_v", None)
+    offset = meta.offset_v
     if offset is not None:
         rows.append(("—", "offset", f"zero-current drop {number(offset * 1e6, 'µV', 4)}"))
-    for note in getattr(meta, "notes", ()) or ():
+    for note in meta.notes:
         rows.append((number(note.t_s, "s", 5), note.kind, note.message))
-    rev = getattr(meta, "reverse", None)
+    rev = meta.reverse
     if rev is not None:
         rows.append((number(rev.t_s, "s", 5), "reverse",
                      f"{'passed' if rev.passed else 'FAILED'}: {number(rev.voltage_v, 'V')} reversed for "
                      f"{number(rev.duration_s, 's')}, current {number(rev.current_a, 'A')} "
                      f"(limit {number(rev.limit_a, 'A')})"))
-    fin = getattr(meta, "finished", None)
+    fin = meta.finished
     if fin is not None:
         rows.append((number(fin.t_s, "s", 5), "end", f"{fin.outcome}: {fin.points} point(s). {fin.message}".strip()))
-    limits = [n for n in (getattr(meta, "notes", ()) or ()) if n.kind == "limit"]
+    limits = [n for n in meta.notes if n.kind == "limit"]
     if limits:
         blocks.append(Paragraph(f"{len(limits)} limit hit(s) during this run: "
                                 + "; ".join(n.message for n in limits), "warning"))
@@ -287,8 +280,7 @@ def _figures(ra: RunAnalysis, spec: PartSpec | None) -> list:
     if len(ra.frame) == 0:
         return []
     fit = ra.fit
-    offset = getattr(ra.meta, "offset_v", None)
-    series = fa.measured_series(ra.frame, fit, ra.path.name, offset)
+    series = fa.measured_series(ra.frame, fit, ra.path.name, ra.meta.offset_v)
     top = float(np.nanmax(series.current_a)) if series.current_a.size else 1.0
     grid = fa.current_grid(max(top, ra.operating_current_a or 0.0))
     curve = fa.fit_curve(fit, grid) if fit is not None else None
@@ -315,7 +307,7 @@ def _figures(ra: RunAnalysis, spec: PartSpec | None) -> list:
 
 
 def run_section(ra: RunAnalysis, spec: PartSpec | None) -> Section:
-    complete = bool(getattr(ra.meta, "complete", False))
+    complete = ra.meta.complete
     blocks: list = []
     if not complete:
         blocks.append(Paragraph(
@@ -323,10 +315,12 @@ def run_section(ra: RunAnalysis, spec: PartSpec | None) -> Section:
             "killed, lost power, or is still running). Everything below uses only the points that reached "
             "the disk; treat the results as provisional.", "warning"))
     blocks += [_run_table(ra), _element_table(ra), _instrument_table(ra)]
-    header = getattr(ra.meta, "header", None) or {}
-    for key, caption in (("plan", "Plan"), ("bench", "Bench"), ("meter", "Meter settings"),
-                         ("accuracy", "Accuracy used in the uncertainty budget")):
-        table = _key_value_table(header.get(key), caption)
+    header = ra.meta.header
+    for data, caption in ((header.plan.table if header.plan else None, "Plan"),
+                          (header.bench.table if header.bench else None, "Bench"),
+                          (header.meter.to_table() if header.meter else None, "Meter settings"),
+                          (header.accuracy.to_table(), "Accuracy used in the uncertainty budget")):
+        table = _key_value_table(data, caption)
         if table is not None:
             blocks.append(table)
     analysis: list = []
@@ -367,8 +361,8 @@ def comparison_section(runs: Sequence[RunAnalysis]) -> Section:
             v, u = ra.fit.drop_at(ra.operating_current_a)
             drop = f"{with_uncertainty(v, ra.fit.k * u, 'V')} at {number(ra.operating_current_a, 'A')}"
         outcome = getattr(getattr(ra.check, "verdict", None), "outcome", None) or getattr(ra.check, "outcome", None)
-        rows.append((ra.path.name, str(e.get("serial") or e.get("id") or "—"), str(e.get("kind") or "—"),
-                     "complete" if getattr(ra.meta, "complete", False) else "INCOMPLETE", str(len(ra.frame)),
+        rows.append((ra.path.name, e.serial or e.id or "—", e.kind or "—",
+                     "complete" if ra.meta.complete else "INCOMPLETE", str(len(ra.frame)),
                      _main_parameter(ra), drop, str(outcome or "—")))
     table = Table(("run", "serial / id", "kind", "status", "points", "fit (expanded U)", "drop", "verdict"),
                   tuple(rows), caption="Runs side by side")
@@ -377,7 +371,7 @@ def comparison_section(runs: Sequence[RunAnalysis]) -> Section:
     for ra in runs:
         if len(ra.frame) == 0:
             continue
-        s = fa.measured_series(ra.frame, ra.fit, ra.label, getattr(ra.meta, "offset_v", None))
+        s = fa.measured_series(ra.frame, ra.fit, ra.label, ra.meta.offset_v)
         series.append(s)
         curves.append(fa.fit_curve(ra.fit, fa.current_grid(float(np.nanmax(s.current_a)))) if ra.fit else None)
     blocks: list = [table]
@@ -394,7 +388,7 @@ def lot_sections(runs: Sequence[RunAnalysis], spec: PartSpec, at_a: float | None
     """One section per lot id shared by two or more runs that can be fitted (`report.lot_section`)."""
     groups: dict[str, list[RunAnalysis]] = {}
     for ra in runs:
-        lot = ra.element.get("lot")
+        lot = ra.element.lot
         if isinstance(lot, str) and lot.strip():
             groups.setdefault(lot, []).append(ra)
     sections = []
@@ -434,7 +428,7 @@ def build_report(
     runs = [analyse_run(p, spec, model=model, at_a=at_a) for p in run_paths]
     when = generated_utc or datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     sections: list[Section] = []
-    incomplete = [ra for ra in runs if not getattr(ra.meta, "complete", False)]
+    incomplete = [ra for ra in runs if not ra.meta.complete]
     summary = [Paragraph(
         f"{len(runs)} run(s)" + (f", {len(incomplete)} of them incomplete" if incomplete else "")
         + (f"; judged against the part spec {spec.name} ({spec_path})" if spec is not None else "; no part spec given")

@@ -64,7 +64,7 @@ def lot_section(lot: str, runs, spec: PartSpec, at_a: float | None = None) -> Se
     """Summarise the runs of one lot (complete or not: an incomplete run is named in the notes)."""
     summary = lot_from_runs([ra.path for ra in runs], spec, at_a)
     section = summary_section(lot, summary)
-    incomplete = [ra.path.name for ra in runs if not getattr(ra.meta, "complete", False)]
+    incomplete = [ra.path.name for ra in runs if not ra.meta.complete]
     if incomplete:
         warn = Paragraph(f"{len(incomplete)} run(s) of this lot are incomplete and included as recorded: "
                          + ", ".join(incomplete), "warning")

@@ -10,14 +10,13 @@ Times are seconds since the run started (`t_s`); all quantities are SI.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal, Union
+from typing import Literal, Union
 
-SCHEMA_VERSION = 1
+from .format import SCHEMA_VERSION, NoteKind, Outcome, SafeState
+from .record import RunHeader
 
-Outcome = Literal["complete", "cancelled", "limit", "fault", "incomplete"]
-"""How a run ended; `incomplete` is what a reader reports for a file with no end record."""
-
-NoteKind = Literal["limit", "fault", "warning", "cancel", "info"]
+__all__ = ["SCHEMA_VERSION", "Event", "Note", "NoteKind", "Offset", "Outcome", "Point", "ReverseResult",
+           "RunFinished", "RunStarted", "SafeState"]
 
 #: Flags a point may carry.
 FLAG_UNSETTLED = "unsettled"  # settle rule not met before its timeout
@@ -28,13 +27,9 @@ FLAG_OUTLIER = "outlier"  # set by analysis, never by the runner
 
 @dataclass(frozen=True)
 class RunStarted:
-    """The header: everything needed to understand and re-analyse the run later.
+    """The header: everything needed to understand and re-analyse the run later (`record.RunHeader`)."""
 
-    `header` is the JSON-ready dictionary written as the first record; the keys
-    the rest of the program relies on are listed in `runs/format.py`.
-    """
-
-    header: dict[str, Any]
+    header: RunHeader
 
 
 @dataclass(frozen=True)
@@ -87,20 +82,15 @@ class Note:
     message: str
 
 
-SafeState = Literal["verified", "unverified", "unknown"]
-"""What the instruments said about their outputs after the run: read back off, tried but not
-confirmed, or not readable (the profile has no state query)."""
-
-SAFE_STATES: tuple[str, ...] = ("verified", "unverified", "unknown")
-
-
 @dataclass(frozen=True)
 class RunFinished:
+    """The end record. `safe_state` is what was read back of the outputs at the end; None: not stated."""
+
     t_s: float
     outcome: Outcome
     points: int
     message: str = ""
-    safe_state: SafeState | None = None  # None: not recorded (files written before it existed)
+    safe_state: SafeState | None = None
 
 
 Event = Union[RunStarted, Offset, Point, ReverseResult, Note, RunFinished]

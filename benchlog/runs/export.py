@@ -13,7 +13,7 @@ from pathlib import Path
 
 from benchlog.filecheck import write_failure
 
-from .load import RunMeta, load
+from .loader import RunMeta, load
 
 
 def export_csv(run_path: str | os.PathLike[str], csv_path: str | os.PathLike[str]) -> RunMeta:

@@ -5,9 +5,12 @@ It is written append-only: a record, once on disk, is never rewritten.
 
 Line 1, the header, is one JSON object::
 
-    {"record": "header", "format": "benchlog-run", "schema": 1,
+    {"record": "header", "format": "benchlog-run", "schema": 2,
      "point_columns": ["index", "t_s", ...], "tool_version": "0.1.0",
-     "started_utc": "2025-01-31T09:15:02Z", "element": {"id": ...}, ...}
+     "started_utc": "2025-01-31T09:15:02Z", "run_id": "3f0c...", "element": {"id": ...}, ...}
+
+Its keys are `HEADER_KEYS` below; the program reads it into `record.RunHeader`
+(typed, frozen) and writes it from one, so no other module spells these keys.
 
 Point records are tab-separated text, not JSON, so that a million points
 load through the pandas CSV parser at its native speed::
@@ -31,10 +34,12 @@ Every other record is one JSON object with a ``"record"`` key:
     reverse  {"record": "reverse", "t_s", "voltage_v", "duration_s",
               "current_a", "limit_a", "passed"}                    reverse-polarity step
     end      {"record": "end", "t_s", "outcome", "points", "message"[, "safe_state"]}
-                                                                    last record of a finished run;
-             safe_state (optional): "verified" (every output/input read back off),
-             "unverified" (switched off but not confirmed: may be on), "unknown"
-             (off sent, but a profile has no state query to read it back)
+                                                                   last record of a finished run
+
+``safe_state`` (schema 2, optional) is one of ``verified`` (every output read
+back in its safe state), ``unverified`` (switched off, not confirmed by a
+read-back) or ``unknown``; it is written only when the writer states it, and a
+missing one means "not stated", never "safe".
 
 Numbers everywhere must be finite (JSON has no NaN; ``1e400`` overflows and
 is refused) and, in SI units, no larger than `MAX_MAGNITUDE`.
@@ -43,21 +48,31 @@ A line without its final ``\\n`` is a write torn by a killed process: it is
 ignored. A file without an ``end`` record is reported ``incomplete``.
 
 A file whose ``schema`` is newer than this program knows is refused with the
-version found and the versions supported; an older one (none yet) would be
-read by its own rules.
+version found and the versions supported. Schema 1 (before run ids) is read
+into the same record: it has no ``run_id``, so its id is derived from its
+header line (the version 5 UUID of the line, `record.derived_run_id`): the same
+file always gets the same id. Schema 2 requires ``run_id``, a UUID4 written
+when the run starts.
 """
 
 from __future__ import annotations
 
 import re
-from typing import Any
+from typing import Literal, get_args
 
-from typing import get_args
+#: The schema this program writes. 2 added the header's run_id and the end record's safe_state.
+SCHEMA_VERSION = 2
 
-from .events import SCHEMA_VERSION, NoteKind, Outcome
+Outcome = Literal["complete", "cancelled", "limit", "fault", "incomplete"]
+"""How a run ended; `incomplete` is what a reader reports for a file with no end record."""
+
+NoteKind = Literal["limit", "fault", "warning", "cancel", "info"]
+
+SafeState = Literal["verified", "unverified", "unknown"]
+"""What the end record says of the outputs' safe state: read back off, not confirmed, or not known."""
 
 FORMAT_NAME = "benchlog-run"
-SUPPORTED_SCHEMAS: tuple[int, ...] = (1,)
+SUPPORTED_SCHEMAS: tuple[int, ...] = (1, 2)
 FILE_SUFFIX = ".run"
 
 POINT_TAG = "P"
@@ -96,6 +111,7 @@ RECORD_KINDS = ("header", "offset", "note", "reverse", "end")
 NOTE_KINDS: tuple[str, ...] = get_args(NoteKind)
 #: Outcomes an end record may carry; "incomplete" is never written, it means "no end record".
 END_OUTCOMES: tuple[str, ...] = tuple(o for o in get_args(Outcome) if o != "incomplete")
+SAFE_STATES: tuple[str, ...] = get_args(SafeState)
 
 #: Header keys the reader insists on.
 HEADER_REQUIRED: tuple[str, ...] = (
@@ -117,6 +133,7 @@ HEADER_KEYS: dict[str, str] = {
     "point_columns": "list of the point fields in the order of each P line",
     "tool_version": "benchlog version that wrote the file",
     "started_utc": "ISO 8601 UTC start time ending in Z",
+    "run_id": "UUID4 text written when the run starts (schema 2; required there)",
     "host": "name of the computer that ran the sweep",
     "instruments": "{role: {resource, idn, profile, profile_sha256}}",
     "bench": "the bench file's content as a table",
@@ -130,25 +147,6 @@ HEADER_KEYS: dict[str, str] = {
 #: Header keys that must be JSON objects when present.
 HEADER_TABLES = ("instruments", "bench", "plan", "element", "accuracy", "meter")
 #: Header keys that must be strings when present.
-HEADER_STRINGS = ("format", "tool_version", "started_utc", "host")
+HEADER_STRINGS = ("format", "tool_version", "started_utc", "host", "run_id")
 #: Element keys that must be strings (or null) when present.
 ELEMENT_STRINGS = ("id", "kind", "label", "lot", "serial", "note")
-
-
-def complete_header(header: dict[str, Any]) -> dict[str, Any]:
-    """The header as written: the caller's keys plus the ones that describe this file's encoding.
-
-    A reader gives back exactly this dictionary as `RunStarted.header`; the
-    line itself also carries ``"record": "header"``.
-    """
-    out: dict[str, Any] = {"format": FORMAT_NAME, "schema": SCHEMA_VERSION,
-                           "point_columns": list(POINT_COLUMNS)}
-    for key, value in header.items():
-        if key == "record":
-            continue
-        if key == "point_columns" and isinstance(value, (list, tuple)):
-            value = list(value)
-        if key in out and value != out[key]:
-            raise ValueError(f"header key {key!r} is set by the run file writer, got {value!r}")
-        out[key] = value
-    return out

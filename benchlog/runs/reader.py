@@ -18,8 +18,9 @@ from typing import Any
 from benchlog.badinput import BadInput
 from benchlog.filecheck import RUN_LINE_MAX_BYTES, open_input
 
-from .events import SAFE_STATES, Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
+from .events import Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
 from .format import (
+    SAFE_STATES,
     ABSOLUTE_ZERO_C,
     DIRECTIONS,
     ELEMENT_STRINGS,
@@ -40,6 +41,7 @@ from .format import (
     SUPPLY_MODES,
     SUPPORTED_SCHEMAS,
 )
+from .record import RunHeader, is_run_id
 
 #: A decimal number as the writer writes it (Python `repr` of a float, or an integer).
 NUMBER_SYNTAX = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
@@ -54,8 +56,8 @@ _RECORD_KEYS: dict[str, tuple[str, ...]] = {
 }
 
 
-class _Line:
-    """Where we are, for error messages."""
+class Position:
+    """Where a parser is in a file (source and line number), for error messages."""
 
     __slots__ = ("source", "number")
 
@@ -99,7 +101,7 @@ def _parse_constant(name: str) -> float:
     raise _NotFinite(f"{name} is not a number (JSON has no NaN or Infinity)")
 
 
-def parse_json_object(text: str, at: _Line) -> dict[str, Any]:
+def parse_json_object(text: str, at: Position) -> dict[str, Any]:
     try:
         value = json.loads(text, parse_float=_parse_float, parse_constant=_parse_constant)
     except _NotFinite as exc:
@@ -114,7 +116,7 @@ def parse_json_object(text: str, at: _Line) -> dict[str, Any]:
     return value
 
 
-def _number(obj: dict[str, Any], key: str, kind: str, at: _Line) -> float:
+def _number(obj: dict[str, Any], key: str, kind: str, at: Position) -> float:
     if key not in obj:
         raise at.bad(f"{kind} record has no {key!r}", f"{key} as a number")
     value = obj[key]
@@ -126,7 +128,7 @@ def _number(obj: dict[str, Any], key: str, kind: str, at: _Line) -> float:
     return x
 
 
-def _string(obj: dict[str, Any], key: str, kind: str, at: _Line, choices: tuple[str, ...] = ()) -> str:
+def _string(obj: dict[str, Any], key: str, kind: str, at: Position, choices: tuple[str, ...] = ()) -> str:
     value = obj.get(key)
     if not isinstance(value, str):
         raise at.bad(f"{kind} record has {key} = {_shown(value)}",
@@ -136,14 +138,14 @@ def _string(obj: dict[str, Any], key: str, kind: str, at: _Line, choices: tuple[
     return value
 
 
-def _check_keys(obj: dict[str, Any], kind: str, at: _Line) -> None:
+def _check_keys(obj: dict[str, Any], kind: str, at: Position) -> None:
     allowed = _RECORD_KEYS[kind]
     for key in obj:
         if key not in allowed:
             raise at.bad(f"unexpected key {_short(key)} in {kind} record", f"only {', '.join(allowed)}")
 
 
-def decode_record(obj: dict[str, Any], at: _Line) -> Event:
+def decode_record(obj: dict[str, Any], at: Position) -> Event:
     """A JSON record other than the header, as its event."""
     kind = obj.get("record")
     if kind == "header":
@@ -182,7 +184,7 @@ def decode_record(obj: dict[str, Any], at: _Line) -> Event:
 # --- the header -------------------------------------------------------------------------------
 
 
-def decode_header(text: str, at: _Line) -> RunStarted:
+def decode_header(text: str, at: Position) -> RunStarted:
     """Line 1: the JSON header, checked for the keys and types the program relies on."""
     if text.startswith(POINT_TAG + "\t") or not text.lstrip().startswith("{"):
         raise at.bad(f"line starts {_short(text[:20])} where the header belongs",
@@ -237,8 +239,16 @@ def decode_header(text: str, at: _Line) -> RunStarted:
                                   or not 0 < frequency <= MAX_MAGNITUDE):
         raise at.bad(f"header line_frequency_hz is {_shown(frequency)}",
                      "a frequency > 0 in Hz")
-    header = {k: v for k, v in obj.items() if k != "record"}
-    return RunStarted(header=header)
+    if schema >= 2 and "run_id" not in obj:
+        raise at.bad(f"schema {schema} header has no run_id", "run_id, the UUID written when the run started")
+    if "run_id" in obj and not is_run_id(obj["run_id"]):
+        raise at.bad(f"header run_id is {_shown(obj['run_id'])}",
+                     "a UUID in its usual text form: lower-case hex digits as 8-4-4-4-12")
+    try:
+        header = RunHeader.from_table(obj, text, at.source)
+    except BadInput as exc:  # a typed part of the header (the accuracy table) is malformed
+        raise at.bad(f"header {exc.where} {exc.problem}", exc.expected) from None
+    return RunStarted(header)
 
 
 # --- point lines ------------------------------------------------------------------------------
@@ -251,7 +261,7 @@ class PointDecoder:
         self.columns = tuple(columns)
         self.width = len(self.columns)
 
-    def decode(self, text: str, at: _Line) -> Point:
+    def decode(self, text: str, at: Position) -> Point:
         fields = text.split("\t")[1:]
         if len(fields) > self.width:
             raise at.bad(f"point has {len(fields)} fields", f"{self.width} tab-separated fields after P")
@@ -313,7 +323,7 @@ class PointDecoder:
 
 def is_torn(path: str | os.PathLike[str]) -> bool:
     """True when the file's last line has no newline (a write cut short by a kill)."""
-    with _open(path) as f:
+    with open_run(path) as f:
         try:
             f.seek(0, os.SEEK_END)
             if f.tell() == 0:
@@ -325,7 +335,7 @@ def is_torn(path: str | os.PathLike[str]) -> bool:
                            "a readable run file") from None
 
 
-def _open(path: str | os.PathLike[str]):
+def open_run(path: str | os.PathLike[str]):
     """A run file opened for reading: a regular file only (a FIFO, /dev/zero or a folder is refused at once)."""
     return open_input(path, "run file")
 
@@ -337,7 +347,7 @@ def iter_lines(path: str | os.PathLike[str]) -> Iterator[tuple[int, str]]:
     record we write comes near it, and reading it whole could exhaust memory).
     """
     source = str(path)
-    with _open(path) as f:
+    with open_run(path) as f:
         number = 0
         while True:
             raw = f.readline(RUN_LINE_MAX_BYTES + 1)
@@ -352,7 +362,7 @@ def iter_lines(path: str | os.PathLike[str]) -> Iterator[tuple[int, str]]:
             try:
                 text = raw[:-1].decode("utf-8")
             except UnicodeDecodeError as exc:
-                raise _Line(source, number).bad(f"byte {exc.start + 1} of the line is not UTF-8",
+                raise Position(source, number).bad(f"byte {exc.start + 1} of the line is not UTF-8",
                                                 "UTF-8 text") from None
             yield number, text
 
@@ -364,10 +374,10 @@ def read_records(path: str | os.PathLike[str]) -> Iterator[tuple[int, Event]]:
     last_index: int | None = None
     finished_at = 0
     for number, text in iter_lines(path):
-        at = _Line(source, number)
+        at = Position(source, number)
         if decoder is None:
             started = decode_header(text, at)
-            decoder = PointDecoder(started.header["point_columns"])
+            decoder = PointDecoder(started.header.point_columns)
             yield number, started
             continue
         if finished_at:
@@ -390,7 +400,7 @@ def read_records(path: str | os.PathLike[str]) -> Iterator[tuple[int, Event]]:
         else:
             raise at.bad(f"line starts {_short(text[:12])}", "a P point line or a JSON record")
     if decoder is None:
-        raise _Line(source, 1).bad(
+        raise Position(source, 1).bad(
             "no complete header (the file is empty or ends inside its first line)",
             f"a JSON header line ending in a newline, format {FORMAT_NAME}")
 
@@ -399,3 +409,32 @@ def read_events(path: str | os.PathLike[str]) -> Iterator[Event]:
     """Every event recorded in the run file, validated; BadInput names the line at fault."""
     for _, event in read_records(path):
         yield event
+
+
+def read_summary(path: str | os.PathLike[str]) -> tuple[RunHeader | None, str]:
+    """The header and the outcome of a run file from its first line and last 4 KiB: for listing many runs.
+
+    The outcome is the end record's, "incomplete" without one, "unreadable" when
+    the header is not a valid one (the line reader names why when the file is opened).
+    """
+    source = str(path)
+    with open_run(path) as f:
+        first = f.readline()
+        f.seek(0, os.SEEK_END)
+        f.seek(max(0, f.tell() - 4096))
+        tail = f.read().split(b"\n")
+    try:
+        header = decode_header(first[:-1].decode("utf-8"), Position(source, 1)).header
+    except (BadInput, UnicodeDecodeError):
+        return None, "unreadable"
+    for raw in reversed(tail[1:] if len(tail) > 1 else tail):
+        if raw.startswith(b"{") and b'"end"' in raw:
+            try:
+                text = raw.decode("utf-8")
+                event = decode_record(parse_json_object(text, Position(source, 0)), Position(source, 0))
+            except (BadInput, UnicodeDecodeError):
+                break
+            if isinstance(event, RunFinished):
+                return header, event.outcome
+            break
+    return header, "incomplete"

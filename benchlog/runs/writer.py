@@ -23,7 +23,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable
 
-from .events import SAFE_STATES, Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
+from .events import Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
 from .format import (
     ABSOLUTE_ZERO_C,
     DIRECTIONS,
@@ -36,8 +36,9 @@ from .format import (
     POINT_COLUMNS,
     POINT_TAG,
     SUPPLY_MODES,
-    complete_header,
+    SAFE_STATES,
 )
+from .record import RunHeader
 
 
 class RunWriteError(OSError):
@@ -106,7 +107,10 @@ def encode_event(event: Event) -> str:
     if isinstance(event, Point):
         return encode_point(event)
     if isinstance(event, RunStarted):
-        return _json_line({"record": "header", **complete_header(dict(event.header))})
+        if event.header.run_id_derived and event.header.schema >= 2:
+            raise ValueError("a run written now needs its own run_id (new_run_id()); "
+                             "only a file read from before run ids has a derived one")
+        return _json_line({"record": "header", **event.header.to_table()})
     if isinstance(event, Offset):
         return _json_line({"record": "offset", "t_s": float(_number("t_s", event.t_s)),
                            "drop_v": float(_number("drop_v", event.drop_v))})
@@ -130,15 +134,13 @@ def encode_event(event: Event) -> str:
     if isinstance(event, RunFinished):
         if event.outcome not in END_OUTCOMES:
             raise ValueError(f"outcome must be one of {END_OUTCOMES}, got {event.outcome!r}")
-        record = {"record": "end", "t_s": float(_number("t_s", event.t_s)),
-                  "outcome": event.outcome,
-                  "points": int(_integer("points", event.points, 0, MAX_INDEX)),
-                  "message": str(event.message)}
-        if event.safe_state is not None:
+        end = {"record": "end", "t_s": float(_number("t_s", event.t_s)), "outcome": event.outcome,
+               "points": int(_integer("points", event.points, 0, MAX_INDEX)), "message": str(event.message)}
+        if event.safe_state is not None:  # written only when stated: a missing one means "not stated"
             if event.safe_state not in SAFE_STATES:
-                raise ValueError(f"safe_state must be one of {SAFE_STATES}, got {event.safe_state!r}")
-            record["safe_state"] = event.safe_state
-        return _json_line(record)
+                raise ValueError(f"safe_state must be one of {SAFE_STATES} or None, got {event.safe_state!r}")
+            end["safe_state"] = event.safe_state
+        return _json_line(end)
     raise TypeError(f"not a run event: {event!r}")
 
 
@@ -154,7 +156,7 @@ def _name_part(text: Any, limit: int = 40) -> str:
     return cleaned[:limit].strip("-.")
 
 
-def new_run_path(out_dir: str | os.PathLike[str], header: dict[str, Any]) -> Path:
+def new_run_path(out_dir: str | os.PathLike[str], header: RunHeader) -> Path:
     """A new, unused run file name in `out_dir` (created if missing): UTC time, element id, serial.
 
     Only letters, digits, `.` and `-` survive from the element's id and serial,
@@ -168,18 +170,12 @@ def new_run_path(out_dir: str | os.PathLike[str], header: dict[str, Any]) -> Pat
 
         raise BadInput(out, "", f"cannot be used as the folder for run files ({exc.strerror or exc})",
                        "a folder that exists or can be created") from None
-    when = None
-    started = header.get("started_utc")
-    if isinstance(started, str):
-        try:
-            when = datetime.fromisoformat(started.replace("Z", "+00:00")).astimezone(timezone.utc)
-        except ValueError:
-            when = None
-    if when is None:
+    try:
+        when = datetime.fromisoformat(header.started_utc.replace("Z", "+00:00")).astimezone(timezone.utc)
+    except ValueError:
         when = datetime.now(timezone.utc)
-    element = header.get("element") if isinstance(header.get("element"), dict) else {}
-    parts = [when.strftime("%Y%m%dT%H%M%SZ"), _name_part(element.get("id")) or "element",
-             _name_part(element.get("serial"))]
+    parts = [when.strftime("%Y%m%dT%H%M%SZ"), _name_part(header.element.id) or "element",
+             _name_part(header.element.serial)]
     stem = "_".join(p for p in parts if p)
     serial = 1
     while True:

@@ -22,6 +22,8 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
+from benchlog.accuracy import Accuracy, MeasurementAccuracy
+
 from .bench_file import BenchSetup, Wiring
 from .plan import Plan
 
@@ -263,46 +265,34 @@ def shunt_range_v(plan: Plan, wiring: Wiring, meter_profile: Any) -> float:
     return chosen if chosen is not None else (max(ranges) if ranges else needed)
 
 
-def _spec_for(profile: Any, function: str, value: float) -> Any:
-    """The accuracy entry for `function` whose range is the smallest that holds `value`."""
+def _spec_for(profile: Any, function: str, value: float) -> Accuracy | None:
+    """The accuracy of `function` on the smallest range that holds `value` (the largest if none does)."""
     specs = [s for s in getattr(profile, "accuracy", ()) if s.function == function]
     if not specs:
         return None
     fits = [s for s in specs if s.range >= value * (1 - 1e-9)]
-    return min(fits, key=lambda s: s.range) if fits else max(specs, key=lambda s: s.range)
+    return (min(fits, key=lambda s: s.range) if fits else max(specs, key=lambda s: s.range)).accuracy
 
 
-def accuracy_block(rig: Rig, plan: Plan) -> dict[str, Any]:
-    """The header's accuracy of the drop and current readings, from the profiles and ranges used."""
-    block: dict[str, Any] = {}
+def measurement_accuracy(rig: Rig, plan: Plan) -> MeasurementAccuracy:
+    """The accuracy of the drop and current readings, from the profiles and the ranges used."""
     drop_range = rig.ranges.get("meter") or drop_range_v(plan, rig.meter.profile)
-    spec = _spec_for(rig.meter.profile, "dc_voltage", drop_range)
-    if spec is not None:
-        block["drop"] = {"reading_pct": spec.reading_pct, "range_pct": spec.range_pct, "range_v": spec.range}
+    drop = _spec_for(rig.meter.profile, "dc_voltage", drop_range)
     w = rig.wiring
-    cur = None
     if w.current_from == "supply":
-        cur = _spec_for(rig.supply.profile, "readback_current", plan.limits.max_current_a)
-        if cur is not None:
-            block["current"] = {"reading_pct": cur.reading_pct, "range_pct": cur.range_pct, "range_a": cur.range}
+        current = _spec_for(rig.supply.profile, "readback_current", plan.limits.max_current_a)
     elif w.current_from == "load":
-        cur = _spec_for(rig.load.profile, "readback_current", plan.limits.max_current_a)
-        if cur is not None:
-            block["current"] = {"reading_pct": cur.reading_pct, "range_pct": cur.range_pct, "range_a": cur.range}
+        current = _spec_for(rig.load.profile, "readback_current", plan.limits.max_current_a)
     elif w.current_from == "meter":
         rng = rig.ranges.get("current_meter") or current_range_a(plan, rig.current_meter.profile)
-        cur = _spec_for(rig.current_meter.profile, "dc_current", rng)
-        if cur is not None:
-            block["current"] = {"reading_pct": cur.reading_pct, "range_pct": cur.range_pct, "range_a": cur.range}
+        current = _spec_for(rig.current_meter.profile, "dc_current", rng)
     else:
         # I = V/R_shunt: the meter's % of range becomes a current through the shunt; the
         # shunt's own tolerance is not known here and is left to the operator's budget.
         rng = rig.ranges.get("current_meter") or shunt_range_v(plan, w, rig.current_meter.profile)
-        cur = _spec_for(rig.current_meter.profile, "dc_voltage", rng)
-        if cur is not None:
-            block["current"] = {"reading_pct": cur.reading_pct, "range_pct": cur.range_pct,
-                                "range_a": cur.range / w.shunt_ohm}
-    return block
+        current = _spec_for(rig.current_meter.profile, "dc_voltage", rng)
+        current = current.through_shunt(w.shunt_ohm) if current is not None else None
+    return MeasurementAccuracy(drop=drop, current=current)
 
 
 def finite(value: float | None) -> bool:

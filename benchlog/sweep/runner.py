@@ -28,7 +28,6 @@ from typing import Any, Callable, Iterator
 from benchlog import __version__
 from benchlog.kinds import kind as element_kind
 from benchlog.runs.events import (
-    SCHEMA_VERSION,
     FLAG_COMPLIANCE,
     FLAG_UNSETTLED,
     Event,
@@ -39,10 +38,20 @@ from benchlog.runs.events import (
     RunFinished,
     RunStarted,
 )
+from benchlog.runs.record import (
+    BenchRecord,
+    ElementRecord,
+    InstrumentRecord,
+    MeterSettings,
+    PlanRecord,
+    RunHeader,
+    freeze,
+    new_run_id,
+)
 
 from .plan import Plan
 from .protection import program_protection
-from .rig import Rig, accuracy_block, drop_range_v, reverse_limit_a
+from .rig import Rig, drop_range_v, measurement_accuracy, reverse_limit_a
 from .settle import Interrupted, Overload, settle
 from .steps import StepSource, step_source
 
@@ -124,7 +133,7 @@ class SweepRunner:
         self.safe_state = "unknown"
         self.safe_report: Any = None  # the guard's SafeStateReport, when it gives one
         self.run_file = None  # set by whoever records the run (session.run_sweep)
-        self._header: dict[str, Any] | None = None
+        self._header: RunHeader | None = None
         self._t0 = 0.0
         self._last_checkpoint = 0.0
 
@@ -143,10 +152,17 @@ class SweepRunner:
         return self._cancel.is_set()
 
     @property
-    def header(self) -> dict[str, Any]:
+    def header(self) -> RunHeader:
         if self._header is None:
             self._header = self._build_header()
         return self._header
+
+    @header.setter
+    def header(self, header: RunHeader) -> None:
+        """Replace the header before the run starts (a recording with fixed times and ids)."""
+        if self._t0:
+            raise RuntimeError("the header is written when the run starts; it cannot change after")
+        self._header = header
 
     def run(self, on_event: Callable[[Event], None] | None = None) -> str:
         """Run to the end, handing each event to `on_event`; returns the outcome.
@@ -182,9 +198,7 @@ class SweepRunner:
         yield self._emit(RunStarted(self.header))
         use_accuracy = getattr(self.steps, "use_accuracy", None)
         if use_accuracy is not None:
-            from benchlog.analysis.uncertainty import MeasurementAccuracy
-
-            use_accuracy(MeasurementAccuracy.from_header(self.header))
+            use_accuracy(self.header.accuracy)
         for text in self._warnings:
             yield self._emit(Note(self._t(), "warning", text))
         stop: _Stop
@@ -446,17 +460,18 @@ class SweepRunner:
         return _Stop("fault", "fault", f"internal error: {type(exc).__name__}: {exc}")
 
     # -- header --------------------------------------------------------------
-    def _build_header(self) -> dict[str, Any]:
+    def _build_header(self) -> RunHeader:
         plan, rig = self.plan, self.rig
-        instruments = {}
-        for name, role in rig.named_roles().items():
-            profile = role.profile
-            instruments[name] = {
-                "resource": getattr(role, "resource", ""),
-                "idn": idn_text(getattr(role, "idn", None)),
-                "profile": getattr(profile, "name", str(profile)),
-                "profile_sha256": getattr(profile, "sha256", ""),
-            }
+        instruments = tuple(
+            InstrumentRecord(
+                role=name,
+                resource=getattr(role, "resource", ""),
+                idn=idn_text(getattr(role, "idn", None)),
+                profile=getattr(role.profile, "name", str(role.profile)),
+                profile_sha256=getattr(role.profile, "sha256", ""),
+            )
+            for name, role in rig.named_roles().items()
+        )
         e = plan.element
         element = {
             "id": e.id, "kind": e.kind, "label": e.label, "lot": e.lot, "serial": e.serial,
@@ -464,27 +479,23 @@ class SweepRunner:
         }
         if element_kind(e.kind).has_gate:
             element.update({"gate": e.gate, "zener_v": e.zener_v, "measure": e.measure})
-        from benchlog.runs.format import FORMAT_NAME, POINT_COLUMNS
-
+        plan_table = freeze(plan.to_dict())
         now = datetime.now(timezone.utc)
-        return {
-            "format": FORMAT_NAME,
-            "schema": SCHEMA_VERSION,
-            "tool_version": __version__,
-            "started_utc": now.strftime("%Y-%m-%dT%H:%M:%S.") + f"{now.microsecond // 1000:03d}Z",
-            "host": socket.gethostname(),
-            "instruments": instruments,
-            "bench": rig.setup.to_dict(),
-            "plan": plan.to_dict(),
-            "element": element,
-            "accuracy": accuracy_block(rig, plan),
+        return RunHeader(
+            tool_version=__version__,
+            started_utc=now.strftime("%Y-%m-%dT%H:%M:%S.") + f"{now.microsecond // 1000:03d}Z",
+            run_id=new_run_id(),
+            host=socket.gethostname(),
+            instruments=instruments,
+            bench=BenchRecord.from_table(rig.setup.to_dict()),
+            plan=PlanRecord(plan_table),
+            element=ElementRecord.from_table(element, plan_table.get("element") or {}),
+            accuracy=measurement_accuracy(rig, plan),
             # NPLC is recorded only when the meter was told it (a profile without an NPLC command keeps its own)
-            "meter": {"nplc": plan.meter.nplc if getattr(rig.meter.profile, "sets_nplc", True) else None,
-                      "samples": plan.meter.samples,
-                      "range_v": drop_range_v(plan, rig.meter.profile)},
-            "line_frequency_hz": rig.setup.line_frequency_hz,
-            "point_columns": list(POINT_COLUMNS),
-        }
+            meter=MeterSettings(plan.meter.nplc if getattr(rig.meter.profile, "sets_nplc", True) else None,
+                                plan.meter.samples, drop_range_v(plan, rig.meter.profile)),
+            line_frequency_hz=rig.setup.line_frequency_hz,
+        )
 
 
 def _safety_limit_type() -> type:

@@ -17,7 +17,7 @@ MODELS = ("auto", "resistive", "diode", "knee")
 class RunFindings:
     path: Path
     frame: Any  # pandas.DataFrame from benchlog.runs.load
-    meta: Any  # benchlog.runs.load.RunMeta
+    meta: Any  # benchlog.runs.RunMeta
     model: str = "auto"
     fit: Any = None  # benchlog.analysis FitResult
     fit_error: str = ""

@@ -9,11 +9,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any, Iterable
+from typing import Iterable
 
 import numpy as np
 
 from benchlog.runs.events import Event, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
+from benchlog.runs.record import ElementRecord, RunHeader
 
 #: Limit keys of a plan's `[limits]` table, what each is compared with, and the unit.
 LIMITS = (
@@ -54,32 +55,11 @@ class Progress:
         return min(1.0, self.done / self.planned)
 
 
-def planned_points(header: dict[str, Any]) -> int | None:
-    """The number of points the plan asks for; None for adaptive steps (they stop on a target)."""
-    for key in ("planned_points", "points_planned"):
-        value = header.get(key)
-        if isinstance(value, int) and value > 0:
-            return value
-    steps = (header.get("plan") or {}).get("steps") or {}
-    mode = steps.get("mode")
-    if mode == "list":
-        currents = steps.get("currents_a") or []
-        return len(currents) or None
-    count = steps.get("count")
-    if not isinstance(count, int) or count <= 0:
-        return None
-    if mode in ("linear", "log"):
-        return count
-    if mode == "updown":
-        return 2 * count - 1
-    return None
-
-
 @dataclass
 class LiveRun:
     """The fold of one run's events; `apply` takes them in batches from the feed."""
 
-    header: dict[str, Any] = field(default_factory=dict)
+    header: RunHeader | None = None
     offset_v: float | None = None
     points: list[Point] = field(default_factory=list)
     notes: list[Note] = field(default_factory=list)
@@ -91,15 +71,15 @@ class LiveRun:
 
     @property
     def started(self) -> bool:
-        return bool(self.header)
+        return self.header is not None
 
     @property
     def running(self) -> bool:
         return self.started and self.finished is None
 
     @property
-    def element(self) -> dict[str, Any]:
-        return self.header.get("element") or {}
+    def element(self) -> ElementRecord | None:
+        return self.header.element if self.header is not None else None
 
     @property
     def last_t_s(self) -> float:
@@ -119,7 +99,7 @@ class LiveRun:
             self._add(new)
             new = []
             if isinstance(event, RunStarted):
-                self.header = dict(event.header)
+                self.header = event.header
             elif isinstance(event, Offset):
                 self.offset_v = event.drop_v
             elif isinstance(event, Note):
@@ -164,7 +144,7 @@ class LiveRun:
 
     def progress(self, elapsed_s: float | None = None) -> Progress:
         elapsed = self.last_t_s if elapsed_s is None else max(elapsed_s, self.last_t_s)
-        planned = planned_points(self.header)
+        planned = self.header.planned_points() if self.header is not None else None
         done = len(self.points)
         eta = None
         if planned and done and self.finished is None:
@@ -177,7 +157,7 @@ class LiveRun:
         return Progress(done, planned, elapsed, eta)
 
     def limits(self, elapsed_s: float | None = None) -> list[LimitUse]:
-        table = (self.header.get("plan") or {}).get("limits") or {}
+        table = self.header.plan.limits if self.header is not None and self.header.plan is not None else {}
         worst = {
             "max_current_a": self.worst_abs("current_a"),
             "compliance_v": self.worst_abs("supply_v"),

@@ -11,6 +11,7 @@ from benchlog.analysis.uncertainty import Accuracy, MeasurementAccuracy
 from benchlog.badinput import BadInput
 from benchlog.cli import main
 from benchlog.runs import Offset, Point, RunFinished, RunStarted, RunWriter, load
+from benchlog.runs.record import RunHeader, new_run_id
 
 ACCURACY = {"drop": {"reading_pct": 0.0040, "range_pct": 0.0007, "range_v": 1.0},
             "current": {"reading_pct": 0.05, "range_pct": 0.05, "range_a": 10.0}}
@@ -18,12 +19,12 @@ ACCURACY = {"drop": {"reading_pct": 0.0040, "range_pct": 0.0007, "range_v": 1.0}
 
 def write_run(path, currents, drops, *, offset_v=None, directions=None, flags=None, temperature_c=None,
               accuracy=ACCURACY, ambient_c=23.0, kind="pmos"):
-    header = {"tool_version": "test", "started_utc": "2025-01-01T00:00:00Z",
+    header = {"tool_version": "test", "started_utc": "2025-01-01T00:00:00Z", "run_id": new_run_id(),
               "element": {"id": "DEMO-PART-1", "kind": kind, "ambient_c": ambient_c}}
     if accuracy is not None:
         header["accuracy"] = accuracy
     with RunWriter(path, fsync=False) as writer:
-        writer.write(RunStarted(header))
+        writer.write(RunStarted(RunHeader.from_table(header)))
         if offset_v is not None:
             writer.write(Offset(0.0, offset_v))
         for k, (i, v) in enumerate(zip(currents, drops)):

@@ -16,7 +16,7 @@ import pytest
 
 from benchlog import runs
 from benchlog.analysis.fits import fit_run
-from benchlog.sample_runs import SAMPLES
+from tools.sample_runs import SAMPLES
 from benchlog.sim.bench import SimBench
 from benchlog.sim.config import SimConfig
 from benchlog.sim.elements import NOMINAL

@@ -37,7 +37,7 @@ def reference(paths, spec, model):
         if model == "resistive":
             out.append((fit.params["r_on_ohm"], fit.std_u["r_on_ohm"], fit.k))
         else:
-            vf_at = vf_at or run_conditions(frame, meta, spec).current_a  # the first run's current
+            vf_at = vf_at or run_conditions(frame["current_a"].to_numpy(), frame["supply_v"].to_numpy(), meta, spec).current_a  # the first run's current
             out.append((*fit.drop_at(vf_at), fit.k))
     return out
 
@@ -187,5 +187,5 @@ def test_body_diode_measured_on_purpose_is_a_diode_lot(tmp_path):
     path = _write(tmp_path / "body.run", _points(0.010, np.random.default_rng(2)), measure="body_diode")
     assert json.loads(path.read_text(encoding="utf-8").split("\n")[0])["element"]["measure"] == "body_diode"
     points, meta = load_points(path)
-    cond = run_conditions(points, meta, spec)
+    cond = run_conditions(points.current_a, points.supply_v, meta, spec)
     assert cond.body_diode and lot_model(spec, cond.body_diode) == "diode"

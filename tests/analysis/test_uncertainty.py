@@ -53,13 +53,14 @@ def test_t_coverage_factor_matches_gum_table_g2(dof, k):
     assert t_coverage_factor(dof) == pytest.approx(k, abs=0.006)
 
 
-def test_accuracy_from_header():
-    header = {"accuracy": {"drop": {"reading_pct": 0.004, "range_pct": 0.0007, "range_v": 1.0},
-                           "current": {"reading_pct": 0.05, "range_pct": 0.05, "range_a": 10}}}
-    acc = MeasurementAccuracy.from_header(header)
+def test_accuracy_from_header_table():
+    table = {"drop": {"reading_pct": 0.004, "range_pct": 0.0007, "range_v": 1.0},
+             "current": {"reading_pct": 0.05, "range_pct": 0.05, "range_a": 10}}
+    acc = MeasurementAccuracy.from_table(table)
     assert acc.drop == Accuracy(0.004, 0.0007, 1.0)
     assert acc.current == Accuracy(0.05, 0.05, 10.0)
-    assert MeasurementAccuracy.from_header({}) == MeasurementAccuracy(None, None)
+    assert MeasurementAccuracy.from_table(None) == MeasurementAccuracy(None, None)
+    assert MeasurementAccuracy.from_table(acc.to_table()) == acc  # the header round trip
 
 
 @pytest.mark.parametrize(
@@ -74,6 +75,6 @@ def test_accuracy_from_header():
 )
 def test_accuracy_from_header_refuses_bad_values(block, where):
     with pytest.raises(BadInput) as info:
-        MeasurementAccuracy.from_header({"accuracy": block}, "x.run")
+        MeasurementAccuracy.from_table(block, "x.run")
     assert info.value.where == where
     assert "x.run" in info.value.line()

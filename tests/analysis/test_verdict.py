@@ -8,6 +8,7 @@ import pytest
 
 from benchlog.analysis.verdict import check_run, decide, decide_many
 from benchlog.badinput import BadInput
+from benchlog.runs.record import RunHeader, new_run_id
 
 from .spec_texts import PMOS, RECT, spec
 
@@ -70,8 +71,10 @@ def sweep(r_ohm, noise_v=20e-6, n=21, seed=1, operating_a=None, kind="pmos", top
                           "power_w": current * drop})
     element = {"id": "U1", "kind": kind, "serial": "S1", "lot": "L1", "ambient_c": 25.0}
     plan = {"element": dict(element, operating_a=operating_a, gate="driven")}
-    meta = SimpleNamespace(path="demo.run", header={"plan": plan, "element": element}, element=element,
-                           offset_v=None, outcome=outcome, complete=complete, finished=None)
+    header = RunHeader.from_table({"tool_version": "test", "started_utc": "2025-01-01T00:00:00Z",
+                                   "run_id": new_run_id(), "plan": plan, "element": element})
+    meta = SimpleNamespace(path="demo.run", header=header, offset_v=None, outcome=outcome, complete=complete,
+                           finished=None)
     return frame, meta
 
 

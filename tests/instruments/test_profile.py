@@ -319,19 +319,22 @@ def test_sim_profiles_copy_the_simulator_specs():
     def pairs(items):
         return sorted((s.function, s.range, s.reading_pct, s.range_pct) for s in items)
 
+    def profile_pairs(entries):  # a profile entry names the function and holds one Accuracy
+        return sorted((e.function, e.range, e.accuracy.reading_pct, e.accuracy.range_pct) for e in entries)
+
     for name in ("sim-meter", "sim-meter-no-measure"):
         meter = load_profile(name)
-        assert pairs(meter.accuracy) == pairs(specs.METER_DCV + specs.METER_DCI)
+        assert profile_pairs(meter.accuracy) == pairs(specs.METER_DCV + specs.METER_DCI)
         assert meter.limits.voltage_ranges_v == tuple(s.range for s in specs.METER_DCV)
         assert meter.limits.current_ranges_a == tuple(s.range for s in specs.METER_DCI)
         assert (meter.limits.nplc_min, meter.limits.nplc_max) == (specs.METER_NPLC_MIN, specs.METER_NPLC_MAX)
         assert meter.limits.max_samples == specs.METER_SAMPLE_COUNT_MAX
     supply = load_profile("sim-supply")
-    assert pairs(supply.accuracy) == pairs(specs.SUPPLY_READBACK)
+    assert profile_pairs(supply.accuracy) == pairs(specs.SUPPLY_READBACK)
     assert (supply.limits.max_voltage_v, supply.limits.max_current_a) == (
         specs.SUPPLY_MAX_VOLTAGE_V, specs.SUPPLY_MAX_CURRENT_A)
     load = load_profile("sim-load")
-    assert pairs(load.accuracy) == pairs(specs.LOAD_READBACK)
+    assert profile_pairs(load.accuracy) == pairs(specs.LOAD_READBACK)
     assert (load.limits.max_voltage_v, load.limits.max_current_a) == (specs.LOAD_MAX_VOLTAGE_V, specs.LOAD_MAX_CURRENT_A)
 
 

@@ -168,7 +168,7 @@ def test_mutated_profile_loads_or_is_bad_input(text):
     profile = _only_bad_input(lambda t: parse_profile(t, "fuzz-profile.toml"), text, "fuzz-profile.toml")
     if profile is not None:
         assert math.isfinite(profile.timeout_s) and profile.timeout_s > 0
-        assert all(math.isfinite(a.reading_pct) and math.isfinite(a.range_pct) for a in profile.accuracy)
+        assert all(math.isfinite(a.accuracy.reading_pct) and math.isfinite(a.accuracy.range_pct) for a in profile.accuracy)
 
 
 @FUZZ

@@ -149,9 +149,9 @@ def test_free_text_is_recorded_as_text_and_never_sent(recorded_bench, tmp_path):
     assert not MARKER.exists()  # the note was data, not code
     run_file = next((tmp_path / "runs").glob("*.run"))
     _, meta = load(run_file)
-    assert meta.header["element"]["serial"] == "<script>alert(1)</script>;*RST\nOUTP ON"
-    assert meta.header["element"]["note"] == HOSTILE_TEXT["note"]
-    assert meta.header["element"]["label"] == HOSTILE_TEXT["label"] and meta.header["element"]["lot"] == "LOT;*RST"
+    assert meta.header.element.serial == "<script>alert(1)</script>;*RST\nOUTP ON"
+    assert meta.header.element.note == HOSTILE_TEXT["note"]
+    assert meta.header.element.label == HOSTILE_TEXT["label"] and meta.header.element.lot == "LOT;*RST"
     # and the report shows the serial as text (escaping itself is checked in tests/report)
     from benchlog.cli import main
 

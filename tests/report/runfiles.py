@@ -8,6 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from benchlog.runs.events import FLAG_UNSETTLED, Note, Offset, Point, ReverseResult, RunFinished, RunStarted
+from benchlog.runs.record import RunHeader, new_run_id
 from benchlog.runs.writer import RunWriter
 
 from .samples import HOSTILE
@@ -72,7 +73,7 @@ def write_run(path: Path, current, drop, *, hdr: dict | None = None, finished: b
     hdr = hdr or header()
     flags = flags or {}
     with RunWriter(path, fsync=False) as w:
-        w.write(RunStarted(hdr))
+        w.write(RunStarted(RunHeader.from_table({"run_id": new_run_id(), **hdr})))
         w.write(Offset(0.1, 1e-5))
         t = 0.5
         for k, (i, v) in enumerate(zip(current, drop)):

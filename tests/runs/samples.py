@@ -13,14 +13,18 @@ from benchlog.runs.events import (
     RunFinished,
     RunStarted,
 )
-from benchlog.runs.format import complete_header
+from benchlog.runs.record import RunHeader
+
+#: An invented, fixed run id (a valid UUID4 text) so the tests' files are the same every time.
+RUN_ID = "0f5f3c2a-7d1e-4b8a-9c6d-2e4f6a8b0c1d"
 
 
-def header(**element) -> dict:
-    """A full header as the runner writes it (invented demo part)."""
-    return complete_header({
+def header_table(**element) -> dict:
+    """A full header object as the runner writes it (invented demo part)."""
+    return {
         "tool_version": "0.1.0",
         "started_utc": "2025-01-31T09:15:02.250Z",
+        "run_id": RUN_ID,
         "host": "bench-pc",
         "instruments": {"meter": {"resource": "TCPIP0::127.0.0.1::5025::SOCKET",
                                   "idn": "BENCHLOG,SIM-METER,0001,1.0",
@@ -33,7 +37,12 @@ def header(**element) -> dict:
                      "current": {"reading_pct": 0.05, "range_pct": 0.01, "range_a": 3.0}},
         "meter": {"nplc": 1.0, "samples": 1, "range_v": 1.0},
         "line_frequency_hz": 50.0,
-    })
+    }
+
+
+def header(**element) -> RunHeader:
+    """A full typed header as the runner makes it (invented demo part)."""
+    return RunHeader.from_table(header_table(**element))
 
 
 def every_kind() -> list:

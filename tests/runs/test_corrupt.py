@@ -7,7 +7,7 @@ import json
 import pytest
 
 from benchlog.badinput import BadInput
-from benchlog.runs import RunWriter, load, read_events
+from benchlog.runs import RunWriter, load, load_points, read_events
 
 from .samples import every_kind
 
@@ -115,10 +115,13 @@ def test_corrupt_file_names_its_line(tmp_path, good_lines, name, build, line, wo
 
 def test_newer_schema_names_found_and_supported(tmp_path, good_lines):
     path = tmp_path / "new.run"
-    path.write_text("\n".join(header_with(good_lines, schema=2)) + "\n", encoding="utf-8")
-    with pytest.raises(BadInput) as caught:
-        load(path)
-    assert "schema version 2" in caught.value.line() and "expected schema 1" in caught.value.line()
+    path.write_text("\n".join(header_with(good_lines, schema=3)) + "\n", encoding="utf-8")
+    for reader in (load, load_points, lambda p: list(read_events(p))):
+        with pytest.raises(BadInput) as caught:
+            reader(path)
+        line = caught.value.line()
+        assert "schema version 3 is newer" in line and "expected schema 1, 2" in line, line
+        assert "\n" not in line and line.startswith(f"{path}: line 1: ")
 
 
 def test_missing_file_is_bad_input(tmp_path):

@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 
 from benchlog.badinput import BadInput
 from benchlog.runs import PointArrays, RunWriter, load, load_points, read_events
-from benchlog.runs import points as points_module
+from benchlog.runs import loader
 from benchlog.runs.events import Point
 from benchlog.runs.format import POINT_COLUMNS, POINT_FLOAT_COLUMNS, POINT_INTEGER_COLUMNS
 
@@ -51,13 +51,22 @@ def test_sample_runs_load_to_the_same_numbers(path):
     assert_same(points, frame, meta_light, meta)
 
 
-def test_sample_runs_are_many_and_take_the_quick_path():
+def test_sample_runs_are_many_and_take_the_quick_path(monkeypatch):
     # The check above is only worth its name if it covers the folder and the quick path itself
-    # (not the line-reader fallback, which would be right but slow).
+    # (not the line-reader fallback, which would be right but slow): with the line reader
+    # taken away from the parser, every sample still loads.
     assert len(SAMPLE_RUNS) >= 25
+    lengths = {path: len(load(path)[0]) for path in SAMPLE_RUNS}
+
+    def no_line_reader(path):
+        raise AssertionError(f"{path} fell back to the line reader")
+
+    monkeypatch.setattr(loader, "read_records", no_line_reader)
     for path in SAMPLE_RUNS:
-        points, _ = points_module._quick(path, path.read_bytes())
-        assert len(points) == len(load(path)[0])
+        points, _ = load_points(path)
+        assert len(points) == lengths[path]
+        frame, _ = load(path)
+        assert len(frame) == lengths[path]
 
 
 def test_every_kind_of_point_and_record(tmp_path):
@@ -111,15 +120,17 @@ def test_torn_last_line(tmp_path, good_lines, cut):
     assert_same(points, *load(path)[:1], meta_light, load(path)[1])
 
 
-def test_spellings_the_quick_path_refuses_are_read_by_the_line_reader(tmp_path, good_lines):
+def test_spellings_the_quick_path_refuses_are_read_by_the_line_reader(tmp_path, good_lines, monkeypatch):
     # Blanks around a number and a mode, fewer trailing fields: the line reader takes them
     # (as `load` does); the quick path hands them over instead of guessing.
     odd = "\t".join(["P", "7", " 4.0 ", "1.0", "1.0", "0.8", "5.0", " CC", "", "2", "up"])
     path = tmp_path / "odd.run"
     path.write_text("\n".join(good_lines[:-1] + [odd, good_lines[-1]]) + "\n", encoding="utf-8")
-    with pytest.raises(points_module._Refused):
-        points_module._quick(path, path.read_bytes())
+    used = []
+    line_reader = loader.read_records
+    monkeypatch.setattr(loader, "read_records", lambda p: used.append(p) or line_reader(p))
     points, meta = load_points(path)
+    assert used == [path]  # the quick split refused and the line reader read the file
     frame, meta_full = load(path)
     assert_same(points, frame, meta, meta_full)
     assert points.t_s[-1] == 4.0 and points.supply_mode[-1] == "CC" and points.flags[-1] == ""
@@ -131,7 +142,7 @@ def test_large_file_goes_through_load(tmp_path, monkeypatch):
         for event in every_kind():
             writer.write(event)
     quick = load_points(path)
-    monkeypatch.setattr(points_module, "SMALL_FILE_B", 100)  # every file is "large" now
+    monkeypatch.setattr(loader, "SMALL_FILE_B", 100)  # every file is "large" now
     big = load_points(path)
     frame, meta = load(path)
     assert_same(big[0], frame, big[1], meta)
@@ -191,17 +202,39 @@ def every_kind_header() -> bytes:
     return path.read_bytes().split(b"\n", 1)[0] + b"\n"
 
 
-def test_column_reading_like_a_frame():
-    # Code written for load's frame that only reads columns takes the arrays as they are.
-    path = REPO / "sample_runs" / "pmos-prototype.run"
-    points, _ = load_points(path)
-    frame, _ = load(path)
-    assert tuple(points.columns) == tuple(frame.columns)
-    for name in ("current_a", "supply_v", "temperature_c", "power_w"):
-        assert np.array_equal(points[name].to_numpy(dtype=float), frame[name].to_numpy(dtype=float),
-                              equal_nan=True)
-    copied = points["drop_v"].to_numpy(copy=True)
-    copied[0] = -1.0
-    assert points.drop_v[0] != -1.0
-    with pytest.raises(KeyError):
-        points["nope"]
+def _columns(**change):
+    """Three valid points as float columns, with `change` = {column: (row, value)} applied (invented)."""
+    base = {"index": [0.0, 1.0, 2.0], "settle_reads": [1.0, 2.0, 3.0], "t_s": [0.1, 0.2, 0.3],
+            "setpoint_a": [0.1, 0.2, 0.3], "current_a": [0.1, 0.2, 0.3], "drop_v": [0.5, 0.6, 0.7],
+            "supply_v": [12.0, math.nan, 12.0], "temperature_c": [25.0, math.nan, 26.0]}
+    for name, (row, value) in change.items():
+        base[name][row] = value
+    return {k: np.array(v) for k, v in base.items()}
+
+
+@pytest.mark.parametrize("change, overload_row, ok", [
+    ({}, None, True),
+    ({"index": (1, -1.0)}, None, False),  # a negative index
+    ({"index": (2, 1.0)}, None, False),  # not increasing
+    ({"settle_reads": (0, 1.5)}, None, False),  # not a whole number
+    ({"t_s": (0, math.nan)}, None, False),  # t_s may never be empty
+    ({"drop_v": (1, math.nan)}, None, False),  # an empty reading without the overload flag
+    ({"drop_v": (1, math.nan)}, 1, True),  # ... with it
+    ({"current_a": (2, math.nan)}, 1, False),  # the flag on another point
+    ({"supply_v": (0, 2e9)}, None, False),  # beyond MAX_MAGNITUDE
+    ({"temperature_c": (2, -300.0)}, None, False),  # below absolute zero
+])
+def test_block_and_column_checks_are_the_same_rule(monkeypatch, change, overload_row, ok):
+    # The short-column block check and the per-column check must accept and refuse the same
+    # columns (the line reader is the reference for both; here they meet on crafted cases).
+    from benchlog.runs import point_rules
+
+    numbers = _columns(**change)
+    overload = np.zeros(3, dtype=bool)
+    if overload_row is not None:
+        overload[overload_row] = True
+    answers = []
+    for limit in (point_rules.BLOCK_MAX_POINTS, -1):
+        monkeypatch.setattr(point_rules, "BLOCK_MAX_POINTS", limit)
+        answers.append(point_rules.numbers_ok(numbers, overload))
+    assert answers == [ok, ok]

@@ -15,7 +15,7 @@ from benchlog.analysis.fits import fit_run
 from benchlog.analysis.self_heating import detect_self_heating
 from benchlog.cli import main as benchlog_main
 from benchlog.runs.reader import is_torn
-from benchlog.sample_runs import LOT_OUTLIERS, LOT_SIZE, SAMPLES, generate, run_path
+from tools.sample_runs import LOT_OUTLIERS, LOT_SIZE, SAMPLES, generate, run_path
 
 ROOT = Path(__file__).resolve().parents[2]
 COMMITTED = ROOT / "sample_runs"
@@ -24,7 +24,7 @@ SPECS = ROOT / "benchlog" / "demo" / "specs"
 # ones so they never collide) and the tool version (in the header and in the sim's *IDN? firmware field).
 PORT = re.compile(r"TCPIP0::127\.0\.0\.1::\d+::SOCKET")
 VERSION = re.compile(r'"tool_version":"([^"]*)"')
-REGENERATE = "the committed sample differs: regenerate with `python -m benchlog.sample_runs` and commit"
+REGENERATE = "the committed sample differs: regenerate with `python -m tools.sample_runs` and commit"
 
 
 def _normalised(path: Path) -> str:
@@ -68,8 +68,9 @@ def test_every_committed_run_loads_and_each_element_kind_is_there():
         frame, meta = runs.load(path)
         assert len(frame) > 0, path
         assert np.isfinite(frame["drop_v"]).all() and np.isfinite(frame["current_a"]).all()
-        assert meta.header["host"] == "sample-bench"
-        kinds.add(meta.element["kind"])
+        assert meta.header.host == "sample-bench"
+        assert meta.header.schema == 2 and not meta.header.run_id_derived
+        kinds.add(meta.element.kind)
     assert kinds == {"rectifier", "schottky", "pmos", "resistor"}
 
 
@@ -133,7 +134,7 @@ def test_every_repository_path_the_readme_and_developers_guide_name_exists():
     # the walkthrough is run on a fresh clone: a renamed sample, plan, spec or doc must not leave it dangling
     for doc in ("README.md", "DEVELOPERS.md", "sample_runs/README.md"):
         text = (ROOT / doc).read_text()
-        paths = set(re.findall(r"(?<![\w/.-])((?:sample_runs|benchlog|docs|benchmarks|instrument_profiles|tests)"
+        paths = set(re.findall(r"(?<![\w/.-])((?:sample_runs|benchlog|docs|benchmarks|instrument_profiles|tests|tools)"
                                r"/[\w./-]*[\w])", text))
         assert paths, doc
         for name in paths:

@@ -9,7 +9,6 @@ from __future__ import annotations
 import pytest
 
 from benchlog.analysis.fits import fit_diode, fit_resistive
-from benchlog.analysis.uncertainty import MeasurementAccuracy
 from benchlog.runs.events import Note
 
 from .simrig import parse, plan_text, record, setup_for
@@ -23,7 +22,7 @@ CASES = {
 
 
 def _rel_u(kind, rec, operating_a):
-    acc = MeasurementAccuracy.from_header(rec.emitted[0].header)
+    acc = rec.emitted[0].header.accuracy
     i = [p.current_a for p in rec.points]
     v = [p.drop_v for p in rec.points]
     if kind == "pmos":

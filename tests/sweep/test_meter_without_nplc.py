@@ -41,7 +41,7 @@ def test_sweep_with_a_meter_that_cannot_set_nplc(sim_bench, tmp_path, capsys):
     run = next((tmp_path / "runs").glob("*.run"))
     events = list(read_events(run))
     header = events[0]
-    assert isinstance(header, RunStarted) and header.header["meter"]["nplc"] is None
+    assert isinstance(header, RunStarted) and header.header.meter.nplc is None
     warnings = [e.message for e in events if isinstance(e, Note) and e.kind == "warning"]
     assert any("no NPLC command" in w and "cannot be set" in w for w in warnings), warnings
     # the meter kept its own integration time: ask it over a fresh link (the sim's power-on default is 1 PLC)

@@ -9,6 +9,7 @@ import threading
 import pytest
 
 from benchlog.runs.events import Note, Offset, Point, ReverseResult, RunFinished, RunStarted
+from benchlog.runs.record import is_run_id
 from benchlog.sweep.plan import Settle, parse_plan
 from benchlog.sweep.runner import SweepRunner
 from benchlog.sweep.settle import Overload, settle
@@ -132,9 +133,10 @@ def test_complete_run_event_order_and_values():
         assert p.supply_mode == "CC" and p.supply_v == 2.0
     assert not bench.supply.output_on and bench.supply.safe_calls == 1
     header = events[0].header
-    assert header["element"]["id"] == "R1" and header["plan"]["steps"]["count"] == 10
-    assert header["instruments"]["supply"]["idn"] == "FAKE,SUPPLY,0,1"
-    assert header["meter"]["range_v"] == 10.0  # smallest fake range holding the 2 V compliance
+    assert header.element.id == "R1" and header.plan.steps["count"] == 10
+    assert header.instrument("supply").idn == "FAKE,SUPPLY,0,1"
+    assert header.meter.range_v == 10.0  # smallest fake range holding the 2 V compliance
+    assert is_run_id(header.run_id) and not header.run_id_derived
 
 
 def test_offset_is_read_before_power_is_applied():

@@ -104,7 +104,7 @@ def test_current_from_a_second_meter(sim_bench, tmp_path, current_from):
     assert rec.outcome == "complete" and _off(running)
     for p in rec.points:
         assert p.current_a == pytest.approx(p.setpoint_a, rel=0.02, abs=0.005)
-    assert rec.emitted[0].header["accuracy"]["current"]["range_a"] > 0
+    assert rec.emitted[0].header.accuracy.current.range > 0
 
 
 def test_pmos_channel_with_load_wiring_and_body_diode_on_purpose(sim_bench, tmp_path):

@@ -9,12 +9,14 @@ from __future__ import annotations
 
 import io
 import threading
+import uuid
 from pathlib import Path
 
 import numpy as np
 from rich.console import Console
 
 from benchlog.runs.events import Note, Offset, Point, RunFinished, RunStarted
+from benchlog.runs.record import RunHeader
 from benchlog.runs.writer import RunWriter, new_run_path
 from benchlog.sweep.plan import parse_plan
 from benchlog.tui.session import BenchSession, RoleStatus, SweepOutcome
@@ -72,14 +74,15 @@ def write_files(folder: Path) -> tuple[Path, Path]:
     return plan, spec
 
 
-def header(serial: str = "DEMO-0001", started_utc: str = "2025-03-04T10:20:30.000Z", plan_text: str = PLAN_TEXT) -> dict:
+def header(serial: str = "DEMO-0001", started_utc: str = "2025-03-04T10:20:30.000Z",
+           plan_text: str = PLAN_TEXT) -> RunHeader:
     plan = parse_plan(plan_text, "plan")
     plan_dict = plan.to_dict()
     plan_dict["element"]["serial"] = serial
     element = dict(plan_dict["element"])
-    return {
-        "format": "benchlog-run", "schema": 1, "tool_version": "0.1.0", "started_utc": started_utc,
-        "host": "bench-pc",
+    return RunHeader.from_table({
+        "format": "benchlog-run", "schema": 2, "tool_version": "0.1.0", "started_utc": started_utc,
+        "run_id": str(uuid.uuid5(uuid.NAMESPACE_URL, f"{serial} {started_utc}")), "host": "bench-pc",
         "instruments": {"supply": {"resource": "TCPIP0::127.0.0.1::5025::SOCKET",
                                    "idn": "BENCHLOG,SIM-SUPPLY,0001,1.0", "profile": "generic-supply",
                                    "profile_sha256": "a" * 64}},
@@ -89,7 +92,7 @@ def header(serial: str = "DEMO-0001", started_utc: str = "2025-03-04T10:20:30.00
         "meter": {"nplc": 1.0, "samples": 1, "range_v": 1.0}, "line_frequency_hz": 50.0,
         "point_columns": ["index", "t_s", "setpoint_a", "current_a", "drop_v", "supply_v", "supply_mode",
                           "temperature_c", "settle_reads", "direction", "flags"],
-    }
+    })
 
 
 def events(serial: str = "DEMO-0001", r_ohm: float = 0.027, n: int = 30, seed: int = 1,

@@ -9,7 +9,8 @@ from benchlog.runs.events import Point, RunFinished, RunStarted
 from benchlog.sweep.plan import parse_plan
 from benchlog.sweep.steps import schedule
 from benchlog.tui.feed import EventFeed
-from benchlog.tui.liverun import LiveRun, planned_points
+from benchlog.runs.record import PlanRecord, freeze
+from benchlog.tui.liverun import LiveRun
 
 from .synthetic import PLAN_TEXT, events, header
 
@@ -23,7 +24,7 @@ from .synthetic import PLAN_TEXT, events, header
 def test_planned_points_match_the_sweep_schedule(steps):
     text = PLAN_TEXT.replace('mode = "linear"\nstart_a = 0.1\nstop_a = 3.0\ncount = 30', steps)
     plan = parse_plan(text, "plan")
-    assert planned_points({"plan": plan.to_dict()}) == len(schedule(plan.steps))
+    assert PlanRecord(freeze(plan.to_dict())).planned_points() == len(schedule(plan.steps))
 
 
 def test_progress_and_eta_from_point_times():

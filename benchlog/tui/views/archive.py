@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -13,7 +12,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Static
 
 from benchlog.badinput import BadInput
-from benchlog.filecheck import RUN_LINE_MAX_BYTES, open_input
+from benchlog.runs.reader import read_summary
 
 from ..plotting import Axis, Series
 from ..widgets import CurvePlot, KeyBar, Plain, cells
@@ -41,29 +40,14 @@ class RunEntry:
 
 def scan_run(path: Path) -> RunEntry:
     """Header and end record of a run file, cheaply: the archive must list hundreds of runs at once."""
-    started = element = kind = serial = ""
-    outcome = "incomplete"
-    with open_input(path, "run file") as handle:  # a FIFO or device named *.run must not hang the archive
-        first = handle.readline(RUN_LINE_MAX_BYTES + 1)
-        try:
-            header = json.loads(first)
-            started = str(header.get("started_utc", ""))
-            el = header.get("element") or {}
-            element, kind, serial = str(el.get("id", "")), str(el.get("kind", "")), str(el.get("serial", ""))
-        except (ValueError, AttributeError):
-            outcome = "unreadable"
-        handle.seek(0, 2)
-        size = handle.tell()
-        handle.seek(max(0, size - 4096))
-        tail = handle.read().split(b"\n")
-    for line in reversed(tail):
-        if line.startswith(b"{") and b'"end"' in line:
-            try:
-                outcome = str(json.loads(line).get("outcome", outcome))
-            except ValueError:
-                pass
-            break
-    return RunEntry(path, started, element, kind, serial, outcome)
+    try:
+        header, outcome = read_summary(path)
+    except BadInput as exc:
+        raise OSError(exc.line()) from None  # the file went away or cannot be read: not listed
+    if header is None:
+        return RunEntry(path, "", "", "", "", outcome)
+    e = header.element
+    return RunEntry(path, header.started_utc, e.id, e.kind or "", e.serial or "", outcome)
 
 
 def list_runs(folder: Path) -> list[RunEntry]:

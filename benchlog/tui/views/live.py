@@ -49,12 +49,12 @@ class LiveView(View):
         elapsed = app.elapsed_s()
         progress = live.progress(elapsed)
         element = live.element
-        if not live.started:
+        if element is None:
             head = " No run yet: r starts one (set-up view: 2), an archived run replays from 6."
         else:
-            who = f"{element.get('id', '?')} {element.get('kind', '')}"
-            if element.get("serial"):
-                who += f" #{element['serial']}"
+            who = f"{element.id or '?'} {element.kind or ''}"
+            if element.serial:
+                who += f" #{element.serial}"
             planned = f"/{progress.planned}" if progress.planned else ""
             kind = "replay" if live.source == "replay" else "live"
             head = (f" {who} │ {kind} │ supply {live.supply_mode()} │ elapsed {duration(progress.elapsed_s)}"

@@ -31,9 +31,9 @@ def operating_current(findings: RunFindings) -> float | None:
     """The current the verdict is given at: the check's, the plan's operating_a, else the largest measured."""
     if findings.check is not None:
         return float(findings.check.current_a)
-    element = findings.meta.header.get("plan", {}).get("element", {}) if findings.meta is not None else {}
-    if element.get("operating_a"):
-        return float(element["operating_a"])
+    operating_a = findings.meta.header.element.operating_a if findings.meta is not None else None
+    if operating_a:
+        return float(operating_a)
     if findings.frame is not None and len(findings.frame):
         return float(np.nanmax(findings.frame["current_a"].to_numpy()))
     return None
@@ -108,8 +108,8 @@ class ResultsView(View):
         outcome = f.verdict
         for cls in ("pass", "fail", "conditional"):
             box.set_class(outcome == cls, f"verdict-{cls}")
-        element = f.meta.element or {}
-        who = f"{element.get('id', '?')} #{element.get('serial') or '—'}"
+        element = f.meta.header.element
+        who = f"{element.id or '?'} #{element.serial or '—'}"
         if outcome is None:
             why = f.check_error or ("no part spec picked (k)" if f.spec_path is None else "no verdict")
             box.update(f" VERDICT: none — {why}\n run {f.path.name} · {who} · {f.meta.outcome}")
@@ -162,7 +162,7 @@ class ResultsView(View):
         if sh is not None and getattr(sh, "detected", False):
             rise = getattr(sh, "delta_t_c", None)
             lines.append(f" ⚠ SELF-HEATING: {sh.reason}" + (f" (about +{rise:.1f} K)" if rise else ""))
-        for note in getattr(f.meta, "notes", ()) or ():
+        for note in f.meta.notes if f.meta is not None else ():
             if getattr(note, "kind", "") in ("limit", "fault", "warning", "cancel"):
                 lines.append(f" ⚠ {note.kind}: {note.message}")
         if f.fit is not None:

@@ -1,6 +1,8 @@
 """Regenerate the recorded sample runs in `sample_runs/` from the simulated bench, the same every time.
 
-    python -m benchlog.sample_runs [--out DIR] [--only NAME ...] [--port BASE] [--list]
+    python -m tools.sample_runs [--out DIR] [--only NAME ...] [--port BASE] [--list]
+
+(from the repository root: a developer tool, not part of the installed package)
 
 Every file is a genuine recording: the real sweep runner drives the simulated
 bench over pyvisa-py loopback sockets and the real run writer records it. What
@@ -13,8 +15,9 @@ makes the files repeatable:
   it moves, every instrument is asked `*OPC?` (IEEE 488.2 10.19), so each
   setting sent so far has reached the simulated circuit and no socket race can
   change what is read;
-* a fixed start time per run (`started_utc`), a fixed host name, and fixed
-  loopback ports (`--port`, default 29100) for the instruments' resource strings.
+* a fixed start time per run (`started_utc`), a fixed run id (`sample_run_id`:
+  a version 4 UUID drawn from the sample's name, not from a random source), a
+  fixed host name, and fixed loopback ports (`--port`, default 29100) for the instruments' resource strings.
 
 The killed run is recorded by a child process that stops itself with SIGKILL
 after a fixed number of points are on disk, half-way through writing the next
@@ -25,11 +28,13 @@ leaves it.
 from __future__ import annotations
 
 import argparse
+import hashlib
 import os
 import signal
 import subprocess
 import sys
 import time
+import uuid
 from dataclasses import dataclass, field, replace
 from datetime import datetime, timedelta, timezone
 from pathlib import Path
@@ -39,9 +44,9 @@ import benchlog
 
 PACKAGE_DIR = Path(benchlog.__file__).resolve().parent
 DEMO_PLANS = PACKAGE_DIR / "demo" / "plans"
-#: the repository's sample_runs/ when run from a checkout, else ./sample_runs
-DEFAULT_OUT = (PACKAGE_DIR.parent / "sample_runs") if (PACKAGE_DIR.parent / "sample_runs").is_dir() \
-    else Path("sample_runs")
+#: the checkout this tool sits in
+REPO = Path(__file__).resolve().parents[1]
+DEFAULT_OUT = REPO / "sample_runs"
 #: loopback ports of the simulated instruments (supply, load, meter, current meter = BASE .. BASE+3)
 DEFAULT_PORT = 29100
 #: recorded in every header instead of this machine's name
@@ -49,6 +54,11 @@ HOST = "sample-bench"
 #: the recordings are dated as one session on one (invented) day
 SESSION_START = datetime(2025, 3, 4, 9, 0, 0, tzinfo=timezone.utc)
 LOT_SIZE = 20
+
+
+def sample_run_id(name: str) -> str:
+    """The fixed run id of one sample: a UUID with the version 4 bits set, from the SHA-256 of its name."""
+    return str(uuid.UUID(bytes=hashlib.sha256(name.encode("utf-8")).digest()[:16], version=4))
 
 
 @dataclass(frozen=True)
@@ -205,7 +215,8 @@ def _record_here(sample: SampleRun, path: Path, port: int, kill_after: int | Non
             clock.rig = rig
             warnings += check_plan_on_rig(plan, rig)
             runner = SweepRunner(plan, rig, clock=clock, sleep=clock.sleep, warnings=warnings)
-            runner.header.update(started_utc=sample.started_utc, host=HOST)
+            runner.header = replace(runner.header, started_utc=sample.started_utc, host=HOST,
+                                    run_id=sample_run_id(sample.name))
             with RunWriter(path) as writer:
                 runner.writer = writer if kill_after is None else _KillAfter(writer, kill_after)
                 runner.run()
@@ -216,9 +227,9 @@ def _record_here(sample: SampleRun, path: Path, port: int, kill_after: int | Non
 
 def _record_in_killed_child(sample: SampleRun, out_dir: Path, port: int) -> None:
     env = dict(os.environ)
-    env["PYTHONPATH"] = os.pathsep.join(p for p in (str(PACKAGE_DIR.parent), env.get("PYTHONPATH")) if p)
+    env["PYTHONPATH"] = os.pathsep.join(p for p in (str(REPO), str(PACKAGE_DIR.parent), env.get("PYTHONPATH")) if p)
     done = subprocess.run(
-        [sys.executable, "-m", "benchlog.sample_runs", "--out", str(out_dir), "--only", sample.name,
+        [sys.executable, "-m", "tools.sample_runs", "--out", str(out_dir), "--only", sample.name,
          "--port", str(port), "--as-killed-child"],
         env=env, capture_output=True, text=True, timeout=120,
     )
@@ -249,7 +260,7 @@ def generate(out_dir: str | Path = DEFAULT_OUT, names: Sequence[str] | None = No
 
 def main(argv: Sequence[str] | None = None) -> int:
     parser = argparse.ArgumentParser(
-        prog="python -m benchlog.sample_runs",
+        prog="python -m tools.sample_runs",
         description="Regenerate the sample run files from the simulated bench (deterministic).")
     parser.add_argument("--out", default=str(DEFAULT_OUT), metavar="DIR",
                         help=f"output folder (default: {DEFAULT_OUT})")
@@ -278,7 +289,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(exc.line(), file=sys.stderr)
         return 2
     except OSError as exc:
-        print(f"benchlog.sample_runs: {exc} (is port {args.port}..{args.port + 3} in use? try --port)",
+        print(f"tools.sample_runs: {exc} (is port {args.port}..{args.port + 3} in use? try --port)",
               file=sys.stderr)
         return 1
     return 0
