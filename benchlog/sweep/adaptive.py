@@ -87,9 +87,11 @@ class AdaptiveSteps:
     def quantity(self) -> str:
         return f"drop at {self.operating_a:g} A" if self.diode else "R_on"
 
-    def use_accuracy(self, accuracy: Any) -> None:
-        """The meter accuracy from the run header, so the stopping rule uses the full GUM budget."""
-        self.accuracy = accuracy
+    def use_accuracy(self, header: Any) -> None:
+        """The readings' accuracy from the run header, so the stopping rule uses the full GUM budget."""
+        from benchlog.analysis.uncertainty import MeasurementAccuracy
+
+        self.accuracy = MeasurementAccuracy.from_header(header)
 
     def _initial(self) -> list[float]:
         if self.diode:
