@@ -2,7 +2,9 @@
 
 These stand in for instruments only in unit tests of timing and decision logic
 (dependency injection); every integration test talks to the simulated bench
-through real pyvisa-py instead.
+through real pyvisa-py instead. They keep the bench contract
+(`benchlog.instruments.contract`): `tests/instruments/test_contract.py` runs the
+same checks over them as over the real roles.
 """
 
 from __future__ import annotations
@@ -218,13 +220,19 @@ class FakeMeter(_Role):
                               resource=self.resource, name=name, value=value)
         return value
 
+    def _nplc(self, nplc: float) -> float:
+        lim = self.profile.limits
+        if not (lim.nplc_min or 0.0) <= nplc <= (lim.nplc_max or math.inf):
+            raise SafetyLimit(f"nplc {nplc:g} refused", resource=self.resource, name="nplc", value=nplc)
+        return nplc
+
     def configure_voltage(self, range_v: float, nplc: float) -> None:
         self.range_v = self._range(range_v, self.profile.limits.voltage_ranges_v, "range_v")
-        self.nplc = nplc
+        self.nplc = self._nplc(nplc)
 
     def configure_current(self, range_a: float, nplc: float) -> None:
         self.range_a = self._range(range_a, self.profile.limits.current_ranges_a, "range_a")
-        self.nplc = nplc
+        self.nplc = self._nplc(nplc)
 
     def set_samples(self, count: int) -> None:
         if isinstance(count, bool) or not isinstance(count, int) or not 1 <= count <= self.profile.limits.max_samples:
