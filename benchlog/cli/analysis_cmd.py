@@ -220,7 +220,7 @@ def lot_entry(s) -> dict[str, Any]:
 
 
 def _lot(args) -> int:
-    from benchlog.analysis.lot import lot_from_runs
+    from benchlog.report.lot_runs import lot_from_runs
     from benchlog.specfiles import load_spec
 
     _argument("--at", args.at, positive=True)

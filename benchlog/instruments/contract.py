@@ -21,6 +21,8 @@ from benchlog.scpi.replies import Idn
 
 from .profile import Profile
 
+__all__ = ["BenchRole", "Idn", "LoadRole", "MeterRole", "SUPPLY_MODES", "SupplyRole"]
+
 #: What `SupplyRole.mode()` may answer (CV/CC as read back; OFF; UNKNOWN when the profile cannot tell).
 SUPPLY_MODES = ("CV", "CC", "OFF", "UNKNOWN")
 

@@ -332,7 +332,7 @@ def open_rig(setup: BenchSetup, *, timeout_s: float | None = None, on_open: Any 
     opened: dict[str, Any] = {}
     try:
         for name, spec in setup.roles.items():
-            role = _profile_role(name)
+            role = profile_role(name)
             opened[name] = open_role(role, spec.resource, profiles[name], backend=spec.backend, timeout_s=timeout_s)
             if on_open is not None:
                 on_open(opened[name])
@@ -344,7 +344,8 @@ def open_rig(setup: BenchSetup, *, timeout_s: float | None = None, on_open: Any 
     return Rig(setup, **opened)
 
 
-def _profile_role(bench_role: str) -> str:
+def profile_role(bench_role: str) -> str:
+    """The profile role of a bench role: a current meter is a meter."""
     return "meter" if bench_role == "current_meter" else bench_role
 
 
@@ -367,9 +368,9 @@ def load_role_profiles(setup: BenchSetup) -> dict[str, Profile]:
                 raise BadInput(setup.source or "bench", f"[{name}].profile", f"{exc.problem}: {spec.profile!r}",
                                exc.expected) from None
             raise
-        if profile.role != _profile_role(name):
+        if profile.role != profile_role(name):
             raise BadInput(setup.source or "bench", f"[{name}].profile",
                            f"{profile.name!r} is a {profile.role} profile",
-                           f"a profile whose role is {_profile_role(name)!r}")
+                           f"a profile whose role is {profile_role(name)!r}")
         profiles[name] = profile
     return profiles

@@ -26,8 +26,8 @@ from datetime import datetime, timezone
 from typing import Any, Callable, Iterator
 
 from benchlog import __version__
+from benchlog.instruments.contract import Idn
 from benchlog.kinds import kind as element_kind
-from benchlog.scpi.replies import Idn
 from benchlog.runs.events import (
     SCHEMA_VERSION,
     FLAG_COMPLIANCE,

@@ -18,7 +18,7 @@ from benchlog.badinput import BadInput
 from benchlog.runs import load, read_events, replay
 from benchlog.runs.events import Note, Point, ReverseResult, RunFinished
 from benchlog.sweep.bench_file import Wiring
-from benchlog.sweep.simbench import sim_wiring
+from benchlog.cli.simbench import sim_wiring
 
 from .simrig import parse, plan_text, record, setup_for
 
