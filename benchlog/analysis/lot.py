@@ -289,7 +289,7 @@ def fit_points(points, meta, model: str):
         if model == "resistive":
             return fit_resistive(current, drop, accuracy, temperature_c=temperature_c, **common)
         if model == "diode":
-            return fit_diode(current, drop, temperature_c, accuracy, **common)
+            return fit_diode(current, drop, accuracy, temperature_c=temperature_c, **common)
     except FitError as exc:
         raise BadInput(source, "points", str(exc), f"a sweep the {model} model can be fitted to") from exc
     raise ValueError(f"fit_points fits 'resistive' or 'diode', not {model!r}")

@@ -21,6 +21,7 @@ from typing import Any, Sequence
 import numpy as np
 
 import benchlog
+from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.analysis.design import review as design_review
 from benchlog.analysis.fits import detect_self_heating, fit_run
 from benchlog.analysis.predict import predict
@@ -92,7 +93,7 @@ def _conditions(frame, meta, spec: PartSpec | None, at_a: float | None) -> Condi
         c = run_conditions(frame, meta, spec, at_a)
         return Conditions(c.current_a, c.ambient_c, c.vin_v, c.zener_v)
     ambient = _number(element.get("ambient_c"))
-    ambient = 25.0 if ambient is None else ambient
+    ambient = DEFAULT_AMBIENT_C if ambient is None else ambient
     if at_a is not None:
         return Conditions(float(at_a), ambient)
     if _number(element.get("operating_a")) is not None:
@@ -113,7 +114,7 @@ def analyse_run(path: str | Path, spec: PartSpec | None = None, *, model: str = 
     frame, meta = load(path)
     fit = heating = check = prediction = None
     fit_problem = check_problem = ""
-    cond = Conditions(None, 25.0)
+    cond = Conditions(None, DEFAULT_AMBIENT_C)
     if len(frame) == 0:
         fit_problem = check_problem = "the run holds no points"
     else:

@@ -31,9 +31,9 @@ ALLOWED: dict[str, frozenset[str]] = {
     # installed package (issue 10, item 7), and this row with it.
     "sample_runs": frozenset({"sim", "sweep", "runs", "instruments", "cli"}),
 }
-#: Leaves any layer may use: the input error, typed TOML tables, the element registry, the package root
+#: Leaves any layer may use: the input error, typed TOML tables, the element registry, the default ambient, the package root
 #: (its version string). A leaf imports only leaves.
-LEAVES = frozenset({"badinput", "tomlcheck", "kinds", "<root>"})
+LEAVES = frozenset({"badinput", "tomlcheck", "kinds", "ambient", "<root>"})
 #: (importing package, imported package) -> the only modules allowed to draw that arrow.
 ONLY_FROM = {("sweep", "analysis"): frozenset({"benchlog.sweep.adaptive"})}
 
