@@ -97,8 +97,16 @@ def _hardware_roles() -> Roles:
     from benchlog.sweep.bench_file import load_bench
 
     setup = load_bench(os.environ["BENCHLOG_HARDWARE"])
-    opened = {name: open_role("meter" if name == "current_meter" else name, spec.resource, spec.profile,
-                              backend=spec.backend) for name, spec in setup.roles.items()}
+    opened: dict[str, Any] = {}
+    try:
+        for name in ("supply", "load", "meter"):
+            if name in setup.roles:
+                spec = setup.roles[name]
+                opened[name] = open_role(name, spec.resource, spec.profile, backend=spec.backend)
+    except BaseException:
+        for role in opened.values():
+            role.close()
+        raise
     return Roles(opened.get("supply"), opened.get("load"), opened.get("meter"), can_power=False)
 
 
