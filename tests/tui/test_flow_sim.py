@@ -164,7 +164,7 @@ async def test_the_nmos_kind_is_picked_run_and_judged_with_the_footer_keys(tmp_p
     start = demo_plan("pmos-prototype")
     from benchlog.sweep.plan import load_plan
 
-    session = BenchSession.simulated(load_plan(start).element, runs_dir=tmp_path / "runs", seed=3)
+    session = BenchSession.simulated(load_plan(start).element, builtin_bench, runs_dir=tmp_path / "runs", seed=3)
     specs = demo_specs()
     app = BenchApp(session, runs_dir=tmp_path / "runs", plans=plans, specs=specs, plan=start,
                    spec=spec_for_kind("pmos", specs))
