@@ -20,6 +20,7 @@ from pathlib import Path
 from typing import Any, Callable
 
 from benchlog.filecheck import write_failure
+from benchlog.instruments.errors import BenchInUse  # raised here for the layers above (the UI)
 from benchlog.runs.events import Event
 
 from .bench_file import BenchSetup

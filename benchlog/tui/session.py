@@ -101,8 +101,7 @@ class BenchSession:
     # -- blocking I/O (workers only) -----------------------------------------
     def probe(self, role: str) -> RoleStatus:
         """Lock and open the role, read `*IDN?`, match it to its profile, switch it off and read that back, close it."""
-        from benchlog.instruments.errors import BenchInUse
-        from benchlog.sweep.session import probe_role
+        from benchlog.sweep.session import BenchInUse, probe_role
 
         spec = self.setup.roles[role]
         try:
