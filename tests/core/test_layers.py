@@ -29,15 +29,18 @@ ALLOWED: dict[str, frozenset[str]] = {
     "store": frozenset({"runs", "analysis", "specfiles"}),
     "tui": frozenset({"sweep", "runs", "analysis", "report", "store", "specfiles"}),
     "cli": frozenset({"scpi", "instruments", "sim", "sweep", "runs", "analysis", "report", "tui", "store",
-                      "specfiles"}),
+                      "specfiles", "docs_gen"}),
+    # The generator of the file-format pages reads every file reader's keys: a tool at the top, like cli.
+    "docs_gen": frozenset({"sweep", "instruments", "specfiles", "runs"}),
     "__main__": frozenset({"cli"}),
     # A developer tool that composes the simulated bench with a sweep, as cli does; it is to leave the
     # installed package (issue 10, item 7), and this row with it.
     "sample_runs": frozenset({"sim", "sweep", "runs", "instruments", "cli", "specfiles"}),
 }
-#: Leaves any layer may use: the input error, typed TOML tables, the element registry, the default ambient, the package root
+#: Leaves any layer may use: the input error, typed TOML tables, file checks, the element registry, the default ambient,
+#: the package root
 #: (its version string). A leaf imports only leaves.
-LEAVES = frozenset({"badinput", "tomlcheck", "kinds", "ambient", "<root>"})
+LEAVES = frozenset({"badinput", "tomlcheck", "filecheck", "kinds", "ambient", "<root>"})
 #: (importing package, imported package) -> the only modules allowed to draw that arrow.
 ONLY_FROM = {("sweep", "analysis"): frozenset({"benchlog.sweep.adaptive"})}
 
