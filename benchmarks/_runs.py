@@ -25,9 +25,9 @@ def recorded_header(out_dir: Path, seed: int = 0) -> tuple[RunHeader, Path]:
     """The header of a real 30-point sweep on the simulated bench (and the run file it is in)."""
     from benchlog.runs import load
     from benchlog.sweep.plan import load_plan
-    from benchlog.sweep.session import run_sweep
+    from benchlog.cli.simbench import sweep_on_builtin_bench
 
-    result = run_sweep(load_plan(DEMO_PLAN), None, out_dir, seed=seed)
+    result = sweep_on_builtin_bench(load_plan(DEMO_PLAN), out_dir, seed=seed)
     if result.outcome != "complete":
         raise RuntimeError(f"template sweep ended {result.outcome}: {result.message}")
     _, meta = load(result.run_file)

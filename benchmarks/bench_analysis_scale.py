@@ -34,7 +34,7 @@ def main() -> int:
     import pandas as pd
 
     from benchlog.analysis.fits import fit_resistive, fit_run
-    from benchlog.analysis.lot import lot_from_runs
+    from benchlog.report.lot_runs import lot_from_runs
     from benchlog.specfiles import load_spec
     from benchlog.runs import load
 
@@ -131,7 +131,7 @@ def main() -> int:
                 "lstsq": (f"import numpy as np\nfrom benchlog.runs import load\nframe, meta = load({str(big)!r})\n"
                           "x = frame['current_a'].to_numpy(); y = frame['drop_v'].to_numpy()",
                           "sol = np.linalg.lstsq(np.column_stack([np.ones_like(x), x]), y, rcond=None)"),
-                "lot": (f"import numpy, pandas\nfrom benchlog.analysis.lot import lot_from_runs\nfrom benchlog.specfiles import load_spec\n"
+                "lot": (f"import numpy, pandas\nfrom benchlog.report.lot_runs import lot_from_runs\nfrom benchlog.specfiles import load_spec\n"
                         f"from benchlog.runs import load\nimport benchlog.analysis.fits\n"
                         f"paths = open({str(list_file)!r}).read().split(chr(10))\n"
                         f"spec = load_spec({str(_runs.DEMO_SPEC)!r})",

@@ -86,7 +86,7 @@ def plain_loop(resources: dict[str, str], messages: list[tuple[str, str]]) -> No
 def one_pair(latency_s: float, points: int, tmp: Path, k: int) -> dict:
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.session import run_sweep
-    from benchlog.sweep.simbench import builtin_bench
+    from benchlog.cli.simbench import builtin_bench
 
     plan_path = tmp / f"plan-{points}.toml"
     if not plan_path.exists():
@@ -96,7 +96,7 @@ def one_pair(latency_s: float, points: int, tmp: Path, k: int) -> dict:
     try:
         log = record_messages(running)
         t0 = time.perf_counter()
-        result = run_sweep(plan, setup, tmp / f"runs-{latency_s}", seed=k)
+        result = run_sweep(plan, setup, tmp / f"runs-{latency_s}")
         ours = time.perf_counter() - t0
         if result.outcome != "complete" or result.points != points:
             raise RuntimeError(f"sweep ended {result.outcome} after {result.points} points: {result.message}")
@@ -118,7 +118,7 @@ def cli_pair(latency_s: float, points: int, tmp: Path) -> dict:
     """`benchlog sweep --bench` in a subprocess against a served bench, and the plain loop beside it."""
     from benchlog.sim.config import SimConfig
     from benchlog.sim.server import serve_bench
-    from benchlog.sweep.simbench import SIM_INPUT_V, SIM_PROFILES
+    from benchlog.cli.simbench import SIM_INPUT_V, SIM_PROFILES
 
     running = serve_bench(SimConfig(element="pmos", seed=1, latency_s=latency_s))
     try:

@@ -1,6 +1,6 @@
 """Time to answer: adaptive stepping against uniform sweeps, points and seconds to 1 % relative uncertainty.
 
-Every sweep is a real `benchlog.sweep.session.run_sweep` on the built-in simulated
+Every sweep is a real `benchlog.sweep.session.run_sweep` (through `cli.simbench`) on the built-in simulated
 bench (pyvisa-py over loopback sockets, the same path as `benchlog sweep`), one
 run file each. Two answers:
 - R_DS(on) of the demo P-MOSFET (plan `pmos-prototype`, load wiring at 12 V);
@@ -52,10 +52,10 @@ def answer(run_file: Path, diode: bool, operating_a: float) -> tuple[float, floa
 
 def sweep(plan_path: Path, out_dir: Path, seed: int) -> tuple[Path, int, float, str]:
     from benchlog.sweep.plan import load_plan
-    from benchlog.sweep.session import run_sweep
+    from benchlog.cli.simbench import sweep_on_builtin_bench
 
     t0 = time.perf_counter()
-    result = run_sweep(load_plan(plan_path), None, out_dir, seed=seed)
+    result = sweep_on_builtin_bench(load_plan(plan_path), out_dir, seed=seed)
     elapsed = time.perf_counter() - t0
     if result.outcome != "complete":
         raise RuntimeError(f"{plan_path.name}: sweep ended {result.outcome}: {result.message}")

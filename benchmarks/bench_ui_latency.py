@@ -62,6 +62,7 @@ KEYS = (("4", "results"), ("3", "live"), ("1", "instruments"), ("3", "live"))
 async def measure(tmp: Path, presses: int, points: int) -> dict:
     from benchlog.sweep.plan import load_plan
     from benchlog.tui.app import BenchApp
+    from benchlog.cli.simbench import builtin_bench
     from benchlog.tui.session import BenchSession
     from benchlog.tui.views.caution import CautionScreen
     from textual import events
@@ -69,7 +70,7 @@ async def measure(tmp: Path, presses: int, points: int) -> dict:
     plan_path = tmp / "long.toml"
     plan_path.write_text(PLAN.format(points=points), encoding="utf-8")
     element = load_plan(plan_path).element
-    session = BenchSession.simulated(element, runs_dir=tmp / "runs", seed=1, sim_options={"latency_s": 0.0})
+    session = BenchSession.simulated(element, builtin_bench, runs_dir=tmp / "runs", seed=1, sim_options={"latency_s": 0.0})
     app = BenchApp(session, runs_dir=tmp / "runs", plans=[plan_path], plan=plan_path, probe_on_start=False)
     samples: list[float] = []
     skipped = 0

@@ -37,3 +37,13 @@ def sim_bench():
     yield start
     for running in started:
         running.stop()
+
+
+def pytest_collection_modifyitems(config, items):
+    """Tests marked `hardware` need real instruments: they run only with BENCHLOG_HARDWARE (a bench file) set."""
+    if os.environ.get("BENCHLOG_HARDWARE"):
+        return
+    skip = pytest.mark.skip(reason="needs real instruments: set BENCHLOG_HARDWARE to a bench file to run")
+    for item in items:
+        if "hardware" in item.keywords:
+            item.add_marker(skip)

@@ -191,7 +191,7 @@ def _record_here(sample: SampleRun, path: Path, port: int, kill_after: int | Non
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.rig import open_rig
     from benchlog.sweep.runner import SweepRunner
-    from benchlog.sweep.simbench import SIM_PROFILES, sim_wiring
+    from benchlog.cli.simbench import SIM_PROFILES, sim_wiring
 
     plan = load_plan(DEMO_PLANS / f"{sample.plan}.toml")
     if sample.serial is not None:

@@ -131,9 +131,9 @@ def _solve_weighted(i: np.ndarray, v: np.ndarray, pu: PointUncertainty, vt: floa
 def fit_diode(
     current_a,
     drop_v,
-    temperature_c: float,
     accuracy: MeasurementAccuracy | None = None,
     *,
+    temperature_c: float,
     u_drop_v=None,
     u_current_a=None,
     offset_removed: bool = False,

@@ -12,6 +12,7 @@ import math
 import numpy as np
 import pandas as pd
 
+from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
 from benchlog.kinds import ELEMENT_KINDS, kind as element_kind
 
@@ -43,8 +44,8 @@ __all__ = [
 
 MODELS = ("auto", "resistive", "diode", "knee")
 
-#: Temperature taken when a run records none at all (common practice: the datasheet reference).
-DEFAULT_TEMPERATURE_C = 25.0
+#: Temperature taken when a run records none at all (the default ambient, `benchlog.ambient`).
+DEFAULT_TEMPERATURE_C = DEFAULT_AMBIENT_C
 
 
 def _has_flag(column, flag: str) -> np.ndarray:
@@ -120,14 +121,14 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
         elif model == "knee":
             fit = fit_knee(current, drop, accuracy, temperature_c=temperature_c, **common)
         elif model == "diode":
-            fit = fit_diode(current, drop, temperature_c, accuracy, **common)
+            fit = fit_diode(current, drop, accuracy, temperature_c=temperature_c, **common)
             notes.append(t_note)
         else:
             kind = meta.header.kind or ""
             # A junction kind (the registry's conduction) breaks an AICc tie towards the diode law.
             tie = element_kind(kind).tie_break() if kind in ELEMENT_KINDS else "resistive"
             why = f"the run records a {kind} element" if kind else ""
-            fit = fit_auto(current, drop, temperature_c, accuracy, tie_break=tie, tie_why=why, **common)
+            fit = fit_auto(current, drop, accuracy, temperature_c=temperature_c, tie_break=tie, tie_why=why, **common)
             if fit.model == "diode":
                 notes.append(t_note)
     except FitError as exc:

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from pathlib import Path
+from pathlib import PurePath
 from typing import Sequence
 
 import numpy as np
@@ -239,12 +239,8 @@ def lot_limits(
     return usl, lsl, source, notes
 
 
-#: Lots at least this large are loaded and fitted in a process pool (when there is more than one CPU).
-POOL_MIN_RUNS = 400
-
-
 @dataclass(frozen=True)
-class _PartFit:
+class PartFit:
     """What one run gives the lot: its value with standard uncertainty and what the lot limit needs."""
 
     value: float
@@ -289,20 +285,18 @@ def fit_points(points, meta, model: str):
         if model == "resistive":
             return fit_resistive(current, drop, accuracy, temperature_c=temperature_c, **common)
         if model == "diode":
-            return fit_diode(current, drop, temperature_c, accuracy, **common)
+            return fit_diode(current, drop, accuracy, temperature_c=temperature_c, **common)
     except FitError as exc:
         raise BadInput(source, "points", str(exc), f"a sweep the {model} model can be fitted to") from exc
     raise ValueError(f"fit_points fits 'resistive' or 'diode', not {model!r}")
 
 
-def _fit_part(path, spec: PartSpec, at_a: float | None, model: str | None, vf_at_a: float | None) -> _PartFit:
-    """Load one run with the light loader, read its conditions, fit it and take the lot's value.
+def fit_part(points, meta, run: str, spec: PartSpec, at_a: float | None, model: str | None,
+             vf_at_a: float | None) -> PartFit:
+    """Read one loaded run's conditions, fit it and take the lot's value (`run` names it: its path).
 
     `model` None means this is the first run: the model and the Vf current come from it.
     """
-    from benchlog.runs import load_points
-
-    points, meta = load_points(path)
     cond = run_conditions(points.current_a, points.supply_v, meta, spec, at_a)
     if model is None:
         model = lot_model(spec, cond.body_diode)
@@ -312,88 +306,25 @@ def _fit_part(path, spec: PartSpec, at_a: float | None, model: str | None, vf_at
         value, u = fit.params["r_on_ohm"], fit.std_u["r_on_ohm"]
     else:
         value, u = fit.drop_at(vf_at_a)
-    serial = meta.header.serial or meta.header.element.id or Path(path).stem
-    return _PartFit(float(value), float(u), float(fit.k), serial, str(path), cond)
+    serial = meta.header.serial or meta.header.element.id or PurePath(run).stem
+    return PartFit(float(value), float(u), float(fit.k), serial, run, cond)
 
 
-def _fit_chunk(job) -> list:
-    """Worker of the process pool: fit runs in order; a BadInput ends the chunk as plain fields.
-
-    (BadInput's constructor takes four fields, so it is sent back as those fields and raised
-    again in the parent, in file order.)
-    """
-    paths, spec, at_a, model, vf_at_a = job
-    out: list = []
-    for path in paths:
-        try:
-            out.append(_fit_part(path, spec, at_a, model, vf_at_a))
-        except BadInput as exc:
-            out.append(("bad", exc.source, exc.where, exc.problem, exc.expected))
-            break
-    return out
-
-
-def _cpus() -> int:
-    import os
-
-    try:
-        return len(os.sched_getaffinity(0))
-    except AttributeError:  # not on Linux
-        return os.cpu_count() or 1
-
-
-def _pool_context():
-    """fork where it is safe (one thread, a platform that has it): the workers start in milliseconds."""
-    import multiprocessing
-    import threading
-
-    if threading.active_count() == 1 and "fork" in multiprocessing.get_all_start_methods():
-        return multiprocessing.get_context("fork")
-    return multiprocessing.get_context("spawn")
-
-
-def _fit_rest(paths: Sequence, spec: PartSpec, at_a, model: str, vf_at_a, workers: int) -> list[_PartFit]:
-    """Every run after the first, in the order given, serially or over `workers` processes."""
-    if workers <= 1 or len(paths) < 2:
-        return [_fit_part(p, spec, at_a, model, vf_at_a) for p in paths]
-    from concurrent.futures import ProcessPoolExecutor
-
-    size = max(1, -(-len(paths) // (workers * 8)))  # a few chunks per worker evens out the load
-    jobs = [(list(paths[i:i + size]), spec, at_a, model, vf_at_a) for i in range(0, len(paths), size)]
-    out: list[_PartFit] = []
-    with ProcessPoolExecutor(max_workers=workers, mp_context=_pool_context()) as pool:
-        for chunk in pool.map(_fit_chunk, jobs):  # map keeps the order of the jobs
-            for item in chunk:
-                if isinstance(item, tuple):
-                    raise BadInput(*item[1:])
-                out.append(item)
-    return out
-
-
-def lot_from_runs(paths: Sequence[str | Path], spec: PartSpec, at_a: float | None = None, *,
-                  workers: int | None = None) -> LotSummary:
-    """Load and fit each run, then `summarize` against the spec's limits at the lot's operating point.
+def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
+    """`summarize` the fitted parts against the spec's limits at the lot's operating point.
 
     One limit applies to the whole lot: it is computed at the median ambient of the runs
     and the operating current of the first run (every run of a lot should share both).
-    Each run is loaded by `runs.load_points` and fitted with the model its spec kind
-    implies (`lot_model`: the resistive line for a P/N-MOSFET channel or a resistor, the
-    diode law for a rectifier, a Schottky or a body diode measured on purpose), not by the
-    automatic model choice of `benchlog fit`; the lot's notes say so. Lots of
-    `POOL_MIN_RUNS` runs or more are fitted over the CPUs (`workers`: None = every CPU
-    available, 1 = in this process); the result is the same, in the order of `paths`,
-    and a bad file raises the BadInput of the first bad file in that order.
+    Each part was fitted with the model its spec kind implies (`lot_model`: the resistive
+    line for a P/N-MOSFET channel or a resistor, the diode law for a rectifier, a Schottky
+    or a body diode measured on purpose), not by the automatic model choice of
+    `benchlog fit`; the lot's notes say so.
     """
-    paths = list(paths)
-    if not paths:
+    if not parts:
         raise BadInput("argument", "RUN", "no run files given", "one or more run files")
-    first = _fit_part(paths[0], spec, at_a, None, None)
-    cond = first.conditions
+    cond = parts[0].conditions
     quantity = lot_quantity(spec, cond.body_diode)
     model = lot_model(spec, cond.body_diode)
-    if workers is None:
-        workers = _cpus() if len(paths) >= POOL_MIN_RUNS else 1
-    parts = [first] + _fit_rest(paths[1:], spec, at_a, model, cond.current_a, max(1, int(workers)))
     ambients = [p.conditions.ambient_c for p in parts]
     ambient = float(np.median(ambients))
     usl, lsl, source, notes = lot_limits(spec, cond.current_a, ambient, cond.vin_v, cond.zener_v, quantity)

@@ -64,9 +64,9 @@ def _score(fit: FitResult, parameters: int, used: np.ndarray, varying_weights: b
 def fit_auto(
     current_a,
     drop_v,
-    temperature_c: float | None,
     accuracy: MeasurementAccuracy | None = None,
     *,
+    temperature_c: float | None,
     u_drop_v=None,
     u_current_a=None,
     offset_removed: bool = False,
@@ -110,7 +110,7 @@ def fit_auto(
         why_not_diode = "no temperature recorded, the diode law cannot be evaluated"
     else:
         try:
-            diode = fit_diode(i, v, temperature_c, accuracy, **choice)
+            diode = fit_diode(i, v, accuracy, temperature_c=temperature_c, **choice)
         except FitError as exc:
             why_not_diode = f"diode fit failed: {exc}"
     line = fit_resistive(i, v, accuracy, **choice)
@@ -130,14 +130,14 @@ def fit_auto(
         delta = scores["resistive"] - scores["diode"]
         if delta >= AICC_TIE:
             reason = f"{head}; diode lower by {delta:.1f} (>= {AICC_TIE:g}) -> diode"
-            return _with(fit_diode(i_all, v_all, temperature_c, accuracy, **common), reason, scores)
+            return _with(fit_diode(i_all, v_all, accuracy, temperature_c=temperature_c, **common), reason, scores)
         if abs(delta) < AICC_TIE:
             lower = "diode" if delta > 0 else "resistive"
             why = tie_why or ("the simpler model" if tie_break == "resistive" else "as asked")
             reason = (f"{head}; {lower} lower by only {abs(delta):.1f} (< {AICC_TIE:g}, no real support) "
                       f"-> {tie_break}, {why}")
             if tie_break == "diode":
-                return _with(fit_diode(i_all, v_all, temperature_c, accuracy, **common), reason, scores)
+                return _with(fit_diode(i_all, v_all, accuracy, temperature_c=temperature_c, **common), reason, scores)
         else:
             reason = f"{head}; resistive lower by {-delta:.1f} -> resistive"
     else:

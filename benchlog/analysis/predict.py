@@ -30,6 +30,7 @@ import numpy as np
 from scipy.constants import Boltzmann, elementary_charge, zero_Celsius
 from scipy.optimize import brentq
 
+from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
 
 from .spec import (
@@ -262,7 +263,7 @@ def _check_args(current_a, ambient_c, vin_v, zener_v) -> None:
 def predict(
     spec: PartSpec,
     current_a: float,
-    ambient_c: float = 25.0,
+    ambient_c: float = DEFAULT_AMBIENT_C,
     vin_v: float | None = None,
     zener_v: float | None = None,
 ) -> Prediction:

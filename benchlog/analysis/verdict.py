@@ -27,6 +27,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
 
 from .predict import OperatingPoint, Prediction, predict
@@ -256,8 +257,8 @@ def run_conditions(current_a: np.ndarray, supply_v: np.ndarray, meta, spec: Part
         current, where = float(measured.max()), "the largest measured current (no operating_a in the plan)"
     ambient = element.ambient_c
     if ambient is None:
-        ambient = 25.0
-        notes.append("no ambient recorded for the element: 25 °C assumed")
+        ambient = DEFAULT_AMBIENT_C
+        notes.append(f"no ambient recorded for the element: {DEFAULT_AMBIENT_C:g} °C assumed")
     kind = element.kind
     gated = spec.element.has_gate
     body = bool(gated and element.measure == "body_diode")

@@ -11,6 +11,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from benchlog.ambient import DEFAULT_AMBIENT_C
+
 from .output import print_json
 
 EXIT_CODES = {"pass": 0, "fail": 1, "conditional": 3}
@@ -22,7 +24,8 @@ def register(sub) -> None:
                        description="Predict drop, loss and Tj (electro-thermal loop) of each part at one operating point.")
     e.add_argument("specs", nargs="+", metavar="SPEC.toml", help="part spec file(s)")
     e.add_argument("--at", type=float, required=True, metavar="AMPS", help="load current in A")
-    e.add_argument("--ambient", type=float, default=25.0, metavar="C", help="ambient in °C (default 25)")
+    e.add_argument("--ambient", type=float, default=DEFAULT_AMBIENT_C, metavar="C",
+                   help=f"ambient in °C (default {DEFAULT_AMBIENT_C:g})")
     e.add_argument("--vin", type=float, default=None, metavar="V",
                    help="input voltage in V (sets a MOSFET's |Vgs| when its gate is tied to the return)")
     e.add_argument("--zener", type=float, default=None, metavar="V", help="gate clamp zener voltage in V")
@@ -125,12 +128,6 @@ def _estimate(args) -> int:
 
 
 # --------------------------------------------------------------------------- check
-def _verdict(v) -> dict[str, Any]:
-    return {"outcome": v.outcome, "quantity": v.quantity, "measured": v.measured, "expanded_u": v.expanded_u,
-            "k": v.k, "limit": v.limit, "side": v.side, "limit_source": v.limit_source, "rule": v.rule,
-            "caveat": v.caveat}
-
-
 def _extrapolation(c) -> dict[str, Any]:
     e = c.extrapolation
     if e is None:
@@ -220,7 +217,7 @@ def lot_entry(s) -> dict[str, Any]:
 
 
 def _lot(args) -> int:
-    from benchlog.analysis.lot import lot_from_runs
+    from benchlog.report.lot_runs import lot_from_runs
     from benchlog.specfiles import load_spec
 
     _argument("--at", args.at, positive=True)

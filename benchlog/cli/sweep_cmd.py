@@ -162,9 +162,14 @@ def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, 
         state["safe"] = report
 
     try:
-        result = run_sweep(plan, bench, out, seed=seed, on_event=on_event, on_runner=on_runner,
-                           before_power_on=_power_prompt(bench is not None, assume_yes),
-                           on_safe_state=on_safe_state)
+        hooks = dict(on_event=on_event, on_runner=on_runner,
+                     before_power_on=_power_prompt(bench is not None, assume_yes), on_safe_state=on_safe_state)
+        if bench is None:
+            from .simbench import sweep_on_builtin_bench
+
+            result = sweep_on_builtin_bench(plan, out, seed=seed, **hooks)
+        else:
+            result = run_sweep(plan, bench, out, **hooks)
     except BaseException as exc:
         runner = state["runner"]
         if state["progress"] is not None:
@@ -267,7 +272,9 @@ def _demo(args) -> int:
             sys.stderr.write("benchlog: the terminal UI is not available in this installation; "
                              "use 'benchlog demo --headless'\n")
             return 2
-        return int(run_demo_ui(args) or 0)
+        from .simbench import builtin_bench
+
+        return int(run_demo_ui(args, start_sim=builtin_bench) or 0)
     from benchlog.filecheck import check_output_dir
 
     plan_path = demo_plan_path(args.plan)

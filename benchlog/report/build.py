@@ -20,6 +20,7 @@ from typing import Any, Sequence
 import numpy as np
 
 import benchlog
+from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.analysis.design import review as design_review
 from benchlog.analysis.fits import detect_self_heating, fit_run
 from benchlog.analysis.predict import predict
@@ -86,7 +87,7 @@ def _conditions(frame, meta, spec: PartSpec | None, at_a: float | None) -> Condi
         c = run_conditions(frame["current_a"].to_numpy(dtype=float), frame["supply_v"].to_numpy(dtype=float),
                            meta, spec, at_a)
         return Conditions(c.current_a, c.ambient_c, c.vin_v, c.zener_v)
-    ambient = 25.0 if element.ambient_c is None else element.ambient_c
+    ambient = DEFAULT_AMBIENT_C if element.ambient_c is None else element.ambient_c
     if at_a is not None:
         return Conditions(float(at_a), ambient)
     if element.operating_a is not None:
@@ -107,7 +108,7 @@ def analyse_run(path: str | Path, spec: PartSpec | None = None, *, model: str = 
     frame, meta = load(path)
     fit = heating = check = prediction = None
     fit_problem = check_problem = ""
-    cond = Conditions(None, 25.0)
+    cond = Conditions(None, DEFAULT_AMBIENT_C)
     if len(frame) == 0:
         fit_problem = check_problem = "the run holds no points"
     else:

@@ -1,13 +1,14 @@
-"""The lot summary of incoming inspection (`analysis.lot.lot_from_runs`) as a report section with its histogram."""
+"""The lot summary of incoming inspection (`report.lot_runs.lot_from_runs`) as a report section with its histogram."""
 
 from __future__ import annotations
 
 import numpy as np
 
-from benchlog.analysis.lot import LotSummary, lot_from_runs
+from benchlog.analysis.lot import LotSummary
 from benchlog.analysis.spec import PartSpec
 
 from . import figures
+from .lot_runs import lot_from_runs
 from .document import FigureBlock, Paragraph, Section, Table, VerdictBlock
 from .text import number, unit_of, with_uncertainty
 from .views import LotView

@@ -112,11 +112,3 @@ def fill_template(template: str, **values: float) -> str:
             raise ScpiValueError(f"command template {template!r}: no value for placeholder {{{field}}}")
         pieces.append(format_number(values[field], name=field))
     return "".join(pieces)
-
-
-def template_fields(template: str) -> tuple[str, ...]:
-    """The placeholder names a template uses (for profile validation)."""
-    try:
-        return tuple(f for _, f, _, _ in string.Formatter().parse(template) if f is not None)
-    except ValueError as exc:
-        raise ScpiValueError(f"command template {template!r} is malformed: {exc}") from None

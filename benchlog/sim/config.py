@@ -8,6 +8,7 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import Mapping
 
+from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
 from benchlog.tomlcheck import load_toml
 
@@ -22,7 +23,7 @@ LOOPBACK_HOSTS = ("127.0.0.1", "localhost", "::1")
 class SimConfig:
     element: str = "pmos"  # a kind of the element registry (benchlog.kinds)
     seed: int = 1
-    ambient_c: float = 25.0
+    ambient_c: float = DEFAULT_AMBIENT_C
     line_frequency_hz: float = 50.0
     latency_s: float = 0.0  # every reply waits this long (a slow instrument or network)
     host: str = "127.0.0.1"  # loopback unless another host is asked for explicitly

@@ -12,7 +12,7 @@ from collections import deque
 
 from benchlog import __version__
 from benchlog.scpi.codes import ESR_OPC, ESR_PON, STANDARD_ERRORS, esr_bit
-from benchlog.scpi.tree import CommandError, CommandTree, number_param
+from benchlog.scpi.tree import CommandTree, number_param
 
 from .specs import ERROR_QUEUE_DEPTH
 
@@ -132,7 +132,3 @@ class ScpiDevice:
     def _next_error(self) -> str:
         code, text = self.errors.pop()
         return f"{code:+d},\"{text.replace(chr(34), chr(34) * 2)}\""
-
-
-def refuse(code: int, detail: str) -> CommandError:
-    return CommandError(code, detail)

@@ -29,7 +29,7 @@ Sources of the formulas:
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, fields, replace
+from dataclasses import dataclass, fields, replace
 from typing import Mapping
 
 from scipy import constants
@@ -383,7 +383,3 @@ def build_element(kind: str, rng, overrides: Mapping[str, float | None] | None =
         raise ValueError(f"unknown parameter(s) for {kind}: {', '.join(sorted(unknown))}")
     params = replace(params, **overrides)  # type: ignore[type-var]
     return FAMILIES[element_kind(kind).family](kind, params)  # type: ignore[arg-type]
-
-
-def params_dict(element: Element) -> dict:
-    return asdict(element.params)  # type: ignore[attr-defined]

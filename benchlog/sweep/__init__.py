@@ -5,8 +5,8 @@
     runner = SweepRunner(plan, rig, writer=RunWriter(path))
     outcome = runner.run(on_event)
 
-Without a bench file, `simbench.builtin_bench(kind, seed)` starts the simulated
-bench in-process and gives a BenchSetup for it.
+Without a bench file, the CLI's `cli.simbench.builtin_bench(kind, seed)` starts the
+simulated bench in-process and gives a BenchSetup for it (sweep never imports sim).
 """
 
 from .bench_file import BenchSetup, RoleSpec, Wiring, load_bench, parse_bench

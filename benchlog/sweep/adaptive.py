@@ -167,7 +167,7 @@ class AdaptiveSteps:
         n = len(points)
         try:
             if self.diode:
-                fit = fit_diode(i, v, self.temperature_c, self.accuracy)
+                fit = fit_diode(i, v, self.accuracy, temperature_c=self.temperature_c)
                 value, u = fit.drop_at(self.operating_a)
             else:
                 fit = fit_resistive(i, v, self.accuracy)

@@ -14,7 +14,7 @@ from benchlog.kinds import MIN_ENHANCE_V, kind as element_kind
 
 from .bench_file import BenchSetup
 from .plan import Plan
-from .rig import reverse_resolution_a
+from .rig import Rig, reverse_resolution_a
 
 #: The least voltages (forward conduction, gate enhancement) are the registry's
 #: data (benchlog.kinds: ElementKind.min_forward_v_for, MIN_ENHANCE_V); the rules are here.
@@ -68,7 +68,7 @@ def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
     return warnings
 
 
-def check_plan_on_rig(plan: Plan, rig: Any) -> list[str]:
+def check_plan_on_rig(plan: Plan, rig: Rig) -> list[str]:
     """Checks against the opened instruments' profiles: every setpoint and setting inside their ranges."""
     warnings: list[str] = []
     lim, w, bench = plan.limits, rig.wiring, rig.setup
@@ -119,7 +119,7 @@ def check_plan_on_rig(plan: Plan, rig: Any) -> list[str]:
                            f"{rig.current_meter.profile.name!r} has no DC current function",
                            "current_from = 'shunt' with shunt_ohm, or a meter profile with configure_current")
     if plan.reverse is not None:
-        if not getattr(rig.supply, "can_reverse", False):
+        if not rig.supply.can_reverse:
             raise BadInput(plan.source, "[reverse]",
                            f"needs a supply that can reverse its polarity, but profile {sup.name!r} has no "
                            "polarity_normal / polarity_reversed commands",

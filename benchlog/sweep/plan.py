@@ -26,7 +26,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from benchlog.badinput import BadInput
+from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.kinds import ELEMENT_KINDS, kind as element_kind
 from benchlog.tomlcheck import Table, load_toml, parse_toml
 
@@ -44,7 +44,7 @@ class Element:
     label: str = ""
     serial: str = ""
     lot: str = ""
-    ambient_c: float = 25.0
+    ambient_c: float = DEFAULT_AMBIENT_C
     note: str = ""
     operating_a: float | None = None  # the current the verdict is given at
     gate: str = "return"  # MOSFETs: the protection wiring (the kind's passive_gate) or "driven"
@@ -209,7 +209,7 @@ def _element(t: Table, limits: Limits) -> Element:
         label=_text(t, "label"),
         serial=_text(t, "serial"),
         lot=_text(t, "lot"),
-        ambient_c=t.number("ambient_c", 25.0, min=-60.0, max=200.0, unit="°C"),
+        ambient_c=t.number("ambient_c", DEFAULT_AMBIENT_C, min=-60.0, max=200.0, unit="°C"),
         note=_text(t, "note"),
         operating_a=operating_a,
         gate=gate,
@@ -335,8 +335,3 @@ def _reverse(t: Table | None, limits: Limits) -> Reverse | None:
         raise t.fail("max_current_a", f"is {reverse.max_current_a:g} A, above [limits].max_current_a "
                      f"{limits.max_current_a:g} A", "a reverse-current limit within the plan's limit")
     return reverse
-
-
-def require(plan: Plan, where: str, problem: str, expected: str = "") -> BadInput:
-    """A plan-level refusal (feasibility) in the same one-line form as a key error."""
-    return BadInput(plan.source, where, problem, expected)

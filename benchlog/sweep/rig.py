@@ -20,23 +20,28 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Callable
+
+from benchlog.instruments.contract import LoadRole, MeterRole, SupplyRole
+from benchlog.instruments.profile import Profile
 
 from benchlog.accuracy import Accuracy, MeasurementAccuracy
 
 from .bench_file import BenchSetup, Wiring
 from .plan import Plan
 
+BenchRole = SupplyRole | LoadRole | MeterRole
+
 
 @dataclass
 class Rig:
-    """The opened roles of one bench (any object with the role methods will do in pure tests)."""
+    """The opened roles of one bench; tests may pass any object that keeps the bench contract."""
 
     setup: BenchSetup
-    meter: Any
-    supply: Any = None
-    load: Any = None
-    current_meter: Any = None
+    meter: MeterRole
+    supply: SupplyRole
+    load: LoadRole | None = None
+    current_meter: MeterRole | None = None
     #: role name -> range the meter was configured on, filled by `configure`
     ranges: dict[str, float] = field(default_factory=dict)
 
@@ -44,23 +49,16 @@ class Rig:
     def wiring(self) -> Wiring:
         return self.setup.wiring
 
-    def roles(self) -> tuple[Any, ...]:
+    def roles(self) -> tuple[BenchRole, ...]:
         """Every opened role, the power sources first (the order the safe state reaches them)."""
         return tuple(r for r in (self.supply, self.load, self.meter, self.current_meter) if r is not None)
 
-    def named_roles(self) -> dict[str, Any]:
+    def named_roles(self) -> dict[str, BenchRole]:
         named = {"supply": self.supply, "load": self.load, "meter": self.meter, "current_meter": self.current_meter}
         return {k: v for k, v in named.items() if v is not None}
 
     def close(self) -> None:
-        for role in self.roles():
-            transport = getattr(role, "transport", None) or getattr(role, "_transport", None)
-            close = getattr(role, "close", None) or getattr(transport, "close", None)
-            if close is not None:
-                try:
-                    close()
-                except Exception:  # closing after a fault must not hide the fault
-                    pass
+        close_roles(self.roles())
 
     # -- configuration (no power) -------------------------------------------
     def configure(self, plan: Plan, first_setpoint_a: float) -> None:
@@ -69,7 +67,7 @@ class Rig:
         m = plan.meter
         drop_range = drop_range_v(plan, self.meter.profile)
         self.meter.configure_voltage(drop_range, m.nplc)
-        if m.samples > 1 or _has(self.meter, "set_samples"):
+        if m.samples > 1 or self.meter.profile.has("set_samples"):
             self.meter.set_samples(m.samples)
         self.ranges["meter"] = drop_range
         if self.current_meter is not None and w.current_from in ("meter", "shunt"):
@@ -79,7 +77,7 @@ class Rig:
             else:
                 rng = shunt_range_v(plan, w, self.current_meter.profile)
                 self.current_meter.configure_voltage(rng, m.nplc)
-            if m.samples > 1 or _has(self.current_meter, "set_samples"):
+            if m.samples > 1 or self.current_meter.profile.has("set_samples"):
                 self.current_meter.set_samples(m.samples)
             self.ranges["current_meter"] = rng
         supply = self.supply
@@ -92,11 +90,19 @@ class Rig:
         else:
             supply.set_voltage(w.input_v)
             supply.set_current_limit(supply_limit_for_load_wiring(plan, supply.profile))
-            self.load.set_input(False)
-            set_mode = getattr(self.load, "set_mode_cc", None)
-            if set_mode is not None:
-                set_mode()
-            self.load.set_current(first_setpoint_a)
+            load = self._forcing_load()
+            load.set_input(False)  # the load is put in CC when it connects (its profile's set_mode_cc)
+            load.set_current(first_setpoint_a)
+
+    def _forcing_load(self) -> LoadRole:
+        if self.load is None:  # the bench file reader refuses force = "load" without a [load]
+            raise ValueError("force = 'load' needs a load role")
+        return self.load
+
+    def _current_meter(self) -> MeterRole:
+        if self.current_meter is None:  # the bench file reader refuses this wiring without one
+            raise ValueError(f"current_from = {self.wiring.current_from!r} needs a current_meter role")
+        return self.current_meter
 
     def check_errors(self, after: str) -> None:
         """Drain every role's error queue (a checkpoint, not a per-point query)."""
@@ -107,20 +113,20 @@ class Rig:
     def power_on(self) -> None:
         self.supply.set_output(True)
         if self.wiring.force == "load":
-            self.load.set_input(True)
+            self._forcing_load().set_input(True)
 
     def element_off(self) -> None:
         """Stop the element current (cool-down): the forcing instrument off, the rest as it was."""
         if self.wiring.force == "supply":
             self.supply.set_output(False)
         else:
-            self.load.set_input(False)
+            self._forcing_load().set_input(False)
 
     def element_on(self) -> None:
         if self.wiring.force == "supply":
             self.supply.set_output(True)
         else:
-            self.load.set_input(True)
+            self._forcing_load().set_input(True)
 
     def set_current(self, current_a: float) -> None:
         """Set the element current; returns once the forcing instrument reports it applied.
@@ -135,8 +141,9 @@ class Rig:
             self.supply.set_current_limit(current_a)
             self.supply.sync()
         else:
-            self.load.set_current(current_a)
-            self.load.sync()
+            load = self._forcing_load()
+            load.set_current(current_a)
+            load.sync()
 
     # -- readings ------------------------------------------------------------
     def read_drop(self) -> tuple[float | None, ...]:
@@ -148,14 +155,14 @@ class Rig:
         if source == "supply":
             return self.supply.measure_current()
         if source == "load":
-            return self.load.measure_current()
-        samples = self.current_meter.read()
+            return self._forcing_load().measure_current()
+        samples = self._current_meter().read()
         if not samples or any(s is None for s in samples):
             return None
         value = sum(samples) / len(samples)
         return value if source == "meter" else value / self.wiring.shunt_ohm
 
-    def reverse_current_reader(self, limit_a: float):
+    def reverse_current_reader(self, limit_a: float) -> Callable[[], float]:
         """A reader of the reverse current (magnitude) on the finest range that still holds `limit_a`."""
         w, m = self.wiring, self.current_meter
         if w.current_from == "meter" and m is not None:
@@ -177,13 +184,22 @@ class Rig:
 LOAD_WIRING_SUPPLY_HEADROOM = 1.05
 
 
-def supply_limit_for_load_wiring(plan: Plan, supply_profile: Any) -> float:
+def close_roles(roles: "tuple[BenchRole, ...] | list[BenchRole]") -> None:
+    """Close every link; closing after a fault must not hide the fault."""
+    for role in roles:
+        try:
+            role.close()
+        except Exception:  # noqa: BLE001
+            pass
+
+
+def supply_limit_for_load_wiring(plan: Plan, supply_profile: Profile) -> float:
     limit = plan.limits.max_current_a * LOAD_WIRING_SUPPLY_HEADROOM
-    most = getattr(getattr(supply_profile, "limits", None), "max_current_a", None)
+    most = supply_profile.limits.max_current_a
     return min(limit, most) if most else limit
 
 
-def reverse_limit_a(plan: Plan, supply_profile: Any = None) -> float:
+def reverse_limit_a(plan: Plan, supply_profile: Profile | None = None) -> float:
     """The supply's current limit in the reverse step.
 
     Above the pass limit, so a leaky element reads above it instead of being held
@@ -226,12 +242,6 @@ def reverse_resolution_a(rig: "Rig", plan: Plan) -> tuple[float, str]:
     return (spec.range_pct / 100 * spec.range if spec else 0.0), f"supply read-back {p.name!r}"
 
 
-def _has(role: Any, operation: str) -> bool:
-    profile = getattr(role, "profile", None)
-    has = getattr(profile, "has", None)
-    return bool(has(operation)) if has is not None else False
-
-
 # -- ranges and accuracy ------------------------------------------------------
 
 
@@ -240,11 +250,11 @@ def _smallest_range(ranges: tuple[float, ...], needed: float) -> float | None:
     return min(fits) if fits else None
 
 
-def drop_range_v(plan: Plan, meter_profile: Any) -> float:
+def drop_range_v(plan: Plan, meter_profile: Profile) -> float:
     """The plan's meter range, or the smallest range holding max_drop_v (or the compliance)."""
     if plan.meter.range_v is not None:
         return plan.meter.range_v
-    ranges = tuple(getattr(getattr(meter_profile, "limits", None), "voltage_ranges_v", ()) or ())
+    ranges = meter_profile.limits.voltage_ranges_v
     needed = plan.limits.max_drop_v or plan.limits.compliance_v or 1.0
     chosen = _smallest_range(ranges, needed)
     if chosen is None:
@@ -252,14 +262,14 @@ def drop_range_v(plan: Plan, meter_profile: Any) -> float:
     return chosen
 
 
-def current_range_a(plan: Plan, meter_profile: Any) -> float:
-    ranges = tuple(getattr(getattr(meter_profile, "limits", None), "current_ranges_a", ()) or ())
+def current_range_a(plan: Plan, meter_profile: Profile) -> float:
+    ranges = meter_profile.limits.current_ranges_a
     chosen = _smallest_range(ranges, plan.limits.max_current_a)
     return chosen if chosen is not None else (max(ranges) if ranges else plan.limits.max_current_a)
 
 
-def shunt_range_v(plan: Plan, wiring: Wiring, meter_profile: Any) -> float:
-    ranges = tuple(getattr(getattr(meter_profile, "limits", None), "voltage_ranges_v", ()) or ())
+def shunt_range_v(plan: Plan, wiring: Wiring, meter_profile: Profile) -> float:
+    ranges = meter_profile.limits.voltage_ranges_v
     needed = plan.limits.max_current_a * wiring.shunt_ohm
     chosen = _smallest_range(ranges, needed)
     return chosen if chosen is not None else (max(ranges) if ranges else needed)
@@ -312,25 +322,24 @@ def open_rig(setup: BenchSetup, *, timeout_s: float | None = None, on_open: Any 
     opened: dict[str, Any] = {}
     try:
         for name, spec in setup.roles.items():
-            role = _profile_role(name)
+            role = profile_role(name)
             opened[name] = open_role(role, spec.resource, profiles[name], backend=spec.backend, timeout_s=timeout_s)
             if on_open is not None:
                 on_open(opened[name])
     except BaseException:
         if on_open is not None:
             raise
-        Rig(setup, meter=None, **{k: v for k, v in opened.items() if k != "meter"}).close()
-        if "meter" in opened:
-            opened["meter"].close()
+        close_roles(list(opened.values()))
         raise
     return Rig(setup, **opened)
 
 
-def _profile_role(bench_role: str) -> str:
+def profile_role(bench_role: str) -> str:
+    """The profile role of a bench role: a current meter is a meter."""
     return "meter" if bench_role == "current_meter" else bench_role
 
 
-def load_role_profiles(setup: BenchSetup) -> dict[str, Any]:
+def load_role_profiles(setup: BenchSetup) -> dict[str, Profile]:
     """Load and check the profile of every role, so a bad profile is reported as such before connecting.
 
     A profile name that matches no file is the bench file's fault and is reported at its key;
@@ -340,7 +349,7 @@ def load_role_profiles(setup: BenchSetup) -> dict[str, Any]:
     from benchlog.instruments.errors import ProfileError
     from benchlog.instruments.profile import load_profile
 
-    profiles: dict[str, Any] = {}
+    profiles: dict[str, Profile] = {}
     for name, spec in setup.roles.items():
         try:
             profile = load_profile(spec.profile)
@@ -349,9 +358,9 @@ def load_role_profiles(setup: BenchSetup) -> dict[str, Any]:
                 raise BadInput(setup.source or "bench", f"[{name}].profile", f"{exc.problem}: {spec.profile!r}",
                                exc.expected) from None
             raise
-        if profile.role != _profile_role(name):
+        if profile.role != profile_role(name):
             raise BadInput(setup.source or "bench", f"[{name}].profile",
                            f"{profile.name!r} is a {profile.role} profile",
-                           f"a profile whose role is {_profile_role(name)!r}")
+                           f"a profile whose role is {profile_role(name)!r}")
         profiles[name] = profile
     return profiles

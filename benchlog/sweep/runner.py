@@ -26,6 +26,7 @@ from datetime import datetime, timezone
 from typing import Any, Callable, Iterator
 
 from benchlog import __version__
+from benchlog.instruments.contract import Idn
 from benchlog.kinds import kind as element_kind
 from benchlog.runs.events import (
     FLAG_COMPLIANCE,
@@ -53,7 +54,7 @@ from .plan import Plan
 from .protection import program_protection
 from .rig import Rig, drop_range_v, measurement_accuracy, reverse_limit_a
 from .settle import Interrupted, Overload, settle
-from .steps import StepSource, step_source
+from .steps import FixedSteps, StepSource, schedule
 
 #: The reverse step counts only if the supply really held this fraction of its voltage.
 REVERSE_APPLIED_FRACTION = 0.9
@@ -63,6 +64,15 @@ CHECKPOINT_S = 5.0
 #: limit hit: the read-back's own accuracy (a few 0.1 % plus counts) must not stop a
 #: sweep whose setpoints are all within the limit.
 CURRENT_READBACK_MARGIN = 0.02
+
+
+def step_source(plan: Plan) -> StepSource:
+    """The step source a plan asks for (adaptive stepping lives above the fixed schedules, so it is chosen here)."""
+    if plan.steps.mode == "adaptive":
+        from .adaptive import AdaptiveSteps  # imports the fits only when they are used
+
+        return AdaptiveSteps(plan)
+    return FixedSteps(schedule(plan.steps))
 
 
 class _Stop(Exception):
@@ -75,16 +85,9 @@ class _Stop(Exception):
         self.message = message
 
 
-def idn_text(idn: Any) -> str:
-    """`*IDN?` as the instrument sent it (an Idn record is joined back with commas)."""
-    if idn is None:
-        return ""
-    if isinstance(idn, str):
-        return idn
-    fields = [getattr(idn, k, None) for k in ("manufacturer", "model", "serial", "firmware")]
-    if all(f is not None for f in fields):
-        return ",".join(str(f) for f in fields)
-    return str(idn)
+def idn_text(idn: Idn) -> str:
+    """`*IDN?` as the instrument sent it (the four fields joined back with commas)."""
+    return ",".join((idn.manufacturer, idn.model, idn.serial, idn.firmware))
 
 
 def _default_guard():
@@ -197,7 +200,7 @@ class SweepRunner:
         self._last_checkpoint = self._t0
         yield self._emit(RunStarted(self.header))
         use_accuracy = getattr(self.steps, "use_accuracy", None)
-        if use_accuracy is not None:
+        if use_accuracy is not None:  # adaptive stepping budgets its fits with the readings' accuracy
             use_accuracy(self.header.accuracy)
         for text in self._warnings:
             yield self._emit(Note(self._t(), "warning", text))
@@ -312,9 +315,9 @@ class SweepRunner:
         if not reading.settled:
             flags.append(FLAG_UNSETTLED)
         # Neither CV nor CC while the output should be on: the supply switched itself off.
-        if mode == "OFF" or (mode == "UNKNOWN" and getattr(rig.supply, "can_report_mode", False)):
+        if mode == "OFF" or (mode == "UNKNOWN" and rig.supply.can_report_mode):
             rig.element_off()
-            tripped = _safe_call(getattr(rig.supply, "tripped", None))
+            tripped = _safe_call(rig.supply.tripped)
             cause = "its protection tripped" if tripped else f"status {mode}: neither CV nor CC"
             return None, _Stop("fault", "fault", f"supply output went off during the sweep ({cause}) at "
                                f"{step.setpoint_a:g} A; point not recorded")
@@ -465,10 +468,10 @@ class SweepRunner:
         instruments = tuple(
             InstrumentRecord(
                 role=name,
-                resource=getattr(role, "resource", ""),
-                idn=idn_text(getattr(role, "idn", None)),
-                profile=getattr(role.profile, "name", str(role.profile)),
-                profile_sha256=getattr(role.profile, "sha256", ""),
+                resource=role.resource,
+                idn=idn_text(role.idn),
+                profile=role.profile.name,
+                profile_sha256=role.profile.sha256,
             )
             for name, role in rig.named_roles().items()
         )

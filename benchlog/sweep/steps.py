@@ -13,7 +13,7 @@ import numpy as np
 
 from benchlog.runs.events import Point
 
-from .plan import Plan, Steps
+from .plan import Steps
 
 
 @dataclass(frozen=True)
@@ -67,12 +67,3 @@ class FixedSteps:
         step = self._steps[self._next]
         self._next += 1
         return step
-
-
-def step_source(plan: Plan) -> StepSource:
-    """The step source a plan asks for."""
-    if plan.steps.mode == "adaptive":
-        from .adaptive import AdaptiveSteps  # imports the fits only when they are used
-
-        return AdaptiveSteps(plan)
-    return FixedSteps(schedule(plan.steps))

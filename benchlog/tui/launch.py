@@ -48,8 +48,8 @@ def demo_plan(name: str) -> Path:
     return path
 
 
-def build_demo_app(plan_name: str = "pmos-prototype", out: str | Path = "runs", seed: int = 0):
-    """The app on the built-in simulated bench, with the demo's plans and a matching spec loaded."""
+def build_demo_app(start_sim, plan_name: str = "pmos-prototype", out: str | Path = "runs", seed: int = 0):
+    """The app on a simulated bench started by `start_sim`, with the demo's plans and a matching spec loaded."""
     from benchlog.sweep.plan import load_plan
 
     from .app import BenchApp
@@ -57,17 +57,16 @@ def build_demo_app(plan_name: str = "pmos-prototype", out: str | Path = "runs", 
 
     plan_path = demo_plan(plan_name)
     plan = load_plan(plan_path)
-    session = BenchSession.simulated(plan.element, runs_dir=Path(out), seed=seed)
+    session = BenchSession.simulated(plan.element, start_sim, runs_dir=Path(out), seed=seed)
     specs = demo_specs()
     plans = demo_plans()
     return BenchApp(session, runs_dir=Path(out), plans=plans, specs=specs, plan=plan_path,
                     spec=spec_for_kind(plan.element.kind, specs))
 
 
-def run_demo_ui(args) -> int:
-    """`benchlog demo` without --headless: the UI on the simulated bench; outputs off when it closes."""
-    app = build_demo_app(getattr(args, "plan", "pmos-prototype"), getattr(args, "out", "runs"),
-                         getattr(args, "seed", 0))
+def run_demo_ui(args, start_sim) -> int:
+    """`benchlog demo` without --headless: the UI on the simulated bench `start_sim` starts; outputs off when it closes."""
+    app = build_demo_app(start_sim, args.plan, args.out, args.seed)
     try:
         app.run()
     finally:

@@ -48,7 +48,7 @@ def summarise(run_paths: Sequence[Path], spec_path: Path | None):
     """The lot summary of `benchlog.analysis.lot` (mean, σ, Cpk, per-part outcomes); None without a spec."""
     if spec_path is None or not run_paths:
         return None
-    from benchlog.analysis.lot import lot_from_runs
+    from benchlog.report.lot_runs import lot_from_runs
     from benchlog.specfiles import load_spec
 
     return lot_from_runs([str(p) for p in run_paths], load_spec(spec_path))

@@ -15,6 +15,9 @@ from typing import Any, Callable
 
 from benchlog.runs.events import Event
 
+#: Starts a simulated bench: (element or kind, seed, **sim options) -> (BenchSetup, running simulator).
+StartSim = Callable[..., tuple[Any, Any]]
+
 
 @dataclass(frozen=True)
 class RoleStatus:
@@ -43,12 +46,17 @@ class SweepOutcome:
 class BenchSession:
     """A bench set up from a bench file (or the built-in simulated one) that the UI may probe and sweep."""
 
-    def __init__(self, setup: Any, *, runs_dir: Path, sim: Any = None, label: str = "",
+    def __init__(self, setup: Any, *, runs_dir: Path, sim: Any = None, start_sim: StartSim | None = None,
+                 seed: int = 1, sim_options: dict | None = None, label: str = "",
                  clock: Callable[[], float] = time.monotonic, sleep: Callable[[float], None] = time.sleep) -> None:
         self.setup = setup
         self.sim = sim
+        self.start_sim = start_sim
+        self.seed = seed
+        self.sim_options = dict(sim_options or {})
+        self.sim_kind: str | None = None
         self.runs_dir = Path(runs_dir)
-        self.label = label or (f"simulated bench" if sim is not None else str(getattr(setup, "source", "bench")))
+        self.label = label or ("simulated bench" if sim is not None else str(getattr(setup, "source", "bench")))
         self.clock = clock
         self.sleep = sleep
         self._runner = None
@@ -57,27 +65,26 @@ class BenchSession:
         self.last_safe_report: Any = None  # the guard's read-back after the last sweep (None: never connected)
 
     @classmethod
-    def simulated(cls, element: Any, *, runs_dir: Path, seed: int = 1, sim_options: dict | None = None,
-                  **kwargs: Any) -> "BenchSession":
-        """Start the built-in simulated bench for `element` (an Element or a kind) and wrap it."""
-        from benchlog.sweep.simbench import builtin_bench
+    def simulated(cls, element: Any, start_sim: StartSim, *, runs_dir: Path, seed: int = 1,
+                  sim_options: dict | None = None, **kwargs: Any) -> "BenchSession":
+        """Start a simulated bench for `element` (an Element or a kind) with `start_sim` and wrap it.
 
-        setup, running = builtin_bench(element, seed, **dict(sim_options or {}))
-        session = cls(setup, runs_dir=runs_dir, sim=running, **kwargs)
-        session.seed = seed
-        session.sim_options = dict(sim_options or {})
+        The UI never starts the simulator itself: the CLI passes `cli.simbench.builtin_bench`.
+        """
+        options = dict(sim_options or {})
+        setup, running = start_sim(element, seed, **options)
+        session = cls(setup, runs_dir=runs_dir, sim=running, start_sim=start_sim, seed=seed, sim_options=options,
+                      **kwargs)
         session.sim_kind = element if isinstance(element, str) else element.kind
         session.label = f"simulated bench ({session.sim_kind})"
         return session
 
     def _bench_for(self, plan: Any) -> None:
         """The simulator holds one element; a plan of another kind gets a freshly started simulated bench."""
-        if self.sim is None or getattr(self, "sim_kind", None) == plan.element.kind:
+        if self.sim is None or self.start_sim is None or self.sim_kind == plan.element.kind:
             return
-        from benchlog.sweep.simbench import builtin_bench
-
         self.sim.stop()
-        self.setup, self.sim = builtin_bench(plan.element, getattr(self, "seed", 1), **getattr(self, "sim_options", {}))
+        self.setup, self.sim = self.start_sim(plan.element, self.seed, **self.sim_options)
         self.sim_kind = plan.element.kind
         self.label = f"simulated bench ({self.sim_kind})"
 
@@ -93,39 +100,17 @@ class BenchSession:
 
     # -- blocking I/O (workers only) -----------------------------------------
     def probe(self, role: str) -> RoleStatus:
-        """Open the role, read `*IDN?`, match it to its profile, leave it in its safe state and close it."""
-        from benchlog.instruments.connect import open_role
-
-        from benchlog.instruments.benchlock import BenchLock
-        from benchlog.instruments.errors import BenchInUse
-        from benchlog.instruments.guard import safe_state_guard
+        """Lock and open the role, read `*IDN?`, match it to its profile, switch it off and read that back, close it."""
+        from benchlog.sweep.session import BenchInUse, probe_role
 
         spec = self.setup.roles[role]
         try:
-            lock = BenchLock([spec.resource]).acquire()  # a probe sends connect commands: never during a sweep
+            probed = probe_role(self.setup, role)
         except BenchInUse as exc:
             return RoleStatus(role, spec.resource, str(spec.profile), state="in use", message=_sentence(exc))
-        try:
-            try:
-                instrument = open_role(role, spec.resource, spec.profile, backend=spec.backend)
-            except Exception as exc:  # shown to the user as a sentence, never a traceback
-                return RoleStatus(role, spec.resource, str(spec.profile), state="no answer", message=_sentence(exc))
-            try:
-                guard = safe_state_guard(report=None, raise_unverified=False)
-                with guard:
-                    guard.add(instrument)  # switched off and read back, like every connection
-                idn = instrument.idn
-                idn_text = ",".join((idn.manufacturer, idn.model, idn.serial, idn.firmware)) if hasattr(idn, "model") else str(idn)
-                profile = getattr(instrument.profile, "name", str(spec.profile))
-                report = guard.outcome
-                message = "" if report is None or report.verified or not report.roles else report.statement()
-                return RoleStatus(role, spec.resource, profile, idn_text, "connected", message)
-            except Exception as exc:  # noqa: BLE001
-                return RoleStatus(role, spec.resource, str(spec.profile), state="no answer", message=_sentence(exc))
-            finally:
-                _close(instrument)
-        finally:
-            lock.release()
+        except Exception as exc:  # shown to the user as a sentence, never a traceback
+            return RoleStatus(role, spec.resource, str(spec.profile), state="no answer", message=_sentence(exc))
+        return RoleStatus(role, spec.resource, probed.profile, probed.idn, "connected", probed.message)
 
     def sweep(self, plan: Any, on_event: Callable[[Event], None]) -> SweepOutcome:
         """Run one sweep to its end (or cancel); every event goes to `on_event` as it happens.
@@ -200,12 +185,3 @@ def _sentence(exc: BaseException) -> str:
     text = str(exc).strip() or type(exc).__name__
     return text.splitlines()[0]
 
-
-def _close(instrument: Any) -> None:
-    for name in ("close",):
-        fn = getattr(instrument, name, None) or getattr(getattr(instrument, "transport", None), name, None)
-        if fn is not None:
-            try:
-                fn()
-            except Exception:
-                pass

@@ -190,11 +190,3 @@ def bar(fraction: float | None, width: int) -> str:
         return "[" + "?" * width + "]"
     filled = int(round(max(0.0, min(1.0, fraction)) * width))
     return "[" + "█" * filled + "·" * (width - filled) + "]"
-
-
-def badge(outcome: str | None) -> Text:
-    """A verdict as a word and a symbol, so it reads the same in monochrome."""
-    words = {"pass": ("PASS ✔", "verdict-pass"), "fail": ("FAIL ✘", "verdict-fail"),
-             "conditional": ("COND ◆", "verdict-cond")}
-    word, cls = words.get(outcome or "", ("—", "verdict-none"))
-    return Text(word, style=cls)

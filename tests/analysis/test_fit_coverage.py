@@ -18,6 +18,7 @@ dominated by type A at ν = 23 covers ≈ 94.3 %, and the mix lands near 95.5 % 
 """
 
 import numpy as np
+import pytest
 
 from benchlog.analysis.fits import fit_resistive
 from benchlog.analysis.uncertainty import Accuracy, MeasurementAccuracy
@@ -53,6 +54,7 @@ def coverage(i_read, v_read, accuracy):
     return hits / len(i_read), float(np.median(type_a_share))
 
 
+@pytest.mark.slow
 def test_k2_interval_of_r_on_covers_the_truth_93_to_97_percent():
     i_read, v_read = simulate(4000, sigma_v=6e-5, sigma_i=1e-3)
     covered, share = coverage(i_read, v_read, MeasurementAccuracy(DROP, CURRENT))
@@ -60,6 +62,7 @@ def test_k2_interval_of_r_on_covers_the_truth_93_to_97_percent():
     assert 0.93 <= covered <= 0.97, covered
 
 
+@pytest.mark.slow
 def test_leaving_type_b_out_would_be_caught():
     # the same sweeps judged by type A alone: far below the window (shows the check has teeth)
     i_read, v_read = simulate(1000, sigma_v=6e-5, sigma_i=1e-3)

@@ -32,7 +32,7 @@ def test_shockley_reference_values():
 def test_noise_free_data_recovers_the_reference_parameters():
     i = np.geomspace(0.01, 5.0, 30)
     v = shockley_drop_v(i, 1.5, 1e-9, 0.020, T300_C)
-    fit = fit_diode(i, v, T300_C)
+    fit = fit_diode(i, v, temperature_c=T300_C)
     assert fit.params["ideality"] == pytest.approx(1.5, rel=1e-7)
     assert fit.params["i_s_a"] == pytest.approx(1e-9, rel=1e-5)
     assert fit.params["r_s_ohm"] == pytest.approx(0.020, rel=1e-6)
@@ -43,7 +43,7 @@ def test_noise_free_data_recovers_the_reference_parameters():
 
 def test_noisy_sweep_recovers_truth_within_expanded_uncertainty():
     i, v = sweep(seed=1)
-    fit = fit_diode(i, v, T300_C, ACC)
+    fit = fit_diode(i, v, ACC, temperature_c=T300_C)
     for key, true in TRUE.items():
         assert abs(fit.params[key] - true) <= fit.expanded_u[key], key
     for at in (1.0, 5.0):
@@ -54,7 +54,7 @@ def test_noisy_sweep_recovers_truth_within_expanded_uncertainty():
 
 def test_parameters_and_covariance_equal_scipy_curve_fit():
     i, v = sweep(seed=2)
-    fit = fit_diode(i, v, T300_C)
+    fit = fit_diode(i, v, temperature_c=T300_C)
     vt = thermal_voltage_v(T300_C)
 
     def model(current, n, ln_is, rs):
@@ -79,7 +79,7 @@ def test_parameters_and_covariance_equal_scipy_curve_fit():
 def test_weighted_fit_equals_curve_fit_with_sigma():
     i, v = sweep(seed=3)
     u = 1e-4 + 1e-4 * i
-    fit = fit_diode(i, v, T300_C, u_drop_v=u)
+    fit = fit_diode(i, v, temperature_c=T300_C, u_drop_v=u)
     vt = thermal_voltage_v(T300_C)
     popt, pcov = curve_fit(lambda c, n, l, r: n * vt * np.log1p(c / np.exp(l)) + r * c, i, v,
                            p0=[1.3, -19.0, 0.01], sigma=u)
@@ -89,7 +89,7 @@ def test_weighted_fit_equals_curve_fit_with_sigma():
 
 def test_type_b_on_the_parameters():
     i, v = sweep(seed=4)
-    fit = fit_diode(i, v, T300_C, ACC)
+    fit = fit_diode(i, v, ACC, temperature_c=T300_C)
     n, rs = fit.params["ideality"], fit.params["r_s_ohm"]
     g_v = 0.0040e-2 / math.sqrt(3)
     # a drop gain g scales V: n and Rs scale by (1 + g), Is does not move (the law is linear in n, Rs)
@@ -100,8 +100,8 @@ def test_type_b_on_the_parameters():
     expected = fit.params["i_s_a"] * u_o / (n * thermal_voltage_v(T300_C))
     assert fit.budgets["i_s_a"].component("drop meter offset").u == pytest.approx(expected, rel=1e-4)
     # and the data agree: refitting scaled data scales n and Rs
-    scaled = fit_diode(i, v * (1 + 1e-3), T300_C)
-    plain = fit_diode(i, v, T300_C)
+    scaled = fit_diode(i, v * (1 + 1e-3), temperature_c=T300_C)
+    plain = fit_diode(i, v, temperature_c=T300_C)
     assert scaled.params["ideality"] == pytest.approx(plain.params["ideality"] * 1.001, rel=1e-7)
     assert scaled.params["i_s_a"] == pytest.approx(plain.params["i_s_a"], rel=1e-5)
 
@@ -111,17 +111,17 @@ def test_outlier_flagged_and_points_at_zero_current_left_out():
     i = np.concatenate([[0.0], i])
     v = np.concatenate([[0.0], v])
     v[12] += 0.01  # 50 σ
-    fit = fit_diode(i, v, T300_C)
+    fit = fit_diode(i, v, temperature_c=T300_C)
     assert fit.points == i.size - 1
     assert fit.point_index[np.flatnonzero(fit.outliers)].tolist() == [12]
     assert any("I <= 0" in note for note in fit.notes)
-    refit = fit_diode(i, v, T300_C, exclude_outliers=True)
+    refit = fit_diode(i, v, temperature_c=T300_C, exclude_outliers=True)
     assert refit.excluded.sum() == 1
     assert abs(refit.params["ideality"] - 1.5) < abs(fit.params["ideality"] - 1.5)
 
 
 def test_refuses_what_it_cannot_fit():
     with pytest.raises(FitError):
-        fit_diode([0.1, 0.2, 0.3], [0.6, 0.62, 0.64], 25.0)
+        fit_diode([0.1, 0.2, 0.3], [0.6, 0.62, 0.64], temperature_c=25.0)
     with pytest.raises(FitError):
-        fit_diode(np.linspace(0.1, 1, 10), np.full(10, 0.7) - 0.01 * np.linspace(0.1, 1, 10) ** 0.1, 25.0)
+        fit_diode(np.linspace(0.1, 1, 10), np.full(10, 0.7) - 0.01 * np.linspace(0.1, 1, 10) ** 0.1, temperature_c=25.0)

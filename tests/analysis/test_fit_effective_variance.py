@@ -41,7 +41,7 @@ OFFSETS_A = (-4e-3, -2e-3, 2e-3, 4e-3)  # within the ±5 mA the spec allows
 def test_current_offset_at_low_currents_recovered_within_expanded_uncertainty(offset_a):
     for seed in range(3):
         i, v = schottky_sweep(seed, offset_a)
-        fit = fit_diode(i, v, T_C, ACC)
+        fit = fit_diode(i, v, ACC, temperature_c=T_C)
         for key, true in TRUE.items():
             assert abs(fit.params[key] - true) <= fit.expanded_u[key], (key, seed)
         # and the answer is a useful one (relative u(n) of a few %)
@@ -56,8 +56,8 @@ def test_without_the_effective_variance_the_same_sweeps_fail(offset_a):
     # (truth within U and u(n)/n < 5 %): it is wrong beyond its U or its u(n) is several times larger.
     for seed in range(3):
         i, v = schottky_sweep(seed, offset_a)
-        good = fit_diode(i, v, T_C, ACC)
-        plain = fit_diode(i, v, T_C, ACC, u_current_a=0.0)
+        good = fit_diode(i, v, ACC, temperature_c=T_C)
+        plain = fit_diode(i, v, ACC, temperature_c=T_C, u_current_a=0.0)
         assert not any("effective-variance" in note for note in plain.notes)
         n, u_n = plain.params["ideality"], plain.std_u["ideality"]
         wrong = any(abs(plain.params[k] - t) > plain.expanded_u[k] for k, t in TRUE.items())
@@ -68,7 +68,7 @@ def test_without_the_effective_variance_the_same_sweeps_fail(offset_a):
 
 def test_diode_fit_is_the_fixed_point_of_curve_fit_with_the_effective_sigma():
     i, v = schottky_sweep(7, 3e-3)
-    fit = fit_diode(i, v, T_C, ACC)
+    fit = fit_diode(i, v, ACC, temperature_c=T_C)
     assert fit.unresolved is not None
     used = ~fit.excluded
     vt = thermal_voltage_v(T_C)
@@ -96,7 +96,7 @@ def test_diode_fit_is_the_fixed_point_of_curve_fit_with_the_effective_sigma():
 
 def test_unresolved_points_are_flagged_kept_and_weightless():
     i, v = schottky_sweep(3, -3e-3)
-    fit = fit_diode(i, v, T_C, ACC)
+    fit = fit_diode(i, v, ACC, temperature_c=T_C)
     positive = i > 0
     u_read = reading_u(i[positive], CURRENT)
     expected = (np.abs(i[positive]) <= 2 * u_read) | (v[positive] <= 2 * reading_u(v[positive], DROP))
@@ -113,7 +113,7 @@ def test_unresolved_points_are_flagged_kept_and_weightless():
     # the answer does not depend on what the unresolved points say
     moved = v.copy()
     moved[np.flatnonzero(positive)[expected]] += 0.1
-    again = fit_diode(i, moved, T_C, ACC)
+    again = fit_diode(i, moved, ACC, temperature_c=T_C)
     assert again.params["ideality"] == pytest.approx(fit.params["ideality"], rel=1e-9)
 
 
@@ -122,7 +122,7 @@ def test_a_drop_that_shows_no_conduction_is_unresolved():
     i = np.geomspace(0.05, 2.0, 20)
     v = shockley_drop_v(i, 1.05, 5e-8, 0.04, T_C)
     v[3] = 5e-6
-    fit = fit_diode(i, v, T_C, ACC)
+    fit = fit_diode(i, v, ACC, temperature_c=T_C)
     assert fit.unresolved_index.tolist() == [3]
 
 

@@ -22,7 +22,7 @@ def test_mosfet_channel_and_resistor_data_pick_resistive(seed):
     rng = np.random.default_rng(seed)
     i = np.linspace(0.0, 5.0, 26)
     v = 0.026 * i + rng.normal(0, 2e-5, i.size)  # a P-MOSFET channel, R_DS(on) = 26 mΩ (invented part)
-    fit = fit_auto(i, v, 25.0)
+    fit = fit_auto(i, v, temperature_c=25.0)
     assert fit.model == "resistive"
     assert fit.params["r_on_ohm"] == pytest.approx(0.026, rel=1e-3)
     assert "AICc" in fit.reason and fit.reason.endswith("resistive")
@@ -40,7 +40,7 @@ def test_diode_data_pick_diode(label, n, i_s, r_s):
     rng = np.random.default_rng(7)
     i = np.linspace(0.05, 3.0, 25)
     v = shockley_drop_v(i, n, i_s, r_s, 25.0) + rng.normal(0, 2e-4, i.size)
-    fit = fit_auto(i, v, 25.0)
+    fit = fit_auto(i, v, temperature_c=25.0)
     assert fit.model == "diode", label
     assert fit.params["ideality"] == pytest.approx(n, rel=0.1)
     # the reason quotes both scores and the difference, and they are the scores it computed
@@ -53,7 +53,7 @@ def test_diode_data_pick_diode(label, n, i_s, r_s):
 def test_without_temperature_only_resistive_is_possible():
     i = np.linspace(0.05, 3.0, 25)
     v = shockley_drop_v(i, 1.5, 1e-9, 0.02, 25.0)
-    fit = fit_auto(i, v, None)
+    fit = fit_auto(i, v, temperature_c=None)
     assert fit.model == "resistive"
     assert "no temperature" in fit.reason
 
@@ -64,8 +64,8 @@ def test_a_tie_is_broken_by_the_caller_and_said_so():
     rng = np.random.default_rng(6)
     i = np.linspace(1.5, 3.0, 15)
     v = shockley_drop_v(i, 1.8, 5e-9, 0.03, 25.0) + rng.normal(0, 2e-3, i.size)
-    plain = fit_auto(i, v, 25.0)
+    plain = fit_auto(i, v, temperature_c=25.0)
     assert abs(plain.criterion["resistive"] - plain.criterion["diode"]) < 2.0
     assert plain.model == "resistive" and "simpler model" in plain.reason
-    told = fit_auto(i, v, 25.0, tie_break="diode", tie_why="the run records a rectifier element")
+    told = fit_auto(i, v, temperature_c=25.0, tie_break="diode", tie_why="the run records a rectifier element")
     assert told.model == "diode" and "rectifier" in told.reason

@@ -142,6 +142,7 @@ def test_knee_line_uses_the_upper_currents():
     assert wide.points == i.size and wide.params["r_d_ohm"] > 0.05
 
 
+@pytest.mark.slow
 def test_false_flag_rate_on_clean_sweeps_is_the_rules_alpha():
     # The Bonferroni outlier test (Weisberg, Applied Linear Regression §9.1.3) flags a clean sweep
     # with probability <= α = 0.01. Over 1000 seeded clean sweeps we expect <= 10 flagged

@@ -81,12 +81,12 @@ def test_diode_heating_lowers_the_down_pass():
         return float(shockley_drop_v(current, 1.6, 1e-9, 0.02, 25.0)) + tc * rise
 
     frame = add_noise(updown_frame(np.linspace(0.1, 3, 20), diode, tau_steps=4.0), 2e-4, 4)
-    fit = fit_diode(frame.current_a, frame.drop_v, 25.0, point_index=frame["index"])
+    fit = fit_diode(frame.current_a, frame.drop_v, temperature_c=25.0, point_index=frame["index"])
     result = detect_self_heating(frame, fit, tempco_per_k=tc)
     assert result.detected and "hysteresis" in result.reason
     assert result.updown_shift_v < 0 and result.updown_delta_t_c > 0
     clean = add_noise(updown_frame(np.linspace(0.1, 3, 20), lambda i, r: diode(i, 0.0)), 2e-4, 5)
-    fit_c = fit_diode(clean.current_a, clean.drop_v, 25.0, point_index=clean["index"])
+    fit_c = fit_diode(clean.current_a, clean.drop_v, temperature_c=25.0, point_index=clean["index"])
     assert not detect_self_heating(clean, fit_c, tempco_per_k=tc).detected
 
 

@@ -78,7 +78,7 @@ def test_rectifier_sweep_recovers_truth_within_expanded_uncertainty(sim_bench):
     truth = running.truth()
     currents = np.geomspace(0.2, 4.0, 16)
     i, v = sweep(running, currents, 10.0)
-    fit = fit_diode(i, v, 25.0, accuracy_for(10.0))
+    fit = fit_diode(i, v, accuracy_for(10.0), temperature_c=25.0)
     for key in ("ideality", "i_s_a", "r_s_ohm"):
         assert abs(fit.params[key] - truth[key]) <= fit.expanded_u[key], key
     budget = fit.drop_budget_at(1.0)

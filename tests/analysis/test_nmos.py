@@ -20,7 +20,7 @@ from benchlog.analysis.predict import predict
 from benchlog.cli import main
 from benchlog.specfiles import load_spec
 from benchlog.sweep.plan import load_plan
-from benchlog.sweep.session import run_sweep
+from benchlog.cli.simbench import sweep_on_builtin_bench
 
 from .spec_texts import PMOS, spec
 
@@ -43,7 +43,7 @@ def cli(*argv):
 def nmos_runs(tmp_path_factory):
     """Three N-MOSFET prototype sweeps on the built-in simulated bench, each a different seeded part."""
     out = tmp_path_factory.mktemp("nmos")
-    runs = [run_sweep(load_plan(DEMO / "plans" / "nmos-prototype.toml"), None, out / f"s{s}", seed=s)
+    runs = [sweep_on_builtin_bench(load_plan(DEMO / "plans" / "nmos-prototype.toml"), out / f"s{s}", seed=s)
             for s in (3, 4, 5)]
     assert all(r.outcome == "complete" for r in runs)
     return [r.run_file for r in runs]

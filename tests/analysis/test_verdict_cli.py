@@ -13,7 +13,7 @@ from benchlog.specfiles import load_spec
 from benchlog.analysis.verdict import decide
 from benchlog.cli import main
 from benchlog.sweep.plan import load_plan
-from benchlog.sweep.session import run_sweep
+from benchlog.cli.simbench import sweep_on_builtin_bench
 
 DEMO = Path(benchlog.__file__).parent / "demo"
 PFET = DEMO / "specs" / "demo-pfet-10m.toml"
@@ -34,8 +34,8 @@ def cli(*argv):
 def runs(tmp_path_factory):
     """A P-MOSFET prototype sweep and three boards of the lot plan, each a different seeded part."""
     out = tmp_path_factory.mktemp("runs")
-    proto = run_sweep(load_plan(DEMO / "plans" / "pmos-prototype.toml"), None, out, seed=3)
-    lot = [run_sweep(load_plan(DEMO / "plans" / "lot-inspection.toml"), None, out / f"b{s}", seed=s)
+    proto = sweep_on_builtin_bench(load_plan(DEMO / "plans" / "pmos-prototype.toml"), out, seed=3)
+    lot = [sweep_on_builtin_bench(load_plan(DEMO / "plans" / "lot-inspection.toml"), out / f"b{s}", seed=s)
            for s in (11, 12, 13)]
     assert proto.outcome == "complete" and all(r.outcome == "complete" for r in lot)
     return {"proto": proto.run_file, "lot": [r.run_file for r in lot]}

@@ -35,3 +35,15 @@ def test_first_paragraph_states_the_job():
     first = text.split("\n\n", 2)[1]
     for word in ("engineers", "protection", "SCPI", "fits", "verdict"):
         assert word in first
+
+
+def test_every_declared_pytest_marker_is_used():
+    # A marker declared in pyproject.toml and put on no test promises a selection (`-m slow`) that selects nothing.
+    import tomllib
+
+    declared = [m.split(":")[0].strip() for m in
+                tomllib.loads((ROOT / "pyproject.toml").read_text())["tool"]["pytest"]["ini_options"]["markers"]]
+    used = set()
+    for path in (ROOT / "tests").rglob("*.py"):
+        used |= set(re.findall(r"pytest\.mark\.(\w+)", path.read_text(encoding="utf-8")))
+    assert declared and [m for m in declared if m not in used] == []

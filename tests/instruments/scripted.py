@@ -2,14 +2,21 @@
 
 from __future__ import annotations
 
+from typing import Callable
+
 from benchlog.instruments.errors import ConnectionLost
 from benchlog.instruments.transport import Transport
 
 
 class ScriptedTransport(Transport):
-    """Records every write; answers queries from `replies` (exact text) and an error queue list."""
+    """Records every write; answers queries from `replies` and an error queue list.
 
-    def __init__(self, idn: str, replies: dict[str, str] | None = None, *, resource: str = "SCRIPTED::1") -> None:
+    A reply is the exact text, or a function of no arguments called at the query (it may look at
+    `sent`, so an answer can follow what the role commanded).
+    """
+
+    def __init__(self, idn: str, replies: dict[str, str | Callable[[], str]] | None = None, *,
+                 resource: str = "SCRIPTED::1") -> None:
         self.resource = resource
         self.idn = idn
         self.replies = dict(replies or {})
@@ -46,7 +53,8 @@ class ScriptedTransport(Transport):
             return self.errors.pop(0) if self.errors else '+0,"No error"'
         if command in self.state_queries and command not in self.replies:
             return "1" if self.power else "0"
-        return self.replies[command]
+        reply = self.replies[command]
+        return reply() if callable(reply) else reply
 
     def reopen(self) -> None:
         self.reopened += 1

@@ -18,11 +18,15 @@ import math
 import tempfile
 from pathlib import Path
 
+import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
 from benchlog.badinput import BadInput
 from benchlog.scpi.errors import ScpiReplyError
 from benchlog.scpi.replies import ErrorEntry, Idn, parse_error_entry, parse_idn
+
+#: many generated inputs: a stress check (`-m "not slow"` skips it)
+pytestmark = pytest.mark.slow
 
 ROOT = Path(__file__).resolve().parents[2]
 PLAN_TEXT = (Path(__file__).parent / "plans" / "pmos-40.toml").read_text(encoding="utf-8")

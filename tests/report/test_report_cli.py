@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 
 from benchlog.analysis.fits import fit_run
-from benchlog.analysis.lot import lot_from_runs
+from benchlog.report.lot_runs import lot_from_runs
 from benchlog.specfiles import load_spec
 from benchlog.analysis.verdict import check_run
 from benchlog.cli import main

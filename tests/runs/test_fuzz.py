@@ -5,6 +5,7 @@ from __future__ import annotations
 import tempfile
 from pathlib import Path
 
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -13,6 +14,9 @@ from benchlog.runs import RunWriter, load, read_events
 from benchlog.runs.events import Point
 
 from .samples import every_kind
+
+#: many generated inputs: a stress check (`-m "not slow"` skips it)
+pytestmark = pytest.mark.slow
 
 _DIR = Path(tempfile.mkdtemp(prefix="benchlog-fuzz-"))
 

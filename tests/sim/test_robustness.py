@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import pytest
 from hypothesis import given, settings, strategies as st
 
 from benchlog.scpi.replies import parse_error_entry
@@ -14,6 +15,7 @@ _WORDS = st.sampled_from(["VOLT", "CURR", "OUTP", "INP", "MEAS:VOLT?", "READ?", 
                           "1e3", "-5", "0.1", "INV", ";", ",", " ", ":", "?", '"', "NAN", "9.9E37"])
 
 
+@pytest.mark.slow
 @settings(max_examples=300, deadline=None)
 @given(st.one_of(st.text(max_size=80), st.lists(_WORDS, max_size=12).map("".join)))
 def test_any_message_yields_a_reply_or_a_queued_error(message):

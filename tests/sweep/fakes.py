@@ -2,15 +2,19 @@
 
 These stand in for instruments only in unit tests of timing and decision logic
 (dependency injection); every integration test talks to the simulated bench
-through real pyvisa-py instead.
+through real pyvisa-py instead. They keep the bench contract
+(`benchlog.instruments.contract`): `tests/instruments/test_contract.py` runs the
+same checks over them as over the real roles.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import math
-from types import SimpleNamespace
 
-from benchlog.instruments.errors import ConnectionLost
+from benchlog.instruments.errors import ConnectionLost, SafetyLimit
+from benchlog.instruments.profile import Limits, Profile, load_profile
+from benchlog.scpi.replies import Idn
 from benchlog.sweep.bench_file import BenchSetup, RoleSpec, Wiring
 from benchlog.sweep.rig import Rig
 
@@ -26,12 +30,22 @@ class FakeClock:
         self.now += seconds
 
 
-def _profile(name, **limits):
+def fake_profile(role: str, **limits) -> Profile:
+    """The sim profile of `role` renamed, with the fakes' limits and no accuracy entries (a real `Profile`)."""
     base = dict(max_voltage_v=30.0, max_current_a=5.0, voltage_ranges_v=(0.1, 1.0, 10.0),
                 current_ranges_a=(1.0, 3.0), nplc_choices=(), nplc_min=0.01, nplc_max=100.0, max_samples=10)
     base.update(limits)
-    return SimpleNamespace(name=name, sha256="0" * 64, limits=SimpleNamespace(**base), accuracy=(),
-                           has=lambda op: op == "set_samples")
+    sim = load_profile(f"sim-{role}")
+    return dataclasses.replace(sim, name=f"fake-{role}", sha256="0" * 64, accuracy=(), limits=Limits(**base))
+
+
+def _setpoint(role: "_Role", name: str, value: float, limit: float | None) -> float:
+    """The profile's limits, kept as the bench contract says: refused before anything changes."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) or value < 0:
+        raise SafetyLimit(f"{name} {value!r} refused", resource=role.resource, name=name, value=value)
+    if limit is not None and value > limit:
+        raise SafetyLimit(f"{name} {value:g} refused: above {limit:g}", resource=role.resource, name=name, value=value)
+    return float(value)
 
 
 class Element:
@@ -78,63 +92,70 @@ class Bench:
 
 
 class _Role:
-    def __init__(self, bench, name):
+    def __init__(self, bench, name, profile: Profile | None = None):
         self.bench, self.resource = bench, f"FAKE::{name}"
-        self.idn = f"FAKE,{name.upper()},0,1"
-        self.profile = _profile(f"fake-{name}")
+        self.idn = Idn("FAKE", name.upper(), "0", "1")
+        self.profile = profile if profile is not None else fake_profile(name)
         self.safe_calls = 0
         self.fail_after: int | None = None  # raise ConnectionLost after this many calls
         self.calls = 0
+        self.closed = False
 
     def _tick(self):
         self.calls += 1
         if self.fail_after is not None and self.calls > self.fail_after:
             raise ConnectionLost("connection reset by peer", resource=self.resource)
 
-    def check_errors(self, after=None):
+    def check_errors(self, after: str | None = None) -> None:
         pass
 
-    def sync(self):
+    def sync(self) -> None:
         self.bench.log.append(f"sync {self.resource}")
+
+    def close(self) -> None:
+        self.closed = True
 
 
 class FakeSupply(_Role):
-    def __init__(self, bench, *, readback_gain=1.0, can_reverse=True, reverse_leak_a=1e-6):
-        super().__init__(bench, "supply")
+    def __init__(self, bench, *, readback_gain=1.0, can_reverse=True, reverse_leak_a=1e-6, profile=None):
+        super().__init__(bench, "supply", profile)
         self.output_on, self.voltage_v, self.limit_a, self.reversed = False, 0.0, 0.0, False
         self.readback_gain, self.can_reverse, self.reverse_leak_a = readback_gain, can_reverse, reverse_leak_a
+        self.can_report_mode = True  # mode() always answers CV, CC or OFF
+        self.can_detect_trip = True
         self.trip = False
 
-    def set_voltage(self, v):
+    def set_voltage(self, voltage_v: float) -> None:
         self._tick()
-        self.voltage_v = v
-        self.bench.touch(f"V={v}")
+        self.voltage_v = _setpoint(self, "voltage_v", voltage_v, self.profile.limits.max_voltage_v)
+        self.bench.touch(f"V={voltage_v}")
 
-    def set_current_limit(self, a):
+    def set_current_limit(self, current_a: float) -> None:
         self._tick()
-        self.limit_a = a
-        self.bench.touch(f"I={a}")
+        self.limit_a = _setpoint(self, "current_a", current_a, self.profile.limits.max_current_a)
+        self.bench.touch(f"I={current_a}")
 
-    def set_output(self, on):
+    def set_output(self, on: bool) -> None:
         self._tick()
         self.output_on = bool(on)
         self.bench.touch(f"out={on}")
 
-    def set_reversed(self, on):
-        assert not self.output_on
+    def set_reversed(self, on: bool) -> None:
+        if self.output_on:
+            raise SafetyLimit("polarity change refused: switch the output off first", resource=self.resource)
         self.reversed = bool(on)
 
-    def measure_current(self):
+    def measure_current(self) -> float:
         self._tick()
         if self.reversed:
             return self.reverse_leak_a if self.output_on else 0.0
         return self.bench.current() * self.readback_gain
 
-    def measure_voltage(self):
+    def measure_voltage(self) -> float:
         self._tick()
         return self.voltage_v if self.output_on else 0.0
 
-    def mode(self):
+    def mode(self) -> str:
         self._tick()
         if self.trip:
             self.output_on = False
@@ -146,34 +167,38 @@ class FakeSupply(_Role):
             return "CC" if self.bench.element.drop(self.limit_a) <= self.voltage_v else "CV"
         return "CV"
 
-    def tripped(self):
+    def tripped(self) -> bool:
         return self.trip
 
-    def safe_state(self):
+    def safe_state(self) -> None:
         self.safe_calls += 1
         self.output_on = False
         self.voltage_v = self.limit_a = 0.0
 
 
 class FakeLoad(_Role):
-    def __init__(self, bench):
-        super().__init__(bench, "load")
+    def __init__(self, bench, *, profile=None):
+        super().__init__(bench, "load", profile)
         self.input_on, self.current_a = False, 0.0
 
-    def set_current(self, a):
+    def set_current(self, current_a: float) -> None:
         self._tick()
-        self.current_a = a
-        self.bench.touch(f"load={a}")
+        self.current_a = _setpoint(self, "current_a", current_a, self.profile.limits.max_current_a)
+        self.bench.touch(f"load={current_a}")
 
-    def set_input(self, on):
+    def set_input(self, on: bool) -> None:
         self._tick()
         self.input_on = bool(on)
         self.bench.touch(f"in={on}")
 
-    def measure_current(self):
+    def measure_current(self) -> float:
         return self.bench.current()
 
-    def safe_state(self):
+    def measure_voltage(self) -> float:
+        s = self.bench.supply
+        return s.voltage_v if s.output_on and self.input_on else 0.0
+
+    def safe_state(self) -> None:
         self.safe_calls += 1
         self.input_on = False
         self.current_a = 0.0
@@ -182,19 +207,39 @@ class FakeLoad(_Role):
 class FakeMeter(_Role):
     """Reads the element drop; after a change it relaxes with time constant tau_s (exponential)."""
 
-    def __init__(self, bench, samples_overload_above=None):
-        super().__init__(bench, "meter")
+    def __init__(self, bench, samples_overload_above=None, *, profile=None):
+        super().__init__(bench, "meter", profile)
         self.reads = 0
         self.samples = 1
+        self.nplc: float | None = None
         self.overload_above = samples_overload_above
 
-    def configure_voltage(self, range_v, nplc):
-        self.range_v = range_v
+    def _range(self, value: float, ranges: tuple[float, ...], name: str) -> float:
+        if value not in ranges:
+            raise SafetyLimit(f"{name} {value!r} refused: not a range of {self.profile.name}",
+                              resource=self.resource, name=name, value=value)
+        return value
 
-    def set_samples(self, n):
-        self.samples = n
+    def _nplc(self, nplc: float) -> float:
+        lim = self.profile.limits
+        if not (lim.nplc_min or 0.0) <= nplc <= (lim.nplc_max or math.inf):
+            raise SafetyLimit(f"nplc {nplc:g} refused", resource=self.resource, name="nplc", value=nplc)
+        return nplc
 
-    def read(self):
+    def configure_voltage(self, range_v: float, nplc: float) -> None:
+        self.range_v = self._range(range_v, self.profile.limits.voltage_ranges_v, "range_v")
+        self.nplc = self._nplc(nplc)
+
+    def configure_current(self, range_a: float, nplc: float) -> None:
+        self.range_a = self._range(range_a, self.profile.limits.current_ranges_a, "range_a")
+        self.nplc = self._nplc(nplc)
+
+    def set_samples(self, count: int) -> None:
+        if isinstance(count, bool) or not isinstance(count, int) or not 1 <= count <= self.profile.limits.max_samples:
+            raise SafetyLimit(f"sample count {count!r} refused", resource=self.resource, name="count", value=count)
+        self.samples = count
+
+    def read(self) -> tuple[float | None, ...]:
         self._tick()
         b = self.bench
         b.clock.now += b.read_s
@@ -206,7 +251,7 @@ class FakeMeter(_Role):
             return (None,) * self.samples
         return (final,) * self.samples
 
-    def safe_state(self):
+    def safe_state(self) -> None:
         self.safe_calls += 1
 
 

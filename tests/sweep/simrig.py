@@ -9,7 +9,7 @@ from benchlog.sweep.feasibility import check_plan_on_bench, check_plan_on_rig
 from benchlog.sweep.plan import parse_plan
 from benchlog.sweep.rig import open_rig
 from benchlog.sweep.runner import SweepRunner
-from benchlog.sweep.simbench import SIM_PROFILES, sim_wiring
+from benchlog.cli.simbench import SIM_PROFILES, sim_wiring
 
 
 def setup_for(running, wiring: Wiring | None = None, element: str | None = None) -> BenchSetup:

@@ -28,7 +28,7 @@ def _rel_u(kind, rec, operating_a):
     if kind == "pmos":
         fit = fit_resistive(i, v, acc)
         return fit.std_u["r_on_ohm"] / fit.params["r_on_ohm"]
-    value, u = fit_diode(i, v, 25.0, acc).drop_at(operating_a)
+    value, u = fit_diode(i, v, acc, temperature_c=25.0).drop_at(operating_a)
     return u / value
 
 

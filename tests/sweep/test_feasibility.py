@@ -13,6 +13,8 @@ from benchlog.sweep.feasibility import check_plan_on_bench, check_plan_on_rig
 from benchlog.sweep.plan import parse_plan
 from benchlog.sweep.rig import Rig
 
+from .fakes import Bench, Element, FakeClock, FakeLoad, FakeMeter, FakeSupply
+
 PMOS = """
 [element]
 id = "Q1"
@@ -106,15 +108,12 @@ def test_nmos_load_wiring_needs_enough_input_for_the_gate():
     assert check_plan_on_bench(p, bench("load", input_v=12.0, current_from="load")) == []
 
 
-class _Role:
-    def __init__(self, profile, can_reverse=False):
-        self.profile, self.can_reverse = profile, can_reverse
-
-
 def rig_with(supply_profile, plan_obj, force="supply"):
     setup = bench(force, input_v=12.0 if force == "load" else None)
-    supply = _Role(supply_profile, can_reverse=supply_profile.has("polarity_reversed"))
-    return Rig(setup, meter=_Role(load_profile("sim-meter")), supply=supply, load=_Role(load_profile("sim-load")))
+    fakes = Bench(FakeClock(), Element(), force=force)
+    supply = FakeSupply(fakes, can_reverse=supply_profile.has("polarity_reversed"), profile=supply_profile)
+    return Rig(setup, meter=FakeMeter(fakes, profile=load_profile("sim-meter")), supply=supply,
+               load=FakeLoad(fakes, profile=load_profile("sim-load")))
 
 
 RECT = PMOS.replace('kind = "pmos"', 'kind = "rectifier"')

@@ -13,6 +13,7 @@ from types import SimpleNamespace
 
 import pytest
 
+from benchlog.cli.simbench import builtin_bench, sweep_on_builtin_bench
 from benchlog.instruments import open_role
 from benchlog.instruments.profile import load_profile
 from benchlog.instruments.roles import Supply
@@ -20,8 +21,6 @@ from benchlog.runs.events import Note
 from benchlog.sweep.bench_file import Wiring
 from benchlog.sweep.plan import parse_plan
 from benchlog.sweep.protection import protection_levels, protection_warning
-from benchlog.sweep.session import run_sweep
-from benchlog.sweep.simbench import builtin_bench
 
 from ..instruments.scripted import ScriptedTransport
 
@@ -126,7 +125,7 @@ def test_the_output_timer_switches_off_after_its_time(sim_bench):
 def test_a_sweep_programs_the_protection_before_power_on(tmp_path):
     plan = parse_plan(PLAN.format(extra=""), "plan.toml")
     events = []
-    result = run_sweep(plan, None, tmp_path, on_event=events.append, on_safe_state=lambda report: None)
+    result = sweep_on_builtin_bench(plan, tmp_path, on_event=events.append, on_safe_state=lambda report: None)
     assert result.outcome == "complete" and result.safe_state == "verified"
     notes = [e.message for e in events if isinstance(e, Note) and e.kind == "info"]
     assert "supply protection set before power-on: over-voltage 5.5 V, over-current 2.2 A, output timer 210 s" \

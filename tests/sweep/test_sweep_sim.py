@@ -18,7 +18,7 @@ from benchlog.badinput import BadInput
 from benchlog.runs import load, read_events, replay
 from benchlog.runs.events import Note, Point, ReverseResult, RunFinished
 from benchlog.sweep.bench_file import Wiring
-from benchlog.sweep.simbench import sim_wiring
+from benchlog.cli.simbench import sim_wiring
 
 from .simrig import parse, plan_text, record, setup_for
 
@@ -219,6 +219,7 @@ def test_replay_yields_exactly_the_recorded_events(sim_bench, tmp_path):
 # -- scale ------------------------------------------------------------------------
 
 
+@pytest.mark.slow
 def test_ten_thousand_points_against_the_zero_latency_sim(sim_bench, tmp_path):
     running = sim_bench("resistor", seed=13, latency_s=0.0)
     plan = parse(plan_text("resistor", steps="mode = 'linear'\nstart_a = 0.001\nstop_a = 1.0\ncount = 10000",

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from benchlog.cli.simbench import builtin_bench
 from benchlog.tui.app import BenchApp
 from benchlog.tui.launch import demo_plan, demo_specs, spec_for_kind
 from benchlog.tui.session import BenchSession
@@ -47,7 +48,7 @@ def demo_app(runs: Path, plan: Path, **session_options) -> BenchApp:
     from benchlog.sweep.plan import load_plan
 
     element = load_plan(plan).element
-    session = BenchSession.simulated(element, runs_dir=runs, seed=3, **session_options)
+    session = BenchSession.simulated(element, builtin_bench, runs_dir=runs, seed=3, **session_options)
     specs = demo_specs()
     return BenchApp(session, runs_dir=runs, plans=[plan], specs=specs, plan=plan,
                     spec=spec_for_kind(element.kind, specs))
@@ -163,7 +164,7 @@ async def test_the_nmos_kind_is_picked_run_and_judged_with_the_footer_keys(tmp_p
     start = demo_plan("pmos-prototype")
     from benchlog.sweep.plan import load_plan
 
-    session = BenchSession.simulated(load_plan(start).element, runs_dir=tmp_path / "runs", seed=3)
+    session = BenchSession.simulated(load_plan(start).element, builtin_bench, runs_dir=tmp_path / "runs", seed=3)
     specs = demo_specs()
     app = BenchApp(session, runs_dir=tmp_path / "runs", plans=plans, specs=specs, plan=start,
                    spec=spec_for_kind("pmos", specs))

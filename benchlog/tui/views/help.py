@@ -27,13 +27,11 @@ class HelpView(View):
 
     def refresh_view(self) -> None:
         super().refresh_view()
-        from . import VIEWS
-
         lines = ["", "Everywhere:"]
         for binding in self.app.BINDINGS:
             if binding.show:
                 lines.append(f"  {self.app.get_key_display(binding):>6}  {binding.description}")
-        for name, view in VIEWS.items():
+        for name, view in self.app.MODES.items():  # the app's views, in their key order
             if name == "help":
                 continue
             keys = [b for b in view.BINDINGS if getattr(b, "show", True)]

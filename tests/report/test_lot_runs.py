@@ -14,7 +14,8 @@ import numpy as np
 import pytest
 
 from benchlog.analysis.fits import fit_run
-from benchlog.analysis.lot import fit_points, lot_from_runs, lot_model
+from benchlog.analysis.lot import fit_points, lot_model
+from benchlog.report.lot_runs import lot_from_runs
 from benchlog.specfiles import load_spec
 from benchlog.analysis.verdict import run_conditions
 from benchlog.badinput import BadInput

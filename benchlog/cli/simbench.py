@@ -2,17 +2,20 @@
 
 The simulator is started in-process on ephemeral loopback ports and reached
 through real pyvisa-py sockets, exactly like hardware; this module only picks
-a wiring that suits the element and names the sim profiles.
+a wiring that suits the element and names the sim profiles. It lives in `cli/`,
+the one layer that composes a simulated bench with a sweep: the UI gets
+`builtin_bench` as an argument, and `sweep/` never imports `sim/`.
 """
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 from benchlog.kinds import kind as element_kind
-
-from .bench_file import BenchSetup, RoleSpec, Wiring
-from .plan import Element
+from benchlog.sweep.bench_file import BenchSetup, RoleSpec, Wiring
+from benchlog.sweep.plan import Element, Plan
+from benchlog.sweep.session import SweepResult, run_sweep
 
 #: Input voltage of the load wiring: a typical 12 V rail fully enhances a MOSFET whose gate is tied to the supply.
 SIM_INPUT_V = 12.0
@@ -71,3 +74,19 @@ def builtin_bench(
         running.stop()
         raise
     return setup, running
+
+
+def plan_wiring(plan: Plan) -> Wiring:
+    """The sim wiring for a plan: a reverse test needs a series current meter (the supply's read-back cannot
+    resolve leakage)."""
+    return sim_wiring(plan.element, current_from="meter" if plan.reverse is not None else "supply")
+
+
+def sweep_on_builtin_bench(plan: Plan, out_dir: str | Path, *, seed: int = 0,
+                           sim_options: dict[str, Any] | None = None, **run_options: Any) -> SweepResult:
+    """`sweep.session.run_sweep` on a simulated bench started for the plan's element and stopped afterwards."""
+    bench, running = builtin_bench(plan.element, seed, wiring=plan_wiring(plan), **(sim_options or {}))
+    try:
+        return run_sweep(plan, bench, out_dir, **run_options)
+    finally:
+        running.stop()
