@@ -20,7 +20,7 @@ from .fit_resistive import fit_knee, fit_resistive, studentised_residuals
 from .fit_result import OUTLIER_RULE, FitError, FitResult
 from .model_choice import aicc, fit_auto
 from .self_heating import SelfHeating, detect_self_heating
-from .uncertainty import MeasurementAccuracy
+from .uncertainty import Component, MeasurementAccuracy
 
 __all__ = [
     "FitError",
@@ -100,7 +100,7 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
         raise BadInput(source, "--model", f"unknown model {model!r}", " or ".join(MODELS))
     header = getattr(meta, "header", None) or {}
     accuracy = MeasurementAccuracy.from_header(header, source)
-    if accuracy.drop is None and accuracy.current is None:
+    if accuracy.empty:
         accuracy = None
     rows, notes = usable_points(frame)
     every = bool(rows.all())  # the usual case: no copies of a long run
@@ -136,4 +136,59 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
         raise BadInput(source, "points", str(exc), f"a sweep the {model} model can be fitted to") from exc
     from dataclasses import replace
 
-    return replace(fit, notes=tuple(notes) + fit.notes)
+    fit = replace(fit, notes=tuple(notes) + fit.notes)
+    return with_temperature_term(fit, frame, meta)
+
+
+def with_temperature_term(fit: FitResult, frame, meta) -> FitResult:
+    """The fit with the junction temperature it stands at and a temperature term in its budgets.
+
+    Without a part spec the kind's common-practice coefficient is used (`judging.default_sensitivity`);
+    a verdict replaces the term by the spec's own (`judging.judge`). u(Tj) as in `junction`.
+    """
+    from dataclasses import replace
+
+    from .fit_result import budgets_to_dicts
+    from .judging import TEMPERATURE_TERM, default_sensitivity
+    from .junction import ambient_u, junction_temperature, sweep_heating
+    from .uncertainty import combine
+
+    header = getattr(meta, "header", None) or {}
+    element = getattr(meta, "element", None) or header.get("element") or {}
+    bench = header.get("bench") if isinstance(header.get("bench"), dict) else {}
+    kind = str(element.get("kind") or "")
+    if kind == "pmos" and element.get("measure") == "body_diode" and fit.model == "diode":
+        kind = "rectifier"  # a silicon junction
+    found = default_sensitivity(kind, fit.model)
+    if found is None or not fit.params:
+        return fit
+    tc, why = found
+    ambient, _ = run_temperature_c(frame, meta)
+    u_amb, amb_why = ambient_u(element, bool(bench.get("simulated")))
+    measured = frame["temperature_c"].to_numpy(dtype=float) if "temperature_c" in frame.columns else None
+    if fit.model == "diode":
+        top = float(np.max(fit.current_a))
+        grad = fit.curve.gradient(np.array([top]))[0]
+        heating = sweep_heating(fit, lambda i, v: np.full_like(i, tc), grad, tc)
+        drop_tempco = ("absolute", tc)
+    else:
+        slope_key = "r_on_ohm" if fit.model == "resistive" else "r_d_ohm"
+        r = fit.params[slope_key]
+        heating = sweep_heating(fit, lambda i, v: r * tc * i, np.array([0.0, 1.0]), r * tc)
+        drop_tempco = ("relative", tc)
+    tj = junction_temperature(ambient, u_amb, amb_why, heating, measured)
+    budgets = dict(fit.budgets)
+    for key, b in fit.budgets.items():
+        if key in ("r_on_ohm", "r_d_ohm"):
+            sens = abs(fit.params[key] * tc)
+        elif key == "v_knee_v":
+            sens = abs(fit.params[key] * tc)
+        else:
+            continue
+        comps = [c for c in b.components if c.name != TEMPERATURE_TERM]
+        comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c))
+        budgets[key] = combine(comps, b.k)
+    std_u, expanded = budgets_to_dicts(budgets)
+    note = f"junction temperature: {tj.text()}; temperature coefficient: {why}"
+    return replace(fit, budgets=budgets, std_u=std_u, expanded_u=expanded, tj=tj, drop_tempco=drop_tempco,
+                   notes=fit.notes + (note,))

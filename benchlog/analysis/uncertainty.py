@@ -57,12 +57,51 @@ def type_b_u(value: float, acc: Accuracy) -> float:
     return acc.half_width(value) / SQRT3
 
 
+#: What reads the current, by the bench's [wiring].current_from: the budget names each source for what it is.
+CURRENT_SOURCE_NAMES = {
+    "supply": "supply read-back",
+    "load": "load read-back",
+    "meter": "series meter",
+    "shunt": "shunt meter reading",
+}
+
+#: How far a shunt's temperature is taken to stray while it carries the test current, when nothing
+#: better is known: ±10 K, rectangular (from memory: a shunt run at a fraction of its rating warms by a
+#: few kelvin to some tens of kelvin).
+SHUNT_TEMPERATURE_HALF_WIDTH_K = 10.0
+
+
 @dataclass(frozen=True)
 class MeasurementAccuracy:
-    """The accuracy of the two readings a sweep makes: the element drop and the current."""
+    """The accuracy of the two readings a sweep makes: the element drop and the current.
+
+    `current_from` names what reads the current (the bench's wiring); with a shunt,
+    its tolerance and temperature coefficient are two more gain errors of the current
+    (I = V/R_shunt), rectangular (GUM 4.3.7).
+    """
 
     drop: Accuracy | None = None
     current: Accuracy | None = None
+    current_from: str = ""
+    shunt_tolerance_pct: float | None = None
+    shunt_tempco_ppm_per_k: float | None = None
+
+    @property
+    def current_name(self) -> str:
+        """The current reading's name in a budget ("load read-back", "series meter", ...)."""
+        return CURRENT_SOURCE_NAMES.get(self.current_from, "current reading")
+
+    def current_gain_terms(self) -> list[tuple[str, float]]:
+        """(name, relative standard uncertainty) of each gain error of the current reading."""
+        terms = []
+        if self.current is not None:
+            terms.append((f"{self.current_name} gain", self.current.gain_u))
+        if self.shunt_tolerance_pct is not None:
+            terms.append(("shunt tolerance", self.shunt_tolerance_pct / 100.0 / SQRT3))
+        if self.shunt_tempco_ppm_per_k is not None:
+            terms.append(("shunt tempco", abs(self.shunt_tempco_ppm_per_k) * 1e-6
+                          * SHUNT_TEMPERATURE_HALF_WIDTH_K / SQRT3))
+        return terms
 
     @classmethod
     def from_header(cls, header: Mapping[str, Any], source: str = "run header") -> "MeasurementAccuracy":
@@ -72,14 +111,33 @@ class MeasurementAccuracy:
         a present but malformed one is bad input.
         """
         block = header.get("accuracy")
+        bench = header.get("bench") if isinstance(header.get("bench"), Mapping) else {}
+        wiring = bench.get("wiring") if isinstance(bench.get("wiring"), Mapping) else {}
+        current_from = wiring.get("current_from") if isinstance(wiring.get("current_from"), str) else ""
+        shunt = {key: _optional_number(wiring, key, source) for key in ("shunt_tolerance_pct", "shunt_tempco_ppm_per_k")}
         if block is None:
-            return cls()
+            return cls(current_from=current_from, **shunt)
         if not isinstance(block, Mapping):
             raise BadInput(source, "accuracy", f"is {type(block).__name__}", "a table with drop/current")
         return cls(
             drop=_accuracy_entry(block, "drop", "range_v", source),
             current=_accuracy_entry(block, "current", "range_a", source),
+            current_from=current_from,
+            **shunt,
         )
+
+    @property
+    def empty(self) -> bool:
+        return self.drop is None and self.current is None and not self.current_gain_terms()
+
+
+def _optional_number(table: Mapping[str, Any], key: str, source: str) -> float | None:
+    raw = table.get(key)
+    if raw is None:
+        return None
+    if isinstance(raw, bool) or not isinstance(raw, (int, float)) or not math.isfinite(raw) or raw < 0:
+        raise BadInput(source, f"bench.wiring.{key}", f"is {raw!r}", "a finite number >= 0")
+    return float(raw)
 
 
 def _accuracy_entry(block: Mapping[str, Any], role: str, range_key: str, source: str) -> Accuracy | None:
