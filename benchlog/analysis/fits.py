@@ -157,9 +157,7 @@ def with_temperature_term(fit: FitResult, frame, meta) -> FitResult:
     element = getattr(meta, "element", None) or header.get("element") or {}
     bench = header.get("bench") if isinstance(header.get("bench"), dict) else {}
     kind = str(element.get("kind") or "")
-    if kind == "pmos" and element.get("measure") == "body_diode" and fit.model == "diode":
-        kind = "rectifier"  # a silicon junction
-    found = default_sensitivity(kind, fit.model)
+    found = default_sensitivity(kind, fit.model, body_diode=element.get("measure") == "body_diode")
     if found is None or not fit.params:
         return fit
     tc, why = found

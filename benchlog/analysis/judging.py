@@ -36,7 +36,7 @@ from .junction import JunctionTemperature, ambient_u, junction_temperature, swee
 from .predict import channel_model, predict
 from benchlog.kinds import ELEMENT_KINDS as _REGISTRY, kind as element_kind
 
-from .spec import DEFAULT_RDS_ON_TEMPCO_PER_K, PartSpec
+from .spec import DEFAULT_RDS_ON_TEMPCO_PER_K, MosfetSpec, PartSpec, ResistorSpec
 from .uncertainty import Budget, Component, combine
 from .verdict import (
     Extrapolation,
@@ -59,8 +59,7 @@ OFFSET_NOISE_TERM = "zero-offset reading noise"
 
 
 def is_channel(spec: PartSpec, body_diode: bool) -> bool:
-    family = spec.element.family
-    return (family == "mosfet" and not body_diode) or family == "resistor"
+    return (isinstance(spec.part, MosfetSpec) and not body_diode) or isinstance(spec.part, ResistorSpec)
 
 
 def quantity_of(spec: PartSpec, body_diode: bool) -> str:
@@ -74,7 +73,7 @@ def fit_model_of(spec: PartSpec, body_diode: bool) -> str:
 # --------------------------------------------------------------------------- temperature sensitivity
 def relative_tempco(spec: PartSpec, tj_c: float) -> tuple[float, str]:
     """(1/R)·dR/dT at Tj for a channel or a resistor, from the spec's curve or coefficient."""
-    if spec.element.family == "resistor":
+    if isinstance(spec.part, ResistorSpec):
         r = spec.part
         a = r.resistance_tempco_per_k
         return a / (1.0 + a * (tj_c - r.resistance_at_c)), f"the spec's resistance tempco {a:g}/K"
@@ -102,8 +101,12 @@ def vf_tempco(spec: PartSpec, body_diode: bool) -> tuple[float, str]:
     return value, why
 
 
-def default_sensitivity(kind: str, model: str) -> tuple[float, str] | None:
+def default_sensitivity(kind: str, model: str, body_diode: bool = False) -> tuple[float, str] | None:
     """A fit without a spec: the kind's common-practice coefficient (relative /K for a line, V/K for a diode)."""
+    if body_diode and model == "diode":
+        from .predict import BODY_VF_TEMPCO_V_PER_K
+
+        return BODY_VF_TEMPCO_V_PER_K, "a silicon body diode's −2 mV/K (common practice)"
     if kind not in _REGISTRY:
         return None
     k = element_kind(kind)
@@ -111,7 +114,7 @@ def default_sensitivity(kind: str, model: str) -> tuple[float, str] | None:
         return k.default_vf_tempco_v_per_k
     if model in ("resistive", "knee") and k.family == "mosfet":
         return DEFAULT_RDS_ON_TEMPCO_PER_K
-    if model in ("resistive", "knee") and k.family == "resistor":
+    if model in ("resistive", "knee") and k.family == ResistorSpec.family:
         return 1.0e-4, "a metal-strip current-sense resistor's ~100 ppm/K (from memory); give a spec for its own"
     return None
 
