@@ -63,16 +63,60 @@ class Accuracy:
 RANGE_KEYS = {"drop": "range_v", "current": "range_a"}
 
 
+#: What reads the current, by the bench's [wiring].current_from: the budget names each source for what it is.
+CURRENT_SOURCE_NAMES = {
+    "supply": "supply read-back",
+    "load": "load read-back",
+    "meter": "series meter",
+    "shunt": "shunt meter reading",
+}
+
+#: How far a shunt's temperature is taken to stray while it carries the test current, when nothing
+#: better is known: ±10 K, rectangular (from memory: a shunt run at a fraction of its rating warms by a
+#: few kelvin to some tens of kelvin).
+SHUNT_TEMPERATURE_HALF_WIDTH_K = 10.0
+
+
 @dataclass(frozen=True)
 class MeasurementAccuracy:
-    """The accuracy of the two readings a sweep makes: the element drop and the current (None: not known)."""
+    """The accuracy of the two readings a sweep makes: the element drop and the current (None: not known).
+
+    `current_from` names what reads the current (the bench's wiring); with a shunt, its
+    tolerance and temperature coefficient are two more gain errors of the current
+    (I = V/R_shunt), rectangular (GUM 4.3.7). These three come from the bench's wiring,
+    not from the header's `accuracy` table, and are not written into it.
+    """
 
     drop: Accuracy | None = None
     current: Accuracy | None = None
+    current_from: str = ""
+    shunt_tolerance_pct: float | None = None
+    shunt_tempco_ppm_per_k: float | None = None
 
     @property
     def known(self) -> bool:
         return self.drop is not None or self.current is not None
+
+    @property
+    def empty(self) -> bool:
+        return not self.known and not self.current_gain_terms()
+
+    @property
+    def current_name(self) -> str:
+        """The current reading's name in a budget ("load read-back", "series meter", ...)."""
+        return CURRENT_SOURCE_NAMES.get(self.current_from, "current reading")
+
+    def current_gain_terms(self) -> list[tuple[str, float]]:
+        """(name, relative standard uncertainty) of each gain error of the current reading."""
+        terms = []
+        if self.current is not None:
+            terms.append((f"{self.current_name} gain", self.current.gain_u))
+        if self.shunt_tolerance_pct is not None:
+            terms.append(("shunt tolerance", self.shunt_tolerance_pct / 100.0 / SQRT3))
+        if self.shunt_tempco_ppm_per_k is not None:
+            terms.append(("shunt tempco", abs(self.shunt_tempco_ppm_per_k) * 1e-6
+                          * SHUNT_TEMPERATURE_HALF_WIDTH_K / SQRT3))
+        return terms
 
     def to_table(self) -> dict[str, Any]:
         """The run header's `accuracy` table: {"drop": {reading_pct, range_pct, range_v}, "current": {..., range_a}}."""

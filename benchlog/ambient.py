@@ -6,3 +6,7 @@ place that has to assume an ambient says so in its notes.
 """
 
 DEFAULT_AMBIENT_C = 25.0
+
+#: The ambient next to a bench is known to about ±2 K when nobody measured it (from memory: a room
+#: thermostat's swing and the warm air above the instruments); read as rectangular (GUM 4.3.7).
+DEFAULT_AMBIENT_HALF_WIDTH_K = 2.0

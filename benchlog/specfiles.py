@@ -32,9 +32,24 @@ def spec_from_table(t: Table, path: str = "") -> PartSpec:
     name = t.string("name")
     if not name.strip():
         raise t.fail("name", "is empty", "the part's name")
+    zth_t = t.numbers("zth_t_s", None, positive=True, max=1e5, unit="s")
+    zth = t.numbers("zth_k_per_w", None, positive=True, max=1e4, unit="K/W")
+    if (zth_t is None) != (zth is None):
+        missing = "zth_k_per_w" if zth is None else "zth_t_s"
+        raise t.fail(missing, "is missing", "zth_t_s and zth_k_per_w as two lists of the same length")
+    if zth_t is not None:
+        if len(zth_t) != len(zth) or len(zth_t) < 2:
+            raise t.fail("zth_k_per_w", f"has {len(zth)} values for {len(zth_t)} pulse lengths",
+                         "two or more values, one per zth_t_s entry")
+        if any(b <= a for a, b in zip(zth_t, zth_t[1:])):
+            raise t.fail("zth_t_s", "is not strictly rising", "pulse lengths in rising order")
+        if any(b < a for a, b in zip(zth, zth[1:])):
+            raise t.fail("zth_k_per_w", "falls with a longer pulse", "a thermal impedance that rises with time")
     thermal = Thermal(
         rth_ja_k_per_w=t.number("rth_ja_k_per_w", None, positive=True, unit="K/W"),
         tj_max_c=t.number("tj_max_c", None, min=-55.0, max=400.0, unit="°C"),
+        zth_t_s=None if zth_t is None else tuple(zth_t),
+        zth_k_per_w=None if zth is None else tuple(zth),
     )
     part = _PART_READERS[family](t)
     return PartSpec(name=name, kind=kind, thermal=thermal, part=part, note=t.string("note", ""), path=path)

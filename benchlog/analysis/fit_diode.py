@@ -210,10 +210,12 @@ def fit_diode(
         shifts.append(("drop meter gain", curve.value(iw) * accuracy.drop.gain_u))
         if not offset_removed:
             shifts.append(("drop meter offset", np.full(iw.size, accuracy.drop.offset_u)))
-    if accuracy is not None and accuracy.current is not None:
+    if accuracy is not None:
         slope = curve.slope(iw)
-        shifts.append(("current meter gain", slope * iw * accuracy.current.gain_u))
-        shifts.append(("current meter offset", slope * accuracy.current.offset_u))
+        for name, rel in accuracy.current_gain_terms():
+            shifts.append((name, slope * iw * rel))
+        if accuracy.current is not None:
+            shifts.append((f"{accuracy.current_name} offset", slope * accuracy.current.offset_u))
     if not shifts:
         notes.append("no accuracy spec: type B omitted, uncertainty is type A only")
     projected = []
@@ -269,4 +271,5 @@ def fit_diode(
         excluded=excluded,
         unresolved=unres if some_unresolved else None,
         weights=weights,
+        b_shifts=tuple((name, np.asarray(dp, dtype=float)) for name, dp in projected),
     )

@@ -210,10 +210,12 @@ def _line_fit(
         v0_comps.append(Component("drop meter gain", "B", abs(v0) * accuracy.drop.gain_u))
         if not offset_removed:
             v0_comps.append(Component("drop meter offset", "B", accuracy.drop.offset_u))
-    if accuracy is not None and accuracy.current is not None:
-        r_comps.append(Component("current meter gain", "B", abs(r) * accuracy.current.gain_u))
-        v0_comps.append(Component("current meter offset", "B", abs(r) * accuracy.current.offset_u))
-    if accuracy is None or (accuracy.drop is None and accuracy.current is None):
+    if accuracy is not None:
+        for name, rel in accuracy.current_gain_terms():
+            r_comps.append(Component(name, "B", abs(r) * rel))
+        if accuracy.current is not None:
+            v0_comps.append(Component(f"{accuracy.current_name} offset", "B", abs(r) * accuracy.current.offset_u))
+    if accuracy is None or accuracy.empty:
         notes.append("no accuracy spec: type B omitted, uncertainty is type A only")
     v0_name, r_name = names
     budgets = {r_name: combine(r_comps), v0_name: combine(v0_comps)}

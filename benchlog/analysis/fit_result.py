@@ -133,6 +133,13 @@ class FitResult:
     excluded: np.ndarray | None = None  # zero weight: unresolved points, and outliers when asked to refit without
     unresolved: np.ndarray | None = None  # current (or a junction's drop) not resolved from zero (effective_variance)
     weights: np.ndarray | None = None  # the fit's weights 1/u_eff² (None: equal weights)
+    tj: object = None  # junction.JunctionTemperature the fit stands at, when `fits.fit_run` stated one
+    # the drop's temperature sensitivity behind the budget's temperature term: ("relative", 1/K) for a
+    # resistance (dV/dT = f(I)·α), ("absolute", V/K) for a junction
+    drop_tempco: tuple[str, float] | None = None
+    # each type B error's shift of the fitted parameters (the data's shift projected through the fit,
+    # GUM 5.1.3 to first order): the fit's own response to it, used for the drop at a current
+    b_shifts: tuple[tuple[str, np.ndarray], ...] | None = None
 
     @property
     def points(self) -> int:
@@ -158,7 +165,16 @@ class FitResult:
         g = self.curve.gradient(np.array([i]))[0]
         u_a = math.sqrt(max(float(g @ self.covariance @ g), 0.0))
         comps = [Component("fit residuals", "A", u_a, float(self.dof))]
-        comps += meter_components(self.accuracy, value, slope, i, self.offset_removed)
+        if self.b_shifts is not None:
+            # the curve follows part of each error (a current offset moves n and Is as well as the drop):
+            # its effect at I is ∇f(I)·Δp, not the first-order f'(I)·o of a curve that does not move
+            comps += [Component(name, "B", abs(float(g @ dp))) for name, dp in self.b_shifts]
+        else:
+            comps += meter_components(self.accuracy, value, slope, i, self.offset_removed)
+        if self.tj is not None and self.drop_tempco is not None:
+            how, tc = self.drop_tempco
+            sens = abs(value * tc) if how == "relative" else abs(tc)
+            comps.append(Component("junction temperature", "B", sens * self.tj.u_c))
         return combine(comps, self.k)
 
     def drop_at(self, current_a: float) -> tuple[float, float]:
@@ -178,9 +194,10 @@ def meter_components(
         comps.append(Component("drop meter gain", "B", abs(value) * accuracy.drop.gain_u))
         if not offset_removed:
             comps.append(Component("drop meter offset", "B", accuracy.drop.offset_u))
+    for name, rel in accuracy.current_gain_terms():
+        comps.append(Component(name, "B", abs(slope * current_a) * rel))
     if accuracy.current is not None:
-        comps.append(Component("current meter gain", "B", abs(slope * current_a) * accuracy.current.gain_u))
-        comps.append(Component("current meter offset", "B", abs(slope) * accuracy.current.offset_u))
+        comps.append(Component(f"{accuracy.current_name} offset", "B", abs(slope) * accuracy.current.offset_u))
     return comps
 
 

@@ -21,6 +21,7 @@ from .fit_resistive import fit_knee, fit_resistive, studentised_residuals
 from .fit_result import OUTLIER_RULE, FitError, FitResult
 from .model_choice import aicc, fit_auto
 from .self_heating import SelfHeating, detect_self_heating
+from .uncertainty import Component
 
 __all__ = [
     "FitError",
@@ -135,4 +136,94 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
         raise BadInput(source, "points", str(exc), f"a sweep the {model} model can be fitted to") from exc
     from dataclasses import replace
 
-    return replace(fit, notes=tuple(notes) + fit.notes)
+    fit = replace(fit, notes=tuple(notes) + fit.notes)
+    return with_temperature_term(fit, frame, meta)
+
+
+def with_temperature_term(fit: FitResult, frame, meta) -> FitResult:
+    """The fit with the junction temperature it stands at and a temperature term in its budgets.
+
+    Without a part spec the kind's common-practice coefficient is used (`tempco.default_sensitivity`);
+    a verdict replaces the term by the spec's own (`judging.judge`). u(Tj) as in `junction`.
+    """
+    from dataclasses import replace
+
+    from .fit_result import budgets_to_dicts
+    from .tempco import TEMPERATURE_TERM, default_sensitivity
+    from .junction import ambient_u, junction_temperature, sweep_heating
+    from .uncertainty import combine
+
+    header = meta.header
+    element = header.element
+    kind = element.kind or ""
+    found = default_sensitivity(kind, fit.model, body_diode=element.measure == "body_diode")
+    if found is None or not fit.params:
+        return fit
+    tc, why = found
+    from .columns import column
+
+    measured = column(frame, "temperature_c")
+    ambient, _ = run_temperature_c(measured if measured is not None else np.array([]), meta)
+    u_amb, amb_why = ambient_u(element.ambient_u_c, header.bench is not None and header.bench.simulated)
+    if fit.model == "diode":
+        top = float(np.max(fit.current_a))
+        grad = fit.curve.gradient(np.array([top]))[0]
+        heating = sweep_heating(fit, lambda i, v: np.full_like(i, tc), grad, tc)
+        drop_tempco = ("absolute", tc)
+    else:
+        slope_key = "r_on_ohm" if fit.model == "resistive" else "r_d_ohm"
+        r = fit.params[slope_key]
+        heating = sweep_heating(fit, lambda i, v: r * tc * i, np.array([0.0, 1.0]), r * tc)
+        drop_tempco = ("relative", tc)
+    tj = junction_temperature(ambient, u_amb, amb_why, heating, measured)
+    budgets = dict(fit.budgets)
+    for key, b in fit.budgets.items():
+        if key in ("r_on_ohm", "r_d_ohm"):
+            sens = abs(fit.params[key] * tc)
+        elif key == "v_knee_v":
+            sens = abs(fit.params[key] * tc)
+        else:
+            continue
+        comps = [c for c in b.components if c.name != TEMPERATURE_TERM]
+        comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c))
+        budgets[key] = combine(comps, b.k)
+    std_u, expanded = budgets_to_dicts(budgets)
+    note = f"junction temperature: {tj.text()}; temperature coefficient: {why}"
+    return replace(fit, budgets=budgets, std_u=std_u, expanded_u=expanded, tj=tj, drop_tempco=drop_tempco,
+                   notes=fit.notes + (note,))
+
+
+def fit_points(points, meta, model: str):
+    """`fits.fit_run(frame, meta, model)` for the arrays of `runs.load_points`, without a DataFrame per run.
+
+    The same points (finite current and drop, no overload flag), the header's accuracy,
+    the zero-current offset subtracted, the same temperature (`run_temperature_c`) and
+    the same BadInput when the model cannot be fitted; the test suite holds the two to
+    1e-12. `model` is "resistive" or "diode"; notes on left-out points are not kept
+    (the lot does not show per-run notes).
+    """
+    from .fit_diode import fit_diode
+    from .fit_resistive import fit_resistive
+    from .fit_result import FitError
+    source = str(meta.path)
+    accuracy = meta.header.accuracy if meta.header.accuracy.known else None
+    current, drop, index = points.current_a, points.drop_v, points.index
+    rows = np.isfinite(current) & np.isfinite(drop) & ~points.has_flag("overload")
+    if not rows.all():
+        current, drop, index = current[rows], drop[rows], index[rows]
+    offset = meta.offset_v
+    offset_removed = offset is not None and math.isfinite(float(offset))
+    if offset_removed:
+        drop = drop - float(offset)
+    temperature_c, _ = run_temperature_c(points.temperature_c, meta)
+    common = dict(offset_removed=offset_removed, exclude_outliers=False, point_index=index)
+    try:
+        if model == "resistive":
+            return with_temperature_term(fit_resistive(current, drop, accuracy, temperature_c=temperature_c,
+                                                       **common), points, meta)
+        if model == "diode":
+            return with_temperature_term(fit_diode(current, drop, accuracy, temperature_c=temperature_c, **common),
+                                         points, meta)
+    except FitError as exc:
+        raise BadInput(source, "points", str(exc), f"a sweep the {model} model can be fitted to") from exc
+    raise ValueError(f"fit_points fits 'resistive' or 'diode', not {model!r}")

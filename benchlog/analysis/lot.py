@@ -16,7 +16,7 @@ any part fails; otherwise conditional.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import PurePath
 from typing import Sequence
 
@@ -26,7 +26,8 @@ from scipy import stats
 from benchlog.badinput import BadInput
 
 from .spec import PartSpec
-from .verdict import RunConditions, decide_many, limit_envelope, rule_text, run_conditions
+from .fits import fit_points  # noqa: F401 - the lot's fit of one run's arrays
+from .verdict import RunConditions, decide_many, rule_text, run_conditions
 
 CAPABILITY_MIN = 1.33
 ESD_ALPHA = 0.05
@@ -146,8 +147,14 @@ def summarize(
     quantity: str = "value",
     limit_source: str = "",
     notes: Sequence[str] = (),
+    outcomes: Sequence[str] | None = None,
+    expanded_u: Sequence[float] | None = None,
 ) -> LotSummary:
-    """Summarise one value per part against the spec limits (module docstring)."""
+    """Summarise one value per part against the spec limits (module docstring).
+
+    `outcomes` (and `expanded_u`), when given, are each part's verdict from the one judging path
+    (`judging.judge`, at the part's own Tj and gate drive) and are used as they are.
+    """
     x = np.asarray(values, dtype=float)
     u = np.asarray(std_u, dtype=float)
     if x.ndim != 1 or x.size == 0 or u.shape != x.shape:
@@ -158,13 +165,15 @@ def summarize(
     mean = float(x.mean())
     sd = float(x.std(ddof=1)) if n >= 2 else None
     name, cap = capability(mean, sd if sd is not None else math.nan, usl, lsl)
-    big_u = k * u
+    big_u = k * u if expanded_u is None else np.asarray(expanded_u, dtype=float)
     outcome = np.full(n, "pass", dtype=object)
     for limit, side in ((usl, "upper"), (lsl, "lower")):
-        if limit is None:
+        if limit is None or outcomes is not None:
             continue
         o = decide_many(x, big_u, limit, side=side)
         outcome = np.where(o == "fail", "fail", np.where((o == "conditional") & (outcome != "fail"), "conditional", outcome))
+    if outcomes is not None:
+        outcome = np.asarray(list(outcomes), dtype=object)
     outliers, r = generalized_esd(x)
     counts = {c: int((outcome == c).sum()) for c in ("pass", "fail", "conditional")}
     more = list(notes)
@@ -200,43 +209,6 @@ def lot_quantity(spec: PartSpec, body_diode: bool = False) -> str:
     return spec.element.lot_quantity("body_diode" if body_diode else "channel")
 
 
-def _min_variant_spec(spec: PartSpec) -> PartSpec | None:
-    """The spec with its minimum in the place of the maximum, so `predict` gives the lower limit."""
-    return spec.min_as_max()
-
-
-def lot_limits(
-    spec: PartSpec, current_a: float, ambient_c: float, vin_v=None, zener_v=None, quantity: str | None = None
-) -> tuple[float | None, float | None, str, list[str]]:
-    """USL (and LSL where the spec has a minimum) of the lot quantity at the operating point."""
-    quantity = quantity or lot_quantity(spec)
-    notes: list[str] = []
-
-    def values(s: PartSpec) -> list[tuple[float, str]]:
-        # Both ends of the measurement's possible Tj (see verdict.LimitEnvelope).
-        env = limit_envelope(s, current_a, ambient_c, vin_v, zener_v)
-        preds = ((env.heated, "self-heated"),) if s.thermal.rth_ja_k_per_w is not None else ()
-        out = []
-        for pred, label in preds + ((env.cold, "unheated"),):
-            point = pred.limit
-            v = point.drop_v if quantity == "drop_v" else point.resistance_ohm
-            if v is not None and point.tj_c is not None:
-                out.append((v, f"{label} Tj {point.tj_c:.1f} °C"))
-        return out
-
-    high = values(spec)
-    usl, usl_at = max(high) if high else (None, "no prediction")
-    if not spec.has_max:
-        notes.append("the spec gives no maximum: the typical value is used as the upper limit")
-    low_spec = _min_variant_spec(spec)
-    low = values(low_spec) if low_spec is not None else []
-    lsl, lsl_at = min(low) if low else (None, "")
-    named = "maximum" if spec.has_max else "typical"
-    source = f"spec {named} of {quantity} at {current_a:.4g} A, ambient {ambient_c:g} °C ({usl_at}"
-    source += f"; the larger of {len(high)} junction temperatures)" if len(high) > 1 else ")"
-    if lsl is not None:
-        source += f"; minimum ({lsl_at})"
-    return usl, lsl, source, notes
 
 
 @dataclass(frozen=True)
@@ -249,46 +221,12 @@ class PartFit:
     serial: str
     run: str
     conditions: RunConditions
+    judgement: object  # judging.Judgement: the part's verdict at its own Tj and gate drive
 
 
 def lot_model(spec: PartSpec, body_diode: bool = False) -> str:
     """The fit model the spec kind implies: a channel or resistor is a line, a junction the diode law."""
     return "diode" if lot_quantity(spec, body_diode) == "drop_v" else "resistive"
-
-
-def fit_points(points, meta, model: str):
-    """`fits.fit_run(frame, meta, model)` for the arrays of `runs.load_points`, without a DataFrame per run.
-
-    The same points (finite current and drop, no overload flag), the header's accuracy,
-    the zero-current offset subtracted, the same temperature (`run_temperature_c`) and
-    the same BadInput when the model cannot be fitted; the test suite holds the two to
-    1e-12. `model` is "resistive" or "diode"; notes on left-out points are not kept
-    (the lot does not show per-run notes).
-    """
-    from .fit_diode import fit_diode
-    from .fit_resistive import fit_resistive
-    from .fit_result import FitError
-    from .fits import run_temperature_c
-    source = str(meta.path)
-    accuracy = meta.header.accuracy if meta.header.accuracy.known else None
-    current, drop, index = points.current_a, points.drop_v, points.index
-    rows = np.isfinite(current) & np.isfinite(drop) & ~points.has_flag("overload")
-    if not rows.all():
-        current, drop, index = current[rows], drop[rows], index[rows]
-    offset = meta.offset_v
-    offset_removed = offset is not None and math.isfinite(float(offset))
-    if offset_removed:
-        drop = drop - float(offset)
-    temperature_c, _ = run_temperature_c(points.temperature_c, meta)
-    common = dict(offset_removed=offset_removed, exclude_outliers=False, point_index=index)
-    try:
-        if model == "resistive":
-            return fit_resistive(current, drop, accuracy, temperature_c=temperature_c, **common)
-        if model == "diode":
-            return fit_diode(current, drop, accuracy, temperature_c=temperature_c, **common)
-    except FitError as exc:
-        raise BadInput(source, "points", str(exc), f"a sweep the {model} model can be fitted to") from exc
-    raise ValueError(f"fit_points fits 'resistive' or 'diode', not {model!r}")
 
 
 def fit_part(points, meta, run: str, spec: PartSpec, at_a: float | None, model: str | None,
@@ -297,28 +235,30 @@ def fit_part(points, meta, run: str, spec: PartSpec, at_a: float | None, model: 
 
     `model` None means this is the first run: the model and the Vf current come from it.
     """
+    from .judging import judge
+
     cond = run_conditions(points.current_a, points.supply_v, meta, spec, at_a)
     if model is None:
         model = lot_model(spec, cond.body_diode)
         vf_at_a = cond.current_a
+    elif cond.current_a != vf_at_a:  # every part at the first run's operating current
+        cond = replace(cond, current_a=float(vf_at_a), current_source="the lot's operating current (first run)")
     fit = fit_points(points, meta, model)
-    if model == "resistive":
-        value, u = fit.params["r_on_ohm"], fit.std_u["r_on_ohm"]
-    else:
-        value, u = fit.drop_at(vf_at_a)
+    j = judge(fit, points, meta, spec, cond)
     serial = meta.header.serial or meta.header.element.id or PurePath(run).stem
-    return PartFit(float(value), float(u), float(fit.k), serial, run, cond)
+    return PartFit(float(j.value), float(j.std_u), float(fit.k), serial, run, cond, j)
 
 
 def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
     """`summarize` the fitted parts against the spec's limits at the lot's operating point.
 
-    One limit applies to the whole lot: it is computed at the median ambient of the runs
-    and the operating current of the first run (every run of a lot should share both).
-    Each part was fitted with the model its spec kind implies (`lot_model`: the resistive
-    line for a P/N-MOSFET channel or a resistor, the diode law for a rectifier, a Schottky
-    or a body diode measured on purpose), not by the automatic model choice of
-    `benchlog fit`; the lot's notes say so.
+    Every part is judged by the one judging path (`judging.judge`): against the spec's limit at
+    its own junction temperature and gate drive, at the operating current of the first run, so
+    `check` on any one run gives the same verdict and U. The capability index uses the median
+    of the parts' limits. Each part was fitted with the model its spec kind implies
+    (`lot_model`: the resistive line for a P/N-MOSFET channel or a resistor, the diode law for
+    a rectifier, a Schottky or a body diode measured on purpose), not by the automatic model
+    choice of `benchlog fit`; the lot's notes say so.
     """
     if not parts:
         raise BadInput("argument", "RUN", "no run files given", "one or more run files")
@@ -326,8 +266,28 @@ def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
     quantity = lot_quantity(spec, cond.body_diode)
     model = lot_model(spec, cond.body_diode)
     ambients = [p.conditions.ambient_c for p in parts]
-    ambient = float(np.median(ambients))
-    usl, lsl, source, notes = lot_limits(spec, cond.current_a, ambient, cond.vin_v, cond.zener_v, quantity)
+    judged = [p.judgement for p in parts]
+    highs = [j.limit for j in judged if j.limit is not None]
+    lows = [j.limit_min for j in judged if j.limit_min is not None]
+    usl = float(np.median(highs)) if highs else None
+    lsl = float(np.median(lows)) if lows else None
+    notes = []
+    if not spec.has_max:
+        notes.append("the spec gives no maximum: the typical value is used as the upper limit")
+    tjs = [j.tj.value_c for j in judged]
+    source = (f"each part judged against the spec at its own Tj ({min(tjs):.2f}–{max(tjs):.2f} °C) and gate drive; "
+              f"first part: {judged[0].limit_at}; the capability uses the median of the parts' limits")
+    barred = [j for j in judged if j.bars]
+    gate_barred = [j for j in barred if j.gate is not None and j.gate.bar and j.gate.vgs_v is not None]
+    if gate_barred:
+        vgs = [j.gate.vgs_v for j in gate_barred]
+        g = gate_barred[0].gate
+        span = f"{g.range_v[0]:g} V" if g.range_v[0] == g.range_v[1] else f"{g.range_v[0]:g}–{g.range_v[1]:g} V"
+        notes.append(f"{len(gate_barred)} part(s) cannot pass: tested at |Vgs| {min(vgs):.4g}–{max(vgs):.4g} V, "
+                     f"outside the spec's R_DS(on)(Vgs) points ({span}); the limit cannot be translated there")
+        if g.input_for_spec_v is not None:
+            notes.append(f"an input of about {g.input_for_spec_v:.4g} V would test at the spec's |Vgs| {g.spec_vgs_v:g} V")
+    notes += sorted({b for j in barred if j not in gate_barred for b in j.bars})
     kind = "its body diode" if cond.body_diode else f"a {spec.kind}"
     if model == "resistive":
         notes.append(f"each part fitted with the resistive model (V = V0 + R·I), as the spec is {kind}; "
@@ -342,4 +302,5 @@ def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
                      "the limit is at their median")
     return summarize([p.value for p in parts], [p.std_u for p in parts], usl=usl, lsl=lsl,
                      k=max(p.k for p in parts), serials=[p.serial for p in parts], runs=[p.run for p in parts],
-                     part=spec.name, quantity=quantity, limit_source=source, notes=notes)
+                     part=spec.name, quantity=quantity, limit_source=source, notes=notes,
+                     outcomes=[j.outcome for j in judged], expanded_u=[j.decision_u for j in judged])

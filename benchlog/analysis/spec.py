@@ -9,7 +9,9 @@ file I/O. Voltages and currents of a P-channel part are written as magnitudes
 
 Keys by family (`@` reads 'at'; required: name, kind, and vf_v @ vf_at_a,
 rds_on_ohm @ rds_on_vgs_v or resistance_ohm by family):
-  all        name, kind, note, rth_ja_k_per_w, tj_max_c
+  all        name, kind, note, rth_ja_k_per_w, tj_max_c,
+             zth_t_s + zth_k_per_w (the transient thermal impedance curve, junction to ambient:
+             pulse lengths in s and Zth in K/W, two lists of one length, both rising)
   diode      vf_v @ vf_at_a [vf_at_c], vf_max_v, vf_min_v, ideality, rs_ohm,
              vf_tempco_v_per_k, vr_max_v, ir_max_a @ ir_at_v [ir_at_c],
              ir_doubling_k, if_max_a
@@ -44,6 +46,8 @@ DEFAULT_BODY_DIODE = (
 class Thermal:
     rth_ja_k_per_w: float | None = None
     tj_max_c: float | None = None
+    zth_t_s: tuple[float, ...] | None = None  # transient thermal impedance curve: pulse lengths...
+    zth_k_per_w: tuple[float, ...] | None = None  # ...and Zth(t) junction to ambient
 
 
 @dataclass(frozen=True)

@@ -30,8 +30,9 @@ import numpy as np
 from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
 
-from .predict import OperatingPoint, Prediction, predict
+from .predict import Prediction
 from .spec import PartSpec
+
 
 OUTCOMES = ("pass", "fail", "conditional")
 
@@ -141,15 +142,16 @@ class Check:
     measured_loss_w: float
     loss_std_u_w: float
     k: float
-    predicted: Prediction  # at the run's ambient with self-heating: the loss in service
-    unheated: Prediction  # at Tj = ambient: what a short sweep sees
-    verdict: Verdict  # on the loss, against the maximum (or typical when the spec has no maximum)
+    predicted: Prediction  # at the run's ambient with self-heating: the loss in service (for information)
+    unheated: Prediction  # at Tj = ambient (for information)
+    verdict: Verdict  # on the loss, against the maximum at the run's Tj and gate drive (judging.judge)
     drop_verdict: Verdict
     typical_comparison: str
     notes: tuple[str, ...]
     extrapolation: "Extrapolation | None" = None  # the operating current against the fitted current range
     run_complete: bool = True  # the run has its end record and ended "complete"
     run_outcome: str = "complete"
+    judgement: object = None  # judging.Judgement: the one judging path's result (`judging.judge`)
 
     @property
     def outcome(self) -> str:
@@ -283,103 +285,3 @@ def run_conditions(current_a: np.ndarray, supply_v: np.ndarray, meta, spec: Part
     if zener is not None and vin is not None and not body:
         notes.append(f"gate clamp zener {zener:g} V")
     return RunConditions(current, where, ambient, vin, zener if not body else None, body, tuple(notes))
-
-
-def _fit_model(spec: PartSpec, body_diode: bool) -> str:
-    return spec.element.fit_model("body_diode" if body_diode else "channel")
-
-
-@dataclass(frozen=True)
-class LimitEnvelope:
-    """The limit a run is judged against, and the two predictions it comes from.
-
-    A run does not record how hot the junction was when each point was read: a
-    short sweep stays near the ambient (like a datasheet's pulsed test), a slow one
-    reaches the self-heated steady state. The limit is the larger of the two
-    maximum-value predictions, so a part is failed only when it is outside its
-    datasheet at either temperature; the prediction in service is the self-heated one.
-    """
-
-    drop_v: float | None
-    loss_w: float | None
-    source: str
-    heated: Prediction  # at the ambient with self-heating (Tj = Ta + P·RθJA)
-    cold: Prediction  # at Tj = ambient
-    point: OperatingPoint | None
-
-
-def _describe(p: Prediction, point: OperatingPoint, tj_label: str) -> str:
-    named = "maximum" if point.variant == "max" else "typical (the spec gives no maximum)"
-    tj = f"Tj {point.tj_c:.1f} °C" if point.tj_c is not None else "Tj unknown"
-    return f"predicted {named} at {p.current_a:.4g} A, ambient {p.ambient_c:g} °C, {tj} ({tj_label})"
-
-
-def limit_envelope(spec: PartSpec, current_a: float, ambient_c: float, vin_v=None, zener_v=None) -> LimitEnvelope:
-    heated = predict(spec, current_a, ambient_c, vin_v=vin_v, zener_v=zener_v)
-    cold_spec = replace(spec, thermal=replace(spec.thermal, rth_ja_k_per_w=None))
-    cold = predict(cold_spec, current_a, ambient_c, vin_v=vin_v, zener_v=zener_v)
-    options = []
-    if heated.limit.drop_v is not None and spec.thermal.rth_ja_k_per_w is not None:
-        options.append((heated.limit.drop_v, _describe(heated, heated.limit, "self-heated steady state"), heated.limit))
-    if cold.limit.drop_v is not None:
-        options.append((cold.limit.drop_v, _describe(cold, cold.limit, "no self-heating, a short sweep"), cold.limit))
-    if not options:
-        return LimitEnvelope(None, None, heated.limit.message, heated, cold, None)
-    drop, source, point = max(options, key=lambda o: o[0])
-    if len(options) == 2:
-        source += "; the larger of the self-heated and the unheated maximum"
-    return LimitEnvelope(drop, drop * current_a, source, heated, cold, point)
-
-
-def _verdict_or_none(value, u, limit, k, quantity, source) -> Verdict:
-    if limit is None:
-        return Verdict("conditional", rule_text("upper", k), quantity, value, u, k, None, "upper",
-                       f"the prediction has no value: {source}")
-    return decide(value, u, limit, k=k, quantity=quantity, limit_source=source)
-
-
-def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
-    """Judge a loaded run against `spec`: measured loss and drop at the operating current vs the prediction.
-
-    The guard-band rule decides; an extrapolated operating current and an unfinished run are
-    named in the verdict and the notes, and extrapolation far outside bars a pass (module docstring).
-    """
-    from .fits import fit_run  # the fit layer is imported late: a spec-only user never needs it
-
-    cond = run_conditions(frame["current_a"].to_numpy(dtype=float), frame["supply_v"].to_numpy(dtype=float),
-                          meta, spec, at_a)
-    fit = fit_run(frame, meta, _fit_model(spec, cond.body_diode))
-    drop, u_drop = fit.drop_at(cond.current_a)
-    k = float(fit.k)
-    # The current is where the curve is evaluated, not a reading: u(P) = I·u(V).
-    loss, u_loss = drop * cond.current_a, u_drop * cond.current_a
-    env = limit_envelope(spec, cond.current_a, cond.ambient_c, cond.vin_v, cond.zener_v)
-    ext = extrapolation(fit, cond.current_a)
-    verdict = _extrapolated(_verdict_or_none(loss, k * u_loss, env.loss_w, k, "loss_w", env.source), ext)
-    drop_verdict = _extrapolated(_verdict_or_none(drop, k * u_drop, env.drop_v, k, "drop_v", env.source), ext)
-    complete, run_outcome, run_note = run_state(meta)
-    notes = [n for n in (run_note, ext.text()) if n]
-    notes += list(cond.notes) + list(env.heated.notes) + list(fit.notes)
-    return Check(
-        part=spec.name, run=str(meta.path), current_a=cond.current_a,
-        current_source=cond.current_source, ambient_c=cond.ambient_c, model=fit.model,
-        measured_drop_v=drop, drop_std_u_v=u_drop, measured_loss_w=loss, loss_std_u_w=u_loss, k=k,
-        predicted=env.heated, unheated=env.cold, verdict=verdict, drop_verdict=drop_verdict,
-        typical_comparison=typical_comparison(loss, k * u_loss, env.heated.typical, env.cold.typical),
-        notes=tuple(dict.fromkeys(notes)), extrapolation=ext, run_complete=complete, run_outcome=run_outcome,
-    )
-
-
-def typical_comparison(loss_w: float, expanded_u_w: float, heated: OperatingPoint, cold: OperatingPoint) -> str:
-    """How the measured loss sits against the typical predictions (self-heated and unheated), in words."""
-    parts = []
-    for label, point in (("self-heated", heated), ("unheated", cold)):
-        if point.loss_w is None or point.loss_w <= 0:
-            parts.append(f"no {label} typical prediction ({point.message})")
-            continue
-        t = point.loss_w
-        rel = (loss_w - t) / t * 100.0
-        agree = "within" if abs(loss_w - t) <= expanded_u_w else "outside"
-        parts.append(f"{abs(rel):.1f} % {'above' if rel >= 0 else 'below'} the {label} typical {t:.4g} W "
-                     f"({agree} ±U)")
-    return f"measured {loss_w:.4g} W: " + "; ".join(parts)

@@ -137,10 +137,36 @@ def _extrapolation(c) -> dict[str, Any]:
             "fitted_min_a": e.fitted_min_a, "fitted_max_a": e.fitted_max_a}
 
 
+def _budget(b) -> list[dict[str, Any]]:
+    return [{"name": x.name, "type": x.kind, "u": x.u, "dof": x.dof} for x in b.components]
+
+
+def conditions_entry(j) -> dict[str, Any]:
+    """The conditions a verdict is judged at (`judging.Judgement`): Tj, its u and source, |Vgs|, the limit."""
+    g = j.gate
+    unit = _unit(j.quantity)
+    return {
+        "tj_c": j.tj.value_c, "tj_u_c": j.tj.u_c, "tj_source": j.tj.source, "tj_why": j.tj.why,
+        "vgs_v": j.vgs_v,
+        "gate": None if g is None else {
+            "vgs_v": g.vgs_v, "how": g.how, "spec_vgs_v": g.spec_vgs_v, "spec_range_v": list(g.range_v),
+            "limit_factor": g.factor, "limit_factor_u": g.u_rel, "bars_pass": bool(g.bar), "why": g.bar or None,
+            "input_for_spec_vgs_v": g.input_for_spec_v},
+        "limit_at": j.limit_at,
+        "judged": {"quantity": j.quantity, j.quantity: j.value, "std_u": j.std_u, "expanded_u": j.expanded_u,
+                   "decision_expanded_u": j.decision_u, f"limit_{unit}": j.limit, f"limit_min_{unit}": j.limit_min,
+                   "budget": _budget(j.budget), "decision_budget": _budget(j.decision_budget)},
+        "bars": list(j.bars),
+    }
+
+
 def check_entry(c) -> dict[str, Any]:
     p, cold = c.predicted, c.unheated
+    j = c.judgement
     return {
         "verdict": c.outcome,
+        **(conditions_entry(j) if j is not None else {}),
+        "reverse": None,
         "part": c.part, "run": c.run, "current_a": c.current_a, "current_source": c.current_source,
         "ambient_c": c.ambient_c, "model": c.model,
         "measured_drop_v": c.measured_drop_v, "measured_loss_w": c.measured_loss_w,
@@ -167,7 +193,7 @@ def check_entry(c) -> dict[str, Any]:
 
 def _check(args) -> int:
     from benchlog.specfiles import load_spec
-    from benchlog.analysis.verdict import check_run
+    from benchlog.analysis.judging import check_run
     from benchlog.runs import load
 
     _argument("--at", args.at, positive=True)
@@ -179,7 +205,16 @@ def _check(args) -> int:
     else:
         print(f"{c.outcome.upper()}  {c.part}, run {c.run}")
         print(f"  at {c.current_a:.4g} A ({c.current_source}), ambient {c.ambient_c:g} °C, fit: {c.model}")
+        j = c.judgement
+        if j is not None:
+            print(f"  judged at {j.tj.text()}")
+            if j.gate is not None:
+                print(f"  gate drive: {j.gate.text()}")
+            print(f"  {j.quantity} = {j.value:.6g} ± {j.expanded_u:.2g} (k = {c.k:g}) against {_fmt(j.limit, '.6g')}"
+                  f" [{j.limit_at}]")
         flagged = [n for n in c.notes if n.startswith(("extrapolated:", "the run is incomplete", "the run ended"))]
+        flagged += [n for n in c.notes if c.judgement is not None and n in c.judgement.bars + c.judgement.notes
+                    and n not in flagged]
         for note in flagged:  # what qualifies the verdict comes first, not among the notes
             print(f"  ! {note}")
         print(f"  measured drop {c.measured_drop_v:.6g} V ± {c.k * c.drop_std_u_v:.2g} V, "

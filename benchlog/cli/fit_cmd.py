@@ -90,6 +90,9 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         "points_used": fit.points_used,
         "unresolved": [int(x) for x in fit.unresolved_index],
         "temperature_c": fit.temperature_c,
+        "tj_c": fit.tj.value_c if fit.tj is not None else None,
+        "tj_u_c": fit.tj.u_c if fit.tj is not None else None,
+        "tj_source": fit.tj.source if fit.tj is not None else None,
         "notes": list(fit.notes),
         "drop_at": [],
     }
@@ -97,7 +100,9 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         budget = fit.drop_budget_at(current)
         value, _ = fit.drop_at(current)
         payload["drop_at"].append({"current_a": current, "drop_v": value, "std_u_v": budget.u,
-                                   "expanded_u_v": budget.expanded_u, "loss_w": value * current})
+                                   "expanded_u_v": budget.expanded_u, "loss_w": value * current,
+                                   "budget": [{"name": c.name, "type": c.kind, "u": c.u, "dof": c.dof}
+                                              for c in budget.components]})
     if fit.model == "diode":
         # the straight-line form for the operating range, beside the diode law (issue 4, item 1)
         knee = fit_knee(fit.current_a, fit.drop_v, fit.accuracy, offset_removed=fit.offset_removed,

@@ -329,7 +329,7 @@ def _analysis_summary(run_file: Path, plan) -> dict[str, Any]:
         return out
     try:
         from benchlog.specfiles import load_spec
-        from benchlog.analysis.verdict import check_run
+        from benchlog.analysis.judging import check_run
 
         check = check_run(frame, meta, load_spec(spec_path))
         verdict = getattr(check, "verdict", check)

@@ -25,7 +25,8 @@ from benchlog.analysis.design import review as design_review
 from benchlog.analysis.fits import detect_self_heating, fit_run
 from benchlog.analysis.predict import predict
 from benchlog.analysis.spec import PartSpec
-from benchlog.analysis.verdict import check_run, run_conditions
+from benchlog.analysis.judging import check_run
+from benchlog.analysis.verdict import run_conditions
 from benchlog.badinput import BadInput
 from benchlog.runs import load
 from benchlog.specfiles import load_design, load_spec

@@ -1,4 +1,4 @@
-"""The verdict of `analysis.verdict.check_run` as a report block: the word, the rule, and the numbers."""
+"""The verdict of `analysis.judging.check_run` as a report block: the word, the rule, and the numbers."""
 
 from __future__ import annotations
 
@@ -14,7 +14,14 @@ def verdict_block(check: Check) -> VerdictBlock:
     limit = "no limit" if v.limit is None else number(v.limit, "W" if v.quantity.endswith("_w") else "V")
     headline = (f"{check.part} at {number(check.current_a, 'A')}: measured {v.quantity} {measured} "
                 f"(k = {v.k:g}) against the limit {limit}")
-    details = [
+    details = []
+    j = check.judgement
+    if j is not None:
+        details.append(f"Judged at {j.tj.text()}")
+        if j.gate is not None:
+            details.append(f"Gate drive: {j.gate.text()}")
+        details.append(f"Limit at: {j.limit_at}")
+    details += [
         f"Loss: {v.explain()}",
         f"Drop: {check.drop_verdict.explain()}",
         f"Against the typical prediction: {check.typical_comparison}",

@@ -16,7 +16,7 @@ from __future__ import annotations
 import math
 import uuid
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 from types import MappingProxyType
 from typing import Any
@@ -121,12 +121,15 @@ class Wiring:
     current_from: str | None = None
     shunt_ohm: float | None = None
     input_v: float | None = None
+    shunt_tolerance_pct: float | None = None
+    shunt_tempco_ppm_per_k: float | None = None
 
     @classmethod
     def from_table(cls, table: Any) -> Wiring:
         table = table if isinstance(table, Mapping) else {}
         return cls(_text(table.get("force")), _text(table.get("current_from")),
-                   _number(table.get("shunt_ohm")), _number(table.get("input_v")))
+                   _number(table.get("shunt_ohm")), _number(table.get("input_v")),
+                   _number(table.get("shunt_tolerance_pct")), _number(table.get("shunt_tempco_ppm_per_k")))
 
 
 @dataclass(frozen=True, eq=False)
@@ -217,6 +220,8 @@ class ElementRecord:
     gate: str | None = None
     zener_v: float | None = None
     measure: str | None = None
+    ambient_u_c: float | None = None  # standard uncertainty of the ambient, K (None: not stated)
+    gate_v: float | None = None  # |Vgs| of a driven gate, V (None: not driven, or not stated)
     #: the header's element object as read; `table` is its read-only view
     source: Mapping[str, Any] = field(default_factory=dict, compare=False, repr=False)
 
@@ -239,7 +244,8 @@ class ElementRecord:
             operating_a=operating if type(operating) is float and math.isfinite(operating) else _number(operating),
             gate=_text(get("gate")),
             zener_v=zener if type(zener) is float and math.isfinite(zener) else _number(zener),
-            measure=_text(get("measure")), source=own,
+            measure=_text(get("measure")),
+            ambient_u_c=_number(get("ambient_u_c")), gate_v=_number(get("gate_v")), source=own,
         )
 
 
@@ -284,6 +290,16 @@ class RunHeader:
     extra: Table = field(default_factory=lambda: _EMPTY, compare=False)
     #: True when the file had no run_id and `run_id` was derived from its header line.
     run_id_derived: bool = field(default=False, compare=False)
+
+    def __post_init__(self) -> None:
+        # The budget names the current reading by what reads it and adds a shunt's tolerance and
+        # tempco: both come from the bench's wiring, so the accuracy carries them from here on.
+        wiring = self.bench.wiring if self.bench is not None else None
+        if wiring is not None and not self.accuracy.current_from:
+            object.__setattr__(self, "accuracy", replace(
+                self.accuracy, current_from=wiring.current_from or "",
+                shunt_tolerance_pct=wiring.shunt_tolerance_pct,
+                shunt_tempco_ppm_per_k=wiring.shunt_tempco_ppm_per_k))
 
     # -- what readers ask for -------------------------------------------------------------
     @property

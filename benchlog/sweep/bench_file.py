@@ -10,6 +10,8 @@
                                            # in CV at input_v (element between them)
         current_from = "supply" | "load" | "meter" | "shunt"
         shunt_ohm    = 0.01                # with current_from = "shunt": read by [current_meter] in DCV
+        shunt_tolerance_pct    = 0.1       # with a shunt: its tolerance (±%) and temperature coefficient,
+        shunt_tempco_ppm_per_k = 50        #   both entered in the uncertainty budget of the current
         input_v      = 12.0                # with force = "load": the supply's CV setting
     [mains]
         line_frequency_hz = 50             # sets the meter's NPLC time and its line-noise rejection
@@ -48,6 +50,8 @@ class Wiring:
     current_from: str
     shunt_ohm: float | None = None
     input_v: float | None = None
+    shunt_tolerance_pct: float | None = None  # the shunt's resistance tolerance, ± %: a gain error of the current
+    shunt_tempco_ppm_per_k: float | None = None  # its temperature coefficient: another gain error
 
 
 @dataclass(frozen=True)
@@ -64,7 +68,9 @@ class BenchSetup:
         return self.roles.get(name)
 
     def to_dict(self) -> dict[str, Any]:
-        """JSON-ready description for the run header."""
+        """JSON-ready description for the run header (a shunt's tolerance and tempco only when given)."""
+        shunt = {key: getattr(self.wiring, key) for key in ("shunt_tolerance_pct", "shunt_tempco_ppm_per_k")
+                 if getattr(self.wiring, key) is not None}
         return {
             "roles": {
                 name: {"resource": r.resource, "profile": r.profile, "backend": r.backend}
@@ -75,6 +81,7 @@ class BenchSetup:
                 "current_from": self.wiring.current_from,
                 "shunt_ohm": self.wiring.shunt_ohm,
                 "input_v": self.wiring.input_v,
+                **shunt,
             },
             "line_frequency_hz": self.line_frequency_hz,
             "simulated": self.simulated,
@@ -128,7 +135,7 @@ def bench_from_table(root: Table, base_dir: Path | None = None) -> BenchSetup:
 
 
 def _wiring(t: Table) -> Wiring:
-    t.only(("force", "current_from", "shunt_ohm", "input_v"))
+    t.only(("force", "current_from", "shunt_ohm", "input_v", "shunt_tolerance_pct", "shunt_tempco_ppm_per_k"))
     force = t.string("force", choices=FORCE_CHOICES)
     current_from = t.string("current_from", choices=CURRENT_FROM_CHOICES)
     shunt_ohm = t.number("shunt_ohm", None, positive=True, unit="Ω")
@@ -143,7 +150,14 @@ def _wiring(t: Table) -> Wiring:
     if force == "supply" and input_v is not None:
         raise t.fail("input_v", "is only used with force = 'load' (the supply sets compliance_v from the plan)",
                      "no input_v, or force = 'load'")
-    return Wiring(force=force, current_from=current_from, shunt_ohm=shunt_ohm, input_v=input_v)
+    tolerance = t.number("shunt_tolerance_pct", None, min=0.0, max=20.0, unit="%")
+    tempco = t.number("shunt_tempco_ppm_per_k", None, min=0.0, max=5000.0, unit="ppm/K")
+    for key in ("shunt_tolerance_pct", "shunt_tempco_ppm_per_k"):
+        if t.has(key) and current_from != "shunt":
+            raise t.fail(key, f"is only used with current_from = 'shunt', not {current_from!r}",
+                         f"no {key}, or current_from = 'shunt'")
+    return Wiring(force=force, current_from=current_from, shunt_ohm=shunt_ohm, input_v=input_v,
+                  shunt_tolerance_pct=tolerance, shunt_tempco_ppm_per_k=tempco)
 
 
 def _check_roles(setup: BenchSetup, wiring_table: Table) -> None:

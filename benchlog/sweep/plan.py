@@ -5,8 +5,10 @@ table and key is checked here; a wrong value raises `BadInput` naming the file,
 `[table].key` and what would have been accepted. Unknown keys are refused with
 the nearest valid name, because a typo in a limit must not silently disable it.
 
-    [element]   id, kind, label, serial, lot, ambient_c, note, operating_a,
+    [element]   id, kind, label, serial, lot, ambient_c, ambient_u_c (its standard uncertainty, K),
+                note, operating_a,
                 gate (the kind's protection wiring — pmos "return", nmos "input" — or "driven"; MOSFETs),
+                gate_v (|Vgs| of a driven gate),
                 zener_v, measure ("channel" | "body_diode", MOSFETs); kinds: benchlog.kinds
     [steps]     mode (linear | log | list | updown | adaptive), start_a, stop_a, count,
                 currents_a (list), spacing (updown: linear | log), target_rel_u (adaptive)
@@ -50,6 +52,8 @@ class Element:
     gate: str = "return"  # MOSFETs: the protection wiring (the kind's passive_gate) or "driven"
     zener_v: float | None = None  # MOSFETs: gate clamp zener voltage, if fitted
     measure: str = "channel"  # MOSFETs: "body_diode" measures the body diode on purpose
+    gate_v: float | None = None  # MOSFETs with a driven gate: the |Vgs| the gate is driven at
+    ambient_u_c: float | None = None  # standard uncertainty of ambient_c (None: the analysis's stated default)
 
     @property
     def behaves_as_diode(self) -> bool:
@@ -140,7 +144,14 @@ class Plan:
         """The complete plan with every default filled in: what the run header records."""
         data = dataclasses.asdict(self)
         data.pop("source")
+        for key in OPTIONAL_ELEMENT_KEYS:  # recorded only when stated, so earlier headers stay as they were
+            if data["element"].get(key) is None:
+                data["element"].pop(key, None)
         return _jsonable(data)
+
+
+#: Element keys a plan states only when it needs them (a driven gate's drive, the ambient's uncertainty).
+OPTIONAL_ELEMENT_KEYS = ("gate_v", "ambient_u_c")
 
 
 def _jsonable(value: Any) -> Any:
@@ -186,7 +197,8 @@ def _text(t: Table, key: str, default: str = "") -> str:
 
 
 def _element(t: Table, limits: Limits) -> Element:
-    t.only(("id", "kind", "label", "serial", "lot", "ambient_c", "note", "operating_a", "gate", "zener_v", "measure"))
+    t.only(("id", "kind", "label", "serial", "lot", "ambient_c", "ambient_u_c", "note", "operating_a", "gate",
+            "gate_v", "zener_v", "measure"))
     element_id = t.string("id")
     if not element_id.strip():
         raise t.fail("id", "is empty", "a name for the element, such as 'D1'")
@@ -197,12 +209,18 @@ def _element(t: Table, limits: Limits) -> Element:
         raise t.fail("operating_a", f"is {operating_a:g} A, above [limits].max_current_a {limits.max_current_a:g} A",
                      "an operating current the sweep may reach")
     if not k.has_gate:
-        for key in ("gate", "measure", "zener_v"):
+        for key in ("gate", "gate_v", "measure", "zener_v"):
             if t.has(key):
                 raise t.fail(key, f"only applies to a MOSFET, but kind is {kind!r}", "no such key for this kind")
     gate = t.string("gate", k.passive_gate or "return", choices=k.gate_choices or None)
     measure = t.string("measure", "channel", choices=("channel", "body_diode"))
     zener_v = t.number("zener_v", None, positive=True, unit="V")
+    gate_v = t.number("gate_v", None, positive=True, max=100.0, unit="V")
+    if gate_v is not None and gate != "driven":
+        raise t.fail("gate_v", f"is given but gate is {gate!r}",
+                     "gate_v only with gate = 'driven' (with a passive gate |Vgs| follows the input)")
+    if gate_v is not None and zener_v is not None and gate_v > zener_v:
+        raise t.fail("gate_v", f"is {gate_v:g} V, above zener_v {zener_v:g} V", "a gate drive the clamp lets through")
     return Element(
         id=element_id,
         kind=kind,
@@ -210,11 +228,13 @@ def _element(t: Table, limits: Limits) -> Element:
         serial=_text(t, "serial"),
         lot=_text(t, "lot"),
         ambient_c=t.number("ambient_c", DEFAULT_AMBIENT_C, min=-60.0, max=200.0, unit="°C"),
+        ambient_u_c=t.number("ambient_u_c", None, min=0.0, max=50.0, unit="K"),
         note=_text(t, "note"),
         operating_a=operating_a,
         gate=gate,
         zener_v=zener_v,
         measure=measure,
+        gate_v=gate_v,
     )
 
 

@@ -480,8 +480,12 @@ class SweepRunner:
             "id": e.id, "kind": e.kind, "label": e.label, "lot": e.lot, "serial": e.serial,
             "ambient_c": e.ambient_c, "note": e.note, "operating_a": e.operating_a,
         }
+        if e.ambient_u_c is not None:
+            element["ambient_u_c"] = e.ambient_u_c
         if element_kind(e.kind).has_gate:
             element.update({"gate": e.gate, "zener_v": e.zener_v, "measure": e.measure})
+            if e.gate_v is not None:
+                element["gate_v"] = e.gate_v
         plan_table = freeze(plan.to_dict())
         now = datetime.now(timezone.utc)
         return RunHeader(

@@ -61,7 +61,7 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
     if spec_path is not None:
         try:
             from benchlog.specfiles import load_spec
-            from benchlog.analysis.verdict import check_run
+            from benchlog.analysis.judging import check_run
 
             spec = load_spec(spec_path)
             check = check_run(frame, meta, spec)

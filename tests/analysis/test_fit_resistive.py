@@ -51,9 +51,9 @@ def test_type_b_budget_follows_the_gain_rules():
     b = fit.budgets["r_on_ohm"]
     # GUM 4.3.7 + 5.1.3: a gain scales R one to one, u_rel = (reading %/100)/√3 for each meter
     assert b.component("drop meter gain").u == pytest.approx(r * 0.0040e-2 / math.sqrt(3))
-    assert b.component("current meter gain").u == pytest.approx(r * 0.05e-2 / math.sqrt(3))
+    assert b.component("current reading gain").u == pytest.approx(r * 0.05e-2 / math.sqrt(3))
     names = {c.name for c in b.components}
-    assert "drop meter offset" not in names and "current meter offset" not in names
+    assert "drop meter offset" not in names and "current reading offset" not in names
     # GUM 5.1.2 quadrature and G.4.1 Welch–Satterthwaite with type B at ν = ∞
     us = [c.u for c in b.components]
     assert b.u == pytest.approx(math.sqrt(sum(x * x for x in us)))

@@ -54,7 +54,15 @@ def test_fit_run_uses_header_accuracy_and_subtracts_the_offset(tmp_path):
                         offset_removed=True)
     assert fit.params["r_on_ohm"] == pytest.approx(ref.params["r_on_ohm"], rel=1e-12)
     assert fit.params["v0_v"] == pytest.approx(ref.params["v0_v"], abs=1e-12)
-    assert fit.std_u == pytest.approx(ref.std_u, rel=1e-12)
+    # every term of the array fit is there unchanged; fit_run adds the junction temperature term, whose
+    # sensitivity is |R·α| (GUM 5.1.3, α = 0.5 %/K common practice for R_DS(on)) times the stated u(Tj)
+    got = fit.budgets["r_on_ohm"]
+    for c in ref.budgets["r_on_ohm"].components:
+        assert got.component(c.name).u == pytest.approx(c.u, rel=1e-12)
+    t = got.component("junction temperature")
+    assert t.u == pytest.approx(abs(fit.params["r_on_ohm"]) * 5.0e-3 * fit.tj.u_c, rel=1e-12)
+    assert fit.std_u["r_on_ohm"] == pytest.approx(math.hypot(ref.std_u["r_on_ohm"], t.u), rel=1e-9)
+    assert fit.std_u["v0_v"] == pytest.approx(ref.std_u["v0_v"], rel=1e-12)
     assert fit.offset_removed
     assert any("offset" in note for note in fit.notes)
 

@@ -6,7 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from benchlog.analysis.verdict import check_run, decide, decide_many
+from benchlog.analysis.judging import check_run
+from benchlog.analysis.verdict import decide, decide_many
 from benchlog.badinput import BadInput
 from benchlog.runs.record import RunHeader, new_run_id
 
@@ -60,7 +61,7 @@ def test_nonsense_is_bad_input(args):
 
 # --------------------------------------------------------------------------- check_run
 def sweep(r_ohm, noise_v=20e-6, n=21, seed=1, operating_a=None, kind="pmos", top_a=3.0, complete=True,
-          outcome="complete"):
+          outcome="complete", gate_v=10.0):
     """Invented demo data: a resistive drop with meter noise (dependency injection of a loaded run)."""
     rng = np.random.default_rng(seed)
     current = np.linspace(0.1, top_a, n)
@@ -70,7 +71,7 @@ def sweep(r_ohm, noise_v=20e-6, n=21, seed=1, operating_a=None, kind="pmos", top
                           "temperature_c": np.nan, "settle_reads": 1, "direction": "up", "flags": "",
                           "power_w": current * drop})
     element = {"id": "U1", "kind": kind, "serial": "S1", "lot": "L1", "ambient_c": 25.0}
-    plan = {"element": dict(element, operating_a=operating_a, gate="driven")}
+    plan = {"element": dict(element, operating_a=operating_a, gate="driven", gate_v=gate_v)}
     header = RunHeader.from_table({"tool_version": "test", "started_utc": "2025-01-01T00:00:00Z",
                                    "run_id": new_run_id(), "plan": plan, "element": element})
     meta = SimpleNamespace(path="demo.run", header=header, offset_v=None, outcome=outcome, complete=complete,

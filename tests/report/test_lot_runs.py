@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 
 from benchlog.analysis.fits import fit_run
+from benchlog.analysis.judging import judge_run
 from benchlog.analysis.lot import fit_points, lot_model
 from benchlog.report.lot_runs import lot_from_runs
 from benchlog.specfiles import load_spec
@@ -30,16 +31,14 @@ PFET = SPECS / "demo-pfet-10m.toml"
 
 
 def reference(paths, spec, model):
-    """Per-part (value, std_u, k) by the path lot_from_runs replaces: load + fit_run with the same model."""
+    """Per-part (value, std_u, k) by the path `check` takes: load + fit_run, judged by `judging.judge_run`."""
     out, vf_at = [], None
     for path in paths:
         frame, meta = load(path)
-        fit = fit_run(frame, meta, model)
-        if model == "resistive":
-            out.append((fit.params["r_on_ohm"], fit.std_u["r_on_ohm"], fit.k))
-        else:
-            vf_at = vf_at or run_conditions(frame["current_a"].to_numpy(), frame["supply_v"].to_numpy(), meta, spec).current_a  # the first run's current
-            out.append((*fit.drop_at(vf_at), fit.k))
+        vf_at = vf_at or run_conditions(frame["current_a"].to_numpy(), frame["supply_v"].to_numpy(), meta, spec).current_a  # the first run's current
+        j = judge_run(frame, meta, spec, at_a=vf_at)
+        assert fit_run(frame, meta, model).model == model
+        out.append((j.value, j.std_u, 2.0))
     return out
 
 

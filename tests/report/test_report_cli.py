@@ -12,7 +12,7 @@ import pytest
 from benchlog.analysis.fits import fit_run
 from benchlog.report.lot_runs import lot_from_runs
 from benchlog.specfiles import load_spec
-from benchlog.analysis.verdict import check_run
+from benchlog.analysis.judging import check_run
 from benchlog.cli import main
 from benchlog.report import pdffile
 from benchlog.report.build import build_report

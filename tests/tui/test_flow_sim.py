@@ -196,6 +196,8 @@ async def test_the_nmos_kind_is_picked_run_and_judged_with_the_footer_keys(tmp_p
             await pilot.press("4")
             await pilot.pause(0.2)
             text = screen_text(app)
-            assert "VERDICT:" in text and "PASS ✔" in text
+            # the built-in bench holds 12 V, so the channel's |Vgs| is beyond the spec's 10 V point: judged, but
+            # it cannot pass, and the results say why
+            assert "VERDICT:" in text and "COND ◆" in text and "gate drive |Vgs|" in text
     finally:
         app.session.close()

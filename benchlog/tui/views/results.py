@@ -54,6 +54,14 @@ def check_lines(check) -> list[str]:
     limit = check.verdict.limit
     if limit is not None:
         lines.append(f"  limit                 {si(limit, 'W')} ({check.verdict.limit_source})")
+    j = getattr(check, "judgement", None)
+    if j is not None:
+        lines.append(f"  judged at Tj          {j.tj.value_c:.2f} ± {j.tj.u_c:.2g} °C ({j.tj.source})")
+        if j.gate is not None:
+            vgs = "unknown" if j.gate.vgs_v is None else f"{j.gate.vgs_v:.4g} V"
+            lines.append(f"  gate drive |Vgs|      {vgs} (spec's maximum at {j.gate.spec_vgs_v:g} V)")
+        for bar in j.bars:
+            lines.append(f"  ! {bar}")
     if check.typical_comparison:
         lines.append(f"  {check.typical_comparison}")
     return lines

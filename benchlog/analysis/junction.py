@@ -1,0 +1,235 @@
+"""The junction temperature a fitted value stands at: its value, standard uncertainty and source.
+
+A limit from a datasheet holds at one junction temperature Tj, so a measured
+R_DS(on), R or Vf can only be judged once the Tj it was measured at is stated.
+Three sources, in order of preference:
+  - `measured`: temperatures recorded with the points (a sensor on the element);
+  - `inferred` from the spec's transient thermal impedance Zth(t) and the
+    recorded power: the junction rise at each point by superposing the power
+    pulses, ΔT(t_k) = Σ_j P_j·(Zth(t_k − s_j) − Zth(t_k − e_j)) (the superposition
+    of step responses, common practice for pulse trains; e.g. JESD51-14's use of
+    the thermal step response, from memory), and the rise the fitted value stands
+    at by projecting s_i·ΔT_i on the model as below; u is 20 % of that rise
+    (a datasheet's Zth curve is typical, parts differ by about that much, from memory);
+  - `inferred` from the sweep's own heating seen in the drop — the residuals of the
+    fit regressed on the heating shape s(I)·P (s the drop's temperature
+    sensitivity at each point, P = I·V; ΔT = θ·P in the steady state), after
+    removing what the fitted model absorbs (Frisch–Waugh–Lovell). The fitted
+    value takes up a share of that heating: Q_fit = Q_cold + θ·(∇Q·c), with c
+    the heating shape's projection on the model's own directions, so it stands
+    at Tj = Ta + θ·(∇Q·c)/(dQ/dT), with u from the standard error of θ
+    (ordinary least squares, GUM H.3);
+  - `assumed`: the ambient, when that heating is below its resolution
+    (not significant at `self_heating.ALPHA`); the unresolved rise and its
+    standard error are then kept in u(Tj), never dropped. With too few points
+    to test at all, the steady-state rise P_max·RθJA (spec) bounds it instead.
+The ambient's own standard uncertainty is the plan's `ambient_u_c`; on the
+simulated bench, which holds its ambient exactly, 0; else the stated default
+below (a rectangular ±2 K, GUM 4.3.7).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from benchlog.ambient import DEFAULT_AMBIENT_HALF_WIDTH_K
+
+TJ_SOURCES = ("measured", "inferred", "assumed")
+
+
+#: Relative standard uncertainty of a rise computed from the datasheet's (typical) Zth curve (from memory).
+ZTH_RELATIVE_U = 0.20
+
+#: Standard uncertainty of a recorded element temperature taken as the junction's, when the
+#: reading comes without its own budget (from memory: a thermocouple on a tab, plus the junction-to-case rise).
+DEFAULT_SENSOR_U_C = 0.5
+
+
+@dataclass(frozen=True)
+class JunctionTemperature:
+    """Tj in °C with its standard uncertainty and where it comes from (`TJ_SOURCES`)."""
+
+    value_c: float
+    u_c: float
+    source: str
+    why: str
+
+    def __post_init__(self) -> None:
+        if self.source not in TJ_SOURCES:
+            raise ValueError(f"source must be one of {TJ_SOURCES}, got {self.source!r}")
+
+    def text(self) -> str:
+        return f"Tj {self.value_c:.2f} ± {self.u_c:.2g} °C (standard u), {self.source}: {self.why}"
+
+
+@dataclass(frozen=True)
+class SweepHeating:
+    """The heating inside a sweep as it shows in one fitted quantity Q."""
+
+    rise_c: float  # θ·(∇Q·c)/(dQ/dT): the rise the fitted value stands at
+    u_c: float  # its standard uncertainty from the regression
+    p_value: float  # two-sided test of θ = 0 (Student's t)
+    significant: bool  # p < ALPHA with the heating sign
+
+
+def zth_at(zth_t_s, zth_k_per_w, rth_ja_k_per_w, t_s: np.ndarray) -> np.ndarray:
+    """Zth(t) from the curve: log-log interpolation between its points; ∝ t below the first (the
+    junction's heat capacity alone, common practice); at most RθJA (or the last point) beyond the last."""
+    t_pts = np.log(np.asarray(zth_t_s, dtype=float))
+    z_pts = np.log(np.asarray(zth_k_per_w, dtype=float))
+    t = np.asarray(t_s, dtype=float)
+    out = np.zeros_like(t)
+    pos = t > 0
+    out[pos] = np.exp(np.interp(np.log(t[pos]), t_pts, z_pts))
+    early = pos & (t < zth_t_s[0])
+    out[early] = zth_k_per_w[0] * t[early] / zth_t_s[0]
+    top = rth_ja_k_per_w if rth_ja_k_per_w is not None else zth_k_per_w[-1]
+    late = t > zth_t_s[-1]
+    out[late] = max(top, zth_k_per_w[-1])
+    return out
+
+
+def rise_at_points(t_s, power_w, zth, off_s: float = 0.0) -> np.ndarray:
+    """ΔT at each point's reading time by superposing its power pulses through Zth (module docstring).
+
+    Point k's power is on from the previous reading plus the plan's cool-down `off_s` (the output
+    is off that long between points; the first: one step interval earlier) up to its own reading;
+    a pulse [s, e] adds P·(Zth(t − s) − Zth(t − e)) at a later time t.
+    """
+    t = np.asarray(t_s, dtype=float)
+    p = np.nan_to_num(np.asarray(power_w, dtype=float), nan=0.0)
+    if t.size == 0:
+        return t
+    starts = np.empty_like(t)
+    starts[1:] = t[:-1] + off_s
+    starts[0] = t[0] - (t[1] - t[0] if t.size > 1 else 0.0) + off_s
+    starts = np.minimum(starts, t)
+    on = np.arange(t.size)[None, :] <= np.arange(t.size)[:, None]  # pulses up to the reading
+    since_start = np.where(on, t[:, None] - starts[None, :], 0.0)
+    since_end = np.where(on, t[:, None] - t[None, :], 0.0)  # 0 for the pulse being read
+    return ((zth(since_start) - zth(since_end)) * p[None, :] * on).sum(axis=1)
+
+
+def projected_rise(fit, rows_rise: np.ndarray, sensitivity, quantity_gradient, dq_dt: float) -> float:
+    """The rise a fitted quantity stands at, when each point's rise is known: the least-squares
+    projection of s_i·ΔT_i on the model's directions (as in `sweep_heating`), ∇Q·c/(dQ/dT)."""
+    keep = ~fit.outliers
+    if fit.excluded is not None:
+        keep = keep & ~fit.excluded
+    i, v = fit.current_a[keep], fit.drop_v[keep]
+    z = np.asarray(sensitivity(i, v), dtype=float) * rows_rise[keep]
+    basis = fit.curve.gradient(i)
+    if fit.weights is not None:
+        sw = np.sqrt(fit.weights[keep])
+        z, basis = z * sw, basis * sw[:, None]
+    coef, *_ = np.linalg.lstsq(basis, z, rcond=None)
+    return float(np.asarray(quantity_gradient, dtype=float) @ coef) / dq_dt
+
+
+def ambient_u(value: float | None, simulated: bool) -> tuple[float, str]:
+    """Standard uncertainty of the recorded ambient (the plan's `ambient_u_c`, None: not stated), and why."""
+    if value is not None and math.isfinite(value) and value >= 0:
+        return float(value), f"the plan's ambient_u_c {float(value):g} K"
+    if simulated:
+        return 0.0, "the simulated bench holds its ambient at exactly the plan's ambient_c"
+    u = DEFAULT_AMBIENT_HALF_WIDTH_K / math.sqrt(3.0)
+    return u, (f"the ambient taken as known to ±{DEFAULT_AMBIENT_HALF_WIDTH_K:g} K (rectangular, "
+               f"u = {u:.2g} K; state ambient_u_c in the plan's [element] to change it)")
+
+
+def sweep_heating(fit, sensitivity, quantity_gradient, dq_dt: float) -> SweepHeating | None:
+    """The rise a fitted quantity stands at, from the fit's residuals (module docstring).
+
+    `sensitivity(i, v)` gives the drop's temperature sensitivity at each point (V/K),
+    `quantity_gradient` the gradient of the judged quantity in the fit's parameters,
+    `dq_dt` the quantity's own temperature sensitivity (its unit per K).
+    """
+    from scipy import stats
+
+    from .self_heating import ALPHA
+
+    keep = ~fit.outliers
+    if fit.excluded is not None:
+        keep = keep & ~fit.excluded
+    e = fit.residuals_v[keep]
+    i = fit.current_a[keep]
+    v = fit.drop_v[keep]
+    p_params = fit.covariance.shape[0]
+    dof = e.size - p_params - 1
+    if dof < 3 or dq_dt == 0 or not math.isfinite(dq_dt):
+        return None
+    z = np.asarray(sensitivity(i, v), dtype=float) * i * v
+    basis = fit.curve.gradient(i)
+    if fit.weights is not None:
+        sw = np.sqrt(fit.weights[keep])
+        e, z, basis = e * sw, z * sw, basis * sw[:, None]
+    norms = np.sqrt(np.einsum("ij,ij->j", basis, basis))
+    norms[norms == 0] = 1.0
+    scaled = basis / norms
+    coef = np.linalg.solve(scaled.T @ scaled, scaled.T @ z) / norms
+    z_perp = z - basis @ coef
+    szz = float(z_perp @ z_perp)
+    if not szz > 0:
+        return None
+    theta = float(z_perp @ e) / szz  # K/W
+    rest = e - theta * z_perp
+    s2 = float(rest @ rest) / dof
+    se = math.sqrt(s2 / szz) if s2 > 0 else 0.0
+    t = theta / se if se > 0 else math.inf
+    p = float(2.0 * stats.t.sf(abs(t), dof))
+    share = float(np.asarray(quantity_gradient, dtype=float) @ coef) / dq_dt  # K per (K/W)
+    return SweepHeating(rise_c=theta * share, u_c=abs(se * share), p_value=p, significant=p < ALPHA and theta > 0)
+
+
+def junction_temperature(
+    ambient_c: float,
+    ambient_u_c: float,
+    ambient_why: str,
+    heating: SweepHeating | None,
+    measured_c=None,
+    steady_rise_c: float | None = None,
+    zth_rise_c: float | None = None,
+) -> JunctionTemperature:
+    """Choose Tj: measured temperatures when recorded, else inferred from the drop, else assumed (module docstring)."""
+    if measured_c is not None:
+        t = np.asarray(measured_c, dtype=float)
+        t = t[np.isfinite(t)]
+        if t.size:
+            spread = float(t.std(ddof=1)) if t.size > 1 else 0.0
+            u = math.hypot(spread, DEFAULT_SENSOR_U_C)
+            return JunctionTemperature(float(t.mean()), u, "measured",
+                                       f"mean of {t.size} recorded temperature(s), spread {spread:.2g} K "
+                                       f"and the sensor's {DEFAULT_SENSOR_U_C:g} K")
+    if zth_rise_c is not None:
+        u_rise = ZTH_RELATIVE_U * abs(zth_rise_c)
+        u = math.hypot(ambient_u_c, u_rise)
+        return JunctionTemperature(ambient_c + zth_rise_c, u, "inferred",
+                                   f"ambient {ambient_c:g} °C plus the sweep's own heating {zth_rise_c:.3g} K "
+                                   f"(± {ZTH_RELATIVE_U * 100:g} %) from the recorded power and the spec's "
+                                   f"transient thermal impedance; {ambient_why}")
+    if heating is not None and heating.significant:
+        u = math.hypot(ambient_u_c, heating.u_c)
+        return JunctionTemperature(ambient_c + heating.rise_c, u, "inferred",
+                                   f"ambient {ambient_c:g} °C plus the sweep's own heating "
+                                   f"{heating.rise_c:.3g} ± {heating.u_c:.2g} K seen in the drop "
+                                   f"(p = {heating.p_value:.2g}); {ambient_why}")
+    if heating is not None:
+        # a bend of the other sign is not heating (the model fits less well there): only a rise counts
+        unresolved = math.hypot(max(heating.rise_c, 0.0), heating.u_c)
+        u = math.hypot(ambient_u_c, unresolved)
+        return JunctionTemperature(ambient_c, u, "assumed",
+                                   f"the ambient; the sweep's own heating is below resolution "
+                                   f"({heating.rise_c:+.2g} ± {heating.u_c:.2g} K, p = {heating.p_value:.2g}) "
+                                   f"and kept in u; {ambient_why}")
+    if steady_rise_c is not None and steady_rise_c > 0:
+        # untested: the steady-state rise P·RθJA bounds what any sweep can reach (rectangular, GUM 4.3.7)
+        u = math.hypot(ambient_u_c, steady_rise_c / math.sqrt(3.0))
+        return JunctionTemperature(ambient_c, u, "assumed",
+                                   f"the ambient; too few points to test the sweep's heating, so the steady-state "
+                                   f"rise {steady_rise_c:.3g} K (the largest power × RθJA) bounds it in u; {ambient_why}")
+    return JunctionTemperature(ambient_c, ambient_u_c, "assumed",
+                               f"the ambient (too few points to test the sweep's heating, no RθJA to bound it); "
+                               f"{ambient_why}")

@@ -1,0 +1,189 @@
+"""Coverage of the k = 2 interval on the tool's own bench: seeded sweeps of the simulator, truth at the recorded Tj.
+
+Each sweep is a real sweep (`sweep.session.run_sweep`) of a demo plan on the
+built-in simulated bench, reached through pyvisa-py over loopback sockets, in
+real time: the simulator's element heats by its own thermal model while the
+sweep runs, and each seed draws a new element (part-to-part spread) and new
+fixed gain and offset errors of the supply, load and meter, uniformly within
+their accuracy specs (`sim.specs.draw_fixed_error`). Each run file is then judged by
+the same function `check`, `lot`, the UI and the report call
+(`analysis.judging.judge_run`), which states the quantity at a junction
+temperature Tj with an expanded uncertainty U (k = 2). The truth is the
+simulator's element (rebuilt from the same seed) evaluated at that recorded Tj:
+  - P-MOSFET and resistor: R at Tj (the channel fully enhanced at the test's drive);
+  - rectifier: Vf at the plan's operating current at Tj.
+A sweep is covered when |value − truth| ≤ U. Goal: 93–97 % of at least 400 sweeps
+per element (a coverage probability of 95.45 % for k = 2, GUM 6.3.3 and G.3; the band is
+about ±2 binomial standard deviations at n = 400, common practice).
+
+Run files are kept under --dir, so `--judge-only` re-judges them without sweeping.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+import time
+from pathlib import Path
+
+import _common
+import numpy as np
+
+PLANS = {
+    "pmos": "pmos-prototype.toml",
+    "resistor": "resistor-prototype.toml",
+    "rectifier": "rectifier-prototype.toml",
+}
+SPECS = {
+    "pmos": "demo-pfet-10m.toml",
+    "resistor": "demo-shunt-50m.toml",
+    "rectifier": "demo-rect-3a.toml",
+}
+DEMO = _common.REPO / "benchlog" / "demo"
+DEFAULT_DIR = "/tmp/benchlog-coverage"
+
+
+def record(kind: str, seeds: range, out: Path) -> None:
+    """One real sweep per seed; the run file and the simulator's final junction temperature are kept."""
+    from benchlog.sweep.plan import load_plan
+    from benchlog.sweep.session import run_sweep
+    from benchlog.cli.simbench import builtin_bench, sim_wiring
+
+    plan = load_plan(DEMO / "plans" / PLANS[kind])
+    out.mkdir(parents=True, exist_ok=True)
+    for seed in seeds:
+        target = out / f"seed{seed:05d}"
+        if (target / "done.json").exists():
+            continue
+        target.mkdir(exist_ok=True)
+        for old in target.glob("*"):
+            old.unlink()
+        setup, running = builtin_bench(plan.element, seed, wiring=sim_wiring(plan.element))
+        try:
+            result = run_sweep(plan, setup, target)
+            junction = running.bench.junction_c
+        finally:
+            running.stop()
+        (target / "done.json").write_text(json.dumps({
+            "seed": seed, "outcome": result.outcome, "run": str(result.run_file), "sim_junction_end_c": junction}))
+
+
+def truth_at(kind: str, seed: int, tj_c: float, current_a: float) -> float:
+    """The simulator's element of this seed at Tj: R (channel, resistor) or Vf at `current_a` (diode)."""
+    from benchlog.sim.bench import SimBench
+    from benchlog.sim.config import SimConfig
+
+    element = SimBench(SimConfig(element=kind, seed=seed), clock=lambda: 0.0).element
+    if kind == "pmos":
+        return element.channel_ohm(-12.0, tj_c)  # 12 V drive: above the sim's full-enhancement voltage
+    if kind == "resistor":
+        return element.ohm(tj_c)
+    return element.forward_drop_v(current_a, tj_c)
+
+
+RECTANGULAR_WORDS = ("gain", "offset", "shunt", "translation")
+
+
+def coverage_factor(components, rng, p: float = 0.9545, draws: int = 20000) -> float:
+    """For information: k_p with P(|error| ≤ k_p·u_c) = p for the combined distribution, by Monte Carlo
+    (the propagation of distributions of JCGM 101:2008): the instrument-spec terms rectangular (GUM 4.3.7),
+    the others normal."""
+    total = np.zeros(draws)
+    for c in components:
+        if c.u <= 0:
+            continue
+        if any(w in c.name for w in RECTANGULAR_WORDS):
+            total += rng.uniform(-1.0, 1.0, draws) * c.u * math.sqrt(3.0)
+        else:
+            total += rng.normal(0.0, c.u, draws)
+    u_c = math.sqrt(sum(c.u * c.u for c in components))
+    return float(np.quantile(np.abs(total), p)) / u_c
+
+
+def judge(kind: str, out: Path) -> dict:
+    from benchlog.analysis.judging import judge_run
+    from benchlog.specfiles import load_spec
+    from benchlog.runs import load
+
+    spec = load_spec(DEMO / "specs" / SPECS[kind])
+    covered, n, ratios, terms, tj_sources, bad = 0, 0, [], {}, {}, 0
+    covered_kp, kps = 0, []
+    rng = np.random.default_rng(20261202)
+    for done in sorted(out.glob("seed*/done.json")):
+        info = json.loads(done.read_text())
+        if info["outcome"] != "complete":
+            bad += 1
+            continue
+        frame, meta = load(info["run"])
+        j = judge_run(frame, meta, spec)
+        truth = truth_at(kind, info["seed"], j.tj.value_c, j.current_a)
+        error = j.value - truth
+        n += 1
+        covered += abs(error) <= j.expanded_u
+        ratios.append(error / j.std_u)
+        tj_sources[j.tj.source] = tj_sources.get(j.tj.source, 0) + 1
+        for c in j.budget.components:
+            terms.setdefault(c.name, []).append(c.u / j.std_u)
+        k_p = coverage_factor(j.budget.components, rng)
+        kps.append(k_p)
+        covered_kp += abs(error) <= k_p * j.std_u
+    r = np.asarray(ratios)
+    return {
+        "kind": kind, "quantity": j.quantity if n else "", "sweeps": n, "not_complete": bad,
+        "covered": covered, "coverage_pct": 100.0 * covered / n if n else math.nan,
+        "mean_error_over_u": float(r.mean()) if n else math.nan,
+        "std_error_over_u": float(r.std(ddof=1)) if n > 1 else math.nan,
+        "tj_sources": tj_sources,
+        "covered_with_k_p": covered_kp, "coverage_with_k_p_pct": 100.0 * covered_kp / n if n else math.nan,
+        "median_k_p": float(np.median(kps)) if kps else math.nan,
+        "mean_share_of_u": {k: float(np.mean(np.square(v))) for k, v in terms.items()},
+    }
+
+
+def main() -> int:
+    p = _common.parser(__doc__.splitlines()[0])
+    p.add_argument("--sweeps", type=int, default=400, help="seeded sweeps per element (default 400)")
+    p.add_argument("--kinds", default="pmos,resistor,rectifier", help="elements, comma-separated")
+    p.add_argument("--dir", default=DEFAULT_DIR, help="where the run files are kept")
+    p.add_argument("--judge-only", action="store_true", help="judge the run files already recorded")
+    args = p.parse_args()
+    if args.quick:
+        import tempfile
+
+        args.sweeps = 3
+        if args.dir == DEFAULT_DIR:  # never mix a quick check with kept full-size recordings
+            args.dir = tempfile.mkdtemp(prefix="benchlog-coverage-quick-")
+    kinds = [k for k in args.kinds.split(",") if k]
+    for kind in kinds:
+        if kind not in PLANS:
+            print(f"--kinds: unknown element {kind!r}; expected {', '.join(PLANS)}", file=sys.stderr)
+            return 2
+    figures = {}
+    for kind in kinds:
+        out = Path(args.dir) / kind
+        t0 = time.perf_counter()
+        if not args.judge_only:
+            record(kind, range(args.sweeps), out)
+        t1 = time.perf_counter()
+        fig = judge(kind, out)
+        fig["record_s"], fig["judge_s"] = t1 - t0, time.perf_counter() - t1
+        figures[kind] = fig
+        lo, hi = 93.0, 97.0
+        met = lo <= fig["coverage_pct"] <= hi and fig["sweeps"] >= 400
+        fig["met"] = met
+        print(f"{kind:10s} {fig['quantity']:8s} covered {fig['covered']}/{fig['sweeps']} = "
+              f"{fig['coverage_pct']:.1f} %  (goal {lo:g}-{hi:g} % of >= 400: {_common.verdict(met)}); "
+              f"error/u mean {fig['mean_error_over_u']:+.3f}, sd {fig['std_error_over_u']:.3f}; "
+              f"Tj sources {fig['tj_sources']}")
+        shares = sorted(fig["mean_share_of_u"].items(), key=lambda kv: -kv[1])
+        print("           mean share of u²: " + ", ".join(f"{k} {v:.2f}" for k, v in shares))
+        print(f"           for information, k_p of the combined distribution (JCGM 101 Monte Carlo, median "
+              f"{fig['median_k_p']:.3f}): covered {fig['covered_with_k_p']}/{fig['sweeps']} = "
+              f"{fig['coverage_with_k_p_pct']:.1f} %")
+    _common.finish("bench_coverage", figures, args)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
