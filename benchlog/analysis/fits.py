@@ -10,7 +10,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-import pandas as pd
 
 from benchlog.badinput import BadInput
 from benchlog.kinds import ELEMENT_KINDS, kind as element_kind
@@ -48,9 +47,12 @@ MODELS = ("auto", "resistive", "diode", "knee")
 DEFAULT_TEMPERATURE_C = 25.0
 
 
-def _has_flag(column, flag: str) -> np.ndarray:
+def _has_flag(frame, flag: str) -> np.ndarray:
     """Rows whose "|"-joined flags hold `flag`; a loaded run's flags are categorical, so test the categories."""
-    if isinstance(column.dtype, pd.CategoricalDtype):
+    if hasattr(frame, "has_flag"):  # runs.PointArrays (the light loader, no pandas)
+        return frame.has_flag(flag)
+    column = frame["flags"]
+    if hasattr(column, "cat"):
         names = [str(c).split("|") for c in column.cat.categories]
         hits = np.flatnonzero([flag in parts for parts in names])
         return np.isin(column.cat.codes.to_numpy(), hits)
@@ -58,15 +60,18 @@ def _has_flag(column, flag: str) -> np.ndarray:
 
 
 def usable_points(frame) -> tuple[np.ndarray, list[str]]:
-    """Rows that can be fitted: finite current and drop, no overload flag; and notes on the rest."""
+    """Rows that can be fitted: finite current and drop, no overload flag; and notes on the rest.
+
+    `frame` is `runs.load`'s DataFrame or `runs.load_points`' arrays (same columns, no pandas).
+    """
     current = frame["current_a"].to_numpy(dtype=float)
     drop = frame["drop_v"].to_numpy(dtype=float)
     rows = np.isfinite(current) & np.isfinite(drop)
     overload = np.zeros(rows.shape, dtype=bool)
     notes = []
     if "flags" in frame.columns:
-        overload = _has_flag(frame["flags"], "overload")
-        unsettled = _has_flag(frame["flags"], "unsettled") & rows & ~overload
+        overload = _has_flag(frame, "overload")
+        unsettled = _has_flag(frame, "unsettled") & rows & ~overload
         if overload.any():
             notes.append(f"{int(overload.sum())} overload point(s) left out")
         if unsettled.any():

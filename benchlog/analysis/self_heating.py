@@ -4,12 +4,12 @@ Two signs, each tested against the scatter of the data (the meters' gain and
 offset are common to every point, so only type A counts here):
   1. hysteresis — on an up-then-down sweep the down pass is hotter at the same
      current; the residuals at matched setpoints differ (paired t test on the
-     differences, scipy.stats.ttest_1samp);
+     differences, as scipy.stats.ttest_1samp; t tails from analysis/student_t.py);
   2. trend — the junction rise follows the power, ΔT = θ·P with P = I·V, so the
      excess drop grows as R·α·θ·P·I for a resistance (∝ I³: the apparent R rises
      with I²) and as (dV/dT)·θ·P for a diode. The residuals are regressed on that
      shape after removing what the fitted model can already absorb (Frisch–Waugh–
-     Lovell), and the slope is t-tested (scipy.stats.t); with the fit's weights
+     Lovell), and the slope is t-tested (Student's t, analysis/student_t.py); with the fit's weights
      when it has them (weighted least squares, as the fit itself).
 For the trend the sign must be the heating sign — R_DS(on) rises with
 temperature, Vf falls (common practice); a significant bend of the other sign is
@@ -25,10 +25,9 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
-from scipy import stats
 
 from .fit_result import FitResult
+from .student_t import t_sf
 
 #: Significance of each test: a flag on a clean run should be a 1-in-1000 event.
 ALPHA = 0.001
@@ -46,6 +45,17 @@ class SelfHeating:
     trend_delta_t_c: float | None = None  # rise at the highest power, from the trend
 
 
+def _paired_t_p(diffs: np.ndarray) -> float:
+    """Two-sided p of the one-sample t test of mean 0, t = mean/(s/√n), ν = n − 1 (Student 1908;
+    scipy.stats.ttest_1samp's value)."""
+    n = diffs.size
+    mean = float(diffs.mean())
+    s = float(diffs.std(ddof=1))
+    if s == 0.0:
+        return math.nan if mean == 0.0 else 0.0
+    return 2.0 * t_sf(abs(mean) / (s / math.sqrt(n)), n - 1)
+
+
 def _heating_sign(fit: FitResult, tempco_per_k: float | None) -> float:
     if tempco_per_k:
         return math.copysign(1.0, tempco_per_k)
@@ -60,11 +70,11 @@ def _directions(frame, fit: FitResult):
     if pos.size and (pos.max() >= index.size or not np.array_equal(index[pos], fit.point_index)):
         return None, None
     column = frame["direction"]
-    if isinstance(column.dtype, pd.CategoricalDtype):
+    if hasattr(column, "cat"):  # a loaded DataFrame's categorical column (pandas is not imported for this)
         names = np.asarray([str(c) for c in column.cat.categories] + ["nan"])
         direction = names[column.cat.codes.to_numpy()[pos]]  # code −1 (missing) picks "nan"
     else:
-        direction = column.astype(str).to_numpy()[pos]
+        direction = np.asarray(column.to_numpy(), dtype=str)[pos]
     setpoint = frame["setpoint_a"].to_numpy(dtype=float)[pos] if "setpoint_a" in frame.columns else fit.current_a
     return direction, setpoint
 
@@ -124,8 +134,7 @@ def _updown(e, i, direction, setpoint, sign, resistive, r_value, tempco, alpha, 
         cnt = np.bincount(pos[mask], minlength=common.size)
         diffs += sgn * np.bincount(pos[mask], weights=e[mask], minlength=common.size) / cnt
         curr += 0.5 * np.bincount(pos[mask], weights=i[mask], minlength=common.size) / cnt
-    test = stats.ttest_1samp(diffs, 0.0)
-    p = float(test.pvalue)
+    p = _paired_t_p(diffs)
     shift = float(diffs.mean())
     out["updown_p"], out["updown_shift_v"] = p, shift
     if tempco:
@@ -179,7 +188,7 @@ def _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco, alpha, found, q
     s2 = float(rest @ rest) / dof
     se = math.sqrt(s2 / szz) if s2 > 0 else 0.0
     t = b / se if se > 0 else math.inf
-    p = float(2.0 * stats.t.sf(abs(t), dof))
+    p = 2.0 * t_sf(abs(t), dof)
     out["trend_p"] = p
     if tempco and math.copysign(1.0, b) == sign:  # a rise only from a bend of the heating sign
         # in the joint model V = V0 + R₀·I + b·I·P the unheated R₀ is the fitted R less what
