@@ -45,9 +45,7 @@ from .effective_variance import (
 )
 from .uncertainty import Component, MeasurementAccuracy, combine
 
-ZERO_C_K = 273.15  # K, exact (definition of the Celsius scale)
-BOLTZMANN_J_PER_K = 1.380649e-23  # exact since the 2019 SI redefinition (BIPM SI Brochure, 9th ed.)
-ELEMENTARY_CHARGE_C = 1.602176634e-19  # exact since the 2019 SI redefinition
+from .si_constants import BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C, ZERO_C_K
 
 
 def thermal_voltage_v(temperature_c: float) -> float:

@@ -6,7 +6,8 @@ Statistics, all vectorised so a lot of 10,000 parts is summarised in millisecond
   with both limits, Cpu = (USL − μ)/(3σ) for a one-sided maximum, Cpl = (μ − LSL)/(3σ);
 - outliers by Rosner's generalized ESD test (Technometrics 25, 1983; NIST/SEMATECH
   e-Handbook §1.3.5.17.3) at α = 0.05, critical values from Student's t
-  (`scipy.stats.t`). Outliers are reported, never dropped: the statistics use every part;
+  (`student_t.t_quantile`, as scipy.stats.t.ppf). Outliers are reported, never dropped: the
+  statistics use every part;
 - per-part verdicts by the ILAC-G8 guard band (`verdict.decide_many`).
 Lot verdict: pass when every part passes and the capability index is at least 1.33
 (the usual minimum for a capable process, common practice, e.g. AIAG PPAP); fail when
@@ -21,11 +22,11 @@ from pathlib import Path
 from typing import Sequence
 
 import numpy as np
-from scipy import stats
 
 from benchlog.badinput import BadInput
 
 from .spec import PartSpec
+from .student_t import t_quantile
 from .verdict import RunConditions, decide_many, limit_envelope, rule_text, run_conditions
 
 CAPABILITY_MIN = 1.33
@@ -86,7 +87,7 @@ def generalized_esd(values: np.ndarray, max_outliers: int | None = None, alpha: 
         j = int(np.argmax(dev))
         big_r = dev[j] / sd if sd > 0 else 0.0
         p = 1.0 - alpha / (2.0 * (n - i + 1))
-        t = stats.t.ppf(p, n - i - 1)
+        t = t_quantile(n - i - 1, p)
         lam = (n - i) * t / math.sqrt((n - i - 1 + t * t) * (n - i + 1))
         if big_r > lam:
             found = i
