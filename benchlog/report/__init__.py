@@ -16,12 +16,20 @@ from pathlib import Path
 from .build import build_report
 from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
 from .htmlfile import render_html, write_html
-from .pdffile import plan_pages, write_pdf
 
 __all__ = [
     "Document", "FigureBlock", "Paragraph", "Section", "Table", "VerdictBlock",
     "build_report", "render_html", "write_html", "plan_pages", "write_pdf", "write_report",
 ]
+
+
+def __getattr__(name: str):
+    """`plan_pages` and `write_pdf` load the PDF backend on first use, not with the package."""
+    if name in ("plan_pages", "write_pdf"):
+        from . import pdffile
+
+        return getattr(pdffile, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def write_report(doc: Document, path: str | Path) -> Path:
@@ -31,6 +39,8 @@ def write_report(doc: Document, path: str | Path) -> Path:
     if suffix in (".html", ".htm"):
         return write_html(doc, path)
     if suffix == ".pdf":
+        from .pdffile import write_pdf  # matplotlib's PDF backend only for a PDF
+
         write_pdf(doc, path)
         return path
     raise ValueError(f"report file must end in .html or .pdf, not {suffix or 'nothing'!r}")

@@ -21,18 +21,16 @@ from typing import Any, Sequence
 import numpy as np
 
 import benchlog
-from benchlog.analysis.design import review as design_review
 from benchlog.analysis.fits import detect_self_heating, fit_run
 from benchlog.analysis.predict import predict
 from benchlog.analysis.spec import PartSpec
 from benchlog.analysis.verdict import check_run, run_conditions, run_element
 from benchlog.badinput import BadInput
-from benchlog.runs import load
-from benchlog.specfiles import load_design, load_spec
+from benchlog.runs.points import load_points
+from benchlog.specfiles import load_spec
 
 from . import figures
 from . import from_analysis as fa
-from .design_section import design_section
 from .from_verdict import verdict_block
 from .lot_section import lot_section
 from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
@@ -45,7 +43,7 @@ class RunAnalysis:
     """One run and what the analysis made of it; a `*_problem` says why a result is missing."""
 
     path: Path
-    frame: Any  # pandas.DataFrame
+    frame: Any  # runs.PointArrays (the columns of runs.load's DataFrame, without pandas)
     meta: Any  # benchlog.runs.RunMeta
     fit: Any = None  # FitResult
     fit_problem: str = ""
@@ -110,7 +108,7 @@ def analyse_run(path: str | Path, spec: PartSpec | None = None, *, model: str = 
     the verdict used (same model), so every number in the report agrees.
     """
     path = Path(path)
-    frame, meta = load(path)
+    frame, meta = load_points(path)
     fit = heating = check = prediction = None
     fit_problem = check_problem = ""
     cond = Conditions(None, 25.0)
@@ -276,7 +274,7 @@ def _event_blocks(ra: RunAnalysis) -> list:
     blocks.append(Table(("time", "event", "what happened"), tuple(rows), caption="Events")
                   if rows else Paragraph("No events were recorded."))
     if "flags" in ra.frame.columns and len(ra.frame):
-        counts = Counter(f for cell in ra.frame["flags"].fillna("").astype(str) for f in cell.split("|") if f)
+        counts = Counter(f for cell in ra.frame["flags"].to_numpy() if isinstance(cell, str) for f in cell.split("|") if f)
         if counts:
             blocks.append(Table(("point flag", "points"), tuple((k, str(v)) for k, v in sorted(counts.items())),
                                 caption="Points carrying flags"))
@@ -430,7 +428,12 @@ def build_report(
     if not run_paths and design_path is None:
         raise BadInput("argument", "RUN", "no run file given", "one or more .run files, or --design")
     spec = load_spec(spec_path) if spec_path is not None else None
-    review = design_review(load_design(design_path)) if design_path is not None else None
+    review = None
+    if design_path is not None:  # the design review is imported only for a report that has one
+        from benchlog.analysis.design import review as design_review
+        from benchlog.specfiles import load_design
+
+        review = design_review(load_design(design_path))
     runs = [analyse_run(p, spec, model=model, at_a=at_a) for p in run_paths]
     when = generated_utc or datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     sections: list[Section] = []
@@ -445,6 +448,8 @@ def build_report(
         summary.append(Paragraph(f"Design review of {review.design.name}: {review.recommendation}."))
     sections.append(Section("Summary", tuple(summary)))
     if review is not None:
+        from .design_section import design_section
+
         sections.append(design_section(review))
     if len(runs) > 1:
         sections.append(comparison_section(runs))

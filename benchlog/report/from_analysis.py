@@ -44,7 +44,7 @@ def measured_series(frame, fit: FitResult | None, label: str, offset_v: float | 
     outlier = np.zeros(current.shape, dtype=bool)
     if fit is not None and "index" in frame.columns and fit.outliers.any():
         flagged = set(np.asarray(fit.point_index)[np.asarray(fit.outliers, dtype=bool)].tolist())
-        outlier = frame["index"].isin(flagged).to_numpy()
+        outlier = np.isin(frame["index"].to_numpy(), sorted(flagged))
     return MeasuredSeries(label, current[keep], drop[keep], outlier=outlier[keep])
 
 
