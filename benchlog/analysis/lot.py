@@ -27,7 +27,7 @@ from benchlog.badinput import BadInput
 
 from .spec import PartSpec
 from .student_t import t_quantile
-from .verdict import RunConditions, decide_many, limit_envelope, rule_text, run_conditions
+from .verdict import RunConditions, decide_many, limit_envelope, median_of, rule_text, run_conditions
 
 CAPABILITY_MIN = 1.33
 ESD_ALPHA = 0.05
@@ -65,7 +65,7 @@ def generalized_esd(values: np.ndarray, max_outliers: int | None = None, alpha: 
     x = np.asarray(values, dtype=float)
     n = x.size
     if n:
-        x = x - np.median(x)  # centred, so the running sums below lose no digits
+        x = x - median_of(x)  # centred, so the running sums below lose no digits
     if max_outliers is None:
         max_outliers = max(1, min(n // 10, 100))
     r = min(max_outliers, n - 2)
@@ -401,7 +401,7 @@ def lot_from_runs(paths: Sequence[str | Path], spec: PartSpec, at_a: float | Non
         workers = _cpus() if len(paths) >= POOL_MIN_RUNS else 1
     parts = [first] + _fit_rest(paths[1:], spec, at_a, model, cond.current_a, max(1, int(workers)))
     ambients = [p.conditions.ambient_c for p in parts]
-    ambient = float(np.median(ambients))
+    ambient = median_of(ambients)
     usl, lsl, source, notes = lot_limits(spec, cond.current_a, ambient, cond.vin_v, cond.zener_v, quantity)
     kind = "its body diode" if cond.body_diode else f"a {spec.kind}"
     if model == "resistive":

@@ -30,6 +30,16 @@ import numpy as np
 from benchlog.badinput import BadInput
 
 from .predict import OperatingPoint, Prediction, predict
+
+
+def median_of(values) -> float:
+    """The median as numpy.median gives it (mean of the two middle values for an even count), without
+    the import of numpy.ma that numpy.median makes on first use."""
+    s = np.sort(np.asarray(values, dtype=float).ravel())
+    n = s.size
+    if n == 0:
+        return math.nan
+    return float((s[(n - 1) // 2] + s[n // 2]) / 2.0)
 from .spec import PartSpec
 
 OUTCOMES = ("pass", "fail", "conditional")
@@ -287,7 +297,7 @@ def run_conditions(frame, meta, spec: PartSpec, at_a: float | None = None) -> Ru
         bench = header.get("bench") if isinstance(header.get("bench"), dict) else {}
         wiring = bench.get("wiring") if isinstance(bench.get("wiring"), dict) else {}
         if supply.size:
-            vin = float(np.median(supply))
+            vin = median_of(supply)
             notes.append(f"gate to {spec.element.gate_to}: |Vgs| from the median recorded supply voltage {vin:.4g} V")
         elif _number(wiring.get("input_v")) is not None:
             vin = _number(wiring["input_v"])

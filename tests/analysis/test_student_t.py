@@ -61,3 +61,21 @@ def test_the_written_out_constants_are_scipys():
     assert BOLTZMANN_J_PER_K == constants.k
     assert ELEMENTARY_CHARGE_C == constants.e
     assert ZERO_C_K == constants.zero_Celsius
+
+
+def test_normal_quantile_matches_scipy_ndtri():
+    from benchlog.analysis.student_t import normal_quantile
+
+    for p in [1e-300, 1e-12, 1e-9, 0.001, 0.1, 0.3, 0.5, 0.6, 0.9, 0.97725, 0.999, 1 - 1e-6, 1 - 5e-10]:
+        assert normal_quantile(p) == pytest.approx(float(special.ndtri(p)), rel=1e-13, abs=1e-15)
+
+
+def test_median_matches_numpy_median():
+    import numpy as np
+
+    from benchlog.analysis.verdict import median_of
+
+    rng = np.random.default_rng(3)
+    for n in (1, 2, 3, 10, 11, 1000):
+        x = rng.normal(size=n)
+        assert median_of(x) == float(np.median(x))  # reference: numpy.median
