@@ -63,19 +63,29 @@ def _heating_sign(fit: FitResult, tempco_per_k: float | None) -> float:
 
 
 def _directions(frame, fit: FitResult):
+    """Direction (as compared with "up"/"down") and setpoint of each fitted point, or (None, None)."""
     if frame is None or "direction" not in getattr(frame, "columns", ()) or "index" not in frame.columns:
         return None, None
     index = frame["index"].to_numpy()
-    pos = np.searchsorted(index, fit.point_index)  # a run's index increases strictly (runs/format.py)
-    if pos.size and (pos.max() >= index.size or not np.array_equal(index[pos], fit.point_index)):
-        return None, None
+    if index.size == fit.point_index.size and np.array_equal(index, fit.point_index):
+        pos = None  # every point was fitted, in file order: the columns as they are, no copies
+    else:
+        pos = np.searchsorted(index, fit.point_index)  # a run's index increases strictly (runs/format.py)
+        if pos.size and (pos.max() >= index.size or not np.array_equal(index[pos], fit.point_index)):
+            return None, None
     column = frame["direction"]
     if hasattr(column, "cat"):  # a loaded DataFrame's categorical column (pandas is not imported for this)
-        names = np.asarray([str(c) for c in column.cat.categories] + ["nan"])
-        direction = names[column.cat.codes.to_numpy()[pos]]  # code −1 (missing) picks "nan"
+        names = np.asarray([str(c) for c in column.cat.categories] + ["nan"], dtype=object)
+        codes = column.cat.codes.to_numpy()
+        direction = names[codes if pos is None else codes[pos]]  # code −1 (missing) picks "nan"
     else:
-        direction = np.asarray(column.to_numpy(), dtype=str)[pos]
-    setpoint = frame["setpoint_a"].to_numpy(dtype=float)[pos] if "setpoint_a" in frame.columns else fit.current_a
+        values = column.to_numpy()  # object array of str: compared with "up"/"down" element by element
+        direction = values if pos is None else values[pos]
+    if "setpoint_a" in frame.columns:
+        setpoint = frame["setpoint_a"].to_numpy(dtype=float)
+        setpoint = setpoint if pos is None else setpoint[pos]
+    else:
+        setpoint = fit.current_a
     return direction, setpoint
 
 
@@ -84,9 +94,10 @@ def detect_self_heating(frame, fit: FitResult, tempco_per_k: float | None = None
     keep = ~fit.outliers
     if fit.excluded is not None:
         keep &= ~fit.excluded
-    e = fit.residuals_v[keep]
-    i = fit.current_a[keep]
-    v = fit.drop_v[keep]
+    every = bool(keep.all())  # the usual case: views of the fit's arrays, not copies of a long run
+    e = fit.residuals_v if every else fit.residuals_v[keep]
+    i = fit.current_a if every else fit.current_a[keep]
+    v = fit.drop_v if every else fit.drop_v[keep]
     sign = _heating_sign(fit, tempco_per_k)
     resistive = fit.model == "resistive"
     r_value = fit.params.get("r_on_ohm", math.nan)
@@ -96,11 +107,12 @@ def detect_self_heating(frame, fit: FitResult, tempco_per_k: float | None = None
 
     direction, setpoint = _directions(frame, fit)
     if direction is not None:
-        direction, setpoint = direction[keep], setpoint[keep]
+        if not every:
+            direction, setpoint = direction[keep], setpoint[keep]
         _updown(e, i, direction, setpoint, sign, resistive, r_value, tempco_per_k, alpha, found, quiet, out)
     else:
         quiet.append("no direction column: hysteresis not tested")
-    _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco_per_k, alpha, found, quiet, out)
+    _trend(fit, None if every else keep, e, i, v, sign, resistive, r_value, tempco_per_k, alpha, found, quiet, out)
 
     detected = bool(found)
     delta = out.get("trend_delta_t_c")
@@ -165,27 +177,34 @@ def _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco, alpha, found, q
         quiet.append("too few points for the trend test")
         return
     power = i * v
-    z = power * i if resistive else power
+    z = power * i if resistive else power.copy()
     basis = fit.curve.gradient(i)
+    ee = float(e @ e)
     if fit.weights is not None:
         # the regression in the fit's own metric (its weights, e.g. the effective variance), so points
         # the fit trusts little do not swamp the test
-        sw = np.sqrt(fit.weights[keep])
-        e, z, basis = e * sw, z * sw, basis * sw[:, None]
-    # projection on the model's own directions by scaled normal equations (p <= 3 columns, cheap at 1e6 points)
+        sw = np.sqrt(fit.weights if keep is None else fit.weights[keep])
+        e = e * sw
+        ee = float(e @ e)
+        z *= sw
+        basis *= sw[:, None]
+        del sw
+    # projection on the model's own directions by scaled normal equations (p <= 3 columns): the n-long
+    # arrays are z, the basis and one residual; every other quantity is a dot product (memory ~ a few n)
     norms = np.sqrt(np.einsum("ij,ij->j", basis, basis))
     norms[norms == 0] = 1.0
-    scaled = basis / norms
-    coef = np.linalg.solve(scaled.T @ scaled, scaled.T @ z) / norms
-    z_perp = z - basis @ coef
-    szz = float(z_perp @ z_perp)
+    gram = (basis.T @ basis) / np.outer(norms, norms)
+    coef = np.linalg.solve(gram, (basis.T @ z) / norms) / norms
+    z -= basis @ coef  # z is now z⊥, the part of the heating shape the model cannot absorb
+    del basis
+    szz = float(z @ z)
     if not szz > 0:
         quiet.append("the heating shape is already inside the model: trend not tested")
         return
-    b = float(z_perp @ e) / szz
-    rest = e - b * z_perp
+    ze = float(z @ e)
+    b = ze / szz
     dof = n - p_params - 1
-    s2 = float(rest @ rest) / dof
+    s2 = max(ee - 2.0 * b * ze + b * b * szz, 0.0) / dof  # Σ(e − b·z⊥)², expanded
     se = math.sqrt(s2 / szz) if s2 > 0 else 0.0
     t = b / se if se > 0 else math.inf
     p = 2.0 * t_sf(abs(t), dof)
