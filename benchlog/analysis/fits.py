@@ -49,9 +49,14 @@ DEFAULT_TEMPERATURE_C = 25.0
 
 def _has_flag(frame, flag: str) -> np.ndarray:
     """Rows whose "|"-joined flags hold `flag`; a loaded run's flags are categorical, so test the categories."""
-    if hasattr(frame, "has_flag"):  # runs.PointArrays (the light loader, no pandas)
-        return frame.has_flag(flag)
     column = frame["flags"]
+    if hasattr(frame, "has_flag"):  # runs.PointArrays (the light loader, no pandas): "" when a point has none
+        flags = column.to_numpy()
+        marked = np.flatnonzero(flags != "")  # one C-level pass; only flagged points are split in Python
+        hit = np.zeros(flags.shape, dtype=bool)
+        if marked.size:
+            hit[marked] = [flag in str(x).split("|") for x in flags[marked]]
+        return hit
     if hasattr(column, "cat"):
         names = [str(c).split("|") for c in column.cat.categories]
         hits = np.flatnonzero([flag in parts for parts in names])
