@@ -158,13 +158,9 @@ def t_quantile(dof: float, p: float) -> float:
     if dof > LARGE_DOF or last * z2 / dof < 1e-13 * guess:
         return guess
     tail = 1.0 - p
-    lo, hi = 0.0, max(1.5 * guess, 1.0)
-    while t_sf(hi, dof) > tail:
-        lo, hi = hi, hi * 2.0
-        if hi > 1e300:
-            return math.inf
-    t = guess if lo <= guess < hi else 0.5 * (lo + hi)
-    for _ in range(200):
+    lo, hi = 0.0, math.inf  # the bracket tightens as the tail is evaluated on either side of the root
+    t = guess if guess > 0 else 1.0
+    for _ in range(400):
         f = t_sf(t, dof) - tail  # decreasing in t
         if f > 0:
             lo = t
@@ -172,9 +168,14 @@ def t_quantile(dof: float, p: float) -> float:
             hi = t
         step = f / _pdf(t, dof)
         nxt = t + step
+        if abs(step) <= 1e-5 * t and lo < nxt < hi:
+            # Newton converges quadratically: after a step this small the error is ~step²/t, under 1e-10·t
+            return nxt
         if not lo < nxt < hi:
-            nxt = 0.5 * (lo + hi)
-        if abs(nxt - t) <= 1e-14 * max(1.0, abs(nxt)) or hi - lo <= 1e-15 * hi:
+            nxt = 2.0 * max(lo, 1.0) if math.isinf(hi) else 0.5 * (lo + hi)
+            if nxt > 1e300:
+                return math.inf
+        if abs(nxt - t) <= 1e-14 * max(1.0, abs(nxt)) or (math.isfinite(hi) and hi - lo <= 1e-15 * hi):
             return nxt
         t = nxt
     return t
