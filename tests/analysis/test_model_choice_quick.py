@@ -50,12 +50,12 @@ def _sweeps(count: int):
 
 def test_the_quick_rule_never_changes_the_decision():
     skipped = 0
-    for i, v in _sweeps(200):
+    for i, v in _sweeps(100):
         quick = fit_auto(i, v, 25.0)
         full = fit_auto(i, v, 25.0, quick=False)
         assert quick.model == full.model, (quick.reason, full.reason)
         skipped += "not fitted" in quick.reason
-    assert skipped >= 60  # it does skip: most straight and upward-bent sweeps
+    assert skipped >= 30  # it does skip: most straight and upward-bent sweeps
 
 
 def test_a_junction_is_never_skipped_and_a_straight_line_is():
