@@ -10,12 +10,14 @@ what was expected. The keys each kind takes come from the element registry
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-from benchlog.analysis import eseries
-from benchlog.analysis.design import APPLICATIONS, Candidate, ClampDesign, Design, DesignReview, Margins, review
 from benchlog.analysis.spec import DiodeSpec, MosfetSpec, PartSpec, ResistorSpec, Thermal
 from benchlog.kinds import ELEMENT_KINDS, kind as element_kind
 from benchlog.tomlcheck import Table, load_toml
+
+if TYPE_CHECKING:  # the design review is imported by the functions that read a design, not by `check`
+    from benchlog.analysis.design import Candidate, ClampDesign, Design, DesignReview, Margins
 
 
 # --------------------------------------------------------------------------- part specs
@@ -174,6 +176,8 @@ _PART_READERS = {"diode": _diode, "mosfet": _mosfet, "resistor": _resistor}
 # --------------------------------------------------------------------------- design files
 def load_design(path: str | Path) -> Design:
     """Read and validate a design file and every candidate's spec (errors name the file and key)."""
+    from benchlog.analysis.design import APPLICATIONS, Design
+
     path = Path(path)
     t = load_toml(path)
     t.only(("name", "application", "note", "input", "load", "ambient", "clamp", "margins", "candidate"))
@@ -207,6 +211,8 @@ def load_design(path: str | Path) -> Design:
 
 
 def _candidate(c: Table, design_path: Path) -> Candidate:
+    from benchlog.analysis.design import Candidate
+
     c.only(("spec", "label"))
     rel = c.string("spec")
     spec_path = Path(rel) if Path(rel).is_absolute() else design_path.parent / rel
@@ -218,6 +224,9 @@ def _candidate(c: Table, design_path: Path) -> Candidate:
 
 
 def _clamp(c: Table | None) -> ClampDesign | None:
+    from benchlog.analysis import eseries
+    from benchlog.analysis.design import ClampDesign
+
     if c is None:
         return None
     c.only(("zener_v", "zener_power_w", "resistor_ohm", "series", "target_current_a"))
@@ -231,6 +240,8 @@ def _clamp(c: Table | None) -> ClampDesign | None:
 
 
 def _margins(m: Table | None) -> Margins:
+    from benchlog.analysis.design import Margins
+
     if m is None:
         return Margins()
     m.only(("voltage_derating", "tj_margin_k", "power_derating", "leakage_max_a", "threshold_margin_v"))
@@ -246,6 +257,8 @@ def _margins(m: Table | None) -> Margins:
 
 def review_file(path: str | Path) -> DesignReview:
     """Read a design file and review it."""
+    from benchlog.analysis.design import review
+
     return review(load_design(path))
 
 

@@ -93,6 +93,30 @@ def main() -> int:
             print(f"  {label}: {_common.describe(times[name])}; ratio to lstsq {r:.2f} "
                   f"(goals < 1 s: {_common.verdict(t < 1.0)}, <= 1.5x lstsq: {_common.verdict(r <= 1.5)})")
 
+        # -- memory of `benchlog fit` (tracemalloc) ---------------------------------------------
+        # what the command does: load_points, the automatic fit, the self-heating test; its peak on top
+        # of the loaded arrays, against the loaded arrays themselves (goal: peak total within 2x of them)
+        import tracemalloc
+
+        from benchlog.analysis.fits import detect_self_heating
+        from benchlog.runs import load_points
+
+        tracemalloc.start()
+        points, points_meta = load_points(big)
+        held = tracemalloc.get_traced_memory()[0]
+        tracemalloc.reset_peak()
+        fit = fit_run(points, points_meta)
+        detect_self_heating(points, fit)
+        step_peak = tracemalloc.get_traced_memory()[1] - held
+        tracemalloc.stop()
+        total = (held + step_peak) / held
+        figures["fit_memory"] = {"points": args.points, "loaded_arrays_b": held, "fit_peak_above_b": step_peak,
+                                 "peak_total_over_loaded": total, "goal": "<= 2", "met": total <= 2.0}
+        print(f"\nmemory of benchlog fit (load_points + automatic fit + self-heating test), tracemalloc: loaded "
+              f"arrays {_common.mib(held)}, the fit's peak on top {_common.mib(step_peak)}; peak total "
+              f"{total:.2f}x the loaded arrays (goal <= 2x: {_common.verdict(total <= 2.0)})")
+        del points, fit
+
         # -- lot ----------------------------------------------------------------------------
         lot_dir = tmp / "lot"
         lot_dir.mkdir()

@@ -50,12 +50,15 @@ def answer(run_file: Path, diode: bool, operating_a: float) -> tuple[float, floa
     return value, abs(u / value)
 
 
+SIM_TIMING = {"timing": "real"}  # set from --sim-timing
+
+
 def sweep(plan_path: Path, out_dir: Path, seed: int) -> tuple[Path, int, float, str]:
     from benchlog.sweep.plan import load_plan
     from benchlog.cli.simbench import sweep_on_builtin_bench
 
     t0 = time.perf_counter()
-    result = sweep_on_builtin_bench(load_plan(plan_path), out_dir, seed=seed)
+    result = sweep_on_builtin_bench(load_plan(plan_path), out_dir, seed=seed, sim_options=dict(SIM_TIMING))
     elapsed = time.perf_counter() - t0
     if result.outcome != "complete":
         raise RuntimeError(f"{plan_path.name}: sweep ended {result.outcome}: {result.message}")
@@ -76,11 +79,15 @@ def _import_time(module: str) -> float:
 def main() -> int:
     p = _common.parser(__doc__.splitlines()[0])
     p.add_argument("--seed", type=int, default=3, help="seed of the simulated bench")
+    p.add_argument("--sim-timing", choices=("real", "instant"), default="real",
+                   help="the simulator's timing (default real: readings take their integration time)")
     args = p.parse_args()
+    SIM_TIMING["timing"] = args.sim_timing
+    print(f"simulator timing: {args.sim_timing} (sweep times below are on it)")
     uniform_counts = (50, 25, 12, 8, 6) if not args.quick else (12, 6)
     cap = 50 if not args.quick else 12
 
-    figures: dict = {}
+    figures: dict = {"sim_timing": args.sim_timing}
     cases = (
         ("R_DS(on)", PLANS / "pmos-prototype.toml", "linear", False, 2.0, 0.1, 3.0),
         ("Vf at 1 A (Schottky)", PLANS / "schottky-prototype.toml", "log", True, 1.0, 0.002, 2.0),

@@ -21,16 +21,19 @@ def sim_bench():
 
     Every bench is served on port 0 (ephemeral, one port per instrument) on
     127.0.0.1 and stopped at teardown. Pass ``clock=`` (a callable returning
-    seconds) to drive the thermal model with an injected clock.
+    seconds) to drive the thermal model with an injected clock (and ``sleep=`` to let the
+    instruments' own timing pass on it). The simulator's timing is "instant" here unless
+    ``timing="real"`` is passed.
     Example: ``bench = sim_bench("rectifier", seed=3, latency_s=0.002)``;
     ``bench.resources["supply"]`` is ``TCPIP0::127.0.0.1::<port>::SOCKET``.
     """
     started: list[RunningBench] = []
 
-    def start(element: str = "pmos", seed: int = 1, *, clock=None, **overrides) -> RunningBench:
+    def start(element: str = "pmos", seed: int = 1, *, clock=None, sleep=None, **overrides) -> RunningBench:
         overrides.setdefault("port", 0)
+        overrides.setdefault("timing", "instant")  # tests of timing ask for timing="real"
         config = SimConfig(element=element, seed=seed, **overrides)
-        running = serve_bench(config, clock=clock or time.monotonic)
+        running = serve_bench(config, clock=clock or time.monotonic, sleep=sleep)
         started.append(running)
         return running
 

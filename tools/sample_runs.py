@@ -15,6 +15,9 @@ makes the files repeatable:
   it moves, every instrument is asked `*OPC?` (IEEE 488.2 10.19), so each
   setting sent so far has reached the simulated circuit and no socket race can
   change what is read;
+* the simulator's instant timing (`SimConfig.timing = "instant"`): readings and
+  setpoints take no time of their own, so the bench clock holds only the plan's
+  waits; the recorded times are the plan's, not what a real meter would add;
 * a fixed start time per run (`started_utc`), a fixed run id (`sample_run_id`:
   a version 4 UUID drawn from the sample's name, not from a random source), a
   fixed host name, and fixed loopback ports (`--port`, default 29100) for the instruments' resource strings.
@@ -201,7 +204,7 @@ def _record_here(sample: SampleRun, path: Path, port: int, kill_after: int | Non
     clock = BenchClock()
     config = SimConfig(element=plan.element.kind, seed=sample.seed, ambient_c=plan.element.ambient_c,
                        port=port, element_params=dict(sample.element_params),
-                       current_meter=wiring.current_from in ("meter", "shunt"))
+                       current_meter=wiring.current_from in ("meter", "shunt"), timing="instant")
     with serve_bench(config, clock=clock) as running:
         bench = BenchSetup(
             roles={name: RoleSpec(role=name, resource=resource, profile=SIM_PROFILES[name])

@@ -1,6 +1,7 @@
 """Fit of the Shockley diode law with series resistance, V = n·Vt·ln(I/Is + 1) + Rs·I.
 
-Vt = k·T/q at the recorded temperature (scipy.constants, CODATA). The start
+Vt = k·T/q at the recorded temperature (k and q exact by the 2019 SI definition, as in
+scipy.constants; they are written out so that a resistive fit never imports scipy). The start
 comes from the linear form V ≈ a·ln I + b + c·I (a = n·Vt, b = −n·Vt·ln Is,
 c = Rs, valid for I ≫ Is) solved with numpy.linalg.lstsq; scipy's
 least_squares then refines (n, ln Is, Rs) — ln Is, because Is spans decades.
@@ -25,7 +26,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import constants, optimize
 
 from .fit_result import (
     FitError,
@@ -45,12 +45,12 @@ from .effective_variance import (
 )
 from .uncertainty import Component, MeasurementAccuracy, combine
 
-ZERO_C_K = constants.zero_Celsius  # 273.15 K
+from .si_constants import BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C, ZERO_C_K
 
 
 def thermal_voltage_v(temperature_c: float) -> float:
-    """Vt = k·T/q (Boltzmann constant and elementary charge from scipy.constants, CODATA)."""
-    return constants.k * (float(temperature_c) + ZERO_C_K) / constants.e
+    """Vt = k·T/q (Boltzmann constant and elementary charge, exact SI values)."""
+    return BOLTZMANN_J_PER_K * (float(temperature_c) + ZERO_C_K) / ELEMENTARY_CHARGE_C
 
 
 def shockley_drop_v(current_a, ideality: float, i_s_a: float, r_s_ohm: float, temperature_c: float):
@@ -73,6 +73,8 @@ def _start(i: np.ndarray, v: np.ndarray, sqrt_w: np.ndarray | None, vt: float) -
 
 def _solve(i: np.ndarray, v: np.ndarray, w: np.ndarray | None, vt: float, p0: np.ndarray | None = None):
     """One weighted nonlinear least squares of the diode law at fixed weights."""
+    from scipy import optimize  # only a diode fit needs it: a resistive fit never waits for its import
+
     sw = None if w is None else np.sqrt(w)
     if p0 is None:
         p0 = _start(i, v, sw, vt)

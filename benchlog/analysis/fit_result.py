@@ -30,11 +30,11 @@ OUTLIER_RULE = f"Bonferroni outlier test: |externally studentised residual| > t(
 
 def outlier_threshold(n: int, dof: int) -> float:
     """Critical |t| of the Bonferroni outlier test for n points and ν = dof of the fit."""
-    from scipy import special  # stdtrit is the inverse t CDF behind scipy.stats.t.isf
+    from .student_t import t_quantile  # the inverse t CDF (scipy.stats.t.isf) without scipy's import time
 
     if dof < 2:
         return math.inf
-    return float(special.stdtrit(dof - 1, 1.0 - OUTLIER_ALPHA / (2.0 * n)))
+    return t_quantile(dof - 1, 1.0 - OUTLIER_ALPHA / (2.0 * n))
 
 
 class FitError(ValueError):

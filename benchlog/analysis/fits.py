@@ -10,7 +10,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-import pandas as pd
 
 from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
@@ -20,6 +19,7 @@ from .fit_diode import fit_diode, shockley_drop_v, thermal_voltage_v
 from .fit_resistive import fit_knee, fit_resistive, studentised_residuals
 from .fit_result import OUTLIER_RULE, FitError, FitResult
 from .model_choice import aicc, fit_auto
+from .columns import column
 from .self_heating import SelfHeating, detect_self_heating
 from .uncertainty import Component
 
@@ -49,25 +49,30 @@ MODELS = ("auto", "resistive", "diode", "knee")
 DEFAULT_TEMPERATURE_C = DEFAULT_AMBIENT_C
 
 
-def _has_flag(column, flag: str) -> np.ndarray:
+def _has_flag(frame, flag: str) -> np.ndarray:
     """Rows whose "|"-joined flags hold `flag`; a loaded run's flags are categorical, so test the categories."""
-    if isinstance(column.dtype, pd.CategoricalDtype):
-        names = [str(c).split("|") for c in column.cat.categories]
+    if hasattr(frame, "has_flag"):  # runs.PointArrays (the light loader, no pandas)
+        return frame.has_flag(flag)
+    flags = frame["flags"]
+    if hasattr(flags, "cat"):
+        names = [str(c).split("|") for c in flags.cat.categories]
         hits = np.flatnonzero([flag in parts for parts in names])
-        return np.isin(column.cat.codes.to_numpy(), hits)
-    return np.array([flag in str(x).split("|") for x in column.fillna("")], dtype=bool)
+        return np.isin(flags.cat.codes.to_numpy(), hits)
+    return np.array([flag in str(x).split("|") for x in flags.fillna("")], dtype=bool)
 
 
 def usable_points(frame) -> tuple[np.ndarray, list[str]]:
-    """Rows that can be fitted: finite current and drop, no overload flag; and notes on the rest."""
-    current = frame["current_a"].to_numpy(dtype=float)
-    drop = frame["drop_v"].to_numpy(dtype=float)
+    """Rows that can be fitted: finite current and drop, no overload flag; and notes on the rest.
+
+    `frame` is `runs.load`'s DataFrame or `runs.load_points`' arrays (same columns, no pandas).
+    """
+    current, drop = column(frame, "current_a"), column(frame, "drop_v")
     rows = np.isfinite(current) & np.isfinite(drop)
     overload = np.zeros(rows.shape, dtype=bool)
     notes = []
-    if "flags" in frame.columns:
-        overload = _has_flag(frame["flags"], "overload")
-        unsettled = _has_flag(frame["flags"], "unsettled") & rows & ~overload
+    if hasattr(frame, "has_flag") or "flags" in frame.columns:
+        overload = _has_flag(frame, "overload")
+        unsettled = _has_flag(frame, "unsettled") & rows & ~overload
         if overload.any():
             notes.append(f"{int(overload.sum())} overload point(s) left out")
         if unsettled.any():
@@ -104,9 +109,9 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
     accuracy = meta.header.accuracy if meta.header.accuracy.known else None
     rows, notes = usable_points(frame)
     every = bool(rows.all())  # the usual case: no copies of a long run
-    current = frame["current_a"].to_numpy(dtype=float)
-    drop = frame["drop_v"].to_numpy(dtype=float)
-    index = frame["index"].to_numpy() if "index" in frame.columns else np.arange(rows.size)
+    current, drop = column(frame, "current_a"), column(frame, "drop_v")
+    index = column(frame, "index")
+    index = index.astype(np.int64) if index is not None else np.arange(rows.size)
     if not every:
         current, drop, index = current[rows], drop[rows], index[rows]
     offset = meta.offset_v
@@ -114,7 +119,8 @@ def fit_run(frame, meta, model: str = "auto", *, exclude_outliers: bool = False)
     if offset_removed:
         drop = drop - float(offset)
         notes.append(f"zero-current offset {float(offset) * 1e6:.4g} µV subtracted")
-    temperature_c, t_note = run_temperature_c(frame["temperature_c"].to_numpy(dtype=float), meta)
+    recorded = column(frame, "temperature_c")
+    temperature_c, t_note = run_temperature_c(recorded if recorded is not None else np.array([]), meta)
     common = dict(offset_removed=offset_removed, exclude_outliers=exclude_outliers, point_index=index)
     try:
         if model == "resistive":
@@ -160,8 +166,6 @@ def with_temperature_term(fit: FitResult, frame, meta) -> FitResult:
     if found is None or not fit.params:
         return fit
     tc, why = found
-    from .columns import column
-
     measured = column(frame, "temperature_c")
     ambient, _ = run_temperature_c(measured if measured is not None else np.array([]), meta)
     u_amb, amb_why = ambient_u(element.ambient_u_c, header.bench is not None and header.bench.simulated)

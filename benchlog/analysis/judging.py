@@ -416,7 +416,7 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
     from .fits import fit_run  # the fit layer is imported late: a spec-only user never needs it
     from .judging import fit_model_of, judge
 
-    cond = run_conditions(frame["current_a"].to_numpy(dtype=float), frame["supply_v"].to_numpy(dtype=float),
+    cond = run_conditions(column(frame, "current_a"), column(frame, "supply_v"),
                           meta, spec, at_a)
     fit = fit_run(frame, meta, fit_model_of(spec, cond.body_diode))
     j = judge(fit, frame, meta, spec, cond)

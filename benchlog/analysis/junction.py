@@ -147,7 +147,7 @@ def sweep_heating(fit, sensitivity, quantity_gradient, dq_dt: float) -> SweepHea
     `quantity_gradient` the gradient of the judged quantity in the fit's parameters,
     `dq_dt` the quantity's own temperature sensitivity (its unit per K).
     """
-    from scipy import stats
+    from .student_t import t_sf  # scipy.stats.t.sf's value without scipy's import time
 
     from .self_heating import ALPHA
 
@@ -179,7 +179,7 @@ def sweep_heating(fit, sensitivity, quantity_gradient, dq_dt: float) -> SweepHea
     s2 = float(rest @ rest) / dof
     se = math.sqrt(s2 / szz) if s2 > 0 else 0.0
     t = theta / se if se > 0 else math.inf
-    p = float(2.0 * stats.t.sf(abs(t), dof))
+    p = float(2.0 * t_sf(abs(t), dof))
     share = float(np.asarray(quantity_gradient, dtype=float) @ coef) / dq_dt  # K per (K/W)
     return SweepHeating(rise_c=theta * share, u_c=abs(se * share), p_value=p, significant=p < ALPHA and theta > 0)
 

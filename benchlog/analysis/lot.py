@@ -6,7 +6,8 @@ Statistics, all vectorised so a lot of 10,000 parts is summarised in millisecond
   with both limits, Cpu = (USL − μ)/(3σ) for a one-sided maximum, Cpl = (μ − LSL)/(3σ);
 - outliers by Rosner's generalized ESD test (Technometrics 25, 1983; NIST/SEMATECH
   e-Handbook §1.3.5.17.3) at α = 0.05, critical values from Student's t
-  (`scipy.stats.t`). Outliers are reported, never dropped: the statistics use every part;
+  (`student_t.t_quantile`, as scipy.stats.t.ppf). Outliers are reported, never dropped: the
+  statistics use every part;
 - per-part verdicts by the ILAC-G8 guard band (`verdict.decide_many`).
 Lot verdict: pass when every part passes and the capability index is at least 1.33
 (the usual minimum for a capable process, common practice, e.g. AIAG PPAP); fail when
@@ -21,13 +22,13 @@ from pathlib import PurePath
 from typing import Sequence
 
 import numpy as np
-from scipy import stats
 
 from benchlog.badinput import BadInput
 
 from .spec import PartSpec
 from .fits import fit_points  # noqa: F401 - the lot's fit of one run's arrays
-from .verdict import RunConditions, decide_many, rule_text, run_conditions
+from .student_t import t_quantile
+from .verdict import RunConditions, decide_many, median_of, rule_text, run_conditions
 
 CAPABILITY_MIN = 1.33
 ESD_ALPHA = 0.05
@@ -65,7 +66,7 @@ def generalized_esd(values: np.ndarray, max_outliers: int | None = None, alpha: 
     x = np.asarray(values, dtype=float)
     n = x.size
     if n:
-        x = x - np.median(x)  # centred, so the running sums below lose no digits
+        x = x - median_of(x)  # centred, so the running sums below lose no digits
     if max_outliers is None:
         max_outliers = max(1, min(n // 10, 100))
     r = min(max_outliers, n - 2)
@@ -87,7 +88,7 @@ def generalized_esd(values: np.ndarray, max_outliers: int | None = None, alpha: 
         j = int(np.argmax(dev))
         big_r = dev[j] / sd if sd > 0 else 0.0
         p = 1.0 - alpha / (2.0 * (n - i + 1))
-        t = stats.t.ppf(p, n - i - 1)
+        t = t_quantile(n - i - 1, p)
         lam = (n - i) * t / math.sqrt((n - i - 1 + t * t) * (n - i + 1))
         if big_r > lam:
             found = i
@@ -269,8 +270,8 @@ def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
     judged = [p.judgement for p in parts]
     highs = [j.limit for j in judged if j.limit is not None]
     lows = [j.limit_min for j in judged if j.limit_min is not None]
-    usl = float(np.median(highs)) if highs else None
-    lsl = float(np.median(lows)) if lows else None
+    usl = median_of(highs) if highs else None
+    lsl = median_of(lows) if lows else None
     notes = []
     if not spec.has_max:
         notes.append("the spec gives no maximum: the typical value is used as the upper limit")

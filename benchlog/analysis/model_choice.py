@@ -13,6 +13,15 @@ uses the element kind recorded in the run); a diode fit whose Is exceeds the lar
 current (no exponential region) or with an ideality outside 0.5–10 is refused
 as unphysical.
 
+A cheap test first (`concave_curvature`): the diode law is concave everywhere,
+d²V/dI² = −n·Vt/(I + Is)² < 0 (differentiate the Shockley law twice), while a
+line has none and a channel that warms up bends upwards. A weighted quadratic
+V = a + b·I + c·I² on the same points gives c and its standard uncertainty; when
+c > −CURVATURE_T·u(c) the data show no concave bend the diode law could use, so it
+cannot beat the line by the AICc margin, and it is not fitted: the reason says
+so. The test is skipped (AICc decides as before) when a tie would go to the
+diode (a junction element), and AICc stays the decision whenever the diode is fitted.
+
 With errors in the current each model weighs the points by its own effective
 variance u_eff,i² = u(V)² + (f'(I)·u(I))² (`effective_variance`), so the
 weights no longer cancel between the models: the Gaussian log-likelihood with
@@ -36,6 +45,8 @@ from .uncertainty import MeasurementAccuracy
 #: AICc difference below which two models are taken as equally supported (Burnham & Anderson 2002, §2.6).
 AICC_TIE = 2.0
 IDEALITY_RANGE = (0.5, 10.0)
+#: The diode law is not tried when the quadratic term is above −CURVATURE_T standard uncertainties.
+CURVATURE_T = 2.0
 #: Most points the choice is scored on; longer runs are thinned by an even stride for the choice only.
 CHOICE_POINTS = 5000
 
@@ -50,6 +61,28 @@ def aicc(residuals_v: np.ndarray, parameters: int, weights=None) -> float:
         return math.inf
     rss = max(rss, 1e-300 * n)
     return n * math.log(rss / n) + 2 * k + 2 * k * (k + 1) / (n - k - 1)
+
+
+def concave_curvature(current_a: np.ndarray, drop_v: np.ndarray, weights=None) -> tuple[float, float]:
+    """(c, u(c)) of the weighted least-squares quadratic V = a + b·I + c·I² (type A, s²·(XᵀWX)⁻¹)."""
+    i = np.asarray(current_a, dtype=float)
+    v = np.asarray(drop_v, dtype=float)
+    n = i.size
+    if n < 5:
+        return math.nan, math.nan
+    scale = float(np.max(np.abs(i))) or 1.0
+    x = i / scale  # columns of one size, so XᵀWX is well conditioned
+    basis = np.column_stack([np.ones_like(x), x, x * x])
+    sw = np.ones_like(x) if weights is None else np.sqrt(np.asarray(weights, dtype=float))
+    a_mat, rhs = basis * sw[:, None], v * sw
+    coef, *_ = np.linalg.lstsq(a_mat, rhs, rcond=None)
+    resid = rhs - a_mat @ coef
+    s2 = float(resid @ resid) / (n - 3)
+    try:
+        cov = s2 * np.linalg.inv(a_mat.T @ a_mat)
+    except np.linalg.LinAlgError:
+        return math.nan, math.nan
+    return float(coef[2]) / scale**2, math.sqrt(max(float(cov[2, 2]), 0.0)) / scale**2
 
 
 def _score(fit: FitResult, parameters: int, used: np.ndarray, varying_weights: bool) -> float:
@@ -74,8 +107,11 @@ def fit_auto(
     point_index=None,
     tie_break: str = "resistive",
     tie_why: str = "",
+    quick: bool = True,
 ) -> FitResult:
     """Fit both models, keep the one with the lower AICc; `reason` says why.
+
+    `quick`: skip the diode law when the data show no concave bend (module docstring).
 
     Within `AICC_TIE` the data do not decide; `tie_break` does ("resistive", the
     simpler model, unless the caller knows better — e.g. the element's recorded
@@ -106,15 +142,20 @@ def fit_auto(
     scores: dict[str, float] = {}
     why_not_diode = ""
     diode = None
+    line = fit_resistive(i, v, accuracy, **choice)
+    scores["resistive"] = _score(line, 2, used, varying)
     if temperature_c is None:
         why_not_diode = "no temperature recorded, the diode law cannot be evaluated"
-    else:
+    elif quick and tie_break != "diode":
+        c, u_c = concave_curvature(i[used], v[used], None if line.weights is None else line.weights[used])
+        if math.isfinite(c) and u_c > 0 and c > -CURVATURE_T * u_c:
+            why_not_diode = (f"no concave bend (quadratic term {c:.3g} ± {u_c:.2g} V/A², above −{CURVATURE_T:g} u): "
+                             "the diode law, concave everywhere, cannot win; not fitted")
+    if temperature_c is not None and not why_not_diode:
         try:
             diode = fit_diode(i, v, accuracy, temperature_c=temperature_c, **choice)
         except FitError as exc:
             why_not_diode = f"diode fit failed: {exc}"
-    line = fit_resistive(i, v, accuracy, **choice)
-    scores["resistive"] = _score(line, 2, used, varying)
     if diode is not None:
         scores["diode"] = _score(diode, 3, used, varying)
         n_fit, i_s = diode.params["ideality"], diode.params["i_s_a"]

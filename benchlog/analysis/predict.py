@@ -27,8 +27,6 @@ from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
-from scipy.constants import Boltzmann, elementary_charge, zero_Celsius
-from scipy.optimize import brentq
 
 from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
@@ -41,6 +39,9 @@ from .spec import (
     MosfetSpec,
     PartSpec,
 )
+from .roots import brent_root
+from .si_constants import BOLTZMANN_J_PER_K as Boltzmann, ELEMENTARY_CHARGE_C as elementary_charge, \
+    ZERO_C_K as zero_Celsius
 from .thermal import ThermalSolution, solve_junction
 
 #: Body-diode share of the current below which we call the conduction "channel" (and above 1 − it "body_diode").
@@ -246,7 +247,7 @@ def channel_with_body(current_a: float, r_ohm: float, body: BodyDiode, tj_c: flo
     f = lambda v: v / r_ohm + body.current_a(v, tj_c) - current_a  # noqa: E731
     if f(0.0) >= 0.0 or vb <= 0.0:
         return 0.0, 1.0
-    v = brentq(f, 0.0, vb, xtol=1e-12, rtol=1e-12)
+    v, _ = brent_root(f, 0.0, vb, xtol=1e-12, rtol=1e-12)
     return v, min(max(body.current_a(v, tj_c) / current_a, 0.0), 1.0)
 
 

@@ -8,7 +8,7 @@ on Tj (Vf falls, R_DS(on) rises), so Tj is found self-consistently:
    when |dP/dT|·Rθ < 1 and, starting from Ta, lands on the lowest (stable)
    equilibrium;
 2. if it is slow, the lowest root of g(T) = Ta + P(T)·Rθ − T above Ta is
-   bracketed on a grid and refined with `scipy.optimize.brentq`;
+   bracketed on a grid and refined with Brent's method (`roots.brent_root`, as scipy.optimize.brentq);
 3. if g stays positive all the way up to `CEILING_C` there is no equilibrium:
    the loss grows faster with temperature than the package can shed it
    (thermal runaway). For P = P0·(1 + α(T − T0)) that happens exactly when
@@ -24,7 +24,8 @@ from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
-from scipy.optimize import brentq
+
+from .roots import brent_root
 
 #: Above this the models (linear tempcos, diode law) mean nothing and silicon is long gone.
 CEILING_C = 500.0
@@ -99,7 +100,7 @@ def _bracketed(power_w_at, ambient_c, rth, ceiling_c, tolerance_k, spent) -> The
         if math.isnan(value) or math.isnan(previous_g):
             return ThermalSolution(None, None, spent, False, False, "brentq", f"loss undefined near Tj = {t:.6g} °C")
         if value <= 0.0:
-            root, info = brentq(g, previous_t, t, xtol=tolerance_k, full_output=True)
+            root, info = brent_root(g, float(previous_t), float(t), xtol=tolerance_k)
             if not info.converged:
                 return ThermalSolution(None, None, spent + info.iterations, False, False, "brentq", info.flag)
             return ThermalSolution(

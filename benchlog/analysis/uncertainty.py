@@ -69,13 +69,11 @@ def welch_satterthwaite(us: Iterable[float], dofs: Iterable[float]) -> float:
 
 def t_coverage_factor(dof: float, p: float = COVERAGE_P) -> float:
     """k_p = t_{(1+p)/2}(ν): Student's t coverage factor (GUM G.3); 2.00 at ν = ∞ for p = 95.45 %."""
-    from scipy import special  # the ufuncs behind scipy.stats.t.ppf / norm.ppf, without their overhead
+    from .student_t import t_quantile  # scipy.stats.t.ppf's value without scipy's import time
 
     if dof <= 0:
         return math.inf
-    if not math.isfinite(dof) or dof > 1e12:
-        return float(special.ndtri(0.5 + p / 2.0))
-    return float(special.stdtrit(dof, 0.5 + p / 2.0))
+    return t_quantile(dof if math.isfinite(dof) and dof <= 1e12 else math.inf, 0.5 + p / 2.0)
 
 
 def combine(components: Iterable[Component], k: float = 2.0) -> Budget:

@@ -31,6 +31,16 @@ from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
 
 from .predict import Prediction
+
+
+def median_of(values) -> float:
+    """The median as numpy.median gives it (mean of the two middle values for an even count), without
+    the import of numpy.ma that numpy.median makes on first use."""
+    s = np.sort(np.asarray(values, dtype=float).ravel())
+    n = s.size
+    if n == 0:
+        return math.nan
+    return float((s[(n - 1) // 2] + s[n // 2]) / 2.0)
 from .spec import PartSpec
 
 
@@ -275,7 +285,7 @@ def run_conditions(current_a: np.ndarray, supply_v: np.ndarray, meta, spec: Part
         supply = np.asarray(supply_v, dtype=float)
         supply = supply[np.isfinite(supply)]
         if supply.size:
-            vin = float(np.median(supply))
+            vin = median_of(supply)
             notes.append(f"gate to {spec.element.gate_to}: |Vgs| from the median recorded supply voltage {vin:.4g} V")
         elif header.input_v is not None:
             vin = header.input_v

@@ -194,11 +194,11 @@ def check_entry(c) -> dict[str, Any]:
 def _check(args) -> int:
     from benchlog.specfiles import load_spec
     from benchlog.analysis.judging import check_run
-    from benchlog.runs import load
+    from benchlog.runs import load_points  # numpy arrays: a verdict has no use for pandas
 
     _argument("--at", args.at, positive=True)
     spec = load_spec(args.spec)
-    frame, meta = load(args.run)
+    frame, meta = load_points(args.run)
     c = check_run(frame, meta, spec, at_a=args.at)
     if args.json:
         print_json(check_entry(c))

@@ -159,9 +159,9 @@ def print_human(payload: dict[str, Any]) -> None:
 
 def run_fit(args: argparse.Namespace) -> int:
     _check_args(args)
-    from benchlog.runs import load
+    from benchlog.runs import load_points  # numpy arrays: a fit has no use for pandas
 
-    frame, meta = load(args.run)
+    frame, meta = load_points(args.run)
     payload = fit_payload(frame, meta, args)
     if args.json:
         from .output import print_json

@@ -23,7 +23,9 @@ def register(sub) -> None:
         description=(
             "Serve the simulated bench: one raw SCPI socket per instrument on 127.0.0.1 (another host only "
             "with --host). Prints '<role> <VISA resource>' per instrument, then 'ready', and serves until "
-            "Ctrl-C or SIGTERM."
+            "Ctrl-C or SIGTERM. Timing is real by default: a reading takes its integration time "
+            "(NPLC / line frequency per sample) and setpoints settle; --timing instant (or timing = \"instant\" "
+            "in the --config file) turns both off for fast tests."
         ),
     )
     p.add_argument("--element", choices=KINDS, default=None, help="element on the bench (default pmos)")
@@ -39,6 +41,9 @@ def register(sub) -> None:
                    help="serve a 4th socket: a meter in series with the element")
     p.add_argument("--no-measure", action="store_true", default=None,
                    help="the meter has no MEASure subsystem (CONFigure + READ? only)")
+    p.add_argument("--timing", choices=("real", "instant"), default=None,
+                   help="real (default): each reading takes NPLC/line frequency per sample and setpoints "
+                   "settle; instant: neither, for fast tests")
     faults = p.add_argument_group("faults (each fires once, counted in messages per instrument)")
     faults.add_argument("--drop-after", type=int, metavar="N", help="close the connection after N messages")
     faults.add_argument("--extra-latency-s", type=float, metavar="S", help="add S seconds to every reply")
@@ -85,7 +90,7 @@ def _config(args: argparse.Namespace):
     changes = {
         "element": args.element, "port": args.port, "host": args.host, "seed": args.seed,
         "latency_s": args.latency_s, "current_meter": args.current_meter,
-        "meter_has_measure": False if args.no_measure else None, "faults": faults,
+        "meter_has_measure": False if args.no_measure else None, "faults": faults, "timing": args.timing,
     }
     if args.element is not None and args.element != base.element and base.element_params:
         raise BadInput(args.config, "element_params", f"are for {base.element}, not --element {args.element}",
@@ -127,6 +132,11 @@ def run(args: argparse.Namespace) -> int:
                 args.truth.write_text(json.dumps(running.truth(), indent=2) + "\n")
             except OSError as exc:
                 raise BadInput(args.truth, "", f"cannot be written ({exc.strerror})", "a writable path") from None
+        # on stderr, so stdout stays '<role> <resource>' lines and 'ready' for scripts
+        sys.stderr.write(f"benchlog sim: {config.timing} timing"
+                         + (" (readings take NPLC/line frequency per sample; setpoints settle)\n"
+                            if config.timing == "real" else " (readings and setpoints take no time)\n"))
+        sys.stderr.flush()
         for role, resource in running.resources.items():
             sys.stdout.write(f"{role} {resource}\n")
         sys.stdout.write("ready\n")

@@ -49,6 +49,7 @@ def register(sub) -> None:
                    help='print {"run_file", "points", "outcome", "safe_state"} as JSON')
     p.add_argument("--yes", action="store_true", help="do not ask before switching a real bench on")
     p.add_argument("--seed", type=int, default=0, help="seed of the built-in simulated bench (default 0)")
+    _timing_argument(p)
     p.set_defaults(handler=_sweep)
 
     d = sub.add_parser(
@@ -62,7 +63,19 @@ def register(sub) -> None:
     d.add_argument("--out", metavar="DIR", default="runs", help="folder for the run file (default: ./runs)")
     d.add_argument("--json", action="store_true", help="print the summary as JSON")
     d.add_argument("--seed", type=int, default=0, help="seed of the simulated bench (default 0)")
+    _timing_argument(d)
     d.set_defaults(handler=_demo)
+
+
+SIM_TIMING_TEXT = {
+    "real": "real instrument timing (each reading takes NPLC/line frequency per sample; setpoints settle)",
+    "instant": "instant timing (readings and setpoints take no time: sweep times are not a real bench's)",
+}
+
+
+def _timing_argument(parser) -> None:
+    parser.add_argument("--sim-timing", choices=("real", "instant"), default=None,
+                        help="timing of the built-in simulated bench: real (default) or instant, for fast tests")
 
 
 # -- progress -------------------------------------------------------------------
@@ -133,14 +146,19 @@ def _power_prompt(real_bench: bool, assume_yes: bool):
     return before_power_on
 
 
-def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool) -> tuple[Any, Any]:
+def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool,
+         sim_timing: str | None = None) -> tuple[Any, Any]:
     from benchlog.runs.events import Note, Point
     from benchlog.sweep.bench_file import load_bench
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.session import run_sweep
 
+    if bench_path and sim_timing is not None:
+        raise BadInput("argument", "--sim-timing", "was given with --bench",
+                       "--sim-timing only for the built-in simulated bench (no --bench)")
     plan = load_plan(plan_path)
     bench = load_bench(bench_path) if bench_path else None
+    sim_options = {"timing": sim_timing} if sim_timing is not None else None
     state: dict[str, Any] = {"progress": None, "runner": None}
 
     def on_runner(runner) -> None:
@@ -167,7 +185,7 @@ def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, 
         if bench is None:
             from .simbench import sweep_on_builtin_bench
 
-            result = sweep_on_builtin_bench(plan, out, seed=seed, **hooks)
+            result = sweep_on_builtin_bench(plan, out, seed=seed, sim_options=sim_options, **hooks)
         else:
             result = run_sweep(plan, bench, out, **hooks)
     except BaseException as exc:
@@ -219,12 +237,15 @@ def _sweep(args) -> int:
     from benchlog.filecheck import check_output_dir
 
     check_output_dir(args.out, "--out")
-    plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes)
+    plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes,
+                        sim_timing=args.sim_timing)
     if args.json:
         print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome,
                     "safe_state": result.safe_state})
     else:
         print(f"run file: {result.run_file}")
+        if not args.bench:
+            print(f"built-in simulated bench: {SIM_TIMING_TEXT[args.sim_timing or 'real']}")
         print(f"{result.points} points, outcome {result.outcome}" + _detail(result))
     _say_safe_state(result, text=not args.json)
     return _exit_code(result)
@@ -279,12 +300,14 @@ def _demo(args) -> int:
 
     plan_path = demo_plan_path(args.plan)
     check_output_dir(args.out, "--out")
-    plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True)
+    timing = args.sim_timing or "real"
+    plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True, sim_timing=timing)
     summary: dict[str, Any] = {
         "run_file": str(result.run_file),
         "points": result.points,
         "outcome": result.outcome,
         "safe_state": result.safe_state,
+        "sim_timing": timing,
         "plan": str(plan_path),
         "element": {"id": plan.element.id, "kind": plan.element.kind, "label": plan.element.label},
     }
@@ -296,6 +319,7 @@ def _demo(args) -> int:
     else:
         print(f"demo plan: {plan_path.name} ({plan.element.kind} {plan.element.label or plan.element.id})")
         print(f"run file: {result.run_file}")
+        print(f"simulated bench: {SIM_TIMING_TEXT[timing]}")
         print(f"{result.points} points, outcome {result.outcome}" + _detail(result))
         fit = summary.get("fit")
         if fit:

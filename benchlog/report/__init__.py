@@ -13,10 +13,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from .build import build_report
 from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
-from .htmlfile import render_html, write_html
-from .pdffile import plan_pages, write_pdf
 
 __all__ = [
     "Document", "FigureBlock", "Paragraph", "Section", "Table", "VerdictBlock",
@@ -24,13 +21,35 @@ __all__ = [
 ]
 
 
+def __getattr__(name: str):
+    """`build_report` (the figures: matplotlib) and `plan_pages` / `write_pdf` (the PDF backend) load on
+    first use, not with the package: `benchlog lot` reads runs through `report.lot_runs` and draws nothing."""
+    if name == "build_report":
+        from .build import build_report
+
+        return build_report
+    if name in ("render_html", "write_html"):
+        from . import htmlfile
+
+        return getattr(htmlfile, name)
+    if name in ("plan_pages", "write_pdf"):
+        from . import pdffile
+
+        return getattr(pdffile, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
 def write_report(doc: Document, path: str | Path) -> Path:
     """Write `doc` as HTML (.html/.htm) or PDF (.pdf), picked by the file's suffix."""
     path = Path(path)
     suffix = path.suffix.lower()
     if suffix in (".html", ".htm"):
+        from .htmlfile import write_html
+
         return write_html(doc, path)
     if suffix == ".pdf":
+        from .pdffile import write_pdf  # matplotlib's PDF backend only for a PDF
+
         write_pdf(doc, path)
         return path
     raise ValueError(f"report file must end in .html or .pdf, not {suffix or 'nothing'!r}")

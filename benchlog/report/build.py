@@ -21,19 +21,18 @@ import numpy as np
 
 import benchlog
 from benchlog.ambient import DEFAULT_AMBIENT_C
-from benchlog.analysis.design import review as design_review
 from benchlog.analysis.fits import detect_self_heating, fit_run
 from benchlog.analysis.predict import predict
 from benchlog.analysis.spec import PartSpec
+from benchlog.analysis.columns import column
 from benchlog.analysis.judging import check_run
 from benchlog.analysis.verdict import run_conditions
 from benchlog.badinput import BadInput
-from benchlog.runs import load
-from benchlog.specfiles import load_design, load_spec
+from benchlog.runs import load_points
+from benchlog.specfiles import load_spec
 
 from . import figures
 from . import from_analysis as fa
-from .design_section import design_section
 from .from_verdict import verdict_block
 from .lot_section import lot_section
 from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
@@ -46,7 +45,7 @@ class RunAnalysis:
     """One run and what the analysis made of it; a `*_problem` says why a result is missing."""
 
     path: Path
-    frame: Any  # pandas.DataFrame
+    frame: Any  # runs.PointArrays (the columns of runs.load's DataFrame, without pandas)
     meta: Any  # benchlog.runs.RunMeta
     fit: Any = None  # FitResult
     fit_problem: str = ""
@@ -85,7 +84,7 @@ class Conditions:
 def _conditions(frame, meta, spec: PartSpec | None, at_a: float | None) -> Conditions:
     element = meta.header.element
     if spec is not None:
-        c = run_conditions(frame["current_a"].to_numpy(dtype=float), frame["supply_v"].to_numpy(dtype=float),
+        c = run_conditions(column(frame, "current_a"), column(frame, "supply_v"),
                            meta, spec, at_a)
         return Conditions(c.current_a, c.ambient_c, c.vin_v, c.zener_v)
     ambient = DEFAULT_AMBIENT_C if element.ambient_c is None else element.ambient_c
@@ -93,7 +92,7 @@ def _conditions(frame, meta, spec: PartSpec | None, at_a: float | None) -> Condi
         return Conditions(float(at_a), ambient)
     if element.operating_a is not None:
         return Conditions(element.operating_a, ambient)
-    current = frame["current_a"].to_numpy(dtype=float) if len(frame) else np.array([])
+    current = column(frame, "current_a") if len(frame) else np.array([])
     current = current[np.isfinite(current)]
     return Conditions(float(current.max()) if current.size else None, ambient)
 
@@ -106,7 +105,7 @@ def analyse_run(path: str | Path, spec: PartSpec | None = None, *, model: str = 
     the verdict used (same model), so every number in the report agrees.
     """
     path = Path(path)
-    frame, meta = load(path)
+    frame, meta = load_points(path)
     fit = heating = check = prediction = None
     fit_problem = check_problem = ""
     cond = Conditions(None, DEFAULT_AMBIENT_C)
@@ -155,7 +154,7 @@ def _run_table(ra: RunAnalysis) -> Table:
     if fin is not None and fin.safe_state is not None:
         rows.insert(5, ("safe state at the end", fin.safe_state))
     if len(ra.frame):
-        t = ra.frame["t_s"].to_numpy(dtype=float)
+        t = column(ra.frame, "t_s")
         rows.append(("time of the points", f"{number(t.min(), 's')} to {number(t.max(), 's')}"))
     return Table(("run", ""), tuple(rows), caption="Run")
 
@@ -270,8 +269,8 @@ def _event_blocks(ra: RunAnalysis) -> list:
                                 + "; ".join(n.message for n in limits), "warning"))
     blocks.append(Table(("time", "event", "what happened"), tuple(rows), caption="Events")
                   if rows else Paragraph("No events were recorded."))
-    if "flags" in ra.frame.columns and len(ra.frame):
-        counts = Counter(f for cell in ra.frame["flags"].fillna("").astype(str) for f in cell.split("|") if f)
+    if len(ra.frame):
+        counts = Counter(f for cell in ra.frame.flags if isinstance(cell, str) for f in cell.split("|") if f)
         if counts:
             blocks.append(Table(("point flag", "points"), tuple((k, str(v)) for k, v in sorted(counts.items())),
                                 caption="Points carrying flags"))
@@ -426,7 +425,12 @@ def build_report(
     if not run_paths and design_path is None:
         raise BadInput("argument", "RUN", "no run file given", "one or more .run files, or --design")
     spec = load_spec(spec_path) if spec_path is not None else None
-    review = design_review(load_design(design_path)) if design_path is not None else None
+    review = None
+    if design_path is not None:  # the design review is imported only for a report that has one
+        from benchlog.analysis.design import review as design_review
+        from benchlog.specfiles import load_design
+
+        review = design_review(load_design(design_path))
     runs = [analyse_run(p, spec, model=model, at_a=at_a) for p in run_paths]
     when = generated_utc or datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     sections: list[Section] = []
@@ -441,6 +445,8 @@ def build_report(
         summary.append(Paragraph(f"Design review of {review.design.name}: {review.recommendation}."))
     sections.append(Section("Summary", tuple(summary)))
     if review is not None:
+        from .design_section import design_section
+
         sections.append(design_section(review))
     if len(runs) > 1:
         sections.append(comparison_section(runs))

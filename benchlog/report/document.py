@@ -9,9 +9,10 @@ Every string here is plain text (possibly from a user: serial numbers, notes,
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Literal, Union
+from typing import TYPE_CHECKING, Literal, Union
 
-from matplotlib.figure import Figure
+if TYPE_CHECKING:  # the document's types only; drawing imports matplotlib where it draws
+    from matplotlib.figure import Figure
 
 ParagraphKind = Literal["text", "note", "warning", "safety"]
 

@@ -10,6 +10,7 @@ import math
 
 import numpy as np
 
+from benchlog.analysis.columns import column
 from benchlog.analysis.fit_result import FitResult
 from benchlog.analysis.predict import predict
 from benchlog.analysis.spec import PartSpec
@@ -36,15 +37,16 @@ def fit_label(fit: FitResult) -> str:
 
 def measured_series(frame, fit: FitResult | None, label: str, offset_v: float | None = None) -> MeasuredSeries:
     """All recorded points (offset-corrected like the fit), with the fit's outlier flags mapped onto them."""
-    current = frame["current_a"].to_numpy(dtype=float)
-    drop = frame["drop_v"].to_numpy(dtype=float)
+    current = column(frame, "current_a")
+    drop = column(frame, "drop_v")
     if fit is not None and fit.offset_removed and offset_v is not None and math.isfinite(offset_v):
         drop = drop - offset_v
     keep = np.isfinite(current) & np.isfinite(drop)
     outlier = np.zeros(current.shape, dtype=bool)
-    if fit is not None and "index" in frame.columns and fit.outliers.any():
+    index = column(frame, "index")
+    if fit is not None and index is not None and fit.outliers.any():
         flagged = set(np.asarray(fit.point_index)[np.asarray(fit.outliers, dtype=bool)].tolist())
-        outlier = frame["index"].isin(flagged).to_numpy()
+        outlier = np.isin(index.astype(np.int64), sorted(flagged))
     return MeasuredSeries(label, current[keep], drop[keep], outlier=outlier[keep])
 
 

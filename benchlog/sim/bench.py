@@ -27,9 +27,12 @@ SERIAL_PREFIX = {"supply": "S", "load": "L", "meter": "M", "current_meter": "C"}
 
 
 class SimBench:
-    def __init__(self, config: SimConfig, clock: Callable[[], float] = time.monotonic) -> None:
+    def __init__(self, config: SimConfig, clock: Callable[[], float] = time.monotonic,
+                 sleep: Callable[[float], None] | None = None) -> None:
         self.config = config
         self.clock = clock
+        #: how the instruments wait out their timing on an injected clock (None: the server waits in real time)
+        self.sleep = sleep
         self.lock = threading.RLock()
         self.element = build_element(config.element, self.stream("element"), config.element_params)
         self.junction_c = float(config.ambient_c)
@@ -60,11 +63,14 @@ class SimBench:
         return found
 
     # -- circuit ----------------------------------------------------------------------------------
-    def drive(self) -> Drive:
+    def drive(self, at_s: float | None = None) -> Drive:
+        """What the instruments impose at `at_s` on the bench clock (default now), settling included."""
         s, l = self.supply, self.load
+        at_s = self.clock() if at_s is None else at_s
         return Drive(
-            output_on=s.output_on, inverted=s.inverted, voltage_v=s.actual_voltage_v,
-            current_limit_a=s.actual_current_limit_a, load_on=l.input_on, load_current_a=l.actual_current_a,
+            output_on=s.output_on, inverted=s.inverted, voltage_v=s.actual_voltage_v(at_s),
+            current_limit_a=s.actual_current_limit_a(at_s), load_on=l.input_on,
+            load_current_a=l.actual_current_a(at_s),
             lead_ohm=self.config.lead_resistance_ohm, load_min_ohm=specs.LOAD_MIN_RESISTANCE_OHM,
         )
 
@@ -73,9 +79,10 @@ class SimBench:
         self.advance()
         self._op_key = None
 
-    def operating_point(self) -> OperatingPoint:
+    def operating_point(self, at_s: float | None = None) -> OperatingPoint:
+        """The circuit solved for the drive at `at_s` (default now) and the present junction temperature."""
         with self.lock:
-            drive = self.drive()
+            drive = self.drive(at_s)
             key = (drive, self.junction_c)
             if self._op_key != key:
                 self._op = solve(self.element, drive, self.junction_c)

@@ -15,6 +15,7 @@ from benchlog.tomlcheck import load_toml
 from .elements import KINDS, element_param_names
 from .faults import ROLES, FaultPlan
 from .specs import LEAD_RESISTANCE_OHM
+from .timing import TIMINGS
 
 LOOPBACK_HOSTS = ("127.0.0.1", "localhost", "::1")
 
@@ -34,11 +35,15 @@ class SimConfig:
     current_meter: bool = False  # a 4th socket: a meter in series (DCI) or across a shunt (DCV)
     shunt_ohm: float = 0.01
     lead_resistance_ohm: float = LEAD_RESISTANCE_OHM
-    meter_integration_delay: bool = False  # True: READ? takes NPLC/f per sample in real time
+    # "real": readings take NPLC/f per sample and setpoints settle (first order); "instant": neither,
+    # for tests that do not test timing (see sim/timing.py)
+    timing: str = "real"
 
     def __post_init__(self) -> None:
         if self.element not in KINDS:
             raise ValueError(f"element must be one of {', '.join(KINDS)}, got {self.element!r}")
+        if self.timing not in TIMINGS:
+            raise ValueError(f"timing must be one of {', '.join(TIMINGS)}, got {self.timing!r}")
         if isinstance(self.seed, bool) or not isinstance(self.seed, int):
             raise ValueError(f"seed must be a whole number, got {self.seed!r}")
         for name, lo, hi in (("ambient_c", -55.0, 150.0), ("line_frequency_hz", 40.0, 70.0),
@@ -69,7 +74,7 @@ class SimConfig:
 
 _TOP_KEYS = ("element", "seed", "ambient_c", "line_frequency_hz", "latency_s", "host", "port",
              "meter_has_measure", "current_meter", "shunt_ohm", "lead_resistance_ohm",
-             "meter_integration_delay", "element_params", "faults")
+             "timing", "element_params", "faults")
 _FAULT_COUNTS = ("drop_after_commands", "garbage_after", "hang_after", "queue_error_after", "supply_trip_after",
                  "trickle_after", "stuck_on_after")
 
@@ -92,7 +97,9 @@ def load_sim_config(path: str | Path) -> SimConfig:
         values["host"] = root.string("host")
     if root.has("port"):
         values["port"] = root.integer("port", min=0, max=65532)
-    for key in ("meter_has_measure", "current_meter", "meter_integration_delay"):
+    if root.has("timing"):
+        values["timing"] = root.string("timing", choices=TIMINGS)
+    for key in ("meter_has_measure", "current_meter"):
         if root.has(key):
             values[key] = root.boolean(key)
     kind = values.get("element", SimConfig.element)

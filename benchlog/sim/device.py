@@ -59,6 +59,7 @@ class ScpiDevice:
         self.ese = 0
         self.sre = 0
         self.reply_delay_s = 0.0  # extra time the current message takes (e.g. meter integration)
+        self.busy_until_s = float("-inf")  # bench-clock time when the operation in progress ends
         self.tree = CommandTree()
         self._common(self.tree)
         self.build(self.tree)
@@ -105,7 +106,7 @@ class ScpiDevice:
         tree.command("*RST", self.reset)
         tree.command("*CLS", self._cls)
         tree.command("*OPC", self._opc)
-        tree.query("*OPC?", lambda: "1")
+        tree.query("*OPC?", self._opc_query)
         tree.command("*WAI", lambda: None)
         tree.query("*TST?", lambda: "0")
         tree.query("*ESR?", self._read_esr)
@@ -124,6 +125,15 @@ class ScpiDevice:
 
     def _opc(self) -> None:
         self.esr |= ESR_OPC
+
+    def wait_until_idle(self) -> None:
+        """The reply of this message waits until the operation in progress (a reading) has ended."""
+        self.reply_delay_s = max(self.reply_delay_s, self.busy_until_s - self.bench.clock())
+
+    def _opc_query(self) -> str:
+        # *OPC? answers "1" once every pending operation has completed (IEEE 488.2 10.19)
+        self.wait_until_idle()
+        return "1"
 
     def _read_esr(self) -> str:
         value, self.esr = self.esr, 0

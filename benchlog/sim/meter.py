@@ -15,6 +15,13 @@ at 60 Hz). White noise averaged over t falls as 1/sqrt(t), so
 
 A reading beyond METER_OVERLOAD_FRACTION of its range is the overload value
 ±9.9E37 (SCPI-99 vol. 1 7.2.1).
+
+Timing (with `SimConfig.timing = "real"`, see sim/timing.py): a reading of N
+samples takes N·t. `READ?` and `MEASure?` answer after it; `INITiate` returns at
+once and starts it, `FETCh?` and `*OPC?` wait until it has ended. Sample k sees
+the circuit at the middle of its own integration window, t0 + (k + ½)·t, so a
+setpoint still settling shows in the readings. The readings of an `INITiate`
+are taken from the settings as they stand when it is sent.
 """
 
 from __future__ import annotations
@@ -27,11 +34,7 @@ from benchlog.scpi.tree import CommandError, CommandTree, bool_param, choice_par
 from . import specs
 from .device import ScpiDevice, fmt
 from .specs import RangeSpec, draw_fixed_error, range_for
-
-
-def integration_time_s(nplc: float, line_frequency_hz: float) -> float:
-    """t = NPLC / f_line."""
-    return nplc / line_frequency_hz
+from .timing import integration_time_s
 
 
 def _noise(range_value: float, nplc: float, line_frequency_hz: float, floor: float) -> float:
@@ -82,8 +85,8 @@ class MeterSim(ScpiDevice):
         self.readings: list[float] | None = None
 
     # -- physics -----------------------------------------------------------------------------------
-    def true_value(self) -> float:
-        op = self.bench.operating_point()
+    def true_value(self, at_s: float | None = None) -> float:
+        op = self.bench.operating_point(at_s)
         if self.wiring == "element":
             return op.element_v + self.emf_v if self.function == "VOLT" else 0.0
         if self.function == "VOLT":
@@ -97,21 +100,26 @@ class MeterSim(ScpiDevice):
         return next(s for s in table if s.range == self.range[self.function])
 
     def take_readings(self) -> list[float]:
+        """Start a reading of `sample_count` samples now; it ends `busy_until_s` on the bench clock."""
         line = self.bench.config.line_frequency_hz
         nplc = self.nplc[self.function]
-        value = self.true_value()
-        spec = self._range_spec(value)
+        real = self.bench.config.timing == "real"
+        start = self.bench.clock()
+        each_s = integration_time_s(nplc, line)
+        value = self.true_value(start + 0.5 * each_s if real else None)
+        spec = self._range_spec(value)  # the range is chosen once, before the samples
         key = (self.function, spec.range)
         sigma = (reading_noise_v if self.function == "VOLT" else reading_noise_a)(spec.range, nplc, line)
-        centre = value * (1.0 + self.gain[key]) + self.offset[key]
+        gain, offset = 1.0 + self.gain[key], self.offset[key]
         out = []
-        for _ in range(self.sample_count):
-            reading = centre + self.noise.gauss(0.0, sigma)
+        for k in range(self.sample_count):
+            if real and k:
+                value = self.true_value(start + (k + 0.5) * each_s)
+            reading = value * gain + offset + self.noise.gauss(0.0, sigma)
             if abs(reading) > specs.METER_OVERLOAD_FRACTION * spec.range:
                 reading = math.copysign(OVERLOAD, reading)
             out.append(reading)
-        if self.bench.config.meter_integration_delay:
-            self.reply_delay_s += self.sample_count * integration_time_s(nplc, line)
+        self.busy_until_s = start + self.sample_count * each_s if real else start
         return out
 
     # -- SCPI --------------------------------------------------------------------------------------
@@ -209,6 +217,7 @@ class MeterSim(ScpiDevice):
     def _fetch(self) -> str:
         if self.readings is None:
             raise CommandError(-230, "no readings; send INITiate first")
+        self.wait_until_idle()
         return ",".join(fmt(r, 9) for r in self.readings)
 
     def _read(self) -> str:

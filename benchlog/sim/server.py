@@ -7,7 +7,10 @@ open a new one while the old one is still being torn down. Settings and the
 error queue belong to the instrument, not to the connection: they survive a
 reconnect, as on real hardware.
 
-Replies are sent as soon as they are computed unless a latency is configured.
+Replies are sent as soon as they are computed, unless a latency is configured or
+the instrument needs time (a meter's integration, see sim/timing.py). On an
+injected clock (`serve_bench(..., clock=, sleep=)`) the instrument's own time is
+waited out with the injected `sleep`, so tests of timing run without waiting.
 While a reply waits out its latency, a new message arriving on the same
 connection interrupts the query: the reply is discarded and -410 "Query
 INTERRUPTED" is queued (IEEE 488.2 6.3.2.3). -420 "Query UNTERMINATED" (a read
@@ -169,9 +172,13 @@ class _InstrumentServer:
                 bench.supply.check_protection()
                 reply = self.device.execute(text)
                 bench.supply.check_protection()
-            delay = bench.config.latency_s + self.faults.extra_latency_s + self.device.reply_delay_s
+            instrument_s = self.device.reply_delay_s if reply is not None else 0.0
         if reply is None or "hang" in fired:
             return True
+        if bench.sleep is not None and instrument_s > 0:
+            bench.sleep(instrument_s)
+            instrument_s = 0.0
+        delay = bench.config.latency_s + self.faults.extra_latency_s + instrument_s
         if "garbage" in fired:
             reply = GARBAGE_REPLY
         if delay > 0 and self._interrupted(conn, delay, buffer):
@@ -254,9 +261,13 @@ class RunningBench:
         self.stop()
 
 
-def serve_bench(config: SimConfig, *, clock: Callable[[], float] = time.monotonic) -> RunningBench:
-    """Start serving `config`'s bench in background threads; ports are bound before this returns."""
-    bench = SimBench(config, clock=clock)
+def serve_bench(config: SimConfig, *, clock: Callable[[], float] = time.monotonic,
+                sleep: Callable[[float], None] | None = None) -> RunningBench:
+    """Start serving `config`'s bench in background threads; ports are bound before this returns.
+
+    `clock` and `sleep` may be injected together: the instruments' timing then passes on that clock.
+    """
+    bench = SimBench(config, clock=clock, sleep=sleep)
     servers: list[_InstrumentServer] = []
     try:
         for index, role in enumerate(config.roles):

@@ -68,6 +68,9 @@ SUPPLY_PROGRAMMING: tuple[RangeSpec, ...] = (
 )
 SUPPLY_READBACK_NOISE_V = 0.2e-3
 SUPPLY_READBACK_NOISE_A = 0.1e-3
+# With real timing (sim/timing.py) a new voltage or current setting, or the output switched on, is reached
+# along a first-order step response with this time constant: within 1 % after 4.6 τ = 9.2 ms.
+SUPPLY_SETTLE_TAU_S = 2.0e-3
 
 # -- electronic load ------------------------------------------------------------------------
 LOAD_MAX_VOLTAGE_V = 60.0
@@ -80,6 +83,8 @@ LOAD_READBACK: tuple[RangeSpec, ...] = (
 LOAD_PROGRAMMING: tuple[RangeSpec, ...] = (RangeSpec("program_current", LOAD_MAX_CURRENT_A, 0.10, 0.05),)
 LOAD_READBACK_NOISE_V = 0.5e-3
 LOAD_READBACK_NOISE_A = 0.5e-3
+# With real timing a new current setting, or the input switched on, settles with this time constant.
+LOAD_SETTLE_TAU_S = 0.5e-3
 
 # -- wiring -----------------------------------------------------------------------------------
 LEAD_RESISTANCE_OHM = 0.020  # closes the loop when the load input is off

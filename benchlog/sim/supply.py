@@ -1,5 +1,9 @@
 """The simulated DC supply: CV/CC crossover, programming and readback error, protection trip, polarity switch.
 
+With real timing (`SimConfig.timing`) the output voltage and current limit reach
+a new setting, or rise from zero when the output is switched on, along a
+first-order response (`specs.SUPPLY_SETTLE_TAU_S`); switched off they drop at once.
+
 STATus:OPERation:CONDition? reports bit 8 (256) in CV and bit 10 (1024) in CC,
 0 with the output off. Readback is the magnitude at the supply's own
 terminals, before the polarity switch (as with a polarity relay on the output).
@@ -17,6 +21,7 @@ from benchlog.scpi.tree import CommandError, CommandTree, bool_param, choice_par
 from . import specs
 from .device import ScpiDevice, fmt
 from .specs import draw_fixed_error, spec_for
+from .timing import FirstOrder
 
 CV_BIT = 256
 CC_BIT = 1024
@@ -37,6 +42,9 @@ class SupplySim(ScpiDevice):
         self.noise = bench.stream(f"{role}/noise")
         self.tripped = False
         self.stuck_on = False  # fault: the output ignores "off" (OUTPut:STATe? still tells the truth)
+        tau = specs.SUPPLY_SETTLE_TAU_S if bench.config.timing == "real" else 0.0
+        self.voltage_out = FirstOrder(tau, 0.0, bench.clock())
+        self.limit_out = FirstOrder(tau, 0.0, bench.clock())
         super().__init__(bench, role, serial)
 
     def reset(self) -> None:
@@ -48,23 +56,42 @@ class SupplySim(ScpiDevice):
         self.ocp_a: float | None = None
         self.timer_s: float | None = None
         self.on_since: float | None = None
+        self.settings_changed()
 
     # -- actual output (with programming error) ---------------------------------------------------
     @property
-    def actual_voltage_v(self) -> float:
+    def programmed_voltage_v(self) -> float:
         gain, offset = self.program_v
         return max(0.0, self.voltage_set_v * (1 + gain) + offset) if self.voltage_set_v > 0 else 0.0
 
     @property
-    def actual_current_limit_a(self) -> float:
+    def programmed_current_limit_a(self) -> float:
         gain, offset = self.program_a
         return max(0.0, self.current_set_a * (1 + gain) + offset) if self.current_set_a > 0 else 0.0
+
+    def actual_voltage_v(self, at_s: float) -> float:
+        """The output voltage setting as it has settled by `at_s` (bench clock)."""
+        return self.voltage_out.value(at_s)
+
+    def actual_current_limit_a(self, at_s: float) -> float:
+        return self.limit_out.value(at_s)
+
+    def settings_changed(self) -> None:
+        """Start settling towards the present settings (switched off: zero at once)."""
+        now = self.bench.clock()
+        if self.output_on:
+            self.voltage_out.aim(self.programmed_voltage_v, now)
+            self.limit_out.aim(self.programmed_current_limit_a, now)
+        else:
+            self.voltage_out.jump(0.0, now)
+            self.limit_out.jump(0.0, now)
 
     def trip(self) -> None:
         """Protection trip: output off until OUTPut:PROTection:CLEar."""
         self.bench.changed()
         self.tripped = True
         self.output_on = False
+        self.settings_changed()
 
     # -- SCPI ---------------------------------------------------------------------------------------
     def build(self, tree: CommandTree) -> None:
@@ -92,11 +119,13 @@ class SupplySim(ScpiDevice):
         self.bench.changed()
         self.voltage_set_v = number_param(text, lo=0.0, hi=specs.SUPPLY_MAX_VOLTAGE_V, default=0.0,
                                           name="voltage", unit=" V")
+        self.settings_changed()
 
     def _set_current(self, text: str) -> None:
         self.bench.changed()
         self.current_set_a = number_param(text, lo=0.0, hi=specs.SUPPLY_MAX_CURRENT_A, default=0.1,
                                           name="current limit", unit=" A")
+        self.settings_changed()
 
     def _set_output(self, text: str) -> None:
         on = bool_param(text, "output")
@@ -108,6 +137,7 @@ class SupplySim(ScpiDevice):
         if on and not self.output_on:
             self.on_since = self.bench.clock()
         self.output_on = on
+        self.settings_changed()
 
     def _set_ovp(self, text: str) -> None:
         value = number_param(text, lo=0.0, hi=specs.SUPPLY_MAX_VOLTAGE_V * 1.1, default=0.0,
@@ -131,6 +161,7 @@ class SupplySim(ScpiDevice):
                 and self.bench.clock() - self.on_since >= self.timer_s:
             self.bench.changed()
             self.output_on = False
+            self.settings_changed()
             return
         if self.ovp_v is None and self.ocp_a is None:
             return

@@ -45,7 +45,8 @@ class SimProcess:
 
     def __init__(self, *args: str) -> None:
         self.args = args
-        self.proc = start_benchlog("sim", "--port", "0", *args)
+        # instant timing: these tests are of faults and safety, and their sweeps must not outlast a checkpoint
+        self.proc = start_benchlog("sim", "--port", "0", "--timing", "instant", *args)
         self.resources: dict[str, str] = {}
         self._lines: "queue.Queue[str | None]" = queue.Queue()
         threading.Thread(target=self._pump, daemon=True).start()

@@ -53,7 +53,8 @@ class Killed:
 
 
 def _argv(kill: Kill, out_dir: Path) -> list[str]:
-    args = [str(PLAN), "--out", str(out_dir), "--seed", str(kill.number)]
+    # instant sim timing: this tests durability, and the kills must land all along a sweep of many points
+    args = [str(PLAN), "--out", str(out_dir), "--seed", str(kill.number), "--sim-timing", "instant"]
     if kill.acked:
         return [sys.executable, "-m", "tests.reliability.acked_sweep", *args]
     return [sys.executable, "-m", "benchlog", "sweep", *args]

@@ -157,3 +157,19 @@ def test_bad_config_file_names_the_key(tmp_path):
     proc = _start("--config", str(bad))
     _, err = proc.communicate(timeout=20)
     assert proc.returncode == 2 and "[element_params].r_on" in err and "r_on_ohm" in err
+
+
+@pytest.mark.parametrize("args, said", [((), "real timing"), (("--timing", "instant"), "instant timing")])
+def test_sim_says_its_timing_on_stderr(sim_process, args, said):
+    proc = sim_process("--port", "0", *args)
+    lines = _lines_until_ready(proc)
+    assert [line.split()[0] for line in lines[:-1]] == ["supply", "load", "meter"]  # stdout stays parseable
+    proc.send_signal(signal.SIGTERM)
+    assert proc.wait(timeout=10) == 0
+    assert said in proc.stderr.read()
+
+
+def test_sim_refuses_an_unknown_timing():
+    proc = _start("--timing", "fast")
+    _, err = proc.communicate(timeout=20)
+    assert proc.returncode == 2 and "--timing" in err and len(err.strip().splitlines()) == 1

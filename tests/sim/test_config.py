@@ -58,3 +58,16 @@ def test_bad_settings_in_code_raise_value_error():
         SimConfig(element="pmos", element_params={"ideality": 1.2})  # a diode parameter on a MOSFET
     with pytest.raises(ValueError):
         SimConfig(line_frequency_hz=float("nan"))
+
+
+def test_timing_is_real_by_default_and_instant_from_the_config_file(tmp_path):
+    assert SimConfig().timing == "real"
+    path = tmp_path / "sim.toml"
+    path.write_text('timing = "instant"\n')
+    assert load_sim_config(path).timing == "instant"
+    path.write_text('timing = "fast"\n')
+    with pytest.raises(BadInput) as caught:
+        load_sim_config(path)
+    assert "timing" in caught.value.line() and "'instant'" in caught.value.line()
+    with pytest.raises(ValueError, match="timing"):
+        SimConfig(timing="fast")

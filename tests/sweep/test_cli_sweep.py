@@ -149,8 +149,22 @@ def test_demo_headless_summary(tmp_path, capsys):
     assert rc == 0
     summary = json.loads(out)
     assert summary["outcome"] == "complete" and summary["points"] == 30
+    assert summary["sim_timing"] == "real"  # the demo runs on the simulator's real instrument timing
     assert Path(summary["run_file"]).is_file()
     assert summary["fit"]["model"] == "resistive" and summary["fit"]["params"]["r_on_ohm"] > 0
+
+
+def test_sweep_names_the_simulator_timing_and_refuses_it_with_a_bench(sim_bench, tmp_path, capsys):
+    rc = main(["sweep", str(PLANS / "lot-inspection.toml"), "--out", str(tmp_path), "--sim-timing", "instant"])
+    out, _ = capsys.readouterr()
+    assert rc == 0 and "built-in simulated bench: instant timing" in out
+    running = sim_bench("pmos", seed=45)
+    plan = write(tmp_path, "plan.toml", PMOS_PLAN.format(count=4, dwell=0.0))
+    rc = main(["sweep", str(plan), "--bench", str(bench_file(tmp_path, running)), "--out", str(tmp_path),
+               "--sim-timing", "real"])
+    _, err = capsys.readouterr()
+    assert rc == 2 and err.count("\n") == 1 and "--sim-timing" in err
+    assert not running.bench.supply.output_on
 
 
 def test_demo_without_the_ui_says_so(monkeypatch, tmp_path, capsys):

@@ -1,0 +1,79 @@
+"""Commands import only what they use: `--help` no numerics, `fit`/`check`/`lot` no scipy, pandas or plotting.
+
+Each command runs in a fresh interpreter and then lists the modules it loaded
+(a module imported once stays in sys.modules), so a top-level import that
+creeps back in fails here, whatever the machine's speed.
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[2]
+RUNS = ROOT / "sample_runs"
+SPEC = ROOT / "benchlog" / "demo" / "specs" / "demo-pfet-10m.toml"
+
+PROBE = """
+import json, sys
+from benchlog.cli import main
+try:
+    code = main(sys.argv[1:])
+except SystemExit as exc:
+    code = exc.code
+sys.stdout.flush()
+print("\\n@@" + json.dumps({"code": code, "modules": sorted(sys.modules)}))
+"""
+
+
+def loaded(*args: str) -> set[str]:
+    done = subprocess.run([sys.executable, "-c", PROBE, *args], capture_output=True, text=True, cwd=ROOT,
+                          timeout=120)
+    report = json.loads(done.stdout.rsplit("@@", 1)[1])
+    assert report["code"] in (0, 3, None), done.stderr  # 3: a conditional verdict is an answer too
+    return set(report["modules"])
+
+
+def tops(modules: set[str]) -> set[str]:
+    return {m.split(".")[0] for m in modules}
+
+
+HEAVY = {"scipy", "pandas", "matplotlib", "textual", "sqlalchemy"}
+
+
+def test_help_imports_no_numerics():
+    assert not tops(loaded("--help")) & (HEAVY | {"numpy"})
+
+
+def test_fit_of_a_resistive_run_imports_no_scipy_pandas_or_plotting():
+    modules = loaded("fit", str(RUNS / "pmos-prototype.run"), "--json")
+    assert not tops(modules) & HEAVY
+    assert "benchlog.analysis.design" not in modules
+
+
+def test_a_diode_fit_does_import_scipy():
+    # the other side of the rule: the diode law's nonlinear least squares is scipy's (this test can fail)
+    assert "scipy.optimize" in loaded("fit", str(RUNS / "rectifier-prototype.run"), "--json")
+
+
+@pytest.mark.parametrize("args", [
+    ("check", str(RUNS / "pmos-prototype.run"), "--spec", str(SPEC), "--json"),
+    ("lot", str(RUNS / "lot-demo-07" / "L07-0001.run"), str(RUNS / "lot-demo-07" / "L07-0002.run"),
+     "--spec", str(SPEC), "--json"),
+])
+def test_check_and_lot_import_no_scipy_pandas_or_plotting(args):
+    modules = loaded(*args)
+    assert not tops(modules) & HEAVY
+    assert "benchlog.analysis.design" not in modules
+
+
+def test_html_report_needs_neither_the_pdf_backend_nor_the_design_review(tmp_path):
+    modules = loaded("report", str(RUNS / "pmos-prototype.run"), "-o", str(tmp_path / "r.html"))
+    assert "matplotlib" in modules  # the figures
+    assert "matplotlib.backends.backend_pdf" not in modules
+    assert "benchlog.analysis.design" not in modules
+    assert not tops(modules) & {"scipy", "pandas", "textual"}
