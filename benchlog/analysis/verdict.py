@@ -30,6 +30,7 @@ import numpy as np
 from benchlog.badinput import BadInput
 
 from .predict import OperatingPoint, Prediction, predict
+from .reverse import ReverseVerdict, judge_reverse, worse
 from .spec import PartSpec
 
 OUTCOMES = ("pass", "fail", "conditional")
@@ -149,10 +150,14 @@ class Check:
     extrapolation: "Extrapolation | None" = None  # the operating current against the fitted current range
     run_complete: bool = True  # the run has its end record and ended "complete"
     run_outcome: str = "complete"
+    reverse: "ReverseVerdict | None" = None  # the reverse step judged at the test's temperature (`reverse`)
 
     @property
     def outcome(self) -> str:
-        return self.verdict.outcome
+        """The run's verdict: the worse of the forward verdict and the reverse result."""
+        if self.reverse is None:
+            return self.verdict.outcome
+        return worse(self.verdict.outcome, self.reverse.outcome)
 
 
 @dataclass(frozen=True)
@@ -380,6 +385,7 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
         predicted=env.heated, unheated=env.cold, verdict=verdict, drop_verdict=drop_verdict,
         typical_comparison=typical_comparison(loss, k * u_loss, env.heated.typical, env.cold.typical),
         notes=tuple(dict.fromkeys(notes)), extrapolation=ext, run_complete=complete, run_outcome=run_outcome,
+        reverse=judge_reverse(getattr(meta, "reverse", None), spec, frame, meta),
     )
 
 

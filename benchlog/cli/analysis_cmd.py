@@ -149,9 +149,13 @@ def _extrapolation(c) -> dict[str, Any]:
 
 
 def check_entry(c) -> dict[str, Any]:
+    from benchlog.analysis.reverse import reverse_entry
+
     p, cold = c.predicted, c.unheated
     return {
         "verdict": c.outcome,
+        "forward_verdict": c.verdict.outcome,
+        "reverse": reverse_entry(c.reverse),
         "part": c.part, "run": c.run, "current_a": c.current_a, "current_source": c.current_source,
         "ambient_c": c.ambient_c, "model": c.model,
         "measured_drop_v": c.measured_drop_v, "measured_loss_w": c.measured_loss_w,
@@ -200,6 +204,9 @@ def _check(args) -> int:
               f"at Tj {_fmt(c.predicted.tj_c, '.1f', '°C')}")
         print(f"  {c.typical_comparison}")
         print(f"  rule: {c.verdict.rule}")
+        if c.reverse is not None:
+            print(f"  {c.reverse.text()}")
+            print(f"  verdict: the worse of forward ({c.verdict.outcome}) and reverse ({c.reverse.outcome})")
         for note in c.notes:
             if note not in flagged:
                 print(f"  note: {note}")

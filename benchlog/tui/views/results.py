@@ -116,8 +116,12 @@ class ResultsView(View):
             return
         rule = verdict_rule(f.check)
         spec_name = f.spec_path.name if f.spec_path else ""
+        rev = getattr(f.check, "reverse", None)
+        reverse = "" if rev is None else (
+            f"\n reverse: {VERDICT_WORDS.get(rev.outcome, rev.outcome.upper())}  {si(rev.current_a, 'A')} at "
+            f"{rev.voltage_v:g} V against {si(rev.limit_a, 'A')} (T {rev.tj_c:.1f} °C, {rev.tj_source})")
         box.update(f" VERDICT: {VERDICT_WORDS.get(outcome, outcome.upper())}  against {spec_name}\n"
-                   f" rule: {rule or 'as stated by the check'}\n run {f.path.name} · {who} · {f.meta.outcome}")
+                   f" rule: {rule or 'as stated by the check'}{reverse}\n run {f.path.name} · {who} · {f.meta.outcome}")
 
     def _show_fit(self, f: RunFindings) -> None:
         box = self.query_one("#fit-table", Static)

@@ -1,0 +1,109 @@
+"""The reverse-polarity result as a verdict: the limit at the test's temperature, the rule, the worse-of."""
+
+import json
+import math
+from pathlib import Path
+from types import SimpleNamespace
+
+import pandas as pd
+import pytest
+
+import benchlog
+from benchlog.analysis.reverse import U_ASSUMED_K, judge_reverse, worse
+from benchlog.analysis.spec import load_spec
+from benchlog.runs.events import ReverseResult
+
+from .test_verdict_cli import DEMO, RECT, cli
+
+SCHOTTKY = load_spec(DEMO / "specs" / "demo-schottky-2a.toml")  # IR max 50 µA at 40 V, 25 °C, doubling 10 K
+SAMPLE = Path(benchlog.__file__).parents[1] / "sample_runs" / "rectifier-reverse.run"
+
+
+def record(current_a, voltage_v=12.0, limit_a=0.01, passed=None):
+    passed = current_a <= limit_a if passed is None else passed
+    return ReverseResult(3.0, voltage_v, 2.0, current_a, limit_a, passed)
+
+
+def meta(ambient_c=25.0):
+    return SimpleNamespace(element={"ambient_c": ambient_c})
+
+
+def test_limit_follows_the_doubling_model_at_the_test_temperature():
+    # Exponential leakage model I(T) = I0·2^((T − T0)/ΔT), ΔT = 10 K (common practice for Schottky
+    # leakage; the spec states 10 K): at 75 °C the 50 µA limit is 50 µA·2^5 = 1.6 mA.
+    r = judge_reverse(record(1e-4), SCHOTTKY, None, meta(75.0))
+    assert r.limit_a == pytest.approx(50e-6 * 2 ** 5, rel=1e-12)
+    assert r.tj_c == 75.0 and r.tj_source == "assumed" and r.tj_u_c == U_ASSUMED_K
+    assert "doubling every 10 K" in r.limit_at and r.outcome == "pass"
+    # The same 100 µA at 25 °C is twice the limit: fail.
+    assert judge_reverse(record(1e-4), SCHOTTKY, None, meta(25.0)).outcome == "fail"
+
+
+def test_temperature_uncertainty_is_a_guard_band_on_the_limit():
+    # u(T) = 2 K, k = 2: pass needs I ≤ I_lim(T − 4 K), fail needs I > I_lim(T + 4 K).
+    cool, warm = 50e-6 * 2 ** (-0.4), 50e-6 * 2 ** 0.4
+    assert judge_reverse(record(cool * 0.999), SCHOTTKY, None, meta()).outcome == "pass"
+    assert judge_reverse(record(50e-6), SCHOTTKY, None, meta()).outcome == "conditional"
+    assert judge_reverse(record(warm * 1.001), SCHOTTKY, None, meta()).outcome == "fail"
+
+
+def test_measured_case_temperature_is_used_when_recorded():
+    points = pd.DataFrame({"temperature_c": [30.0, 40.0, math.nan, 45.0]})
+    r = judge_reverse(record(1e-4), SCHOTTKY, points, meta(25.0))
+    assert r.tj_c == 45.0 and r.tj_source == "measured"
+    assert r.limit_a == pytest.approx(50e-6 * 2 ** 2)
+
+
+def test_voltage_not_held_fails_and_above_the_stated_voltage_cannot_pass():
+    held_not = judge_reverse(record(1e-6, passed=False), SCHOTTKY, None, meta())
+    assert held_not.outcome == "fail" and "conducts in reverse" in held_not.reason
+    above = judge_reverse(record(1e-6, voltage_v=48.0), SCHOTTKY, None, meta())
+    assert above.outcome == "conditional" and "above the stated 40 V" in above.limit_at
+
+
+def test_tighter_plan_limit_decides_and_no_spec_uses_the_plan():
+    r = judge_reverse(record(2e-5, limit_a=1e-5), SCHOTTKY, None, meta())
+    assert r.limit_a == 1e-5 and r.outcome == "fail" and "plan's" in r.limit_at
+    plan_only = judge_reverse(record(2e-5, limit_a=1e-4), None, None, meta())
+    assert plan_only.limit_a == 1e-4 and plan_only.spec_limit_a is None and plan_only.outcome == "pass"
+    assert judge_reverse(None, SCHOTTKY) is None
+
+
+def test_worse_of():
+    assert worse("pass", "fail") == "fail" and worse("conditional", "pass") == "conditional"
+    assert worse("pass", "pass") == "pass" and worse("fail", "conditional") == "fail"
+
+
+def test_check_and_fit_carry_the_reverse_result():
+    # The sample run leaks 10.3 µA at 12 V; the rectifier spec allows 5 µA at 200 V, 25 °C:
+    # the forward verdict passes, the run fails (exit 1).
+    code, out, _ = cli("check", SAMPLE, "--spec", RECT, "--json")
+    c = json.loads(out)
+    rev = c["reverse"]
+    assert set(rev) >= {"voltage_v", "current_a", "limit_a", "verdict"}
+    assert rev["voltage_v"] == 12.0 and rev["current_a"] == pytest.approx(1.03124778e-05)
+    assert rev["limit_a"] == pytest.approx(5e-6) and rev["verdict"] == "fail"
+    assert c["forward_verdict"] == "pass" and c["verdict"] == "fail" and code == 1
+    code, text, _ = cli("check", SAMPLE, "--spec", RECT)
+    assert code == 1 and text.startswith("FAIL") and "reverse FAIL" in text
+    code, out, _ = cli("fit", SAMPLE, "--json")
+    f = json.loads(out)
+    assert code == 0 and f["reverse"]["limit_a"] == 1e-4 and f["reverse"]["verdict"] == "pass"
+    code, out, _ = cli("check", DEMO.parents[1] / "sample_runs" / "pmos-prototype.run", "--spec",
+                       DEMO / "specs" / "demo-pfet-10m.toml", "--json")
+    assert json.loads(out)["reverse"] is None
+
+
+def test_report_headline_names_the_reverse_result(tmp_path):
+    from benchlog.report.build import build_report
+    from benchlog.report.document import VerdictBlock
+
+    doc = build_report([SAMPLE], spec_path=RECT)
+
+    def blocks(sections):
+        for s in sections:
+            yield from s.blocks
+            yield from blocks(s.subsections)
+
+    verdict = next(b for b in blocks(doc.sections) if isinstance(b, VerdictBlock))
+    assert verdict.outcome == "fail" and "reverse FAIL" in verdict.headline
