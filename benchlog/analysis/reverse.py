@@ -75,18 +75,13 @@ class ReverseVerdict:
 
 
 def reverse_test_temperature_c(points, meta) -> tuple[float, float, str]:
-    """(T, u(T), source) of the reverse step: the last recorded point temperature, else the run's ambient."""
-    t = None
-    if points is not None:
-        try:
-            col = np.asarray(points["temperature_c"], dtype=float)
-        except (KeyError, ValueError, TypeError):
-            col = np.array([])
-        col = col[np.isfinite(col)]
-        if col.size:
-            t = float(col[-1])
-    if t is not None:
-        return t, U_MEASURED_K, "measured"
+    """(T, u(T), source) of the reverse step: the last recorded case temperature, else the run's ambient."""
+    from .case_temperature import measured_case_temperature
+
+    case = measured_case_temperature(points, meta) if points is not None else None
+    if case is not None:
+        t = float(case.values_c[np.isfinite(case.values_c)][-1])
+        return t, max(case.u_c or 0.0, U_MEASURED_K), "measured"
     ambient = (getattr(meta, "element", None) or {}).get("ambient_c")
     if isinstance(ambient, (int, float)) and not isinstance(ambient, bool) and math.isfinite(ambient):
         return float(ambient), U_ASSUMED_K, "assumed"

@@ -35,6 +35,7 @@ class Rig:
     supply: Any = None
     load: Any = None
     current_meter: Any = None
+    sensor: Any = None  # a meter whose temperature probe sits on the element (bench [sensor])
     #: role name -> range the meter was configured on, filled by `configure`
     ranges: dict[str, float] = field(default_factory=dict)
 
@@ -44,10 +45,12 @@ class Rig:
 
     def roles(self) -> tuple[Any, ...]:
         """Every opened role, the power sources first (the order the safe state reaches them)."""
-        return tuple(r for r in (self.supply, self.load, self.meter, self.current_meter) if r is not None)
+        return tuple(r for r in (self.supply, self.load, self.meter, self.current_meter, self.sensor)
+                     if r is not None)
 
     def named_roles(self) -> dict[str, Any]:
-        named = {"supply": self.supply, "load": self.load, "meter": self.meter, "current_meter": self.current_meter}
+        named = {"supply": self.supply, "load": self.load, "meter": self.meter, "current_meter": self.current_meter,
+                 "sensor": self.sensor}
         return {k: v for k, v in named.items() if v is not None}
 
     def close(self) -> None:
@@ -80,6 +83,8 @@ class Rig:
             if m.samples > 1 or _has(self.current_meter, "set_samples"):
                 self.current_meter.set_samples(m.samples)
             self.ranges["current_meter"] = rng
+        if self.sensor is not None:
+            self.sensor.configure_temperature()
         supply = self.supply
         supply.set_output(False)
         if w.force == "supply":
@@ -152,6 +157,13 @@ class Rig:
             return None
         value = sum(samples) / len(samples)
         return value if source == "meter" else value / self.wiring.shunt_ohm
+
+    def read_case_temperature(self) -> float | None:
+        """The element's case (or tab) temperature in °C from the bench's sensor; None without one or on overload."""
+        if self.sensor is None:
+            return None
+        value = self.sensor.measure_temperature()
+        return value if value is not None and math.isfinite(value) else None
 
     def reverse_current_reader(self, limit_a: float):
         """A reader of the reverse current (magnitude) on the finest range that still holds `limit_a`."""
@@ -337,7 +349,7 @@ def open_rig(setup: BenchSetup, *, timeout_s: float | None = None, on_open: Any 
 
 
 def _profile_role(bench_role: str) -> str:
-    return "meter" if bench_role == "current_meter" else bench_role
+    return "meter" if bench_role in ("current_meter", "sensor") else bench_role
 
 
 def load_role_profiles(setup: BenchSetup) -> dict[str, Any]:
@@ -363,5 +375,9 @@ def load_role_profiles(setup: BenchSetup) -> dict[str, Any]:
             raise BadInput(setup.source or "bench", f"[{name}].profile",
                            f"{profile.name!r} is a {profile.role} profile",
                            f"a profile whose role is {_profile_role(name)!r}")
+        if name == "sensor" and not profile.has("measure_temperature"):
+            raise BadInput(setup.source or "bench", "[sensor].profile",
+                           f"{profile.name!r} has no [commands].measure_temperature",
+                           "a meter profile with a temperature function (measure_temperature)")
         profiles[name] = profile
     return profiles

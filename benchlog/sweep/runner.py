@@ -329,6 +329,8 @@ class SweepRunner:
                          f"({current:.6g} A x {reading.value:.6g} V), above the {lim.max_power_w:g} W limit")
         if stop is not None:
             rig.element_off()
+        # the case (or tab) temperature right after the drop, when the bench has a probe on the element
+        temperature_c = rig.read_case_temperature() if getattr(rig, "sensor", None) is not None else None
         point = Point(
             index=index,
             t_s=t_s,
@@ -337,6 +339,7 @@ class SweepRunner:
             drop_v=reading.value,
             supply_v=supply_v,
             supply_mode=mode,
+            temperature_c=temperature_c,
             settle_reads=reading.reads,
             direction=step.direction,
             flags=tuple(flags),
@@ -484,7 +487,22 @@ class SweepRunner:
                       "range_v": drop_range_v(plan, rig.meter.profile)},
             "line_frequency_hz": rig.setup.line_frequency_hz,
             "point_columns": list(POINT_COLUMNS),
+            **self._temperature_header(),
         }
+
+    def _temperature_header(self) -> dict[str, Any]:
+        """Which sensor filled the points' temperature_c, where it sits and how good it is (none: no key)."""
+        rig = self.rig
+        sensor = getattr(rig, "sensor", None)
+        where = getattr(rig.setup, "sensor", None)
+        if sensor is None or where is None:
+            return {}
+        spec = rig.setup.role("sensor")
+        return {"temperature": {
+            "source": "sensor", "role": "sensor", "resource": getattr(spec, "resource", ""),
+            "profile": getattr(sensor.profile, "name", ""), "idn": idn_text(getattr(sensor, "idn", None)),
+            "attached_to": where.attached_to, "transducer": where.transducer, "accuracy_c": where.accuracy_c,
+        }}
 
 
 def _safety_limit_type() -> type:
