@@ -71,11 +71,19 @@ class SimBench:
         return specs.CASE_RTH_JC_K_PER_W.get(self.element.kind, specs.CASE_RTH_JC_DEFAULT_K_PER_W)
 
     def case_c(self) -> float:
-        """The element's case temperature: Tc = Tj − P·RθJC (JESD51 definition of RθJC), never below ambient
-        by more than the model allows (with P = 0 the case sits at the junction)."""
+        """The element's case temperature on the path junction -> case -> ambient.
+
+        The one thermal capacitance sits at the junction, so the heat leaving it is
+        q = (Tj − Ta)/RθJA, and the case sits RθJC·q below the junction:
+        Tc = Tj − (Tj − Ta)·RθJC/RθJA. In steady state q = P, so Tj − Tc = P·RθJC, the
+        definition of junction-to-case thermal resistance (JESD51 series); while heating
+        the case lies between ambient and junction, never below the ambient.
+        """
         with self.lock:
             self.advance()
-            return self.junction_c - self.operating_point().power_w * self.rth_jc_k_per_w
+            ta, tj = self.config.ambient_c, self.junction_c
+            share = min(1.0, self.rth_jc_k_per_w / self.element.thermal.rth_ja_k_per_w)
+            return tj - (tj - ta) * share
 
     # -- circuit ----------------------------------------------------------------------------------
     def drive(self) -> Drive:
