@@ -14,12 +14,13 @@ too; the tighter of the two decides, and the result says which.
 
 Temperature of the test: the element's case temperature recorded on the points
 (`measured`; with no forward current the junction sits at its case), else the
-run's ambient (`assumed`). Its uncertainty enters as a guard band on the limit,
-in the spirit of ILAC-G8:09/2019 §4.2.2: pass needs the current at or below the
-limit at T − 2u(T); fail needs it above the limit at T + 2u(T); between them the
-result is conditional. The reading itself is taken as recorded: the run keeps no
-accuracy for the reverse range (the plan check refused limits within twice the
-reader's zero error).
+run's ambient (`assumed`). Decision rule: ILAC-G8:09/2019 §4.2.2 guard bands on
+both sides. The reading's expanded uncertainty U = 2·a/√3 comes from the reader's
+accuracy on the reverse range (header `accuracy.reverse_current`; a/√3 is GUM
+4.3.7), and the temperature's uncertainty moves the limit: pass needs
+I + U ≤ limit at T − 2u(T); fail needs I − U > limit at T + 2u(T); between them
+the result is conditional. A run recorded before the header kept the reverse
+accuracy is judged with U = 0 and says so.
 
 A supply that could not hold the reverse voltage (the runner's `passed` false
 with a current inside the plan's limit) means the element conducted: fail.
@@ -40,8 +41,8 @@ U_MEASURED_K = 1.0
 U_ASSUMED_K = 2.0
 K = 2.0
 
-REVERSE_RULE = (f"pass if I ≤ limit at T − {K:g}·u(T); fail if I > limit at T + {K:g}·u(T) "
-                "(ILAC-G8:09/2019 guard band on the temperature); otherwise conditional")
+REVERSE_RULE = (f"pass if I + U ≤ limit at T − {K:g}·u(T); fail if I − U > limit at T + {K:g}·u(T) "
+                f"(ILAC-G8:09/2019 guard bands, U = {K:g}·u(I)); otherwise conditional")
 
 _RANK = {"pass": 0, "conditional": 1, "fail": 2}
 
@@ -59,6 +60,7 @@ class ReverseVerdict:
     duration_s: float
     current_a: float
     limit_a: float  # at the test's temperature (centre value)
+    expanded_u_a: float | None  # U of the reading (k = 2), None when the run kept no reverse accuracy
     outcome: str
     limit_at: str  # the conditions and source of the limit, in words
     tj_c: float
@@ -70,7 +72,8 @@ class ReverseVerdict:
     reason: str
 
     def text(self) -> str:
-        return (f"reverse {self.outcome.upper()}: {self.current_a:.3g} A at {self.voltage_v:g} V reversed for "
+        u = f" ± {self.expanded_u_a:.2g}" if self.expanded_u_a else ""
+        return (f"reverse {self.outcome.upper()}: {self.current_a:.3g}{u} A at {self.voltage_v:g} V reversed for "
                 f"{self.duration_s:g} s against {self.limit_a:.3g} A ({self.limit_at}); {self.reason}")
 
 
@@ -135,20 +138,38 @@ def judge_reverse(record, spec: PartSpec | None = None, points=None, meta=None) 
             limit_at += f" (tighter than the {spec_limit:.3g} A of the {spec_words})"
         elif spec is not None:
             limit_at += "; the spec gives no reverse leakage"
+    big_u = reading_expanded_u_a(meta, i)
+    u = big_u or 0.0
     held = bool(record.passed) or i > plan_limit  # not passed and within the plan's limit: voltage not held
     if not held:
         outcome, reason = "fail", (f"the supply could not hold {v:g} V reversed: the element conducts in reverse")
-    elif not math.isfinite(i) or i > hi:
-        outcome, reason = "fail", f"{i:.3g} A is above the limit even at the warm end ({hi:.3g} A)"
-    elif i <= lo and not above_stated:
-        outcome, reason = "pass", f"{i:.3g} A is within the limit even at the cool end ({lo:.3g} A)"
+    elif not math.isfinite(i) or i - u > hi:
+        outcome, reason = "fail", f"{i:.3g} A − U is above the limit even at the warm end ({hi:.3g} A)"
+    elif i + u <= lo and not above_stated:
+        outcome, reason = "pass", f"{i:.3g} A + U is within the limit even at the cool end ({lo:.3g} A)"
     elif above_stated:
         outcome, reason = "conditional", "tested above the voltage the spec's limit is stated at"
     else:
-        outcome, reason = "conditional", (f"{i:.3g} A lies between the limit at the cool and warm ends of the "
+        outcome, reason = "conditional", (f"{i:.3g} A ± U overlaps the limit between the cool and warm ends of the "
                                           f"test temperature ({lo:.3g}–{hi:.3g} A)")
-    return ReverseVerdict(v, float(record.duration_s), i, float(limit), outcome, limit_at, t, u_t, source,
+    if big_u is None:
+        reason += "; the run kept no accuracy for the reverse reading: judged with U = 0"
+    return ReverseVerdict(v, float(record.duration_s), i, float(limit), big_u, outcome, limit_at, t, u_t, source,
                           plan_limit, spec_limit, REVERSE_RULE, reason)
+
+
+def reading_expanded_u_a(meta, current_a: float) -> float | None:
+    """U (k = 2) of the reverse reading from header `accuracy.reverse_current`: 2·a/√3 (GUM 4.3.7)."""
+    header = getattr(meta, "header", None) or {}
+    block = header.get("accuracy") if isinstance(header, dict) else None
+    entry = block.get("reverse_current") if isinstance(block, dict) else None
+    if not isinstance(entry, dict):
+        return None
+    try:
+        a = float(entry["reading_pct"]) / 100 * abs(current_a) + float(entry["range_pct"]) / 100 * float(entry["range_a"])
+    except (KeyError, TypeError, ValueError):
+        return None
+    return K * a / math.sqrt(3.0) if math.isfinite(a) and a >= 0 else None
 
 
 def reverse_entry(r: ReverseVerdict | None) -> dict | None:
@@ -156,6 +177,7 @@ def reverse_entry(r: ReverseVerdict | None) -> dict | None:
     if r is None:
         return None
     return {"voltage_v": r.voltage_v, "current_a": r.current_a, "limit_a": r.limit_a, "verdict": r.outcome,
+            "expanded_u_a": r.expanded_u_a,
             "duration_s": r.duration_s, "limit_at": r.limit_at, "tj_c": r.tj_c, "tj_u_c": r.tj_u_c,
             "tj_source": r.tj_source, "plan_limit_a": r.plan_limit_a, "spec_limit_a": r.spec_limit_a,
             "rule": r.rule, "reason": r.reason}

@@ -122,7 +122,8 @@ HEADER_KEYS: dict[str, str] = {
     "bench": "the bench file's content as a table",
     "plan": "the plan file's content as a table",
     "element": "{id, kind, label, lot, serial, ambient_c, note}",
-    "accuracy": '{"drop": {reading_pct, range_pct, range_v}, "current": {reading_pct, range_pct, range_a}}',
+    "accuracy": '{"drop": {reading_pct, range_pct, range_v}, "current": {reading_pct, range_pct, range_a}, '
+                '"reverse_current": {reading_pct, range_pct, range_a} (with a reverse step)}',
     "meter": "{nplc, samples, range_v}",
     "line_frequency_hz": "mains frequency the NPLC is counted in",
     "temperature": "{source, role, resource, profile, idn, attached_to, transducer, accuracy_c}: the probe on the "

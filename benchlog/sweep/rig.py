@@ -314,7 +314,28 @@ def accuracy_block(rig: Rig, plan: Plan) -> dict[str, Any]:
         if cur is not None:
             block["current"] = {"reading_pct": cur.reading_pct, "range_pct": cur.range_pct,
                                 "range_a": cur.range / w.shunt_ohm}
+    if plan.reverse is not None:
+        rev = reverse_accuracy(rig, plan)
+        if rev is not None:
+            block["reverse_current"] = rev
     return block
+
+
+def reverse_accuracy(rig: Rig, plan: Plan) -> dict[str, Any] | None:
+    """The accuracy of the reverse-current reading on the range `reverse_current_reader` picks, in A."""
+    w, limit = rig.wiring, reverse_limit_a(plan, rig.supply.profile)
+    if w.current_from == "meter" and rig.current_meter is not None:
+        p = rig.current_meter.profile
+        spec, scale = _spec_for(p, "dc_current", _fitting(p.limits.current_ranges_a, limit)), 1.0
+    elif w.current_from == "shunt" and rig.current_meter is not None:
+        p = rig.current_meter.profile
+        spec = _spec_for(p, "dc_voltage", _fitting(p.limits.voltage_ranges_v, limit * w.shunt_ohm))
+        scale = 1.0 / w.shunt_ohm
+    else:
+        spec, scale = _spec_for(rig.supply.profile, "readback_current", limit), 1.0
+    if spec is None:
+        return None
+    return {"reading_pct": spec.reading_pct, "range_pct": spec.range_pct, "range_a": spec.range * scale}
 
 
 def finite(value: float | None) -> bool:

@@ -75,23 +75,52 @@ def test_worse_of():
 
 
 def test_check_and_fit_carry_the_reverse_result():
-    # The sample run leaks 10.3 µA at 12 V; the rectifier spec allows 5 µA at 200 V, 25 °C:
-    # the forward verdict passes, the run fails (exit 1).
+    # The sample run leaks 10.3 µA at 12 V, read on the series meter's 100 mA range. U (k = 2) of
+    # that reading by hand from the header's accuracy: 2·(0.05 %·I + 0.01 %·0.1 A)/√3 (GUM 4.3.7).
+    # The rectifier spec allows 5 µA at 200 V, 25 °C, doubling every 22 K; with u(T) = 2 K the
+    # limit spans 5·2^(−4/22) … 5·2^(4/22) µA. I − U is below the warm end and I + U above the cool
+    # end: the reading cannot decide, so the run is conditional on its reverse result (exit 3),
+    # while the forward drop passes.
+    header = json.loads(SAMPLE.read_text(encoding="utf-8").split("\n", 1)[0])
+    acc = header["accuracy"]["reverse_current"]
+    # the runner recorded the sim-meter profile's dc_current entry for the 0.1 A range it read on
+    assert acc == {"reading_pct": 0.05, "range_pct": 0.01, "range_a": 0.1}
+    i = 1.03124778e-05
+    big_u = 2 * (acc["reading_pct"] / 100 * i + acc["range_pct"] / 100 * acc["range_a"]) / math.sqrt(3)
+    lo, hi = 5e-6 * 2 ** (-4 / 22), 5e-6 * 2 ** (4 / 22)
+    assert i - big_u <= hi and i + big_u > lo  # the by-hand reason for "conditional"
     code, out, _ = cli("check", SAMPLE, "--spec", RECT, "--json")
     c = json.loads(out)
     rev = c["reverse"]
     assert set(rev) >= {"voltage_v", "current_a", "limit_a", "verdict"}
-    assert rev["voltage_v"] == 12.0 and rev["current_a"] == pytest.approx(1.03124778e-05)
-    assert rev["limit_a"] == pytest.approx(5e-6) and rev["verdict"] == "fail"
-    assert c["forward_verdict"] == "pass" and c["verdict"] == "fail" and code == 1
+    assert rev["voltage_v"] == 12.0 and rev["current_a"] == pytest.approx(i)
+    assert rev["expanded_u_a"] == pytest.approx(big_u, rel=1e-12)
+    assert rev["limit_a"] == pytest.approx(5e-6) and rev["verdict"] == "conditional"
+    assert c["forward_verdict"] == "pass" and c["verdict"] == "conditional" and code == 3
     code, text, _ = cli("check", SAMPLE, "--spec", RECT)
-    assert code == 1 and text.startswith("FAIL") and "reverse FAIL" in text
+    assert code == 3 and text.startswith("CONDITIONAL") and "reverse CONDITIONAL" in text
     code, out, _ = cli("fit", SAMPLE, "--json")
     f = json.loads(out)
     assert code == 0 and f["reverse"]["limit_a"] == 1e-4 and f["reverse"]["verdict"] == "pass"
     code, out, _ = cli("check", DEMO.parents[1] / "sample_runs" / "pmos-prototype.run", "--spec",
                        DEMO / "specs" / "demo-pfet-10m.toml", "--json")
     assert json.loads(out)["reverse"] is None
+
+
+def test_reading_uncertainty_is_a_guard_band_on_the_current():
+    # ILAC-G8:09/2019 §4.2.2 with U from the header: a reading 1 µA under the limit passes only when
+    # U ≤ 1 µA. Accuracy 0 % of reading + 0.001 % of 0.1 A: a = 1 µA, U = 2/√3 µA ≈ 1.15 µA.
+    acc = SimpleNamespace(element={"ambient_c": 25.0}, header={"accuracy": {"reverse_current": {
+        "reading_pct": 0.0, "range_pct": 0.001, "range_a": 0.1}}})
+    plan_only = judge_reverse(record(99e-6, limit_a=100e-6), None, None, acc)
+    assert plan_only.expanded_u_a == pytest.approx(2e-6 / math.sqrt(3))
+    assert plan_only.outcome == "conditional"
+    assert judge_reverse(record(98e-6, limit_a=100e-6), None, None, acc).outcome == "pass"
+    assert judge_reverse(record(101e-6, limit_a=100e-6), None, None, acc).outcome == "conditional"
+    assert judge_reverse(record(102e-6, limit_a=100e-6), None, None, acc).outcome == "fail"
+    # without the header's accuracy: U = 0, and the result says so
+    bare = judge_reverse(record(99e-6, limit_a=100e-6), None, None, meta())
+    assert bare.expanded_u_a is None and bare.outcome == "pass" and "U = 0" in bare.reason
 
 
 def test_report_headline_names_the_reverse_result(tmp_path):
@@ -106,4 +135,4 @@ def test_report_headline_names_the_reverse_result(tmp_path):
             yield from blocks(s.subsections)
 
     verdict = next(b for b in blocks(doc.sections) if isinstance(b, VerdictBlock))
-    assert verdict.outcome == "fail" and "reverse FAIL" in verdict.headline
+    assert verdict.outcome == "conditional" and "reverse CONDITIONAL" in verdict.headline
