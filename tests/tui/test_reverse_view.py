@@ -30,3 +30,16 @@ async def test_results_show_the_reverse_result_and_the_overall_verdict(scripted,
         assert app.current_mode == "results"
         assert app.state.findings.check.verdict.outcome == "pass"  # forward alone
         assert "VERDICT: COND" in text and "reverse: COND" in text and "12 V" in text
+
+
+async def test_without_a_spec_the_reverse_step_is_shown_against_the_plan(scripted, runs_dir, demo_files):
+    shutil.copyfile(ROOT / "sample_runs" / "rectifier-reverse.run", runs_dir / "rectifier-reverse.run")
+    plan, _ = demo_files
+    app = BenchApp(scripted, runs_dir=runs_dir, plans=[plan], specs=[], start_view="archive")
+    async with app.run_test(size=(140, 40)) as pilot:
+        await settle(pilot, app, lambda: "D1" in screen_text(app))
+        await pilot.press("o")
+        await settle(pilot, app, lambda: app.state.findings is not None)
+        await pilot.pause(0.2)
+        text = screen_text(app)
+        assert "VERDICT: none" in text and "reverse: PASS" in text and "against the plan's" in text
