@@ -92,17 +92,17 @@ def reverse_test_temperature_c(points, meta) -> tuple[float, float, str]:
 
 
 def _spec_leakage(spec: PartSpec | None):
-    """(value, at_v, at_c, doubling_k, doubling words) of the spec's reverse leakage, or None."""
-    if spec is None:
+    """(value, at_v, at_c, doubling_k, doubling words, name) of the spec's reverse leakage, or None."""
+    if spec is None or not spec.element.blocks_reverse:
         return None
-    if spec.diode is not None and spec.diode.ir_max_a is not None:
-        d = spec.diode
-        doubling, words = (d.ir_doubling_k, "spec's ir_doubling_k") if d.ir_doubling_k else DEFAULT_IR_DOUBLING_K
-        return d.ir_max_a, d.ir_at_v, d.ir_at_c, doubling, words, "IR max"
-    if spec.mosfet is not None and spec.mosfet.idss_a is not None:
+    value, at_v, at_c, doubling = spec.part.leakage
+    if value is None:
+        return None
+    words = "spec's doubling interval"
+    if doubling is None:
         doubling, words = DEFAULT_IR_DOUBLING_K
-        return spec.mosfet.idss_a, spec.mosfet.idss_at_v, 25.0, doubling, words, "IDSS"
-    return None
+    name = "IR max" if spec.part.family == "diode" else "IDSS"
+    return value, at_v, at_c, doubling, words, name
 
 
 def judge_reverse(record, spec: PartSpec | None = None, points=None, meta=None) -> ReverseVerdict | None:

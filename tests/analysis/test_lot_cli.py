@@ -9,7 +9,7 @@ import pytest
 from scipy import stats
 
 import benchlog
-from benchlog.analysis.spec import load_spec
+from benchlog.specfiles import load_spec
 from benchlog.analysis.predict import predict
 
 from .test_verdict_cli import DEMO, PFET, RECT, cli

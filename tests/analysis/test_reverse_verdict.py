@@ -10,7 +10,7 @@ import pytest
 
 import benchlog
 from benchlog.analysis.reverse import U_ASSUMED_K, judge_reverse, worse
-from benchlog.analysis.spec import load_spec
+from benchlog.specfiles import load_spec
 from benchlog.runs.events import ReverseResult
 
 from .test_verdict_cli import DEMO, RECT, cli
