@@ -2,7 +2,7 @@
 
 Exit codes: `check` and `lot` 0 pass, 1 fail, 3 conditional; `design` 0 when a
 candidate is recommended, 1 when none meets every check; `estimate` 0. `estimate`
-and `design` exit 4 (EXIT_THERMAL) when any part or candidate runs away thermally
+and `design` exit 5 (EXIT_THERMAL; 4 is a file that could not be written) when any part or candidate runs away thermally
 or settles above its Tj max, whatever else they found. Bad input
 (file, key, argument) is 2, one line on stderr. JSON keys carry SI unit suffixes;
 a fitted value's standard uncertainty is under the same key in `std_u`.
@@ -17,7 +17,7 @@ from .output import print_json
 
 EXIT_CODES = {"pass": 0, "fail": 1, "conditional": 3}
 #: A part or candidate runs away thermally or exceeds its Tj max (estimate, design).
-EXIT_THERMAL = 4
+EXIT_THERMAL = 5
 
 
 def register(sub) -> None:

@@ -41,19 +41,19 @@ def test_lot_refuses_the_same_run_twice_and_flags_a_copy(tmp_path):
     assert any("records the same run as" in n and "copy.run" in n for n in notes)
 
 
-def test_estimate_exits_4_when_a_part_exceeds_tj_max():
+def test_estimate_exits_5_when_a_part_exceeds_tj_max():
     code, out, _ = cli("estimate", PFET, "--at", 2, "--ambient", 25, "--vin", 12)
-    assert code == 0 and "exit 4" not in out
+    assert code == 0 and "exit 5" not in out
     # The rectifier's maximum values settle above its 150 °C Tj max at 2 A, 70 °C (predict says so).
     assert predict(load_spec(RECT), 2.0, 70.0).maximum.over_tj_max
     code, out, _ = cli("estimate", PFET, RECT, "--at", 2, "--ambient", 70, "--vin", 12)
-    assert code == 4 and "exit 4" in out
+    assert code == 5 and "exit 5" in out
     code, out, _ = cli("estimate", SCHOTTKY, "--at", 2, "--ambient", 70, "--json")
     e = json.loads(out)[0]
     assert code == 0 and e["tj_c"] < 125 and e["max"]["tj_c"] < 125 and not e["max"]["over_tj_max"]
 
 
-def test_estimate_exits_4_on_thermal_runaway(tmp_path):
+def test_estimate_exits_5_on_thermal_runaway(tmp_path):
     # Rθ so large that no steady state exists: predict reports runaway, the exit says so.
     spec = tmp_path / "hot.toml"
     spec.write_text(SCHOTTKY.read_text(encoding="utf-8").replace("rth_ja_k_per_w = 50.0", "rth_ja_k_per_w = 5000.0"),
@@ -61,4 +61,4 @@ def test_estimate_exits_4_on_thermal_runaway(tmp_path):
     p = predict(load_spec(spec), 2.0, 25.0)
     assert p.typical.runaway or p.typical.over_tj_max
     code, _, _ = cli("estimate", spec, "--at", 2)
-    assert code == 4
+    assert code == 5
