@@ -31,6 +31,7 @@ from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
 
 from .predict import Prediction
+from .reverse import ReverseVerdict, worse
 from .spec import PartSpec
 
 
@@ -152,10 +153,14 @@ class Check:
     run_complete: bool = True  # the run has its end record and ended "complete"
     run_outcome: str = "complete"
     judgement: object = None  # judging.Judgement: the one judging path's result (`judging.judge`)
+    reverse: "ReverseVerdict | None" = None  # the reverse step judged at the test's temperature (`reverse`)
 
     @property
     def outcome(self) -> str:
-        return self.verdict.outcome
+        """The run's verdict: the worse of the forward verdict and the reverse result."""
+        if self.reverse is None:
+            return self.verdict.outcome
+        return worse(self.verdict.outcome, self.reverse.outcome)
 
 
 @dataclass(frozen=True)

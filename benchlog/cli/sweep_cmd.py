@@ -49,6 +49,9 @@ def register(sub) -> None:
                    help='print {"run_file", "points", "outcome", "safe_state"} as JSON')
     p.add_argument("--yes", action="store_true", help="do not ask before switching a real bench on")
     p.add_argument("--seed", type=int, default=0, help="seed of the built-in simulated bench (default 0)")
+    p.add_argument("--case-sensor", action="store_true",
+                   help="built-in simulated bench only: a thermocouple on the element's case fills temperature_c "
+                        "(a real bench names its probe in the bench file's [sensor] table)")
     p.set_defaults(handler=_sweep)
 
     d = sub.add_parser(
@@ -133,12 +136,18 @@ def _power_prompt(real_bench: bool, assume_yes: bool):
     return before_power_on
 
 
-def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool) -> tuple[Any, Any]:
+def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool,
+         case_sensor: bool = False) -> tuple[Any, Any]:
     from benchlog.runs.events import Note, Point
     from benchlog.sweep.bench_file import load_bench
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.session import run_sweep
 
+    if case_sensor and bench_path:
+        from benchlog.badinput import BadInput
+
+        raise BadInput("argument", "--case-sensor", "is given with --bench",
+                       "the bench file's [sensor] table for a real bench, or no --bench")
     plan = load_plan(plan_path)
     bench = load_bench(bench_path) if bench_path else None
     state: dict[str, Any] = {"progress": None, "runner": None}
@@ -167,7 +176,8 @@ def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, 
         if bench is None:
             from .simbench import sweep_on_builtin_bench
 
-            result = sweep_on_builtin_bench(plan, out, seed=seed, **hooks)
+            result = sweep_on_builtin_bench(plan, out, seed=seed,
+                                            sim_options={"case_sensor": True} if case_sensor else None, **hooks)
         else:
             result = run_sweep(plan, bench, out, **hooks)
     except BaseException as exc:
@@ -219,7 +229,8 @@ def _sweep(args) -> int:
     from benchlog.filecheck import check_output_dir
 
     check_output_dir(args.out, "--out")
-    plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes)
+    plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes,
+                        case_sensor=args.case_sensor)
     if args.json:
         print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome,
                     "safe_state": result.safe_state})

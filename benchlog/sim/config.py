@@ -27,7 +27,7 @@ class SimConfig:
     line_frequency_hz: float = 50.0
     latency_s: float = 0.0  # every reply waits this long (a slow instrument or network)
     host: str = "127.0.0.1"  # loopback unless another host is asked for explicitly
-    port: int = 0  # 0: an ephemeral port per instrument; P: P, P+1, P+2 [, P+3]
+    port: int = 0  # 0: an ephemeral port per instrument; P: P, P+1, P+2 [, P+3] [, next: the case sensor]
     faults: FaultPlan = field(default_factory=FaultPlan)
     element_params: Mapping[str, float | None] = field(default_factory=dict)
     meter_has_measure: bool = True  # False: the meter needs CONFigure + READ?
@@ -35,6 +35,7 @@ class SimConfig:
     shunt_ohm: float = 0.01
     lead_resistance_ohm: float = LEAD_RESISTANCE_OHM
     meter_integration_delay: bool = False  # True: READ? takes NPLC/f per sample in real time
+    case_sensor: bool = False  # one more socket: a meter whose temperature probe sits on the element's case
 
     def __post_init__(self) -> None:
         if self.element not in KINDS:
@@ -60,7 +61,8 @@ class SimConfig:
 
     @property
     def roles(self) -> tuple[str, ...]:
-        return ("supply", "load", "meter") + (("current_meter",) if self.current_meter else ())
+        return (("supply", "load", "meter") + (("current_meter",) if self.current_meter else ())
+                + (("sensor",) if self.case_sensor else ()))
 
     @property
     def is_loopback(self) -> bool:
@@ -69,7 +71,7 @@ class SimConfig:
 
 _TOP_KEYS = ("element", "seed", "ambient_c", "line_frequency_hz", "latency_s", "host", "port",
              "meter_has_measure", "current_meter", "shunt_ohm", "lead_resistance_ohm",
-             "meter_integration_delay", "element_params", "faults")
+             "meter_integration_delay", "case_sensor", "element_params", "faults")
 _FAULT_COUNTS = ("drop_after_commands", "garbage_after", "hang_after", "queue_error_after", "supply_trip_after",
                  "trickle_after", "stuck_on_after")
 
@@ -92,7 +94,7 @@ def load_sim_config(path: str | Path) -> SimConfig:
         values["host"] = root.string("host")
     if root.has("port"):
         values["port"] = root.integer("port", min=0, max=65532)
-    for key in ("meter_has_measure", "current_meter", "meter_integration_delay"):
+    for key in ("meter_has_measure", "current_meter", "meter_integration_delay", "case_sensor"):
         if root.has(key):
             values[key] = root.boolean(key)
     kind = values.get("element", SimConfig.element)
