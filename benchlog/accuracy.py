@@ -60,7 +60,7 @@ class Accuracy:
 
 
 #: The reading each entry of a run header's accuracy table describes, and the key of its range.
-RANGE_KEYS = {"drop": "range_v", "current": "range_a"}
+RANGE_KEYS = {"drop": "range_v", "current": "range_a", "reverse_current": "range_a"}
 
 
 #: What reads the current, by the bench's [wiring].current_from: the budget names each source for what it is.
@@ -79,7 +79,8 @@ SHUNT_TEMPERATURE_HALF_WIDTH_K = 10.0
 
 @dataclass(frozen=True)
 class MeasurementAccuracy:
-    """The accuracy of the two readings a sweep makes: the element drop and the current (None: not known).
+    """The accuracy of the readings a sweep makes: the element drop, the current and, with a reverse step,
+    the reverse current (None: not known).
 
     `current_from` names what reads the current (the bench's wiring); with a shunt, its
     tolerance and temperature coefficient are two more gain errors of the current
@@ -90,6 +91,8 @@ class MeasurementAccuracy:
     drop: Accuracy | None = None
     current: Accuracy | None = None
     current_from: str = ""
+    #: the reverse-current reading on the range the reverse step used (a run with a reverse step)
+    reverse_current: Accuracy | None = None
     shunt_tolerance_pct: float | None = None
     shunt_tempco_ppm_per_k: float | None = None
 
@@ -119,7 +122,8 @@ class MeasurementAccuracy:
         return terms
 
     def to_table(self) -> dict[str, Any]:
-        """The run header's `accuracy` table: {"drop": {reading_pct, range_pct, range_v}, "current": {..., range_a}}."""
+        """The run header's `accuracy` table: {"drop": {reading_pct, range_pct, range_v}, "current": {..., range_a},
+        "reverse_current": {..., range_a}} (entries not known are left out)."""
         out: dict[str, Any] = {}
         for name, range_key in RANGE_KEYS.items():
             acc = getattr(self, name)

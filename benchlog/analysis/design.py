@@ -199,6 +199,12 @@ class CandidateReview:
         return all(c.ok is not False for c in self.checks)
 
     @property
+    def thermal_fault(self) -> bool:
+        """The loop ran away (no steady state) or settled above Tj max, at nominal or worst case."""
+        ops = [op for p in (self.nominal, self.worst) for op in (p.typical, p.maximum) if op is not None]
+        return any(op.runaway or op.over_tj_max for op in ops)
+
+    @property
     def failed(self) -> tuple[DesignCheck, ...]:
         return tuple(c for c in self.checks if c.ok is False)
 

@@ -32,8 +32,10 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from .case_temperature import measured_case_temperature
 from .junction import JunctionTemperature, ambient_u, junction_temperature, sweep_heating
 from .predict import OperatingPoint, channel_model, predict
+from .reverse import judge_reverse
 
 from .spec import MosfetSpec, PartSpec, ResistorSpec
 from .uncertainty import Budget, Component, combine
@@ -265,9 +267,8 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
         tc, tc_why = vf_tempco(spec, cond.body_diode)
         grad = fit.curve.gradient(np.array([i_op]))[0]
         heating = sweep_heating(fit, lambda i, v: np.full_like(i, tc), grad, tc)
-    measured = column(data, "temperature_c")
-    if measured is not None and not np.isfinite(measured).any():
-        measured = None  # the column is there, but nothing was recorded in it
+    case = measured_case_temperature(data, meta)  # None: nothing recorded in temperature_c
+    measured = case.values_c if case is not None else None
     steady = None
     if spec.thermal.rth_ja_k_per_w is not None and fit.current_a.size:
         steady = float(np.max(np.abs(fit.current_a * fit.drop_v))) * spec.thermal.rth_ja_k_per_w
@@ -275,7 +276,9 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
     if spec.thermal.zth_t_s is not None and measured is None:
         zth_rise = _zth_rise(fit, data, meta, spec, value if channel else None, alpha if channel else tc,
                              None if channel else grad)
-    tj = junction_temperature(cond.ambient_c, u_amb, amb_why, heating, measured, steady, zth_rise)
+    tj = junction_temperature(cond.ambient_c, u_amb, amb_why, heating, measured, steady, zth_rise,
+                              sensor_u_c=case.u_c if case is not None else None,
+                              sensor_why=case.describe() if case is not None else "")
     if tj.source == "inferred":
         notes.append(f"heating inside the sweep: the fitted value stands at Tj {tj.value_c:.2f} °C, "
                      f"{tj.value_c - cond.ambient_c:.3g} K above the ambient; the limit is taken there")
@@ -446,6 +449,7 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
         typical_comparison=typical_comparison(loss, k * u_loss, heated.typical, cold.typical),
         notes=tuple(dict.fromkeys(notes)), extrapolation=j.extrapolation, run_complete=complete,
         run_outcome=run_outcome, judgement=j,
+        reverse=judge_reverse(meta.reverse, spec, frame, meta),
     )
 
 

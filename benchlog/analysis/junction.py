@@ -3,7 +3,9 @@
 A limit from a datasheet holds at one junction temperature Tj, so a measured
 R_DS(on), R or Vf can only be judged once the Tj it was measured at is stated.
 Three sources, in order of preference:
-  - `measured`: temperatures recorded with the points (a sensor on the element);
+  - `measured`: temperatures recorded with the points (the bench's [sensor], a probe on the
+    element's case or tab; its u is the probe's stated accuracy a/√3, GUM 4.3.7, else the
+    default below, combined with the readings' spread; the case is taken as the junction);
   - `inferred` from the spec's transient thermal impedance Zth(t) and the
     recorded power: the junction rise at each point by superposing the power
     pulses, ΔT(t_k) = Σ_j P_j·(Zth(t_k − s_j) − Zth(t_k − e_j)) (the superposition
@@ -192,6 +194,9 @@ def junction_temperature(
     measured_c=None,
     steady_rise_c: float | None = None,
     zth_rise_c: float | None = None,
+    *,
+    sensor_u_c: float | None = None,
+    sensor_why: str = "",
 ) -> JunctionTemperature:
     """Choose Tj: measured temperatures when recorded, else inferred from the drop, else assumed (module docstring)."""
     if measured_c is not None:
@@ -199,10 +204,16 @@ def junction_temperature(
         t = t[np.isfinite(t)]
         if t.size:
             spread = float(t.std(ddof=1)) if t.size > 1 else 0.0
-            u = math.hypot(spread, DEFAULT_SENSOR_U_C)
+            # the probe's own stated accuracy when the header has it, else the default above
+            own = sensor_u_c if sensor_u_c is not None and math.isfinite(sensor_u_c) else None
+            sensor = own if own is not None else DEFAULT_SENSOR_U_C
+            u = math.hypot(spread, sensor)
+            by = f" by the {sensor_why}" if sensor_why else ""
+            stated = "its stated accuracy" if own is not None else "the default for an unstated probe"
             return JunctionTemperature(float(t.mean()), u, "measured",
-                                       f"mean of {t.size} recorded temperature(s), spread {spread:.2g} K "
-                                       f"and the sensor's {DEFAULT_SENSOR_U_C:g} K")
+                                       f"mean of {t.size} recorded temperature(s){by}, spread {spread:.2g} K "
+                                       f"and the sensor's {sensor:.2g} K ({stated}); the case is taken as "
+                                       f"the junction (no junction-to-case rise added)")
     if zth_rise_c is not None:
         u_rise = ZTH_RELATIVE_U * abs(zth_rise_c)
         u = math.hypot(ambient_u_c, u_rise)

@@ -2,16 +2,19 @@
 
 Statistics, all vectorised so a lot of 10,000 parts is summarised in milliseconds:
 - mean, sample standard deviation σ (ddof = 1), min, max;
-- process capability (ISO 22514-2; AIAG SPC manual): Cpk = min(USL − μ, μ − LSL)/(3σ)
-  with both limits, Cpu = (USL − μ)/(3σ) for a one-sided maximum, Cpl = (μ − LSL)/(3σ);
+- process capability Cpk, Cpu or Cpl with its 95 % lower confidence bound (`capability`:
+  ISO 22514-2 for the index, Bissell 1990 for the bound);
 - outliers by Rosner's generalized ESD test (Technometrics 25, 1983; NIST/SEMATECH
   e-Handbook §1.3.5.17.3) at α = 0.05, critical values from Student's t
-  (`student_t.t_quantile`, as scipy.stats.t.ppf). Outliers are reported, never dropped: the
-  statistics use every part;
+  (`student_t.t_quantile`, as scipy.stats.t.ppf). The test needs an upper bound r on the number of outliers and can
+  miss a cluster larger than r (masking), so r is ⌊(n − 1)/2⌋ by default: outliers are
+  a minority by definition, so no cluster of outliers can exceed it. Outliers are
+  reported, never dropped: the statistics use every part;
 - per-part verdicts by the ILAC-G8 guard band (`verdict.decide_many`).
-Lot verdict: pass when every part passes and the capability index is at least 1.33
-(the usual minimum for a capable process, common practice, e.g. AIAG PPAP); fail when
-any part fails; otherwise conditional.
+Lot verdict: pass when every part passes and the capability is demonstrated: the lower
+confidence bound of the index is at least 1.33 (the usual minimum for a capable
+process, common practice, e.g. AIAG PPAP); fail when any part fails; otherwise
+conditional.
 """
 
 from __future__ import annotations
@@ -25,35 +28,33 @@ import numpy as np
 
 from benchlog.badinput import BadInput
 
+from .capability import CAPABILITY_CONFIDENCE, CAPABILITY_MIN, capability_index, capability_with_bound
 from .spec import PartSpec
 from .fits import fit_points  # noqa: F401 - the lot's fit of one run's arrays
 from .student_t import t_quantile
 from .verdict import RunConditions, decide_many, median_of, rule_text, run_conditions
 
-CAPABILITY_MIN = 1.33
 ESD_ALPHA = 0.05
 
 
 def outlier_rule_text(max_outliers: int) -> str:
-    return (f"generalized ESD (Rosner 1983), α = {ESD_ALPHA:g}, up to {max_outliers} outlier(s); "
-            "flagged, not removed")
+    return (f"generalized ESD (Rosner 1983), α = {ESD_ALPHA:g}, up to {max_outliers} outlier(s) "
+            "(r = ⌊(n − 1)/2⌋, so a cluster cannot mask itself); flagged, not removed")
 
 
-LOT_RULE = (f"lot passes when every part passes and the capability index ≥ {CAPABILITY_MIN:g}; "
-            "fails when any part fails; otherwise conditional")
+LOT_RULE = (f"lot passes when every part passes and the capability index's {CAPABILITY_CONFIDENCE:.0%} lower "
+            f"confidence bound ≥ {CAPABILITY_MIN:g} (capability demonstrated); fails when any part fails; "
+            "otherwise conditional")
 
 
 def capability(mean: float, sigma: float, usl: float | None = None, lsl: float | None = None) -> tuple[str, float | None]:
-    """(name, value) of the capability index for the limits given: Cpk, Cpu or Cpl (module docstring)."""
-    if usl is None and lsl is None:
-        return "none", None
-    if not (sigma > 0 and math.isfinite(sigma)):
-        return ("Cpk" if usl is not None and lsl is not None else "Cpu" if usl is not None else "Cpl"), None
-    cpu = (usl - mean) / (3 * sigma) if usl is not None else None
-    cpl = (mean - lsl) / (3 * sigma) if lsl is not None else None
-    if cpu is not None and cpl is not None:
-        return "Cpk", min(cpu, cpl)
-    return ("Cpu", cpu) if cpu is not None else ("Cpl", cpl)
+    """(name, value) of the capability index for the limits given (see `capability.capability_index`)."""
+    return capability_index(mean, sigma, usl, lsl)
+
+
+def esd_bound(n: int) -> int:
+    """The default upper bound r of the generalized ESD test: ⌊(n − 1)/2⌋ (module docstring)."""
+    return max(0, (n - 1) // 2)
 
 
 def generalized_esd(values: np.ndarray, max_outliers: int | None = None, alpha: float = ESD_ALPHA) -> tuple[np.ndarray, int]:
@@ -65,38 +66,39 @@ def generalized_esd(values: np.ndarray, max_outliers: int | None = None, alpha: 
     """
     x = np.asarray(values, dtype=float)
     n = x.size
-    if n:
-        x = x - median_of(x)  # centred, so the running sums below lose no digits
     if max_outliers is None:
-        max_outliers = max(1, min(n // 10, 100))
+        max_outliers = esd_bound(n)
     r = min(max_outliers, n - 2)
     mask = np.zeros(n, dtype=bool)
     if r < 1:
         return mask, max(r, 0)
-    # Removing the most extreme value each time keeps running sums, so each step is O(n)
-    # for the arg-max only.
-    alive = np.ones(n, dtype=bool)
-    s1, s2 = x.sum(), (x * x).sum()
-    order = np.empty(r, dtype=int)
+    # The value farthest from the mean of what remains is always the smallest or the largest
+    # remaining one, so one sort and two cursors find each step's candidate in O(1).
+    order = np.argsort(x, kind="stable")
+    xs = x[order] - median_of(x)  # centred, so the running sums below lose no digits
+    i_all = np.arange(1, r + 1)
+    p = 1.0 - alpha / (2.0 * (n - i_all + 1))
+    t = np.array([t_quantile(float(n - i - 1), float(q)) for i, q in zip(i_all, p)])  # scipy.stats.t.ppf
+    lam = (n - i_all) * t / np.sqrt((n - i_all - 1 + t * t) * (n - i_all + 1))
+    s1, s2 = float(xs.sum()), float((xs * xs).sum())
+    lo, hi = 0, n - 1
+    removed = np.empty(r, dtype=int)
     found = 0
     for i in range(1, r + 1):
         m = n - i + 1  # values still in
         mean = s1 / m
-        var = (s2 - m * mean * mean) / (m - 1)
-        sd = math.sqrt(max(var, 0.0))
-        dev = np.where(alive, np.abs(x - mean), -1.0)
-        j = int(np.argmax(dev))
-        big_r = dev[j] / sd if sd > 0 else 0.0
-        p = 1.0 - alpha / (2.0 * (n - i + 1))
-        t = t_quantile(n - i - 1, p)
-        lam = (n - i) * t / math.sqrt((n - i - 1 + t * t) * (n - i + 1))
-        if big_r > lam:
+        sd = math.sqrt(max((s2 - m * mean * mean) / (m - 1), 0.0))
+        d_lo, d_hi = abs(xs[lo] - mean), abs(xs[hi] - mean)
+        if d_hi >= d_lo:
+            j, dev, hi = hi, d_hi, hi - 1
+        else:
+            j, dev, lo = lo, d_lo, lo + 1
+        if sd > 0 and dev / sd > lam[i - 1]:
             found = i
-        order[i - 1] = j
-        alive[j] = False
-        s1 -= x[j]
-        s2 -= x[j] * x[j]
-    mask[order[:found]] = True
+        removed[i - 1] = order[j]
+        s1 -= xs[j]
+        s2 -= xs[j] * xs[j]
+    mask[removed[:found]] = True
     return mask, r
 
 
@@ -125,6 +127,9 @@ class LotSummary:
     limit_source: str
     capability_name: str  # "Cpk" | "Cpu" | "Cpl" | "none"
     capability: float | None
+    capability_lower: float | None  # one-sided lower confidence bound (capability.lower_bound)
+    capability_confidence: float
+    capability_method: str
     outlier_rule: str
     outliers: int
     counts: dict[str, int]
@@ -165,7 +170,8 @@ def summarize(
     n = x.size
     mean = float(x.mean())
     sd = float(x.std(ddof=1)) if n >= 2 else None
-    name, cap = capability(mean, sd if sd is not None else math.nan, usl, lsl)
+    capable = capability_with_bound(mean, sd if sd is not None else math.nan, n, usl, lsl)
+    name, cap = capable.name, capable.value
     big_u = k * u if expanded_u is None else np.asarray(expanded_u, dtype=float)
     outcome = np.full(n, "pass", dtype=object)
     for limit, side in ((usl, "upper"), (lsl, "lower")):
@@ -183,12 +189,14 @@ def summarize(
         lot = "conditional"
     elif counts["fail"]:
         lot = "fail"
-    elif counts["conditional"] or cap is None or cap < CAPABILITY_MIN:
+    elif counts["conditional"] or not capable.demonstrated:
         lot = "conditional"
     else:
         lot = "pass"
     if n < 2:
         more.append("one part only: no spread, no capability")
+    elif cap is not None and capable.lower is not None and not capable.demonstrated:
+        more.append(capable.text())
     serials = list(serials) if serials is not None else [str(i + 1) for i in range(n)]
     runs = list(runs) if runs is not None else [""] * n
     parts = tuple(
@@ -199,6 +207,7 @@ def summarize(
     return LotSummary(
         part=part, quantity=quantity, n=n, mean=mean, std=sd, min=float(x.min()), max=float(x.max()),
         usl=usl, lsl=lsl, limit_source=limit_source, capability_name=name, capability=cap,
+        capability_lower=capable.lower, capability_confidence=capable.confidence, capability_method=capable.method,
         outlier_rule=outlier_rule_text(r), outliers=int(outliers.sum()), counts=counts, outcome=lot,
         rule=LOT_RULE, part_rule=rule_text(side, k), parts=parts, notes=tuple(more),
     )
@@ -223,6 +232,7 @@ class PartFit:
     run: str
     conditions: RunConditions
     judgement: object  # judging.Judgement: the part's verdict at its own Tj and gate drive
+    started_utc: str = ""  # with the serial, what tells one recording from another
 
 
 def lot_model(spec: PartSpec, body_diode: bool = False) -> str:
@@ -247,7 +257,27 @@ def fit_part(points, meta, run: str, spec: PartSpec, at_a: float | None, model: 
     fit = fit_points(points, meta, model)
     j = judge(fit, points, meta, spec, cond)
     serial = meta.header.serial or meta.header.element.id or PurePath(run).stem
-    return PartFit(float(j.value), float(j.std_u), float(fit.k), serial, run, cond, j)
+    return PartFit(float(j.value), float(j.std_u), float(fit.k), serial, run, cond, j, meta.header.started_utc)
+
+
+def same_recordings(parts: Sequence[PartFit]) -> list[str]:
+    """Files that record the same run (same serial and start time, e.g. a copy under another name).
+
+    Flagged in the lot's notes rather than refused: the files differ, and only the operator
+    knows whether a part was measured twice on purpose. (The same file given twice is refused
+    where the files are read, `report.lot_runs`.)
+    """
+    seen: dict[tuple[str, str], str] = {}
+    out: list[str] = []
+    for p in parts:
+        if not p.started_utc:
+            continue
+        key = (p.serial, p.started_utc)
+        if key in seen:
+            out.append(f"{p.run} records the same run as {seen[key]} (serial {p.serial}, started {p.started_utc})")
+        else:
+            seen[key] = p.run
+    return out
 
 
 def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
@@ -266,6 +296,7 @@ def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
     cond = parts[0].conditions
     quantity = lot_quantity(spec, cond.body_diode)
     model = lot_model(spec, cond.body_diode)
+    twice = same_recordings(parts)
     ambients = [p.conditions.ambient_c for p in parts]
     judged = [p.judgement for p in parts]
     highs = [j.limit for j in judged if j.limit is not None]
@@ -298,6 +329,9 @@ def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
     else:
         notes.append(f"each part's Vf at {cond.current_a:.4g} A from its diode-law fit, as the spec is {kind}; "
                      "not the automatic model choice of benchlog fit")
+    if twice:
+        more = f" (and {len(twice) - 3} more)" if len(twice) > 3 else ""
+        notes.append(f"the same recording given twice counts twice in the statistics: {'; '.join(twice[:3])}{more}")
     if max(ambients) - min(ambients) > 5.0:
         notes.append(f"ambients of the runs span {min(ambients):g}–{max(ambients):g} °C; "
                      "the limit is at their median")

@@ -31,6 +31,9 @@ from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
 
 from .predict import Prediction
+from .reverse import ReverseVerdict, worse
+
+from .spec import PartSpec
 
 
 def median_of(values) -> float:
@@ -41,7 +44,6 @@ def median_of(values) -> float:
     if n == 0:
         return math.nan
     return float((s[(n - 1) // 2] + s[n // 2]) / 2.0)
-from .spec import PartSpec
 
 
 OUTCOMES = ("pass", "fail", "conditional")
@@ -162,10 +164,14 @@ class Check:
     run_complete: bool = True  # the run has its end record and ended "complete"
     run_outcome: str = "complete"
     judgement: object = None  # judging.Judgement: the one judging path's result (`judging.judge`)
+    reverse: "ReverseVerdict | None" = None  # the reverse step judged at the test's temperature (`reverse`)
 
     @property
     def outcome(self) -> str:
-        return self.verdict.outcome
+        """The run's verdict: the worse of the forward verdict and the reverse result."""
+        if self.reverse is None:
+            return self.verdict.outcome
+        return worse(self.verdict.outcome, self.reverse.outcome)
 
 
 @dataclass(frozen=True)

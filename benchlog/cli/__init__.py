@@ -31,6 +31,7 @@ EXIT_FAILED = 1
 EXIT_BAD_INPUT = 2
 EXIT_CONDITIONAL = 3
 EXIT_CANNOT_WRITE = 4
+EXIT_THERMAL = 5  # estimate / design: a part runs away thermally or exceeds its Tj max
 EXIT_IN_USE = 75
 EXIT_INTERRUPTED = 130
 

@@ -1,7 +1,9 @@
 """Subcommands `estimate`, `check`, `lot` and `design`: predictions from specs, verdicts on runs, lots, design reviews.
 
 Exit codes: `check` and `lot` 0 pass, 1 fail, 3 conditional; `design` 0 when a
-candidate is recommended, 1 when none meets every check; `estimate` 0. Bad input
+candidate is recommended, 1 when none meets every check; `estimate` 0. `estimate`
+and `design` exit 5 (EXIT_THERMAL; 4 is a file that could not be written) when any part or candidate runs away thermally
+or settles above its Tj max, whatever else they found. Bad input
 (file, key, argument) is 2, one line on stderr. JSON keys carry SI unit suffixes;
 a fitted value's standard uncertainty is under the same key in `std_u`.
 """
@@ -16,6 +18,8 @@ from benchlog.ambient import DEFAULT_AMBIENT_C
 from .output import print_json
 
 EXIT_CODES = {"pass": 0, "fail": 1, "conditional": 3}
+#: A part or candidate runs away thermally or exceeds its Tj max (estimate, design).
+EXIT_THERMAL = 5
 
 
 def register(sub) -> None:
@@ -108,9 +112,11 @@ def _estimate(args) -> int:
     for path in args.specs:
         spec = load_spec(path)
         rows.append((spec, predict(spec, args.at, args.ambient, vin_v=args.vin, zener_v=args.zener)))
+    hot = any(op is not None and (op.runaway or op.over_tj_max) for _, p in rows for op in (p.typical, p.maximum))
+    code = EXIT_THERMAL if hot else 0
     if args.json:
         print_json([estimate_entry(s, p) for s, p in rows])
-        return 0
+        return code
     for spec, p in rows:
         print(f"{p.part} ({p.kind}) at {p.current_a:g} A, ambient {p.ambient_c:g} °C"
               + (f", Vin {p.vin_v:g} V" if p.vin_v is not None else ""))
@@ -124,7 +130,9 @@ def _estimate(args) -> int:
                 print(f"  ! {op.message}")
         for note in p.notes:
             print(f"  note: {note}")
-    return 0
+    if hot:
+        print(f"exit {EXIT_THERMAL}: a part runs away thermally or exceeds its Tj max at this operating point")
+    return code
 
 
 # --------------------------------------------------------------------------- check
@@ -161,12 +169,15 @@ def conditions_entry(j) -> dict[str, Any]:
 
 
 def check_entry(c) -> dict[str, Any]:
+    from benchlog.analysis.reverse import reverse_entry
+
     p, cold = c.predicted, c.unheated
     j = c.judgement
     return {
         "verdict": c.outcome,
+        "forward_verdict": c.verdict.outcome,
         **(conditions_entry(j) if j is not None else {}),
-        "reverse": None,
+        "reverse": reverse_entry(c.reverse),
         "part": c.part, "run": c.run, "current_a": c.current_a, "current_source": c.current_source,
         "ambient_c": c.ambient_c, "model": c.model,
         "measured_drop_v": c.measured_drop_v, "measured_loss_w": c.measured_loss_w,
@@ -224,6 +235,9 @@ def _check(args) -> int:
               f"at Tj {_fmt(c.predicted.tj_c, '.1f', '°C')}")
         print(f"  {c.typical_comparison}")
         print(f"  rule: {c.verdict.rule}")
+        if c.reverse is not None:
+            print(f"  {c.reverse.text()}")
+            print(f"  verdict: the worse of forward ({c.verdict.outcome}) and reverse ({c.reverse.outcome})")
         for note in c.notes:
             if note not in flagged:
                 print(f"  note: {note}")
@@ -243,6 +257,9 @@ def lot_entry(s) -> dict[str, Any]:
         f"mean_{u}": s.mean, f"std_{u}": s.std, f"min_{u}": s.min, f"max_{u}": s.max,
         f"usl_{u}": s.usl, f"lsl_{u}": s.lsl, "limit_source": s.limit_source,
         "capability_name": s.capability_name, "capability": s.capability,
+        **({f"{s.capability_name.lower()}_lower": s.capability_lower} if s.capability_name != "none" else {}),
+        "capability_lower": s.capability_lower, "capability_confidence": s.capability_confidence,
+        "capability_method": s.capability_method,
         "outliers": s.outliers, "outlier_rule": s.outlier_rule, "counts": s.counts,
         "rule": s.rule, "part_rule": s.part_rule,
         "parts": [{"serial": p.serial, "run": p.run, q: p.value, "std_u": {q: p.std_u},
@@ -270,7 +287,9 @@ def _lot(args) -> int:
         print(f"  {p.serial:<{width}}  {p.value:>12.6g}  {p.expanded_u:>10.2g}  {p.outcome}{flag}")
     print(f"  mean {s.mean:.6g} {unit}, σ {_fmt(s.std, '.3g', unit)}, min {s.min:.6g}, max {s.max:.6g}")
     print(f"  limits: USL {_fmt(s.usl, '.6g', unit)}, LSL {_fmt(s.lsl, '.6g', unit)} ({s.limit_source})")
-    print(f"  {s.capability_name} = {_fmt(s.capability, '.3g')}; outliers: {s.outliers} ({s.outlier_rule})")
+    print(f"  {s.capability_name} = {_fmt(s.capability, '.3g')}, {s.capability_confidence:.0%} lower bound "
+          f"{_fmt(s.capability_lower, '.3g')} ({s.capability_method})")
+    print(f"  outliers: {s.outliers} ({s.outlier_rule})")
     print(f"  counts: {s.counts['pass']} pass, {s.counts['fail']} fail, {s.counts['conditional']} conditional")
     print(f"  rule: {s.rule}; per part: {s.part_rule}")
     for note in s.notes:
@@ -303,7 +322,7 @@ def design_entry(r) -> dict[str, Any]:
              "blocking_headroom_v": c.blocking_headroom_v, "vgs_unclamped_v": c.vgs_unclamped_v,
              "vgs_clamped_v": c.vgs_clamped_v, "vgs_max_v": c.vgs_max_v,
              "threshold_margin_v": c.threshold_margin_v, "min_input_conduction": c.min_input_conduction,
-             "leakage_a": c.leakage_a, "reverse_tj_c": c.reverse_tj_c,
+             "leakage_a": c.leakage_a, "reverse_tj_c": c.reverse_tj_c, "thermal_fault": c.thermal_fault,
              "checks": [{"name": k.name, "ok": k.ok, "detail": k.detail} for k in c.checks]}
             for c in r.candidates
         ],
@@ -314,9 +333,11 @@ def _design(args) -> int:
     from benchlog.specfiles import review_file
 
     r = review_file(args.design)
+    hot = [c.label for c in r.candidates if c.thermal_fault]
+    code = EXIT_THERMAL if hot else 0 if r.recommended else 1
     if args.json:
         print_json(design_entry(r))
-        return 0 if r.recommended else 1
+        return code
     d = r.design
     print(f"{d.name} ({d.application}): input {d.vin_min_v:g}–{d.vin_nominal_v:g}–{d.vin_max_v:g} V"
           + (f", reverse {d.reverse_v:g} V" if d.reverse_v else "")
@@ -355,4 +376,6 @@ def _design(args) -> int:
     print(f"  {r.margins_note}")
     for m in r.reminders:
         print(f"  caution: {m}")
-    return 0 if r.recommended else 1
+    if hot:
+        print(f"  exit {EXIT_THERMAL}: {', '.join(hot)} run(s) away thermally or exceed Tj max")
+    return code

@@ -58,6 +58,7 @@ def _check_args(args: argparse.Namespace) -> None:
 def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
     """Fit the run and build the JSON-ready result (also what the human output prints from)."""
     from benchlog.analysis.fits import detect_self_heating, fit_knee, fit_run
+    from benchlog.analysis.reverse import judge_reverse, reverse_entry
 
     fit = fit_run(frame, meta, args.model, exclude_outliers=args.exclude_outliers)
     heating = detect_self_heating(frame, fit, args.tempco)
@@ -95,6 +96,8 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         "tj_source": fit.tj.source if fit.tj is not None else None,
         "notes": list(fit.notes),
         "drop_at": [],
+        # without a spec the reverse step is judged against the plan's own limit
+        "reverse": reverse_entry(judge_reverse(meta.reverse, None, frame, meta)),
     }
     for current in args.at:
         budget = fit.drop_budget_at(current)
@@ -153,6 +156,11 @@ def print_human(payload: dict[str, Any]) -> None:
         print(f"  knee line above {knee['above_a']:.4g} A:")
         for key in _in_print_order(knee["params"], ("v_knee_v", "r_d_ohm")):
             print("    " + _value(key, knee["params"][key], knee["std_u"][key], knee["expanded_u"][key]))
+    rev = payload.get("reverse")
+    if rev is not None:
+        u = f" ± {rev['expanded_u_a']:.2g}" if rev.get("expanded_u_a") else ""
+        print(f"  reverse {rev['verdict'].upper()}: {rev['current_a']:.3g}{u} A at {rev['voltage_v']:g} V reversed "
+              f"for {rev['duration_s']:g} s against {rev['limit_a']:.3g} A ({rev['limit_at']}); {rev['reason']}")
     for note in payload["notes"]:
         print(f"  note: {note}")
 

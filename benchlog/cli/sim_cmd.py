@@ -39,6 +39,8 @@ def register(sub) -> None:
     p.add_argument("--latency-s", type=float, default=None, metavar="S", help="delay of every reply")
     p.add_argument("--current-meter", action="store_true", default=None,
                    help="serve a 4th socket: a meter in series with the element")
+    p.add_argument("--case-sensor", action="store_true", default=None,
+                   help="serve one more socket: a meter whose temperature probe sits on the element's case")
     p.add_argument("--no-measure", action="store_true", default=None,
                    help="the meter has no MEASure subsystem (CONFigure + READ? only)")
     p.add_argument("--timing", choices=("real", "instant"), default=None,
@@ -89,7 +91,7 @@ def _config(args: argparse.Namespace):
             raise BadInput("argument", "", str(exc), "fault settings the simulated bench accepts") from None
     changes = {
         "element": args.element, "port": args.port, "host": args.host, "seed": args.seed,
-        "latency_s": args.latency_s, "current_meter": args.current_meter,
+        "latency_s": args.latency_s, "current_meter": args.current_meter, "case_sensor": args.case_sensor,
         "meter_has_measure": False if args.no_measure else None, "faults": faults, "timing": args.timing,
     }
     if args.element is not None and args.element != base.element and base.element_params:

@@ -13,14 +13,17 @@ from pathlib import Path
 from typing import Any
 
 from benchlog.kinds import kind as element_kind
-from benchlog.sweep.bench_file import BenchSetup, RoleSpec, Wiring
+from benchlog.sweep.bench_file import BenchSetup, RoleSpec, SensorSpec, Wiring
 from benchlog.sweep.plan import Element, Plan
 from benchlog.sweep.session import SweepResult, run_sweep
 
 #: Input voltage of the load wiring: a typical 12 V rail fully enhances a MOSFET whose gate is tied to the supply.
 SIM_INPUT_V = 12.0
 
-SIM_PROFILES = {"supply": "sim-supply", "load": "sim-load", "meter": "sim-meter", "current_meter": "sim-meter"}
+SIM_PROFILES = {"supply": "sim-supply", "load": "sim-load", "meter": "sim-meter", "current_meter": "sim-meter",
+                "sensor": "sim-case-meter"}
+#: The simulated case probe: a thermocouple on the case; ±(its fixed error + 3σ noise) rounded up (sim/specs.py).
+SIM_SENSOR = SensorSpec(attached_to="case", transducer="thermocouple", accuracy_c=0.6)
 
 
 def sim_wiring(element: Element | str, current_from: str = "supply", shunt_ohm: float | None = None) -> Wiring:
@@ -43,7 +46,7 @@ def builtin_bench(
     """Start the simulated bench for `element` (an Element or a kind); returns (BenchSetup, RunningBench).
 
     `sim_options` go to `SimConfig` (latency_s, faults, element_params,
-    current_meter, shunt_ohm, ambient_c, ...). The caller stops the bench.
+    current_meter, shunt_ohm, ambient_c, case_sensor, ...). The caller stops the bench.
     """
     from benchlog.sim.config import SimConfig
     from benchlog.sim.server import serve_bench
@@ -69,6 +72,7 @@ def builtin_bench(
             line_frequency_hz=config.line_frequency_hz,
             source="built-in simulated bench",
             simulated=True,
+            sensor=SIM_SENSOR if "sensor" in roles else None,
         )
     except BaseException:
         running.stop()

@@ -50,6 +50,9 @@ def register(sub) -> None:
     p.add_argument("--yes", action="store_true", help="do not ask before switching a real bench on")
     p.add_argument("--seed", type=int, default=0, help="seed of the built-in simulated bench (default 0)")
     _timing_argument(p)
+    p.add_argument("--case-sensor", action="store_true",
+                   help="built-in simulated bench only: a thermocouple on the element's case fills temperature_c "
+                        "(a real bench names its probe in the bench file's [sensor] table)")
     p.set_defaults(handler=_sweep)
 
     d = sub.add_parser(
@@ -147,7 +150,7 @@ def _power_prompt(real_bench: bool, assume_yes: bool):
 
 
 def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool,
-         sim_timing: str | None = None) -> tuple[Any, Any]:
+         sim_timing: str | None = None, case_sensor: bool = False) -> tuple[Any, Any]:
     from benchlog.runs.events import Note, Point
     from benchlog.sweep.bench_file import load_bench
     from benchlog.sweep.plan import load_plan
@@ -156,9 +159,15 @@ def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, 
     if bench_path and sim_timing is not None:
         raise BadInput("argument", "--sim-timing", "was given with --bench",
                        "--sim-timing only for the built-in simulated bench (no --bench)")
+    if case_sensor and bench_path:
+        raise BadInput("argument", "--case-sensor", "is given with --bench",
+                       "the bench file's [sensor] table for a real bench, or no --bench")
     plan = load_plan(plan_path)
     bench = load_bench(bench_path) if bench_path else None
-    sim_options = {"timing": sim_timing} if sim_timing is not None else None
+    sim_options = {"timing": sim_timing} if sim_timing is not None else {}
+    if case_sensor:
+        sim_options["case_sensor"] = True
+    sim_options = sim_options or None
     state: dict[str, Any] = {"progress": None, "runner": None}
 
     def on_runner(runner) -> None:
@@ -238,7 +247,7 @@ def _sweep(args) -> int:
 
     check_output_dir(args.out, "--out")
     plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes,
-                        sim_timing=args.sim_timing)
+                        sim_timing=args.sim_timing, case_sensor=args.case_sensor)
     if args.json:
         print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome,
                     "safe_state": result.safe_state})

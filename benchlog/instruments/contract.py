@@ -21,7 +21,7 @@ from benchlog.scpi.replies import Idn
 
 from .profile import Profile
 
-__all__ = ["BenchRole", "Idn", "LoadRole", "MeterRole", "SUPPLY_MODES", "SupplyRole"]
+__all__ = ["BenchRole", "Idn", "LoadRole", "MeterRole", "SUPPLY_MODES", "SupplyRole", "TemperatureProbeRole"]
 
 #: What `SupplyRole.mode()` may answer (CV/CC as read back; OFF; UNKNOWN when the profile cannot tell).
 SUPPLY_MODES = ("CV", "CC", "OFF", "UNKNOWN")
@@ -120,4 +120,17 @@ class MeterRole(BenchRole, Protocol):
 
     def read(self) -> tuple[float | None, ...]:
         """`samples` readings of the configured function; None marks an overload."""
+        ...
+
+
+@runtime_checkable
+class TemperatureProbeRole(BenchRole, Protocol):
+    """A meter whose temperature input has a probe on the element (the bench's [sensor])."""
+
+    def configure_temperature(self) -> None:
+        """Select the temperature function (a profile without the command keeps its own)."""
+        ...
+
+    def measure_temperature(self) -> float | None:
+        """One reading in °C; None marks an overload; nonsense is `NonsenseReply`."""
         ...

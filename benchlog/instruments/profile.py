@@ -97,6 +97,10 @@ OPERATIONS: Mapping[str, Mapping[str, tuple[Operation, bool]]] = MappingProxyTyp
                 "read": (_op(True), True),
                 "measure_voltage": (_op(True, (), ("range_v",)), False),
                 "measure_current": (_op(True, (), ("range_a",)), False),
+                # the temperature function (thermocouple, RTD or thermistor input), for a meter
+                # whose probe sits on the element: SCPI-99 CONFigure:TEMPerature / MEASure:TEMPerature?
+                "configure_temperature": (_op(False), False),
+                "measure_temperature": (_op(True), False),
                 "error_query": (_op(True), False),
                 "sync": (_op(True), False),
             }
@@ -518,6 +522,7 @@ def _example(op_name: str) -> str:
         "over_voltage_protection": "VOLT:PROT {voltage_v}",
         "over_current_protection": "CURR:PROT {current_a}",
         "output_timer": "OUTP:PROT:TIM {duration_s}",
+        "measure_temperature": "MEAS:TEMP?",
     }.get(op_name, "")
 
 

@@ -663,6 +663,27 @@ class Meter(Role):
             values[key] = self._check_range(value, ranges, key, unit)
         return self._number(self._command(operation, **values), self.read_timeout_s())
 
+    @property
+    def can_measure_temperature(self) -> bool:
+        return self.profile.has("measure_temperature")
+
+    def configure_temperature(self) -> None:
+        """Select the temperature function, when the profile needs a command for it."""
+        if self.profile.has("configure_temperature"):
+            command = self._command("configure_temperature")
+            self._write(command)
+            self.check_errors(after=command)
+        self.function, self.range = "temperature", None
+
+    def measure_temperature(self) -> float | None:
+        """One temperature reading in °C from the probe on this meter's temperature input (None: overload)."""
+        command = self._command("measure_temperature")
+        value = self._number(command, self.read_timeout_s())
+        if value is not None and not -273.15 <= value <= 3000.0:
+            raise NonsenseReply(command, repr(value), "a temperature in °C between -273.15 and 3000",
+                                resource=self.resource)
+        return value
+
     def accuracy(self, function: str, range_: float) -> Accuracy:
         return self.profile.accuracy_for(function, range_)
 

@@ -361,7 +361,7 @@ def comparison_section(runs: Sequence[RunAnalysis]) -> Section:
         if ra.fit is not None and ra.operating_current_a is not None:
             v, u = ra.fit.drop_at(ra.operating_current_a)
             drop = f"{with_uncertainty(v, ra.fit.k * u, 'V')} at {number(ra.operating_current_a, 'A')}"
-        outcome = getattr(getattr(ra.check, "verdict", None), "outcome", None) or getattr(ra.check, "outcome", None)
+        outcome = getattr(ra.check, "outcome", None)  # the Check's: the worse of forward and reverse
         rows.append((ra.path.name, e.serial or e.id or "—", e.kind or "—",
                      "complete" if ra.meta.complete else "INCOMPLETE", str(len(ra.frame)),
                      _main_parameter(ra), drop, str(outcome or "—")))

@@ -14,6 +14,10 @@ def verdict_block(check: Check) -> VerdictBlock:
     limit = "no limit" if v.limit is None else number(v.limit, "W" if v.quantity.endswith("_w") else "V")
     headline = (f"{check.part} at {number(check.current_a, 'A')}: measured {v.quantity} {measured} "
                 f"(k = {v.k:g}) against the limit {limit}")
+    r = check.reverse
+    if r is not None:
+        headline += (f"; reverse {r.outcome.upper()}: {number(r.current_a, 'A', 3)} at {number(r.voltage_v, 'V')} "
+                     f"reversed against {number(r.limit_a, 'A', 3)}")
     details = []
     j = check.judgement
     if j is not None:
@@ -28,5 +32,8 @@ def verdict_block(check: Check) -> VerdictBlock:
         f"Operating current {number(check.current_a, 'A')} from {check.current_source}; "
         f"ambient {number(check.ambient_c, '°C')}; fit model {check.model}",
     ]
+    if r is not None:
+        details.insert(0, f"Reverse: {r.text()}. Rule: {r.rule}. The run's verdict is the worse of forward "
+                          f"({v.outcome}) and reverse ({r.outcome}).")
     details += [f"Note: {n}" for n in check.notes]
-    return VerdictBlock(v.outcome, headline, v.rule, tuple(details))
+    return VerdictBlock(check.outcome, headline, v.rule, tuple(details))

@@ -79,6 +79,17 @@ def _fit_rest(paths: Sequence, spec: PartSpec, at_a, model: str, vf_at_a, worker
     return out
 
 
+def _refuse_same_file(paths: Sequence[str | Path]) -> None:
+    """A part given twice would count twice in the mean, σ and capability: refused, not averaged in."""
+    seen: dict[Path, str] = {}
+    for p in paths:
+        key = Path(p).resolve()
+        if key in seen:
+            raise BadInput("argument", "RUN", f"{p} is the same file as {seen[key]}",
+                           "each part's run given once")
+        seen[key] = str(p)
+
+
 def lot_from_runs(paths: Sequence[str | Path], spec: PartSpec, at_a: float | None = None, *,
                   workers: int | None = None) -> LotSummary:
     """Load and fit each run, then summarise the lot (`analysis.lot.lot_summary`).
@@ -90,6 +101,7 @@ def lot_from_runs(paths: Sequence[str | Path], spec: PartSpec, at_a: float | Non
     paths = list(paths)
     if not paths:
         raise BadInput("argument", "RUN", "no run files given", "one or more run files")
+    _refuse_same_file(paths)
     first = _fit_file(paths[0], spec, at_a, None, None)
     cond = first.conditions
     model = lot_model(spec, cond.body_diode)

@@ -38,6 +38,9 @@ def summary_section(lot: str, summary: LotSummary) -> Section:
         ("min", number(summary.min, unit)), ("max", number(summary.max, unit)),
         ("upper spec limit", number(summary.usl, unit)), ("lower spec limit", number(summary.lsl, unit)),
         ("limits from", summary.limit_source), (summary.capability_name, cap),
+        (f"{summary.capability_name} {summary.capability_confidence:.0%} lower bound",
+         "—" if summary.capability_lower is None else
+         f"{summary.capability_lower:.3g} ({summary.capability_method})"),
         ("outliers", f"{summary.outliers} ({summary.outlier_rule})"),
         ("parts pass / conditional / fail",
          f"{summary.counts.get('pass', 0)} / {summary.counts.get('conditional', 0)} / {summary.counts.get('fail', 0)}"),

@@ -139,13 +139,16 @@ HEADER_KEYS: dict[str, str] = {
     "bench": "the bench file's content as a table",
     "plan": "the plan file's content as a table",
     "element": "{id, kind, label, lot, serial, ambient_c, note}",
-    "accuracy": '{"drop": {reading_pct, range_pct, range_v}, "current": {reading_pct, range_pct, range_a}}',
+    "accuracy": '{"drop": {reading_pct, range_pct, range_v}, "current": {reading_pct, range_pct, range_a}, '
+                '"reverse_current": {reading_pct, range_pct, range_a} (with a reverse step)}',
     "meter": "{nplc, samples, range_v}",
     "line_frequency_hz": "mains frequency the NPLC is counted in",
+    "temperature": "{source, role, resource, profile, idn, attached_to, transducer, accuracy_c}: the probe on the "
+                   "element that filled the points' temperature_c (absent: no probe, temperature_c empty)",
 }
 
 #: Header keys that must be JSON objects when present.
-HEADER_TABLES = ("instruments", "bench", "plan", "element", "accuracy", "meter")
+HEADER_TABLES = ("instruments", "bench", "plan", "element", "accuracy", "meter", "temperature")
 #: Header keys that must be strings when present.
 HEADER_STRINGS = ("format", "tool_version", "started_utc", "host", "run_id")
 #: Element keys that must be strings (or null) when present.

@@ -32,7 +32,8 @@ DERIVED_ID_NAMESPACE = uuid.UUID("6f1c2d4e-58a3-4b7e-9f20-3c1d8e5a7b94")
 
 #: The keys `to_table` writes from typed fields; any other key of a read header is kept in `extra`.
 TYPED_KEYS = ("record", "format", "schema", "point_columns", "tool_version", "started_utc", "run_id",
-              "host", "instruments", "bench", "plan", "element", "accuracy", "meter", "line_frequency_hz")
+              "host", "instruments", "bench", "plan", "element", "accuracy", "meter", "line_frequency_hz",
+              "temperature")
 
 _EMPTY: Table = MappingProxyType({})
 
@@ -270,6 +271,41 @@ class MeterSettings:
 
 
 @dataclass(frozen=True)
+class TemperatureRecord:
+    """The probe on the element that filled the points' temperature_c: what read it, where it sat, how good it is."""
+
+    attached_to: str = ""  # "case" | "tab" ("" when the header does not say)
+    transducer: str = ""  # "thermocouple" | "rtd" | "thermistor"
+    accuracy_c: float | None = None  # ± limit of probe and meter together, °C (None: not stated)
+    source: str = "sensor"
+    role: str = "sensor"
+    resource: str = ""
+    profile: str = ""
+    idn: str = ""
+
+    def to_table(self) -> dict[str, Any]:
+        return {"source": self.source, "role": self.role, "resource": self.resource, "profile": self.profile,
+                "idn": self.idn, "attached_to": self.attached_to, "transducer": self.transducer,
+                "accuracy_c": self.accuracy_c}
+
+    @classmethod
+    def from_table(cls, table: Any) -> TemperatureRecord:
+        table = table if isinstance(table, Mapping) else {}
+        accuracy = _number(table.get("accuracy_c"))
+        return cls(
+            attached_to=_text(table.get("attached_to")) or "", transducer=_text(table.get("transducer")) or "",
+            accuracy_c=accuracy if accuracy is not None and accuracy > 0 else None,
+            source=_text(table.get("source")) or "sensor", role=_text(table.get("role")) or "sensor",
+            resource=_text(table.get("resource")) or "", profile=_text(table.get("profile")) or "",
+            idn=_text(table.get("idn")) or "")
+
+    @property
+    def sensor(self) -> str:
+        """The probe's instrument in words: profile and resource."""
+        return " ".join(v for v in (self.profile, self.resource) if v) or "not named in the header"
+
+
+@dataclass(frozen=True)
 class RunHeader:
     """Everything needed to understand and re-analyse a run later (line 1 of the run file)."""
 
@@ -285,6 +321,8 @@ class RunHeader:
     accuracy: MeasurementAccuracy = MeasurementAccuracy()
     meter: MeterSettings | None = None
     line_frequency_hz: float | None = None
+    #: The probe on the element (bench [sensor]); None: no probe, the points' temperature_c is empty.
+    temperature: TemperatureRecord | None = None
     point_columns: tuple[str, ...] = POINT_COLUMNS
     #: Header keys this program does not know (a newer writer's), kept as read.
     extra: Table = field(default_factory=lambda: _EMPTY, compare=False)
@@ -347,6 +385,8 @@ class RunHeader:
             out["meter"] = self.meter.to_table()
         if self.line_frequency_hz is not None:
             out["line_frequency_hz"] = self.line_frequency_hz
+        if self.temperature is not None:
+            out["temperature"] = self.temperature.to_table()
         for key, value in self.extra.items():
             out.setdefault(key, thaw(value))
         return out
@@ -378,6 +418,8 @@ class RunHeader:
             accuracy=MeasurementAccuracy.from_table(obj.get("accuracy"), source),
             meter=MeterSettings.from_table(obj["meter"]) if isinstance(obj.get("meter"), Mapping) else None,
             line_frequency_hz=_number(obj.get("line_frequency_hz")),
+            temperature=TemperatureRecord.from_table(obj["temperature"])
+            if isinstance(obj.get("temperature"), Mapping) else None,
             point_columns=tuple(obj.get("point_columns") or POINT_COLUMNS),
             extra=freeze({k: v for k, v in obj.items() if k not in TYPED_KEYS}),
         )

@@ -23,7 +23,7 @@ from .meter import MeterSim
 from .supply import SupplySim
 from .thermal import step_junction_c
 
-SERIAL_PREFIX = {"supply": "S", "load": "L", "meter": "M", "current_meter": "C"}
+SERIAL_PREFIX = {"supply": "S", "load": "L", "meter": "M", "current_meter": "C", "sensor": "T"}
 
 
 class SimBench:
@@ -48,6 +48,11 @@ class SimBench:
                      has_measure=config.meter_has_measure, shunt_ohm=config.shunt_ohm)
             if config.current_meter else None
         )
+        self.sensor = (
+            MeterSim(self, "sensor", self._serial("sensor"), wiring="case",
+                     has_measure=True, shunt_ohm=config.shunt_ohm)
+            if config.case_sensor else None
+        )
 
     def _serial(self, role: str) -> str:
         return f"{SERIAL_PREFIX[role]}{self.config.seed:06d}"
@@ -60,7 +65,28 @@ class SimBench:
         found = {"supply": self.supply, "load": self.load, "meter": self.meter}
         if self.current_meter is not None:
             found["current_meter"] = self.current_meter
+        if self.sensor is not None:
+            found["sensor"] = self.sensor
         return found
+
+    @property
+    def rth_jc_k_per_w(self) -> float:
+        return specs.CASE_RTH_JC_K_PER_W.get(self.element.kind, specs.CASE_RTH_JC_DEFAULT_K_PER_W)
+
+    def case_c(self) -> float:
+        """The element's case temperature on the path junction -> case -> ambient.
+
+        The one thermal capacitance sits at the junction, so the heat leaving it is
+        q = (Tj − Ta)/RθJA, and the case sits RθJC·q below the junction:
+        Tc = Tj − (Tj − Ta)·RθJC/RθJA. In steady state q = P, so Tj − Tc = P·RθJC, the
+        definition of junction-to-case thermal resistance (JESD51 series); while heating
+        the case lies between ambient and junction, never below the ambient.
+        """
+        with self.lock:
+            self.advance()
+            ta, tj = self.config.ambient_c, self.junction_c
+            share = min(1.0, self.rth_jc_k_per_w / self.element.thermal.rth_ja_k_per_w)
+            return tj - (tj - ta) * share
 
     # -- circuit ----------------------------------------------------------------------------------
     def drive(self, at_s: float | None = None) -> Drive:
@@ -133,4 +159,7 @@ class SimBench:
         })
         if self.current_meter is not None:
             data["shunt_ohm"] = self.config.shunt_ohm
+        if self.sensor is not None:
+            data["rth_jc_k_per_w"] = self.rth_jc_k_per_w
+            data["case_sensor_offset_c"] = self.sensor.temp_offset_c
         return data

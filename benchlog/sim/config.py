@@ -28,7 +28,7 @@ class SimConfig:
     line_frequency_hz: float = 50.0
     latency_s: float = 0.0  # every reply waits this long (a slow instrument or network)
     host: str = "127.0.0.1"  # loopback unless another host is asked for explicitly
-    port: int = 0  # 0: an ephemeral port per instrument; P: P, P+1, P+2 [, P+3]
+    port: int = 0  # 0: an ephemeral port per instrument; P: P, P+1, P+2 [, P+3] [, next: the case sensor]
     faults: FaultPlan = field(default_factory=FaultPlan)
     element_params: Mapping[str, float | None] = field(default_factory=dict)
     meter_has_measure: bool = True  # False: the meter needs CONFigure + READ?
@@ -38,6 +38,7 @@ class SimConfig:
     # "real": readings take NPLC/f per sample and setpoints settle (first order); "instant": neither,
     # for tests that do not test timing (see sim/timing.py)
     timing: str = "real"
+    case_sensor: bool = False  # one more socket: a meter whose temperature probe sits on the element's case
 
     def __post_init__(self) -> None:
         if self.element not in KINDS:
@@ -65,7 +66,8 @@ class SimConfig:
 
     @property
     def roles(self) -> tuple[str, ...]:
-        return ("supply", "load", "meter") + (("current_meter",) if self.current_meter else ())
+        return (("supply", "load", "meter") + (("current_meter",) if self.current_meter else ())
+                + (("sensor",) if self.case_sensor else ()))
 
     @property
     def is_loopback(self) -> bool:
@@ -74,7 +76,7 @@ class SimConfig:
 
 _TOP_KEYS = ("element", "seed", "ambient_c", "line_frequency_hz", "latency_s", "host", "port",
              "meter_has_measure", "current_meter", "shunt_ohm", "lead_resistance_ohm",
-             "timing", "element_params", "faults")
+             "timing", "case_sensor", "element_params", "faults")
 _FAULT_COUNTS = ("drop_after_commands", "garbage_after", "hang_after", "queue_error_after", "supply_trip_after",
                  "trickle_after", "stuck_on_after")
 
@@ -99,7 +101,7 @@ def load_sim_config(path: str | Path) -> SimConfig:
         values["port"] = root.integer("port", min=0, max=65532)
     if root.has("timing"):
         values["timing"] = root.string("timing", choices=TIMINGS)
-    for key in ("meter_has_measure", "current_meter"):
+    for key in ("meter_has_measure", "current_meter", "case_sensor"):
         if root.has(key):
             values[key] = root.boolean(key)
     kind = values.get("element", SimConfig.element)

@@ -24,7 +24,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-ROLES = ("supply", "load", "meter", "current_meter")
+ROLES = ("supply", "load", "meter", "current_meter", "sensor")
 GARBAGE_REPLY = "~~#GARBLED@@REPLY#~~"
 QUEUE_ERROR = (-300, "Device-specific error; injected fault")
 

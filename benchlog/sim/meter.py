@@ -22,6 +22,12 @@ once and starts it, `FETCh?` and `*OPC?` wait until it has ended. Sample k sees
 the circuit at the middle of its own integration window, t0 + (k + ½)·t, so a
 setpoint still settling shows in the readings. The readings of an `INITiate`
 are taken from the settings as they stand when it is sent.
+
+A meter wired "case" has its temperature probe on the element's case and offers the
+temperature function (SCPI-99 style `CONFigure:TEMPerature`, `MEASure:TEMPerature?`,
+`FUNCtion "TEMP"`): the case temperature Tc = Tj − P·RθJC plus the probe's fixed
+error (uniform within ±CASE_SENSOR_OFFSET_MAX_C, drawn once from its own seeded
+stream) and Gaussian noise CASE_SENSOR_NOISE_C, in °C.
 """
 
 from __future__ import annotations
@@ -63,6 +69,11 @@ class MeterSim(ScpiDevice):
 
     def __init__(self, bench, role: str, serial: str, *, wiring: str, has_measure: bool, shunt_ohm: float) -> None:
         self.wiring = wiring
+        if wiring == "case":
+            self.model = "SIM-CASE-METER"
+            # its own streams, so adding a case sensor shifts no other instrument's draws
+            self.temp_offset_c = bench.stream(f"{role}/temperature").uniform(-1, 1) * specs.CASE_SENSOR_OFFSET_MAX_C
+            self.temp_noise = bench.stream(f"{role}/temperature-noise")
         self.has_measure = has_measure
         self.shunt_ohm = shunt_ohm
         rng = bench.stream(f"{role}/errors")
@@ -101,6 +112,10 @@ class MeterSim(ScpiDevice):
 
     def take_readings(self) -> list[float]:
         """Start a reading of `sample_count` samples now; it ends `busy_until_s` on the bench clock."""
+        if self.function == "TEMP":
+            centre = self.bench.case_c() + self.temp_offset_c
+            self.busy_until_s = self.bench.clock()  # a probe's reading: no integration modelled
+            return [centre + self.temp_noise.gauss(0.0, specs.CASE_SENSOR_NOISE_C) for _ in range(self.sample_count)]
         line = self.bench.config.line_frequency_hz
         nplc = self.nplc[self.function]
         real = self.bench.config.timing == "real"
@@ -134,7 +149,11 @@ class MeterSim(ScpiDevice):
             tree.query(f"[SENSe:]{name}[:DC]:NPLCycles?", lambda f=function: fmt(self.nplc[f]))
             if self.has_measure:
                 tree.query(f"MEASure[:SCALar]:{name}[:DC]?", self._measure(function), (0, 2))
-        tree.query("CONFigure?", lambda: f"\"{self.function} {fmt(self.range[self.function])}\"")
+        if self.wiring == "case":
+            tree.command("CONFigure[:SCALar]:TEMPerature", self._configure_temperature, (0, 2))
+            tree.query("MEASure[:SCALar]:TEMPerature?", self._measure_temperature, (0, 2))
+        tree.query("CONFigure?", lambda: "\"TEMP\"" if self.function == "TEMP"
+                   else f"\"{self.function} {fmt(self.range[self.function])}\"")
         tree.command("[SENSe:]FUNCtion[:ON]", self._set_function, 1)
         tree.query("[SENSe:]FUNCtion[:ON]?", lambda: f"\"{self.function}\"")
         tree.command("SAMPle:COUNt", self._set_count, 1)
@@ -192,8 +211,20 @@ class MeterSim(ScpiDevice):
             return self._read()
         return handler
 
+    def _configure_temperature(self, _transducer: str | None = None, _type: str | None = None) -> None:
+        # the probe is what it is: the transducer words are accepted and not checked
+        self.function = "TEMP"
+        self.readings = None
+
+    def _measure_temperature(self, _transducer: str | None = None, _type: str | None = None) -> str:
+        self._configure_temperature()
+        return self._read()
+
     def _set_function(self, text: str) -> None:
         word = text.strip().strip("\"'").upper()
+        if self.wiring == "case" and word in ("TEMP", "TEMPERATURE"):
+            self._configure_temperature()
+            return
         for function, name in (("VOLT", "VOLTage"), ("CURR", "CURRent")):
             if word in (function, name.upper(), f"{function}:DC", f"{name.upper()}:DC"):
                 self.function = function

@@ -109,3 +109,14 @@ def draw_fixed_error(rng, spec: RangeSpec) -> tuple[float, float]:
     Uniform, so that the rectangular type-B treatment of the spec (GUM 4.3.7) is honest against the sim.
     """
     return rng.uniform(-1, 1) * spec.reading_pct / 100.0, rng.uniform(-1, 1) * spec.range_pct / 100.0 * spec.range
+
+
+# -- case-temperature sensor (a meter's temperature function on the element's case) -------------
+#: Junction-to-case thermal resistance of the invented demo parts (K/W): a small fraction of
+#: RθJA, as for through-hole and power-SMD packages (order of magnitude, common practice).
+CASE_RTH_JC_K_PER_W = {"rectifier": 15.0, "schottky": 15.0, "pmos": 5.0, "nmos": 5.0, "resistor": 10.0}
+CASE_RTH_JC_DEFAULT_K_PER_W = 10.0
+#: The probe's fixed error (a thermocouple of standard tolerance and its cold junction): drawn
+#: once, uniform within ±this; the reading noise is Gaussian with this standard deviation.
+CASE_SENSOR_OFFSET_MAX_C = 0.5
+CASE_SENSOR_NOISE_C = 0.03

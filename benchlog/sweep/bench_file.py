@@ -15,6 +15,12 @@
         input_v      = 12.0                # with force = "load": the supply's CV setting
     [mains]
         line_frequency_hz = 50             # sets the meter's NPLC time and its line-noise rejection
+    [sensor]                               # optional: a temperature probe on the element
+        resource    = "TCPIP0::10.0.0.7::5025::SOCKET"
+        profile     = "generic-dmm"        # a meter profile with measure_temperature
+        attached_to = "case" | "tab"       # where the probe sits on the element
+        transducer  = "thermocouple" | "rtd" | "thermistor"
+        accuracy_c  = 1.0                  # optional: ± limit of the probe and meter together, °C
 
 A profile path is taken relative to the bench file. Wiring that names a role
 the file does not define is refused here, before anything is opened.
@@ -30,6 +36,9 @@ from benchlog.badinput import BadInput
 from benchlog.tomlcheck import Table, load_toml, parse_toml
 
 ROLE_NAMES = ("supply", "load", "meter", "current_meter")
+SENSOR_ROLE = "sensor"
+SENSOR_PLACES = ("case", "tab")
+TRANSDUCERS = ("thermocouple", "rtd", "thermistor")
 FORCE_CHOICES = ("supply", "load")
 CURRENT_FROM_CHOICES = ("supply", "load", "meter", "shunt")
 
@@ -42,6 +51,18 @@ class RoleSpec:
     resource: str
     profile: str  # a profile name, or a path (absolute after loading)
     backend: str = "@py"
+
+
+@dataclass(frozen=True)
+class SensorSpec:
+    """Where the temperature probe sits on the element and how good it is (the role itself is in `roles`)."""
+
+    attached_to: str  # "case" | "tab"
+    transducer: str  # "thermocouple" | "rtd" | "thermistor"
+    accuracy_c: float | None = None  # ± limit of probe and meter together, when the lab knows it
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"attached_to": self.attached_to, "transducer": self.transducer, "accuracy_c": self.accuracy_c}
 
 
 @dataclass(frozen=True)
@@ -63,6 +84,7 @@ class BenchSetup:
     line_frequency_hz: float = 50.0
     source: str = "bench"
     simulated: bool = False
+    sensor: SensorSpec | None = None  # with a [sensor] role: where its probe sits
 
     def role(self, name: str) -> RoleSpec | None:
         return self.roles.get(name)
@@ -85,6 +107,7 @@ class BenchSetup:
             },
             "line_frequency_hz": self.line_frequency_hz,
             "simulated": self.simulated,
+            **({"sensor": self.sensor.to_dict()} if self.sensor is not None else {}),
         }
 
 
@@ -103,7 +126,7 @@ def _looks_like_path(profile: str) -> bool:
 
 
 def _role(t: Table, name: str, base_dir: Path | None) -> RoleSpec:
-    t.only(("resource", "profile", "backend"))
+    t.only(("resource", "profile", "backend") + (("attached_to", "transducer", "accuracy_c") if name == SENSOR_ROLE else ()))
     resource = t.string("resource")
     if not resource.strip() or any(c in resource for c in "\n\r;"):
         raise t.fail("resource", f"is {resource!r}", "a VISA resource string such as 'TCPIP0::10.0.0.5::5025::SOCKET'")
@@ -116,12 +139,19 @@ def _role(t: Table, name: str, base_dir: Path | None) -> RoleSpec:
 
 
 def bench_from_table(root: Table, base_dir: Path | None = None) -> BenchSetup:
-    root.only(ROLE_NAMES + ("wiring", "mains"))
+    root.only(ROLE_NAMES + (SENSOR_ROLE, "wiring", "mains"))
     roles: dict[str, RoleSpec] = {}
     for name in ROLE_NAMES:
         t = root.table(name, required=False)
         if t is not None:
             roles[name] = _role(t, name, base_dir)
+    sensor = None
+    t = root.table(SENSOR_ROLE, required=False)
+    if t is not None:
+        roles[SENSOR_ROLE] = _role(t, SENSOR_ROLE, base_dir)
+        sensor = SensorSpec(attached_to=t.string("attached_to", choices=SENSOR_PLACES),
+                            transducer=t.string("transducer", choices=TRANSDUCERS),
+                            accuracy_c=t.number("accuracy_c", None, positive=True, max=100.0, unit="°C"))
     wiring_table = root.table("wiring")
     wiring = _wiring(wiring_table)
     mains = root.table("mains", required=False)
@@ -129,7 +159,7 @@ def bench_from_table(root: Table, base_dir: Path | None = None) -> BenchSetup:
     if mains is not None:
         mains.only(("line_frequency_hz",))
         line_hz = mains.number("line_frequency_hz", 50.0, min=16.0, max=400.0, unit="Hz")
-    setup = BenchSetup(roles=roles, wiring=wiring, line_frequency_hz=line_hz, source=root.source)
+    setup = BenchSetup(roles=roles, wiring=wiring, line_frequency_hz=line_hz, source=root.source, sensor=sensor)
     _check_roles(setup, wiring_table)
     return setup
 

@@ -22,7 +22,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
-from benchlog.instruments.contract import LoadRole, MeterRole, SupplyRole
+from benchlog.instruments.contract import LoadRole, MeterRole, SupplyRole, TemperatureProbeRole
 from benchlog.instruments.profile import Profile
 
 from benchlog.accuracy import Accuracy, MeasurementAccuracy
@@ -30,7 +30,7 @@ from benchlog.accuracy import Accuracy, MeasurementAccuracy
 from .bench_file import BenchSetup, Wiring
 from .plan import Plan
 
-BenchRole = SupplyRole | LoadRole | MeterRole
+BenchRole = SupplyRole | LoadRole | MeterRole | TemperatureProbeRole
 
 
 @dataclass
@@ -42,6 +42,7 @@ class Rig:
     supply: SupplyRole
     load: LoadRole | None = None
     current_meter: MeterRole | None = None
+    sensor: TemperatureProbeRole | None = None  # a meter whose probe sits on the element (bench [sensor])
     #: role name -> range the meter was configured on, filled by `configure`
     ranges: dict[str, float] = field(default_factory=dict)
 
@@ -51,10 +52,12 @@ class Rig:
 
     def roles(self) -> tuple[BenchRole, ...]:
         """Every opened role, the power sources first (the order the safe state reaches them)."""
-        return tuple(r for r in (self.supply, self.load, self.meter, self.current_meter) if r is not None)
+        return tuple(r for r in (self.supply, self.load, self.meter, self.current_meter, self.sensor)
+                     if r is not None)
 
     def named_roles(self) -> dict[str, BenchRole]:
-        named = {"supply": self.supply, "load": self.load, "meter": self.meter, "current_meter": self.current_meter}
+        named = {"supply": self.supply, "load": self.load, "meter": self.meter, "current_meter": self.current_meter,
+                 "sensor": self.sensor}
         return {k: v for k, v in named.items() if v is not None}
 
     def close(self) -> None:
@@ -80,6 +83,8 @@ class Rig:
             if m.samples > 1 or self.current_meter.profile.has("set_samples"):
                 self.current_meter.set_samples(m.samples)
             self.ranges["current_meter"] = rng
+        if self.sensor is not None:
+            self.sensor.configure_temperature()
         supply = self.supply
         supply.set_output(False)
         if w.force == "supply":
@@ -161,6 +166,13 @@ class Rig:
             return None
         value = sum(samples) / len(samples)
         return value if source == "meter" else value / self.wiring.shunt_ohm
+
+    def read_case_temperature(self) -> float | None:
+        """The element's case (or tab) temperature in °C from the bench's sensor; None without one or on overload."""
+        if self.sensor is None:
+            return None
+        value = self.sensor.measure_temperature()
+        return value if value is not None and math.isfinite(value) else None
 
     def reverse_current_reader(self, limit_a: float) -> Callable[[], float]:
         """A reader of the reverse current (magnitude) on the finest range that still holds `limit_a`."""
@@ -302,7 +314,25 @@ def measurement_accuracy(rig: Rig, plan: Plan) -> MeasurementAccuracy:
         rng = rig.ranges.get("current_meter") or shunt_range_v(plan, w, rig.current_meter.profile)
         current = _spec_for(rig.current_meter.profile, "dc_voltage", rng)
         current = current.through_shunt(w.shunt_ohm) if current is not None else None
-    return MeasurementAccuracy(drop=drop, current=current)
+    reverse = reverse_accuracy(rig, plan) if plan.reverse is not None else None
+    return MeasurementAccuracy(drop=drop, current=current, reverse_current=reverse)
+
+
+def reverse_accuracy(rig: Rig, plan: Plan) -> Accuracy | None:
+    """The accuracy of the reverse-current reading on the range `reverse_current_reader` picks, in A."""
+    w, limit = rig.wiring, reverse_limit_a(plan, rig.supply.profile)
+    if w.current_from == "meter" and rig.current_meter is not None:
+        p = rig.current_meter.profile
+        spec, scale = _spec_for(p, "dc_current", _fitting(p.limits.current_ranges_a, limit)), 1.0
+    elif w.current_from == "shunt" and rig.current_meter is not None:
+        p = rig.current_meter.profile
+        spec = _spec_for(p, "dc_voltage", _fitting(p.limits.voltage_ranges_v, limit * w.shunt_ohm))
+        scale = 1.0 / w.shunt_ohm
+    else:
+        spec, scale = _spec_for(rig.supply.profile, "readback_current", limit), 1.0
+    if spec is None:
+        return None
+    return Accuracy(spec.reading_pct, spec.range_pct, spec.range * scale)
 
 
 def finite(value: float | None) -> bool:
@@ -335,8 +365,8 @@ def open_rig(setup: BenchSetup, *, timeout_s: float | None = None, on_open: Any 
 
 
 def profile_role(bench_role: str) -> str:
-    """The profile role of a bench role: a current meter is a meter."""
-    return "meter" if bench_role == "current_meter" else bench_role
+    """The profile role of a bench role: a current meter and a temperature probe's meter are meters."""
+    return "meter" if bench_role in ("current_meter", "sensor") else bench_role
 
 
 def load_role_profiles(setup: BenchSetup) -> dict[str, Profile]:
@@ -362,5 +392,9 @@ def load_role_profiles(setup: BenchSetup) -> dict[str, Profile]:
             raise BadInput(setup.source or "bench", f"[{name}].profile",
                            f"{profile.name!r} is a {profile.role} profile",
                            f"a profile whose role is {profile_role(name)!r}")
+        if name == "sensor" and not profile.has("measure_temperature"):
+            raise BadInput(setup.source or "bench", "[sensor].profile",
+                           f"{profile.name!r} has no [commands].measure_temperature",
+                           "a meter profile with a temperature function (measure_temperature)")
         profiles[name] = profile
     return profiles

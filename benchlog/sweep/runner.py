@@ -46,6 +46,7 @@ from benchlog.runs.record import (
     MeterSettings,
     PlanRecord,
     RunHeader,
+    TemperatureRecord,
     freeze,
     new_run_id,
 )
@@ -346,6 +347,8 @@ class SweepRunner:
                          f"({current:.6g} A x {reading.value:.6g} V), above the {lim.max_power_w:g} W limit")
         if stop is not None:
             rig.element_off()
+        # the case (or tab) temperature right after the drop, when the bench has a probe on the element
+        temperature_c = rig.read_case_temperature()
         point = Point(
             index=index,
             t_s=t_s,
@@ -354,6 +357,7 @@ class SweepRunner:
             drop_v=reading.value,
             supply_v=supply_v,
             supply_mode=mode,
+            temperature_c=temperature_c,
             settle_reads=reading.reads,
             direction=step.direction,
             flags=tuple(flags),
@@ -502,7 +506,20 @@ class SweepRunner:
             meter=MeterSettings(plan.meter.nplc if getattr(rig.meter.profile, "sets_nplc", True) else None,
                                 plan.meter.samples, drop_range_v(plan, rig.meter.profile)),
             line_frequency_hz=rig.setup.line_frequency_hz,
+            temperature=self._temperature_record(),
         )
+
+    def _temperature_record(self) -> TemperatureRecord | None:
+        """Which probe filled the points' temperature_c, where it sits and how good it is (None: no probe)."""
+        rig = self.rig
+        where = rig.setup.sensor
+        if rig.sensor is None or where is None:
+            return None
+        spec = rig.setup.role("sensor")
+        return TemperatureRecord(
+            attached_to=where.attached_to, transducer=where.transducer, accuracy_c=where.accuracy_c,
+            resource=spec.resource if spec is not None else rig.sensor.resource,
+            profile=rig.sensor.profile.name, idn=idn_text(rig.sensor.idn))
 
 
 def _safety_limit_type() -> type:

@@ -58,7 +58,7 @@ def frame_and_meta(current, drop, *, ambient_c=25.0, gate="driven", gate_v=10.0,
     if accuracy is not None:
         table["accuracy"] = accuracy
     meta = SimpleNamespace(path="demo.run", header=RunHeader.from_table(table), offset_v=None,
-                           outcome="complete", complete=True, finished=None)
+                           outcome="complete", complete=True, finished=None, reverse=None)
     return frame, meta
 
 
@@ -312,3 +312,38 @@ def test_a_part_above_its_limit_at_the_tests_conditions_never_passes(tmp_path, a
     # a part at 11.5 mΩ passes at the same conditions (the limit is not simply unreachable)
     good = check_run(*load(_sweep(tmp_path, 0.0115, ambient_c, seed=5)), spec)
     assert good.outcome == "pass"
+
+
+def test_a_recorded_case_probe_is_the_measured_junction_temperature_with_its_own_accuracy():
+    # The bench's [sensor] probe: Tj is the mean of the recorded case temperatures; its u combines
+    # their sample spread (ddof = 1) with the probe's stated ±a read as rectangular, a/√3 (GUM 4.3.7).
+    from benchlog.analysis.junction import DEFAULT_SENSOR_U_C, junction_temperature
+
+    temps = np.array([30.0, 30.4, np.nan, 30.2])
+    tj = junction_temperature(25.0, 0.0, "", None, temps, sensor_u_c=0.6 / math.sqrt(3.0),
+                              sensor_why="thermocouple probe on the case")
+    spread = float(np.std([30.0, 30.4, 30.2], ddof=1))
+    assert tj.source == "measured" and tj.value_c == pytest.approx(30.2)
+    assert tj.u_c == pytest.approx(math.hypot(spread, 0.6 / math.sqrt(3.0)))
+    assert "probe on the case" in tj.why and "stated accuracy" in tj.why
+    # without a stated accuracy the default for an unstated probe is used, and the text says so
+    bare = junction_temperature(25.0, 0.0, "", None, temps)
+    assert bare.u_c == pytest.approx(math.hypot(spread, DEFAULT_SENSOR_U_C)) and "default" in bare.why
+
+
+def test_check_judges_a_run_with_a_case_probe_at_the_probe_temperature(tmp_path):
+    # End to end on the simulated bench (real pyvisa-py): a probe on the case fills temperature_c
+    # and check takes Tj from it ("measured"), with the probe's 0.6 °C stated accuracy in u.
+    from benchlog.cli.simbench import sweep_on_builtin_bench
+    from benchlog.sweep.plan import load_plan
+
+    demo = Path(benchlog.__file__).parent / "demo"
+    plan = load_plan(demo / "plans" / "rectifier-prototype.toml")
+    result = sweep_on_builtin_bench(plan, tmp_path, seed=3, sim_options={"case_sensor": True})
+    frame, meta = load(result.run_file)
+    c = check_run(frame, meta, load_spec(demo / "specs" / "demo-rect-3a.toml"))
+    temps = frame["temperature_c"].to_numpy(dtype=float)
+    assert c.judgement.tj.source == "measured"
+    assert c.judgement.tj.value_c == pytest.approx(float(np.nanmean(temps)))
+    assert c.judgement.tj.u_c >= 0.6 / math.sqrt(3.0)
+    assert meta.header.temperature.accuracy_c == 0.6

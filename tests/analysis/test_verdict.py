@@ -75,7 +75,7 @@ def sweep(r_ohm, noise_v=20e-6, n=21, seed=1, operating_a=None, kind="pmos", top
     header = RunHeader.from_table({"tool_version": "test", "started_utc": "2025-01-01T00:00:00Z",
                                    "run_id": new_run_id(), "plan": plan, "element": element})
     meta = SimpleNamespace(path="demo.run", header=header, offset_v=None, outcome=outcome, complete=complete,
-                           finished=None)
+                           finished=None, reverse=None)
     return frame, meta
 
 

@@ -80,6 +80,8 @@ FILES = [
     ("bench/mains-huge.toml", BENCH, ["[mains].line_frequency_hz", "1e+09"]),
     ("bench/input-as-text.toml", BENCH, ["[wiring].input_v", "'12 V'"]),
     ("bench/missing-meter.toml", BENCH, ["[meter]", "lacks"]),
+    ("bench/sensor-on-the-lid.toml", BENCH, ["[sensor].attached_to", "'lid'"]),
+    ("bench/sensor-without-temperature.toml", BENCH, ["[sensor].profile", "measure_temperature"]),
     # instrument profiles
     ("profile/empty.toml", PROFILE, ["schema", "missing"]),
     ("profile/binary-garbage.toml", PROFILE, ["byte 3", "not UTF-8"]),

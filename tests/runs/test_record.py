@@ -170,7 +170,8 @@ def test_schema1_files_load_into_the_same_record(path):
     assert load(path)[1].header.run_id == expected  # stable: the same file, the same id
     # The same recording re-made under schema 2: every point line is the same, and the typed
     # record differs only in the schema, the id and the profiles' hashes (the simulated
-    # instruments' profiles gained state queries and protection operations since).
+    # instruments' profiles gained state queries and protection operations since), and for a run with a
+    # reverse step the reverse range's accuracy.
     new = REPO / "sample_runs" / path.name
 
     def point_lines(p):
@@ -181,8 +182,11 @@ def test_schema1_files_load_into_the_same_record(path):
     pd.testing.assert_frame_equal(frame, new_frame, check_exact=True)
     same_profiles = tuple(replace(old, profile_sha256=now.profile_sha256)
                           for old, now in zip(meta.header.instruments, new_meta.header.instruments))
+    # ... and a reverse step's run now also records the reverse range's accuracy, which the old one lacks
+    accuracy = replace(meta.header.accuracy, reverse_current=new_meta.header.accuracy.reverse_current)
+    assert (meta.header.accuracy.reverse_current is None) or accuracy == meta.header.accuracy
     assert replace(meta.header, schema=2, run_id=new_meta.header.run_id,
-                   instruments=same_profiles) == new_meta.header
+                   instruments=same_profiles, accuracy=accuracy) == new_meta.header
     assert np.array_equal(points.drop_v, new_frame["drop_v"].to_numpy(), equal_nan=True)
     # rewriting an old header from its record gives back the same JSON (no run_id is invented)
     assert json.loads(line) == {"record": "header", **meta.header.to_table()}

@@ -101,7 +101,9 @@ class LotView(View):
         if limits:
             lines.append(f" {limits}")
         if summary.capability is not None:
-            lines.append(f" {summary.capability_name} {summary.capability:.2f}   outliers {summary.outliers}")
+            low = "—" if summary.capability_lower is None else f"{summary.capability_lower:.2f}"
+            lines.append(f" {summary.capability_name} {summary.capability:.2f} ({summary.capability_confidence:.0%} ≥ {low})   "
+                         f"outliers {summary.outliers}")
         else:
             lines.append(f" capability: none yet   outliers {summary.outliers}")
         lines.append(f" LOT: {VERDICT_WORDS.get(summary.outcome, summary.outcome.upper())}")

@@ -27,6 +27,18 @@ PARAM_NAMES = {
 VERDICT_WORDS = {"pass": "PASS ✔", "fail": "FAIL ✘", "conditional": "COND ◆"}
 
 
+def _reverse_line(f: RunFindings) -> str:
+    """Without a spec the reverse step is still shown, judged against the plan's own limit."""
+    record = f.meta.reverse if f.meta is not None else None
+    if record is None:
+        return ""
+    from benchlog.analysis.reverse import judge_reverse
+
+    rev = judge_reverse(record, None, None, f.meta)
+    return (f"\n reverse: {VERDICT_WORDS.get(rev.outcome, rev.outcome.upper())}  {si(rev.current_a, 'A')} at "
+            f"{rev.voltage_v:g} V against the plan's {si(rev.limit_a, 'A')}")
+
+
 def operating_current(findings: RunFindings) -> float | None:
     """The current the verdict is given at: the check's, the plan's operating_a, else the largest measured."""
     if findings.check is not None:
@@ -120,12 +132,16 @@ class ResultsView(View):
         who = f"{element.id or '?'} #{element.serial or '—'}"
         if outcome is None:
             why = f.check_error or ("no part spec picked (k)" if f.spec_path is None else "no verdict")
-            box.update(f" VERDICT: none — {why}\n run {f.path.name} · {who} · {f.meta.outcome}")
+            box.update(f" VERDICT: none — {why}{_reverse_line(f)}\n run {f.path.name} · {who} · {f.meta.outcome}")
             return
         rule = verdict_rule(f.check)
         spec_name = f.spec_path.name if f.spec_path else ""
+        rev = getattr(f.check, "reverse", None)
+        reverse = "" if rev is None else (
+            f"\n reverse: {VERDICT_WORDS.get(rev.outcome, rev.outcome.upper())}  {si(rev.current_a, 'A')} at "
+            f"{rev.voltage_v:g} V against {si(rev.limit_a, 'A')} (T {rev.tj_c:.1f} °C, {rev.tj_source})")
         box.update(f" VERDICT: {VERDICT_WORDS.get(outcome, outcome.upper())}  against {spec_name}\n"
-                   f" rule: {rule or 'as stated by the check'}\n run {f.path.name} · {who} · {f.meta.outcome}")
+                   f" rule: {rule or 'as stated by the check'}{reverse}\n run {f.path.name} · {who} · {f.meta.outcome}")
 
     def _show_fit(self, f: RunFindings) -> None:
         box = self.query_one("#fit-table", Static)
