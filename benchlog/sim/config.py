@@ -35,6 +35,9 @@ class SimConfig:
     shunt_ohm: float = 0.01
     lead_resistance_ohm: float = LEAD_RESISTANCE_OHM
     meter_integration_delay: bool = False  # True: READ? takes NPLC/f per sample in real time
+    # every thermal time constant times this (1: the element's own; 0.05: twenty times faster, so a
+    # heat-soak test takes seconds); resistances and steady temperatures do not change
+    thermal_time_scale: float = 1.0
 
     def __post_init__(self) -> None:
         if self.element not in KINDS:
@@ -43,7 +46,7 @@ class SimConfig:
             raise ValueError(f"seed must be a whole number, got {self.seed!r}")
         for name, lo, hi in (("ambient_c", -55.0, 150.0), ("line_frequency_hz", 40.0, 70.0),
                              ("latency_s", 0.0, 60.0), ("shunt_ohm", 1e-6, 1e3),
-                             ("lead_resistance_ohm", 1e-6, 10.0)):
+                             ("lead_resistance_ohm", 1e-6, 10.0), ("thermal_time_scale", 1e-3, 1e3)):
             value = getattr(self, name)
             if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) \
                     or not lo <= value <= hi:
@@ -69,7 +72,7 @@ class SimConfig:
 
 _TOP_KEYS = ("element", "seed", "ambient_c", "line_frequency_hz", "latency_s", "host", "port",
              "meter_has_measure", "current_meter", "shunt_ohm", "lead_resistance_ohm",
-             "meter_integration_delay", "element_params", "faults")
+             "meter_integration_delay", "thermal_time_scale", "element_params", "faults")
 _FAULT_COUNTS = ("drop_after_commands", "garbage_after", "hang_after", "queue_error_after", "supply_trip_after",
                  "trickle_after", "stuck_on_after")
 
@@ -85,7 +88,7 @@ def load_sim_config(path: str | Path) -> SimConfig:
         values["seed"] = root.integer("seed")
     for key, lo, hi, unit in (("ambient_c", -55, 150, "°C"), ("line_frequency_hz", 40, 70, "Hz"),
                               ("latency_s", 0, 60, "s"), ("shunt_ohm", 1e-6, 1e3, "ohm"),
-                              ("lead_resistance_ohm", 1e-6, 10, "ohm")):
+                              ("lead_resistance_ohm", 1e-6, 10, "ohm"), ("thermal_time_scale", 1e-3, 1e3, "")):
         if root.has(key):
             values[key] = root.number(key, min=lo, max=hi, unit=unit)
     if root.has("host"):
