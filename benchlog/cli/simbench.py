@@ -69,6 +69,8 @@ def builtin_bench(
             line_frequency_hz=config.line_frequency_hz,
             source="built-in simulated bench",
             simulated=True,
+            # a scaled thermal time is not the part's own: the run says so
+            sim_settings={"thermal_time_scale": config.thermal_time_scale} if config.thermal_time_scale != 1.0 else None,
         )
     except BaseException:
         running.stop()

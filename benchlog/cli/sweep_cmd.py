@@ -49,6 +49,9 @@ def register(sub) -> None:
                    help='print {"run_file", "points", "outcome", "safe_state"} as JSON')
     p.add_argument("--yes", action="store_true", help="do not ask before switching a real bench on")
     p.add_argument("--seed", type=int, default=0, help="seed of the built-in simulated bench (default 0)")
+    p.add_argument("--sim-thermal-scale", type=float, default=None, metavar="F",
+                   help="built-in bench only: every thermal time constant times F (e.g. 0.05 for a fast "
+                        "heat-soak demo); recorded in the run header")
     p.set_defaults(handler=_sweep)
 
     d = sub.add_parser(
@@ -62,6 +65,8 @@ def register(sub) -> None:
     d.add_argument("--out", metavar="DIR", default="runs", help="folder for the run file (default: ./runs)")
     d.add_argument("--json", action="store_true", help="print the summary as JSON")
     d.add_argument("--seed", type=int, default=0, help="seed of the simulated bench (default 0)")
+    d.add_argument("--sim-thermal-scale", type=float, default=None, metavar="F",
+                   help="every thermal time constant of the simulated bench times F; recorded in the run header")
     d.set_defaults(handler=_demo)
 
 
@@ -133,12 +138,25 @@ def _power_prompt(real_bench: bool, assume_yes: bool):
     return before_power_on
 
 
-def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool) -> tuple[Any, Any]:
+def _sim_options(bench_path: str | None, thermal_scale: float | None) -> dict[str, Any] | None:
+    if thermal_scale is None:
+        return None
+    if bench_path:
+        raise BadInput("argument", "--sim-thermal-scale", "only applies to the built-in simulated bench",
+                       "no --bench, or no --sim-thermal-scale")
+    if not (1e-3 <= thermal_scale <= 1e3):
+        raise BadInput("argument", "--sim-thermal-scale", f"is {thermal_scale:g}", "a factor in 0.001..1000")
+    return {"thermal_time_scale": thermal_scale}
+
+
+def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool,
+         thermal_scale: float | None = None) -> tuple[Any, Any]:
     from benchlog.runs.events import Note, Point
     from benchlog.sweep.bench_file import load_bench
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.session import run_sweep
 
+    sim_options = _sim_options(bench_path, thermal_scale)
     plan = load_plan(plan_path)
     bench = load_bench(bench_path) if bench_path else None
     state: dict[str, Any] = {"progress": None, "runner": None}
@@ -167,7 +185,7 @@ def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, 
         if bench is None:
             from .simbench import sweep_on_builtin_bench
 
-            result = sweep_on_builtin_bench(plan, out, seed=seed, **hooks)
+            result = sweep_on_builtin_bench(plan, out, seed=seed, sim_options=sim_options, **hooks)
         else:
             result = run_sweep(plan, bench, out, **hooks)
     except BaseException as exc:
@@ -219,7 +237,8 @@ def _sweep(args) -> int:
     from benchlog.filecheck import check_output_dir
 
     check_output_dir(args.out, "--out")
-    plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes)
+    plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes,
+                        thermal_scale=args.sim_thermal_scale)
     if args.json:
         print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome,
                     "safe_state": result.safe_state})
@@ -279,7 +298,8 @@ def _demo(args) -> int:
 
     plan_path = demo_plan_path(args.plan)
     check_output_dir(args.out, "--out")
-    plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True)
+    plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True,
+                        thermal_scale=args.sim_thermal_scale)
     summary: dict[str, Any] = {
         "run_file": str(result.run_file),
         "points": result.points,

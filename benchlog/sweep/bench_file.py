@@ -63,6 +63,8 @@ class BenchSetup:
     line_frequency_hz: float = 50.0
     source: str = "bench"
     simulated: bool = False
+    #: the simulated bench's settings that change what is measured (thermal_time_scale), for the header
+    sim_settings: dict[str, Any] | None = None
 
     def role(self, name: str) -> RoleSpec | None:
         return self.roles.get(name)
@@ -85,7 +87,7 @@ class BenchSetup:
             },
             "line_frequency_hz": self.line_frequency_hz,
             "simulated": self.simulated,
-        }
+        } | ({"sim": dict(self.sim_settings)} if self.sim_settings else {})
 
 
 def load_bench(path: str | Path) -> BenchSetup:

@@ -147,8 +147,10 @@ class SweepRunner:
     # -- public --------------------------------------------------------------
     @property
     def planned(self) -> int:
-        """Points to expect (an upper bound for adaptive stepping)."""
-        return self.steps.planned
+        """Points to expect (an upper bound for adaptive stepping), the heat-soak's readings included."""
+        soak = self.plan.soak
+        extra = 0 if soak is None else int((soak.duration_s + soak.cool_s) / soak.interval_s + 1e-9)
+        return self.steps.planned + extra
 
     def cancel(self) -> None:
         """Ask the sweep to stop; safe from any thread. The safe state follows within one step."""
@@ -313,6 +315,9 @@ class SweepRunner:
         soak, rig = self.plan.soak, self.rig
         assert soak is not None
         rig.element_off()
+        if rig.wiring.force == "load":
+            # with the load's input off, the supply would still drive its leads: all off for the rest
+            rig.supply.set_output(False)
         self._pause(soak.rest_s)
         self._check_cancel()
         phases = [(SOAK_STARTED, soak.current_a, soak.duration_s, FLAG_SOAK)]
@@ -323,7 +328,7 @@ class SweepRunner:
             if flag == FLAG_SOAK:
                 rig.set_current(current_a)
                 before = self._t()
-                rig.element_on()
+                rig.power_on()
             else:
                 before = self._t()
                 rig.set_current(current_a)  # the element stays on: the step down is the cooling's start
