@@ -45,7 +45,7 @@ FLAG_SOAK, FLAG_COOL = "soak", "cool"
 SOAK_STARTED, COOL_STARTED = "soak started", "cooling started"
 
 #: √t extrapolation uses the readings in the first this fraction of the soak (at least EARLY_MIN of them).
-EARLY_FRACTION = 0.05
+EARLY_FRACTION = 0.02
 EARLY_MIN = 4
 #: A spec's typical temperature curve is taken as good to this relative half-width (rectangular; assumed).
 SPEC_TEMPCO_REL_HALF_WIDTH = 0.10
@@ -138,7 +138,20 @@ class SoakResult:
     spec_rth_ja_k_per_w: float | None = None
     cool_t_s: np.ndarray | None = None
     cool_delta_tj_k: np.ndarray | None = None
+    cool_power_w: np.ndarray | None = None
+    cool_start_s: float | None = None
     notes: tuple[str, ...] = ()
+
+    def cooling_prediction_k(self) -> np.ndarray | None:
+        """ΔTj the fitted response predicts at the cooling readings: the heating's power steps, then the
+        step down to the sense current and its changes (superposition, as in the fit)."""
+        if self.cool_t_s is None or self.cool_power_w is None or self.cool_start_s is None:
+            return None
+        heat_w = float(np.sum(self.step_w))
+        starts = np.concatenate(([self.cool_start_s], self.cool_t_s[:-1]))
+        steps = np.diff(np.concatenate(([heat_w], self.cool_power_w)))
+        return self.chosen.response_k(self.cool_t_s, np.concatenate((self.step_t_s, starts)),
+                                      np.concatenate((self.step_w, steps)))
 
     @property
     def tj_margin_c(self) -> float | None:
@@ -450,14 +463,16 @@ def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
     tj_u = math.hypot(p_end * rth_u, ambient_u)
     notes.append("the power's own uncertainty (read-back accuracy, a few 0.1 %) is not in the budget")
 
-    cool_t = cool_delta = None
+    cool_t = cool_delta = cool_p = None
     cool_rows = _flag_rows(flags, FLAG_COOL) & np.isfinite(i_all) & np.isfinite(v_all)
     t_cool = _note_t(meta, COOL_STARTED)
     if cool_rows.any() and t_cool is not None:
         ci, cv = i_all[cool_rows], v_all[cool_rows]
-        if relative:
-            cool_t, cool_delta = t_all[cool_rows] - t_step, (cv / ci / y0 - 1.0) / tempco.value
-        elif tempco.source == "calibration":
+        cool_p = ci * cv
+        if tempco.source == "calibration":
+            # the calibration was taken at the sense current: the drop reads as a temperature directly
+            # (JESD51-1's electrical test method); a reference taken at the soak current would carry the
+            # current read-back's offset error, which differs between the two currents
             temps_c, drops = np.asarray(cal_c, float), np.asarray(cal_v, float)
             b, a = np.polyfit(temps_c, drops, 1)
             cool_t, cool_delta = t_all[cool_rows] - t_step, (cv - a) / b - ambient_c
@@ -473,7 +488,8 @@ def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
         first_reading_s=float(t[0]), initial_drop=y0, initial_u=y0_u, extrapolation_u_k=extrap_u_k,
         early_readings=count, settled_fraction=settled,
         tj_max_c=getattr(thermal, "tj_max_c", None), spec_rth_ja_k_per_w=getattr(thermal, "rth_ja_k_per_w", None),
-        cool_t_s=cool_t, cool_delta_tj_k=cool_delta, notes=tuple(notes),
+        cool_t_s=cool_t, cool_delta_tj_k=cool_delta, cool_power_w=cool_p if cool_t is not None else None,
+        cool_start_s=None if t_cool is None else t_cool - t_step, notes=tuple(notes),
     )
 
 

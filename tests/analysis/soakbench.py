@@ -46,7 +46,7 @@ kind = "{kind}"
 ambient_c = 25.0
 [steps]
 mode = "list"
-currents_a = [{current_a / 2}, {current_a}]
+currents_a = [{current_a * 0.2}, {current_a * 0.4}, {current_a * 0.6}, {current_a * 0.8}, {current_a}]
 [meter]
 nplc = 1
 range_v = {range_v}
@@ -94,3 +94,22 @@ def record_soak(tmp_path: Path, plan_text: str, *, seed: int = 3, element_params
 
 def load(path: Path):
     return runs.load(path)
+
+
+def measure_calibration(tmp_path: Path, temperatures_c: tuple[float, ...], sense_a: float, *, kind: str = "pmos",
+                        seed: int = 3, element_params: dict | None = None) -> tuple[float, ...]:
+    """The drop at `sense_a` with the whole bench at each temperature (an oven calibration), measured by
+    the same instruments through the same sockets; the same seed is the same part."""
+    drops = []
+    for temp in temperatures_c:
+        text = soak_plan(kind).split("[soak]")[0].replace("ambient_c = 25.0", f"ambient_c = {temp}")
+        text = text.replace("[steps]\nmode = \"list\"", "[steps]\nmode = \"list\"\n# calibration")
+        lines = [ln for ln in text.splitlines() if not ln.startswith("currents_a")]
+        lines.insert(lines.index("# calibration") + 1, f"currents_a = [{sense_a}]")
+        plan_text = "\n".join(lines) + "\n[limits]\nmax_current_a = 10\n"
+        sub = tmp_path / f"cal-{temp:g}"
+        sub.mkdir(exist_ok=True)
+        path, _ = record_soak(sub, plan_text, seed=seed, element_params=element_params)
+        frame, meta = runs.load(path)
+        drops.append(float(frame["drop_v"].iloc[0]) - (meta.offset_v or 0.0))
+    return tuple(drops)
