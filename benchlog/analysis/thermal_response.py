@@ -440,6 +440,10 @@ def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
             chosen = two
         elif two.aicc < one.aicc:
             notes.append("the two-pole fit's time constants are not distinct: one pole kept")
+    if chosen.poles == 2 and chosen.tau_s[1] < 3.0 * float(t[0]):
+        notes.append(f"the faster time constant ({chosen.tau_s[1]:.3g} s) is within three first-reading times "
+                     f"({float(t[0]):.3g} s): it also takes up what the √t extrapolation misses, so read it as an "
+                     "indication, not a measurement; its u is the fit's alone")
     k = chosen.poles
     grad = np.zeros(2 * k)
     grad[0::2] = 1.0

@@ -121,3 +121,20 @@ def test_a_bad_soak_table_is_one_line_naming_the_key(table, words):
 def test_a_plan_without_soak_keeps_its_header():
     assert "soak" not in parse_plan(BASE, "plan.toml").to_dict()
     assert parse_plan(BASE + SOAK, "plan.toml").to_dict()["soak"]["sense_a"] == 0.1
+
+
+@pytest.mark.parametrize("args, words", [
+    (["--sim-thermal-scale", "0"], ["--sim-thermal-scale", "0.001..1000"]),
+    (["--sim-thermal-scale", "0.1", "--bench", "bench.toml"], ["--sim-thermal-scale", "built-in"]),
+])
+def test_sim_thermal_scale_refused_in_one_line(tmp_path, args, words):
+    import subprocess
+    import sys
+
+    plan = tmp_path / "plan.toml"
+    plan.write_text(BASE + SOAK)
+    out = subprocess.run([sys.executable, "-m", "benchlog", "sweep", str(plan), "--out", str(tmp_path), *args],
+                         capture_output=True, text=True, cwd=tmp_path)
+    assert out.returncode == 2
+    lines = out.stderr.strip().splitlines()
+    assert len(lines) == 1 and all(w in lines[0] for w in words), out.stderr
