@@ -408,7 +408,7 @@ def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
     if tempco is None or tempco.value == 0:
         raise SoakError(f"no temperature coefficient for a {kind or 'unknown'} element: enter a calibration "
                         "([soak] calibration_c, calibration_v, sense_a) or give a spec with one")
-    if not relative and element_kind(kind).drop_is_junction(measure) and tempco.source != "calibration":
+    if not relative and tempco.source != "calibration":
         notes.append("a junction's tempco is smaller at the soak current than at a small current: "
                      "a calibration at the soak current would remove that bias")
 
