@@ -420,6 +420,14 @@ def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
     delta = (y - y0) * scale
     extrap_u_k = math.hypot(y0_u, abs(y0_model) / math.sqrt(3)) * abs(scale)
 
+    # the drift must stand out of the readings' scatter (successive differences: the noise of one
+    # reading times √2, drift-free to first order), or there is no response to fit
+    scatter = float(np.std(np.diff(delta)) / math.sqrt(2.0))
+    rise = float(np.median(delta[-max(3, delta.size // 10):]) - np.median(delta[:3]))
+    if not rise > 5.0 * scatter:
+        raise SoakError(f"the drop did not drift measurably during the soak (ΔTj {rise:.3g} K against a reading "
+                        f"scatter of {scatter:.2g} K): the junction had already settled at the first reading "
+                        "(time constants short against interval_s) or the element barely heats at current_a")
     p = i * v
     step_t, step_w = power_steps(t, p)
     fits = [fit_response(t, delta, step_t, step_w, 1)]

@@ -211,3 +211,14 @@ def test_check_gives_the_sample_soak_beside_its_verdict():
     assert entry["soak"]["rth_k_per_w"] == pytest.approx(truth["rth_ja_k_per_w"], rel=0.10)
     assert entry["soak"]["tau_s"][0] == pytest.approx(truth["tau_s"][0], rel=0.20)
     assert entry["soak"]["tj_margin_c"] == pytest.approx(150.0 - entry["soak"]["tj_steady_c"])
+
+
+def test_a_soak_whose_junction_settled_before_the_first_reading_is_refused_plainly(tmp_path):
+    # a two-hundredth of the thermal time (τ about 60 ms) but a 0.25 s interval: flat readings, nothing to fit
+    path, _ = record_soak(tmp_path, soak_plan(duration_s=10.0, interval_s=0.25), thermal_time_scale=0.005)
+    frame, meta = runs.load(path)
+    with pytest.raises(tr.SoakError, match="did not drift measurably"):
+        tr.analyse_soak(frame, meta, load_spec(PFET_SPEC))
+    out = subprocess.run([sys.executable, "-m", "benchlog", "fit", str(path), "--json"], capture_output=True,
+                         text=True, check=True)
+    assert "did not drift measurably" in json.loads(out.stdout)["soak"]["error"]
