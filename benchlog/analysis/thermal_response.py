@@ -349,7 +349,7 @@ def _flag_rows(flags: Any, flag: str) -> np.ndarray:
 
 
 def _note_t(meta: Any, title: str) -> float | None:
-    for note in getattr(meta, "notes", ()) or ():
+    for note in meta.notes:
         if note.kind == "info" and note.message.startswith(title + ":"):
             return float(note.t_s)
     return None
@@ -359,10 +359,10 @@ def has_soak(frame: Any) -> bool:
     return "flags" in frame.columns and bool(_flag_rows(frame["flags"].to_numpy(), FLAG_SOAK).any())
 
 
-def _plan_soak(meta: Any) -> dict:
-    plan = (getattr(meta, "header", None) or {}).get("plan") or {}
-    soak = plan.get("soak") if isinstance(plan, dict) else None
-    return soak if isinstance(soak, dict) else {}
+def _plan_soak(meta: Any) -> Any:
+    """The run's [soak] table as recorded (a read-only mapping; empty without one)."""
+    plan = meta.header.plan
+    return plan.soak if plan is not None else {}
 
 
 def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
@@ -379,9 +379,9 @@ def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
     t, i, v = t_all[ok] - t_step, i_all[ok], v_all[ok]
     if t.size < 2 * EARLY_MIN:
         raise SoakError(f"{t.size} soak readings: too few to fit a thermal response (at least {2 * EARLY_MIN})")
-    element = getattr(meta, "element", None) or {}
-    kind = str(element.get("kind") or "")
-    measure = str(element.get("measure") or "channel")
+    element = meta.element
+    kind = element.kind or ""
+    measure = element.measure or "channel"
     relative = not (element_kind(kind).drop_is_junction(measure) if kind in ELEMENT_KINDS else True)
     notes: list[str] = []
 
@@ -391,8 +391,7 @@ def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
     if temps.size and np.isfinite(temps[0]):
         ambient_c, ambient_u, ambient_source = float(temps[0]), AMBIENT_U_C / 2, "the temperature channel's first soak reading"
     else:
-        raw = element.get("ambient_c")
-        ambient_c = float(raw) if isinstance(raw, (int, float)) and not isinstance(raw, bool) else 25.0
+        ambient_c = element.ambient_c if element.ambient_c is not None else 25.0
         ambient_u, ambient_source = AMBIENT_U_C, "the plan's ambient (not measured)"
 
     # the coefficient: calibration > spec > the kind's default

@@ -137,8 +137,8 @@ def test_the_record_marks_soak_points_and_the_sweep_fit_leaves_them_out(pmos_soa
     fit = fit_run(frame, meta, "resistive")
     assert fit.points == 5  # the five sweep points only
     assert any("heat-soak" in n for n in fit.notes)
-    assert meta.header["plan"]["soak"]["current_a"] == 5.0
-    assert meta.header["bench"]["sim"]["thermal_time_scale"] == 1.0
+    assert meta.header.plan.soak["current_a"] == 5.0
+    assert meta.header.bench.table["sim"]["thermal_time_scale"] == 1.0
 
 
 def test_soak_with_an_entered_calibration_uses_it(tmp_path):
@@ -179,7 +179,7 @@ def test_thermal_time_scale_is_followed(tmp_path):
     path, truth = record_soak(tmp_path, soak_plan(duration_s=3.0, interval_s=0.0125), thermal_time_scale=0.05)
     frame, meta = runs.load(path)
     result = tr.analyse_soak(frame, meta, load_spec(PFET_SPEC))
-    assert meta.header["bench"]["sim"]["thermal_time_scale"] == 0.05
+    assert meta.header.bench.table["sim"]["thermal_time_scale"] == 0.05
     assert result.rth_k_per_w == pytest.approx(truth["rth_ja_k_per_w"], rel=0.10)
     assert result.tau_s[0] == pytest.approx(truth["tau_s"][0], rel=0.20)
     assert truth["tau_s"][0] < 1.0
