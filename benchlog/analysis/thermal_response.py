@@ -37,6 +37,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
+from benchlog.ambient import DEFAULT_AMBIENT_C, DEFAULT_AMBIENT_HALF_WIDTH_K
 from benchlog.kinds import ELEMENT_KINDS, kind as element_kind
 
 # The run record's words for a soak (benchlog.runs.events; analysis imports no other layer, a test keeps
@@ -51,8 +52,9 @@ EARLY_MIN = 4
 SPEC_TEMPCO_REL_HALF_WIDTH = 0.10
 #: A kind's default coefficient (no calibration, no spec figure) is taken as good to this half-width (assumed).
 DEFAULT_TEMPCO_REL_HALF_WIDTH = 0.30
-#: The ambient's standard uncertainty when the run records no measured temperature (assumed).
-AMBIENT_U_C = 1.0
+#: A temperature probe's standard uncertainty when the run's temperature channel gives the ambient (assumed:
+#: a probe of standard tolerance).
+PROBE_U_C = 0.5
 #: Two time constants must differ by at least this factor to count as two poles.
 POLE_SEPARATION = 2.0
 #: Board standards a datasheet's RθJA is measured on (common practice).
@@ -389,10 +391,14 @@ def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
     temps = frame["temperature_c"].to_numpy(dtype=float) if "temperature_c" in frame.columns else np.array([])
     temps = temps[ok] if temps.size == ok.size else np.array([])
     if temps.size and np.isfinite(temps[0]):
-        ambient_c, ambient_u, ambient_source = float(temps[0]), AMBIENT_U_C / 2, "the temperature channel's first soak reading"
+        ambient_c, ambient_u, ambient_source = float(temps[0]), PROBE_U_C, "the temperature channel's first soak reading"
     else:
-        ambient_c = element.ambient_c if element.ambient_c is not None else 25.0
-        ambient_u, ambient_source = AMBIENT_U_C, "the plan's ambient (not measured)"
+        ambient_c = element.ambient_c if element.ambient_c is not None else DEFAULT_AMBIENT_C
+        if element.ambient_u_c is not None:
+            ambient_u, ambient_source = element.ambient_u_c, "the plan's ambient and its stated u (not measured)"
+        else:  # rectangular half-width, GUM 4.3.7
+            ambient_u = DEFAULT_AMBIENT_HALF_WIDTH_K / math.sqrt(3.0)
+            ambient_source = "the plan's ambient (not measured)"
 
     # the coefficient: calibration > spec > the kind's default
     plan_soak = _plan_soak(meta)
