@@ -115,6 +115,8 @@ SAMPLES: tuple[SampleRun, ...] = (
     SampleRun("pmos-killed", "pmos-prototype", 7,
               "P-MOSFET sweep killed (SIGKILL) after 12 of 30 points: no end record, torn last line", 56,
               serial="PROTO-0005", killed_after_points=12),
+    SampleRun("pmos-heat-soak", "pmos-heat-soak", 8,
+              "P-MOSFET heat-soak: 5 A held for 60 s, the drop read every 0.25 s, then 20 s of cooling at 1 A", 58),
 ) + _lot()
 
 

@@ -70,17 +70,22 @@ def usable_points(frame) -> tuple[np.ndarray, list[str]]:
     rows = np.isfinite(current) & np.isfinite(drop)
     overload = np.zeros(rows.shape, dtype=bool)
     notes = []
+    soak = np.zeros(rows.shape, dtype=bool)
     if hasattr(frame, "has_flag") or "flags" in frame.columns:
         overload = _has_flag(frame, "overload")
+        # heat-soak readings (one current held while the element heats) are not points of the sweep
+        soak = _has_flag(frame, "soak") | _has_flag(frame, "cool")
         unsettled = _has_flag(frame, "unsettled") & rows & ~overload
         if overload.any():
             notes.append(f"{int(overload.sum())} overload point(s) left out")
         if unsettled.any():
             notes.append(f"{int(unsettled.sum())} unsettled point(s) kept in the fit")
-    missing = int((~rows & ~overload).sum())
+    missing = int((~rows & ~overload & ~soak).sum())
     if missing:
         notes.append(f"{missing} point(s) without a reading left out")
-    return rows & ~overload, notes
+    if soak.any():
+        notes.append(f"{int(soak.sum())} heat-soak reading(s) analysed apart, not in this fit")
+    return rows & ~overload & ~soak, notes
 
 
 def run_temperature_c(temperature_c: np.ndarray, meta) -> tuple[float, str]:

@@ -211,8 +211,14 @@ def _check(args) -> int:
     spec = load_spec(args.spec)
     frame, meta = load_points(args.run)
     c = check_run(frame, meta, spec, at_a=args.at)
+    from .soak_out import soak_block
+
+    soak, soak_lines = soak_block(frame, meta, spec)
     if args.json:
-        print_json(check_entry(c))
+        entry = check_entry(c)
+        if soak is not None:
+            entry["soak"] = soak
+        print_json(entry)
     else:
         print(f"{c.outcome.upper()}  {c.part}, run {c.run}")
         print(f"  at {c.current_a:.4g} A ({c.current_source}), ambient {c.ambient_c:g} °C, fit: {c.model}")
@@ -241,6 +247,8 @@ def _check(args) -> int:
         for note in c.notes:
             if note not in flagged:
                 print(f"  note: {note}")
+        for line in soak_lines:
+            print(f"  {line}")
     return EXIT_CODES[c.outcome]
 
 

@@ -44,6 +44,9 @@ def register(sub) -> None:
                         "a resistance (0.004 = 0.4 %%/K), V/K for a diode drop (-0.002)")
     p.add_argument("--exclude-outliers", action="store_true",
                    help="refit without the flagged outliers (they are still reported)")
+    p.add_argument("--spec", metavar="SPEC.toml", default=None,
+                   help="part spec for a heat-soak run: its tempco (when no calibration is recorded), "
+                        "Tj max and RθJA")
     p.set_defaults(handler=run_fit)
 
 
@@ -115,6 +118,17 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
                            "points_used": knee.points_used,
                            "unresolved": [int(x) for x in knee.unresolved_index],
                            "above_a": float(knee.current_a.min())}
+    from .soak_out import soak_block
+
+    spec = None
+    if getattr(args, "spec", None):
+        from benchlog.specfiles import load_spec
+
+        spec = load_spec(args.spec)
+    soak, lines = soak_block(frame, meta, spec)
+    if soak is not None:
+        payload["soak"] = soak
+        payload["soak_text"] = lines
     return payload
 
 
@@ -136,6 +150,13 @@ def _in_print_order(params: dict[str, float], first: tuple[str, ...]) -> list[st
 
 
 def print_human(payload: dict[str, Any]) -> None:
+    if payload["model"] is None:  # a heat-soak without a fittable sweep
+        print(f"{payload['run']}: no fit of the sweep")
+        for note in payload["notes"]:
+            print(f"  note: {note}")
+        for line in payload.get("soak_text", ()):
+            print(f"  {line}")
+        return
     used = payload["points_used"]
     of = f"{payload['points']} points" + ("" if used == payload["points"] else f" ({used} with weight)")
     print(f"{payload['run']}: {payload['model']} fit of {of}")
@@ -163,6 +184,24 @@ def print_human(payload: dict[str, Any]) -> None:
               f"for {rev['duration_s']:g} s against {rev['limit_a']:.3g} A ({rev['limit_at']}); {rev['reason']}")
     for note in payload["notes"]:
         print(f"  note: {note}")
+    for line in payload.get("soak_text", ()):
+        print(f"  {line}")
+
+
+def _soak_only(frame, meta, args: argparse.Namespace, why: BadInput) -> dict[str, Any] | None:
+    """A run whose sweep cannot be fitted but which holds a heat-soak: the soak alone, and why the fit is missing."""
+    from .soak_out import soak_block
+
+    spec = None
+    if getattr(args, "spec", None):
+        from benchlog.specfiles import load_spec
+
+        spec = load_spec(args.spec)
+    soak, lines = soak_block(frame, meta, spec)
+    if soak is None:
+        return None
+    return {"run": str(meta.path), "model": None, "soak": soak, "soak_text": lines,
+            "notes": [f"no fit of the sweep: {why.problem}"]}
 
 
 def run_fit(args: argparse.Namespace) -> int:
@@ -170,10 +209,16 @@ def run_fit(args: argparse.Namespace) -> int:
     from benchlog.runs import load_points  # numpy arrays: a fit has no use for pandas
 
     frame, meta = load_points(args.run)
-    payload = fit_payload(frame, meta, args)
+    try:
+        payload = fit_payload(frame, meta, args)
+    except BadInput as exc:
+        payload = _soak_only(frame, meta, args, exc)
+        if payload is None:
+            raise
     if args.json:
         from .output import print_json
 
+        payload.pop("soak_text", None)
         print_json(payload)
     else:
         print_human(payload)

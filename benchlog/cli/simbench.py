@@ -73,6 +73,8 @@ def builtin_bench(
             source="built-in simulated bench",
             simulated=True,
             sensor=SIM_SENSOR if "sensor" in roles else None,
+            # a scaled thermal time is not the part's own: the run says so
+            sim_settings={"thermal_time_scale": config.thermal_time_scale} if config.thermal_time_scale != 1.0 else None,
         )
     except BaseException:
         running.stop()

@@ -53,6 +53,9 @@ def register(sub) -> None:
     p.add_argument("--case-sensor", action="store_true",
                    help="built-in simulated bench only: a thermocouple on the element's case fills temperature_c "
                         "(a real bench names its probe in the bench file's [sensor] table)")
+    p.add_argument("--sim-thermal-scale", type=float, default=None, metavar="F",
+                   help="built-in bench only: every thermal time constant times F (e.g. 0.05 for a fast "
+                        "heat-soak demo); recorded in the run header")
     p.set_defaults(handler=_sweep)
 
     d = sub.add_parser(
@@ -67,6 +70,8 @@ def register(sub) -> None:
     d.add_argument("--json", action="store_true", help="print the summary as JSON")
     d.add_argument("--seed", type=int, default=0, help="seed of the simulated bench (default 0)")
     _timing_argument(d)
+    d.add_argument("--sim-thermal-scale", type=float, default=None, metavar="F",
+                   help="every thermal time constant of the simulated bench times F; recorded in the run header")
     d.set_defaults(handler=_demo)
 
 
@@ -149,8 +154,20 @@ def _power_prompt(real_bench: bool, assume_yes: bool):
     return before_power_on
 
 
+def _sim_options(bench_path: str | None, thermal_scale: float | None) -> dict[str, Any] | None:
+    if thermal_scale is None:
+        return None
+    if bench_path:
+        raise BadInput("argument", "--sim-thermal-scale", "only applies to the built-in simulated bench",
+                       "no --bench, or no --sim-thermal-scale")
+    if not (1e-3 <= thermal_scale <= 1e3):
+        raise BadInput("argument", "--sim-thermal-scale", f"is {thermal_scale:g}", "a factor in 0.001..1000")
+    return {"thermal_time_scale": thermal_scale}
+
+
 def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, assume_yes: bool,
-         sim_timing: str | None = None, case_sensor: bool = False) -> tuple[Any, Any]:
+         sim_timing: str | None = None, case_sensor: bool = False,
+         thermal_scale: float | None = None) -> tuple[Any, Any]:
     from benchlog.runs.events import Note, Point
     from benchlog.sweep.bench_file import load_bench
     from benchlog.sweep.plan import load_plan
@@ -162,11 +179,13 @@ def _run(plan_path: str | Path, bench_path: str | None, out: str, *, seed: int, 
     if case_sensor and bench_path:
         raise BadInput("argument", "--case-sensor", "is given with --bench",
                        "the bench file's [sensor] table for a real bench, or no --bench")
+    scaled = _sim_options(bench_path, thermal_scale)
     plan = load_plan(plan_path)
     bench = load_bench(bench_path) if bench_path else None
     sim_options = {"timing": sim_timing} if sim_timing is not None else {}
     if case_sensor:
         sim_options["case_sensor"] = True
+    sim_options.update(scaled or {})
     sim_options = sim_options or None
     state: dict[str, Any] = {"progress": None, "runner": None}
 
@@ -247,7 +266,8 @@ def _sweep(args) -> int:
 
     check_output_dir(args.out, "--out")
     plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes,
-                        sim_timing=args.sim_timing, case_sensor=args.case_sensor)
+                        sim_timing=args.sim_timing, case_sensor=args.case_sensor,
+                        thermal_scale=args.sim_thermal_scale)
     if args.json:
         print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome,
                     "safe_state": result.safe_state})
@@ -310,7 +330,8 @@ def _demo(args) -> int:
     plan_path = demo_plan_path(args.plan)
     check_output_dir(args.out, "--out")
     timing = args.sim_timing or "real"
-    plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True, sim_timing=timing)
+    plan, result = _run(plan_path, None, args.out, seed=args.seed, assume_yes=True, sim_timing=timing,
+                        thermal_scale=args.sim_thermal_scale)
     summary: dict[str, Any] = {
         "run_file": str(result.run_file),
         "points": result.points,

@@ -335,14 +335,15 @@ def run_section(ra: RunAnalysis, spec: PartSpec | None) -> Section:
         if ra.prediction.notes:
             analysis.append(Paragraph("Prediction notes: " + "; ".join(ra.prediction.notes) + ".", "note"))
     analysis += _figures(ra, spec)
+    from .soak_section import soak_section
+
+    soak = soak_section(ra.frame, ra.meta, spec, ra.label)
     return Section(
         title=f"Run {ra.label}",
         status="" if complete else "incomplete",
         blocks=tuple(blocks),
-        subsections=(
-            Section("Results", tuple(analysis)),
-            Section("Events and limit hits", tuple(_event_blocks(ra))),
-        ),
+        subsections=(Section("Results", tuple(analysis)),) + ((soak,) if soak is not None else ())
+        + (Section("Events and limit hits", tuple(_event_blocks(ra))),),
     )
 
 

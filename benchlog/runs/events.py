@@ -23,6 +23,13 @@ FLAG_UNSETTLED = "unsettled"  # settle rule not met before its timeout
 FLAG_OVERLOAD = "overload"  # meter answered its overload value: no reading
 FLAG_COMPLIANCE = "compliance"  # supply left CC (hit its voltage limit) at this point
 FLAG_OUTLIER = "outlier"  # set by analysis, never by the runner
+FLAG_SOAK = "soak"  # a heat-soak reading: the operating current held, the drop read at a fixed rate
+FLAG_COOL = "cool"  # a cooling reading after the soak, at the small sense current
+#: Flags of points that belong to a heat-soak, not to the current sweep (fits of the drop leave them out).
+SOAK_FLAGS = (FLAG_SOAK, FLAG_COOL)
+#: The info notes that mark when a soak phase's current step was applied (the note's t_s is that instant).
+SOAK_STARTED = "soak started"
+COOL_STARTED = "cooling started"
 
 
 @dataclass(frozen=True)

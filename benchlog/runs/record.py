@@ -189,20 +189,32 @@ class PlanRecord:
     def limits(self) -> Table:
         return _table(self.source.get("limits"))
 
+    @property
+    def soak(self) -> Table:
+        """The heat-soak table (empty for a plan without one)."""
+        return _table(self.source.get("soak"))
+
+    def soak_readings(self) -> int:
+        """The heat-soak's readings the plan asks for (heating and cooling); 0 without a soak."""
+        soak = self.soak
+        try:
+            length = float(soak["duration_s"]) + float(soak.get("cool_s") or 0.0)
+            return int(length / float(soak["interval_s"]) + 1e-9)
+        except (KeyError, TypeError, ValueError, ZeroDivisionError):
+            return 0
+
     def planned_points(self) -> int | None:
-        """How many points the steps ask for; None for adaptive steps (they stop on a target)."""
+        """How many points the steps (and a heat-soak) ask for; None for adaptive steps (they stop on a target)."""
         steps = self.steps
         mode = steps.get("mode")
         if mode == "list":
-            return len(steps.get("currents_a") or ()) or None
-        count = steps.get("count")
-        if isinstance(count, bool) or not isinstance(count, int) or count <= 0:
-            return None
-        if mode in ("linear", "log"):
-            return count
-        if mode == "updown":
-            return 2 * count - 1
-        return None
+            sweep = len(steps.get("currents_a") or ()) or None
+        else:
+            count = steps.get("count")
+            if isinstance(count, bool) or not isinstance(count, int) or count <= 0:
+                return None
+            sweep = {"linear": count, "log": count, "updown": 2 * count - 1}.get(mode)
+        return None if sweep is None else sweep + self.soak_readings()
 
 
 @dataclass(frozen=True)

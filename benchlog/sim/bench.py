@@ -17,11 +17,10 @@ from typing import Callable
 from . import specs
 from .circuit import Drive, OperatingPoint, solve
 from .config import SimConfig
-from .elements import build_element, T0_C
+from .elements import build_element, thermal_truth, T0_C
 from .load import LoadSim
 from .meter import MeterSim
 from .supply import SupplySim
-from .thermal import step_junction_c
 
 SERIAL_PREFIX = {"supply": "S", "load": "L", "meter": "M", "current_meter": "C", "sensor": "T"}
 
@@ -35,7 +34,10 @@ class SimBench:
         self.sleep = sleep
         self.lock = threading.RLock()
         self.element = build_element(config.element, self.stream("element"), config.element_params)
+        #: the element's network with the sim's thermal time scale applied (what the bench really does)
+        self.thermal = self.element.thermal.scaled(config.thermal_time_scale)
         self.junction_c = float(config.ambient_c)
+        self.case_node_c = float(config.ambient_c)
         self._last_t = clock()
         self._op: OperatingPoint | None = None
         self._op_key: tuple | None = None
@@ -121,8 +123,8 @@ class SimBench:
         with self.lock:
             now = self.clock() if now is None else now
             dt = now - self._last_t
-            tau = self.element.thermal.tau_s
-            if dt <= 0 or dt < tau * 1e-4:
+            tau = max(self.thermal.tau_s)  # sub-steps follow P(Tj); each step is exact at constant P
+            if dt <= 0 or dt < min(self.thermal.tau_s) * 1e-4:
                 # far below the time constant: let time accumulate (Tj would move by < 0.01 % of its
                 # rise), so back-to-back messages reuse one solved operating point
                 return
@@ -131,16 +133,18 @@ class SimBench:
             h = dt / steps
             for _ in range(steps):
                 power = self.operating_point().power_w
-                if power == 0.0 and abs(self.junction_c - self.config.ambient_c) < 1e-9:
-                    self.junction_c = float(self.config.ambient_c)
+                if power == 0.0 and abs(self.junction_c - self.config.ambient_c) < 1e-9 \
+                        and abs(self.case_node_c - self.config.ambient_c) < 1e-9:
+                    self.junction_c = self.case_node_c = float(self.config.ambient_c)
                     break
-                self.junction_c = step_junction_c(self.junction_c, self.config.ambient_c, power,
-                                                  self.element.thermal, h)
+                self.junction_c, self.case_node_c = self.thermal.advance(
+                    self.junction_c, self.case_node_c, self.config.ambient_c, power, h)
             if steps == 400 and dt > 400 * tau / 20.0:
                 # a very long jump: the remaining transient has died out; settle on the fixed point
                 for _ in range(50):
                     power = self.operating_point().power_w
-                    target = self.config.ambient_c + power * self.element.thermal.rth_ja_k_per_w
+                    target = self.config.ambient_c + power * self.thermal.rth_ja_k_per_w
+                    self.case_node_c = self.config.ambient_c + power * self.thermal.rth_ca_k_per_w
                     if abs(target - self.junction_c) < 1e-9:
                         break
                     self.junction_c = target
@@ -149,7 +153,9 @@ class SimBench:
     def truth(self) -> dict:
         """The element's true parameters (at 25 °C and full enhancement) and the bench's wiring."""
         data = dict(self.element.truth())
+        data.update(thermal_truth(self.thermal))  # with the thermal time scale applied
         data.update({
+            "thermal_time_scale": self.config.thermal_time_scale,
             "at_c": T0_C,
             "ambient_c": self.config.ambient_c,
             "seed": self.config.seed,

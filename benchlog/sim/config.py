@@ -39,6 +39,9 @@ class SimConfig:
     # for tests that do not test timing (see sim/timing.py)
     timing: str = "real"
     case_sensor: bool = False  # one more socket: a meter whose temperature probe sits on the element's case
+    # every thermal time constant times this (1: the element's own; 0.05: twenty times faster, so a
+    # heat-soak test takes seconds); resistances and steady temperatures do not change
+    thermal_time_scale: float = 1.0
 
     def __post_init__(self) -> None:
         if self.element not in KINDS:
@@ -49,7 +52,7 @@ class SimConfig:
             raise ValueError(f"seed must be a whole number, got {self.seed!r}")
         for name, lo, hi in (("ambient_c", -55.0, 150.0), ("line_frequency_hz", 40.0, 70.0),
                              ("latency_s", 0.0, 60.0), ("shunt_ohm", 1e-6, 1e3),
-                             ("lead_resistance_ohm", 1e-6, 10.0)):
+                             ("lead_resistance_ohm", 1e-6, 10.0), ("thermal_time_scale", 1e-3, 1e3)):
             value = getattr(self, name)
             if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) \
                     or not lo <= value <= hi:
@@ -76,7 +79,7 @@ class SimConfig:
 
 _TOP_KEYS = ("element", "seed", "ambient_c", "line_frequency_hz", "latency_s", "host", "port",
              "meter_has_measure", "current_meter", "shunt_ohm", "lead_resistance_ohm",
-             "timing", "case_sensor", "element_params", "faults")
+             "timing", "case_sensor", "thermal_time_scale", "element_params", "faults")
 _FAULT_COUNTS = ("drop_after_commands", "garbage_after", "hang_after", "queue_error_after", "supply_trip_after",
                  "trickle_after", "stuck_on_after")
 
@@ -92,7 +95,7 @@ def load_sim_config(path: str | Path) -> SimConfig:
         values["seed"] = root.integer("seed")
     for key, lo, hi, unit in (("ambient_c", -55, 150, "°C"), ("line_frequency_hz", 40, 70, "Hz"),
                               ("latency_s", 0, 60, "s"), ("shunt_ohm", 1e-6, 1e3, "ohm"),
-                              ("lead_resistance_ohm", 1e-6, 10, "ohm")):
+                              ("lead_resistance_ohm", 1e-6, 10, "ohm"), ("thermal_time_scale", 1e-3, 1e3, "")):
         if root.has(key):
             values[key] = root.number(key, min=lo, max=hi, unit=unit)
     if root.has("host"):

@@ -139,6 +139,20 @@ class DiodeLaw:
         return shockley_current_a(drop_v, self.i_s_at(temperature_c), self.ideality, self.r_s_ohm, temperature_c)
 
 
+def thermal_of(params) -> Thermal:
+    """The element's junction–case–ambient network from its parameters."""
+    return Thermal(params.rth_ja_k_per_w, params.cth_j_per_k, params.rth_jc_k_per_w, params.cth_case_j_per_k)
+
+
+def thermal_truth(thermal: Thermal) -> dict:
+    """The network's true figures: RθJA, its parts, the time constants and the Foster terms (dominant first)."""
+    return {
+        "rth_ja_k_per_w": thermal.rth_ja_k_per_w, "cth_j_per_k": thermal.cth_j_per_k,
+        "rth_jc_k_per_w": thermal.rth_jc_k_per_w, "cth_case_j_per_k": thermal.cth_case_j_per_k,
+        "tau_s": list(thermal.tau_s), "foster_rth_k_per_w": [r for r, _ in thermal.foster()],
+    }
+
+
 class Element:
     """Interface the circuit solver uses."""
 
@@ -170,6 +184,8 @@ class DiodeParams:
     leak_doubling_k: float
     rth_ja_k_per_w: float
     cth_j_per_k: float
+    rth_jc_k_per_w: float = 0.0  # junction to case; the rest of RθJA is case to ambient
+    cth_case_j_per_k: float = 0.0  # the case node's heat capacity; 0: the single-pole model
 
 
 class Diode(Element):
@@ -178,7 +194,7 @@ class Diode(Element):
         self.params = params
         self.law = DiodeLaw(params.ideality, params.i_s_a, params.r_s_ohm, params.tempco_v_per_k)
         self.leakage = Leakage(params.leak_a, params.leak_doubling_k)
-        self.thermal = Thermal(params.rth_ja_k_per_w, params.cth_j_per_k)
+        self.thermal = thermal_of(params)
 
     def forward_drop_v(self, current_a, temperature_c, *, input_v=None, source_v=None):
         return self.law.drop_v(current_a, temperature_c) if current_a > 0 else 0.0
@@ -193,7 +209,7 @@ class Diode(Element):
             "tempco_v_per_k": p.tempco_v_per_k, "tempco_ref_a": self.law.tempco_ref_a,
             "vf_at_1a_v": self.law.drop_v(1.0, T0_C), "reverse_leak_a": p.leak_a,
             "reverse_leak_doubling_k": p.leak_doubling_k,
-            "rth_ja_k_per_w": p.rth_ja_k_per_w, "cth_j_per_k": p.cth_j_per_k,
+            **thermal_truth(self.thermal),
         }
 
 
@@ -214,6 +230,8 @@ class MosfetParams:
     leak_doubling_k: float
     rth_ja_k_per_w: float
     cth_j_per_k: float
+    rth_jc_k_per_w: float = 0.0  # junction to case; the rest of RθJA is case to ambient
+    cth_case_j_per_k: float = 0.0  # the case node's heat capacity; 0: the single-pole model
 
 
 class Mosfet(Element):
@@ -232,7 +250,7 @@ class Mosfet(Element):
         self.params = params
         self.body = DiodeLaw(params.body_ideality, params.body_i_s_a, params.body_r_s_ohm, params.body_tempco_v_per_k)
         self.leakage = Leakage(params.leak_a, params.leak_doubling_k)
-        self.thermal = Thermal(params.rth_ja_k_per_w, params.cth_j_per_k)
+        self.thermal = thermal_of(params)
 
     def channel_ohm(self, vgs_v: float, temperature_c: float) -> float | None:
         """R_DS(on) at this Vgs and Tj; None when the channel is off."""
@@ -304,7 +322,7 @@ class Mosfet(Element):
             "body_diode": {"ideality": p.body_ideality, "i_s_a": p.body_i_s_a, "r_s_ohm": p.body_r_s_ohm,
                            "tempco_v_per_k": p.body_tempco_v_per_k},
             "reverse_leak_a": p.leak_a, "reverse_leak_doubling_k": p.leak_doubling_k,
-            "rth_ja_k_per_w": p.rth_ja_k_per_w, "cth_j_per_k": p.cth_j_per_k,
+            **thermal_truth(self.thermal),
         }
 
 
@@ -314,13 +332,15 @@ class ResistorParams:
     tempco_per_k: float
     rth_ja_k_per_w: float
     cth_j_per_k: float
+    rth_jc_k_per_w: float = 0.0  # junction to case; the rest of RθJA is case to ambient
+    cth_case_j_per_k: float = 0.0  # the case node's heat capacity; 0: the single-pole model
 
 
 class Resistor(Element):
     def __init__(self, kind: str, params: ResistorParams) -> None:
         self.kind = kind
         self.params = params
-        self.thermal = Thermal(params.rth_ja_k_per_w, params.cth_j_per_k)
+        self.thermal = thermal_of(params)
 
     def ohm(self, temperature_c: float) -> float:
         return self.params.r_on_ohm * (1.0 + self.params.tempco_per_k * (temperature_c - T0_C))
@@ -334,26 +354,32 @@ class Resistor(Element):
     def truth(self) -> dict:
         p = self.params
         return {"kind": self.kind, "r_on_ohm": p.r_on_ohm, "tempco_per_k": p.tempco_per_k,
-                "rth_ja_k_per_w": p.rth_ja_k_per_w, "cth_j_per_k": p.cth_j_per_k}
+                **thermal_truth(self.thermal)}
 
 
 # -- nominal demo parts (invented) and their seeded part-to-part spread -------------------------
+# Thermal network (sim/thermal.py): a junction capacity behind RθJC (for the MOSFETs a fast pole under a
+# second) and the case and board copper behind RθCA (the dominant pole, 10–25 s), so a heat-soak
+# of the default P-MOSFET settles within a minute; `thermal_time_scale` in the sim settings scales both.
 NOMINAL: dict[str, object] = {
     "rectifier": DiodeParams(ideality=1.8, i_s_a=5e-9, r_s_ohm=0.030, tempco_v_per_k=-2.0e-3,
-                             leak_a=1e-6, leak_doubling_k=10.0, rth_ja_k_per_w=50.0, cth_j_per_k=0.5),
+                             leak_a=1e-6, leak_doubling_k=10.0, rth_ja_k_per_w=50.0, cth_j_per_k=0.4,
+                             rth_jc_k_per_w=15.0, cth_case_j_per_k=0.2),
     "schottky": DiodeParams(ideality=1.05, i_s_a=5e-8, r_s_ohm=0.040, tempco_v_per_k=-1.5e-3,
-                            leak_a=20e-6, leak_doubling_k=10.0, rth_ja_k_per_w=50.0, cth_j_per_k=0.5),
+                            leak_a=20e-6, leak_doubling_k=10.0, rth_ja_k_per_w=50.0, cth_j_per_k=0.4,
+                            rth_jc_k_per_w=15.0, cth_case_j_per_k=0.2),
     "pmos": MosfetParams(r_on_ohm=0.010, vgs_th_v=2.0, vgs_full_v=10.0, channel_fraction=0.3, tempco_per_k=0.005,
                        zener_v=None, gate_resistor_ohm=100e3, body_ideality=1.3, body_i_s_a=1e-10,
                        body_r_s_ohm=0.010, body_tempco_v_per_k=-2.0e-3, leak_a=0.1e-6, leak_doubling_k=10.0,
-                       rth_ja_k_per_w=62.5, cth_j_per_k=0.2),
+                       rth_ja_k_per_w=62.5, cth_j_per_k=0.1, rth_jc_k_per_w=12.0, cth_case_j_per_k=0.12),
     # An N-channel die of the same size has about a third of the P-channel's resistance (electron
     # mobility is 2-3x the hole mobility; common practice), so the invented N part is lower.
     "nmos": MosfetParams(r_on_ohm=0.004, vgs_th_v=1.8, vgs_full_v=10.0, channel_fraction=0.3, tempco_per_k=0.005,
                          zener_v=None, gate_resistor_ohm=100e3, body_ideality=1.3, body_i_s_a=1e-10,
                          body_r_s_ohm=0.008, body_tempco_v_per_k=-2.0e-3, leak_a=0.1e-6, leak_doubling_k=10.0,
-                         rth_ja_k_per_w=62.5, cth_j_per_k=0.2),
-    "resistor": ResistorParams(r_on_ohm=0.050, tempco_per_k=1e-4, rth_ja_k_per_w=40.0, cth_j_per_k=0.5),
+                         rth_ja_k_per_w=62.5, cth_j_per_k=0.1, rth_jc_k_per_w=12.0, cth_case_j_per_k=0.12),
+    "resistor": ResistorParams(r_on_ohm=0.050, tempco_per_k=1e-4, rth_ja_k_per_w=40.0, cth_j_per_k=0.1,
+                               rth_jc_k_per_w=10.0, cth_case_j_per_k=0.2),
 }
 KINDS = ELEMENT_KINDS
 #: The physics of each registry family.

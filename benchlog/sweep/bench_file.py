@@ -85,6 +85,8 @@ class BenchSetup:
     source: str = "bench"
     simulated: bool = False
     sensor: SensorSpec | None = None  # with a [sensor] role: where its probe sits
+    #: the simulated bench's settings that change what is measured (thermal_time_scale), for the header
+    sim_settings: dict[str, Any] | None = None
 
     def role(self, name: str) -> RoleSpec | None:
         return self.roles.get(name)
@@ -108,7 +110,7 @@ class BenchSetup:
             "line_frequency_hz": self.line_frequency_hz,
             "simulated": self.simulated,
             **({"sensor": self.sensor.to_dict()} if self.sensor is not None else {}),
-        }
+        } | ({"sim": dict(self.sim_settings)} if self.sim_settings else {})
 
 
 def load_bench(path: str | Path) -> BenchSetup:

@@ -19,6 +19,8 @@ the nearest valid name, because a typo in a limit must not silently disable it.
     [cooldown]  off_s
     [offset]    enabled (zero-current reading of the drop before power is applied)
     [reverse]   voltage_v, duration_s, max_current_a
+    [soak]      current_a, duration_s, interval_s, cool_s, sense_a, rest_s,
+                calibration_c + calibration_v (the drop at sense_a at known temperatures)
 """
 
 from __future__ import annotations
@@ -34,7 +36,9 @@ from benchlog.tomlcheck import Table, load_toml, parse_toml
 
 STEP_MODES = ("linear", "log", "list", "updown", "adaptive")
 
-_TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse")
+_TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse", "soak")
+#: A heat-soak records at most this many points per phase (heating, cooling).
+SOAK_MAX_POINTS = 100_000
 
 
 @dataclass(frozen=True)
@@ -128,6 +132,31 @@ class Reverse:
 
 
 @dataclass(frozen=True)
+class Soak:
+    """Heat-soak: hold `current_a` for `duration_s`, read the drop every `interval_s`; then follow
+    the cooling for `cool_s` at the small `sense_a`. `rest_s` with the element off comes first, so
+    the junction starts from the ambient. The calibration, if entered, is the drop at `sense_a` at
+    two or more known temperatures (the element's temperature coefficient)."""
+
+    current_a: float
+    duration_s: float
+    interval_s: float
+    cool_s: float = 0.0
+    sense_a: float | None = None  # None: a tenth of current_a
+    rest_s: float = 0.0
+    calibration_c: tuple[float, ...] = ()
+    calibration_v: tuple[float, ...] = ()
+
+    @property
+    def sense_current_a(self) -> float:
+        return self.sense_a if self.sense_a is not None else self.current_a / 10.0
+
+    @property
+    def total_s(self) -> float:
+        return self.rest_s + self.duration_s + self.cool_s
+
+
+@dataclass(frozen=True)
 class Plan:
     element: Element
     steps: Steps
@@ -139,6 +168,7 @@ class Plan:
     offset: OffsetReading
     reverse: Reverse | None
     source: str = "plan"
+    soak: Soak | None = None
 
     def to_dict(self) -> dict[str, Any]:
         """The complete plan with every default filled in: what the run header records."""
@@ -147,6 +177,8 @@ class Plan:
         for key in OPTIONAL_ELEMENT_KEYS:  # recorded only when stated, so earlier headers stay as they were
             if data["element"].get(key) is None:
                 data["element"].pop(key, None)
+        if data["soak"] is None:
+            data.pop("soak")  # plans without a soak keep the header they always had
         return _jsonable(data)
 
 
@@ -188,6 +220,7 @@ def plan_from_table(root: Table) -> Plan:
         offset=_offset(root.table("offset", required=False)),
         reverse=_reverse(root.table("reverse", required=False), limits),
         source=root.source,
+        soak=_soak(root.table("soak", required=False), limits),
     )
     return plan
 
@@ -355,3 +388,48 @@ def _reverse(t: Table | None, limits: Limits) -> Reverse | None:
         raise t.fail("max_current_a", f"is {reverse.max_current_a:g} A, above [limits].max_current_a "
                      f"{limits.max_current_a:g} A", "a reverse-current limit within the plan's limit")
     return reverse
+
+
+def _soak(t: Table | None, limits: Limits) -> Soak | None:
+    if t is None:
+        return None
+    t.only(("current_a", "duration_s", "interval_s", "cool_s", "sense_a", "rest_s", "calibration_c",
+            "calibration_v"))
+    cap = limits.max_current_a
+    current = t.number("current_a", positive=True, unit="A")
+    if current > cap:
+        raise t.fail("current_a", f"is {current:g} A, above [limits].max_current_a {cap:g} A",
+                     "a soak current within the plan's limit")
+    duration = t.number("duration_s", positive=True, max=86_400.0, unit="s")
+    interval = t.number("interval_s", positive=True, max=3600.0, unit="s")
+    if interval > duration:
+        raise t.fail("interval_s", f"is {interval:g} s, longer than duration_s {duration:g} s",
+                     "at least one reading within the soak")
+    cool = t.number("cool_s", 0.0, min=0.0, max=86_400.0, unit="s")
+    for key, length in (("duration_s", duration), ("cool_s", cool)):
+        if length / interval > SOAK_MAX_POINTS:
+            raise t.fail(key, f"is {length:g} s at interval_s {interval:g} s: {length / interval:.0f} readings",
+                         f"at most {SOAK_MAX_POINTS} readings per phase")
+    sense = t.number("sense_a", None, positive=True, unit="A")
+    if sense is not None and sense >= current:
+        raise t.fail("sense_a", f"is {sense:g} A, not below current_a {current:g} A",
+                     "a small sense current that barely heats the element")
+    temps = t.numbers("calibration_c", (), min=-60.0, max=250.0, unit="°C")
+    drops = t.numbers("calibration_v", (), unit="V")
+    if len(temps) != len(drops):
+        raise t.fail("calibration_v", f"has {len(drops)} value(s) for {len(temps)} calibration_c",
+                     "one drop per calibration temperature")
+    if temps and len(set(temps)) < 2:
+        raise t.fail("calibration_c", "has fewer than two distinct temperatures",
+                     "the drop at sense_a at two or more known temperatures")
+    if temps and sense is None:
+        raise t.fail("sense_a", "is missing, but a calibration is entered",
+                     "the sense current the calibration drops were measured at")
+    soak = Soak(current_a=current, duration_s=duration, interval_s=interval, cool_s=cool, sense_a=sense,
+                rest_s=t.number("rest_s", 0.0, min=0.0, max=86_400.0, unit="s"),
+                calibration_c=tuple(temps), calibration_v=tuple(drops))
+    if limits.max_time_s is not None and soak.total_s > limits.max_time_s:
+        raise t.fail("duration_s", f"rest_s + duration_s + cool_s is {soak.total_s:g} s, above "
+                     f"[limits].max_time_s {limits.max_time_s:g} s", "a soak the time limit allows")
+    return soak
+

@@ -29,8 +29,12 @@ from benchlog import __version__
 from benchlog.instruments.contract import Idn
 from benchlog.kinds import kind as element_kind
 from benchlog.runs.events import (
+    COOL_STARTED,
     FLAG_COMPLIANCE,
+    FLAG_COOL,
+    FLAG_SOAK,
     FLAG_UNSETTLED,
+    SOAK_STARTED,
     Event,
     Note,
     Offset,
@@ -54,8 +58,8 @@ from benchlog.runs.record import (
 from .plan import Plan
 from .protection import program_protection
 from .rig import Rig, drop_range_v, measurement_accuracy, reverse_limit_a
-from .settle import Interrupted, Overload, settle
-from .steps import FixedSteps, StepSource, schedule
+from .settle import Interrupted, Overload, Settled, mean_of, settle
+from .steps import FixedSteps, Step, StepSource, schedule
 
 #: The reverse step counts only if the supply really held this fraction of its voltage.
 REVERSE_APPLIED_FRACTION = 0.9
@@ -144,8 +148,10 @@ class SweepRunner:
     # -- public --------------------------------------------------------------
     @property
     def planned(self) -> int:
-        """Points to expect (an upper bound for adaptive stepping)."""
-        return self.steps.planned
+        """Points to expect (an upper bound for adaptive stepping), the heat-soak's readings included."""
+        soak = self.plan.soak
+        extra = 0 if soak is None else int((soak.duration_s + soak.cool_s) / soak.interval_s + 1e-9)
+        return self.steps.planned + extra
 
     def cancel(self) -> None:
         """Ask the sweep to stop; safe from any thread. The safe state follows within one step."""
@@ -283,6 +289,9 @@ class SweepRunner:
         if state is not None:
             yield self._emit(Note(self._t(), "info", f"adaptive stepping: {state.reason}"))
         rig.check_errors("sweep")
+        if plan.soak is not None:
+            yield from self._soak()
+            rig.check_errors("heat-soak")
         if plan.reverse is not None:
             yield from self._reverse()
             rig.check_errors("reverse step")
@@ -297,10 +306,68 @@ class SweepRunner:
             raise _Stop("cancelled", "cancel", "cancelled by the operator before power was applied") from None
         yield self._emit(Offset(self._t(), reading.value))
 
-    def _read_point(self, index: int, step) -> tuple[Point | None, _Stop | None]:
+    def _soak(self) -> Iterator[Event]:
+        """Hold the soak current and read the drop at a fixed rate; then follow the cooling at the sense current.
+
+        One reading per point, no settle rule: the drift is the measurement. The info note
+        before each phase carries, as its t_s, the instant the current step was applied (the
+        middle of the command that applied it), from which the analysis counts time.
+        """
+        soak, rig = self.plan.soak, self.rig
+        assert soak is not None
+        rig.element_off()
+        if rig.wiring.force == "load":
+            # with the load's input off, the supply would still drive its leads: all off for the rest
+            rig.supply.set_output(False)
+        self._pause(soak.rest_s)
+        self._check_cancel()
+        phases = [(SOAK_STARTED, soak.current_a, soak.duration_s, FLAG_SOAK)]
+        if soak.cool_s > 0:
+            phases.append((COOL_STARTED, soak.sense_current_a, soak.cool_s, FLAG_COOL))
+        for title, current_a, length_s, flag in phases:
+            self._check_cancel()
+            if flag == FLAG_SOAK:
+                rig.set_current(current_a)
+                before = self._t()
+                rig.power_on()
+            else:
+                before = self._t()
+                rig.set_current(current_a)  # the element stays on: the step down is the cooling's start
+            after = self._t()
+            start = (before + after) / 2.0
+            yield self._emit(Note(start, "info", f"{title}: {current_a:g} A applied (step instant known "
+                                  f"within ±{(after - before) / 2.0 * 1e3:.1f} ms); a reading every "
+                                  f"{self.plan.soak.interval_s:g} s for {length_s:g} s"))
+            count = int(math.floor(length_s / soak.interval_s + 1e-9))
+            for k in range(1, count + 1):
+                self._pause(start + k * soak.interval_s - self._t())
+                self._check_cancel()
+                self._check_time()
+                t_before = self._t()
+                try:
+                    value = mean_of(rig.read_drop())
+                except Overload:
+                    rig.element_off()
+                    rng = rig.ranges.get("meter", 0.0)
+                    raise _Stop("limit", "limit", f"meter overload during the {flag} phase at {current_a:g} A: "
+                                f"the drop is beyond the {rng:g} V range (no reading)") from None
+                t_read = (t_before + self._t()) / 2.0
+                point, stop = self._read_point(len(self.points), Step(current_a), reading=Settled(value, 1, True),
+                                               t_s=t_read, flags=(flag,))
+                if point is not None:
+                    self.points.append(point)
+                    yield self._emit(point)
+                if stop is not None:
+                    raise stop
+                self._checkpoint()
+        rig.element_off()
+
+    def _read_point(self, index: int, step, *, reading: Settled | None = None, t_s: float | None = None,
+                    flags: tuple[str, ...] = ()) -> tuple[Point | None, _Stop | None]:
         plan, rig, lim = self.plan, self.rig, self.plan.limits
         try:
-            reading = settle(rig.read_drop, plan.settle, self._clock, self._cancel.is_set)
+            if reading is None:
+                reading = settle(rig.read_drop, plan.settle, self._clock, self._cancel.is_set)
         except Overload:
             rig.element_off()
             rng = rig.ranges.get("meter", 0.0)
@@ -311,8 +378,8 @@ class SweepRunner:
         current = rig.read_current()
         mode = rig.supply.mode()
         supply_v = rig.supply.measure_voltage() if plan.record.supply_v else None
-        t_s = self._t()
-        flags: list[str] = []
+        t_s = self._t() if t_s is None else t_s
+        flags: list[str] = list(flags)
         if not reading.settled:
             flags.append(FLAG_UNSETTLED)
         # Neither CV nor CC while the output should be on: the supply switched itself off.

@@ -27,6 +27,8 @@ class RunFindings:
     check_error: str = ""
     self_heating: Any = None
     notes: tuple[str, ...] = field(default=())
+    soak: Any = None  # benchlog.analysis.thermal_response.SoakResult of a heat-soak run
+    soak_error: str = ""
 
     @property
     def verdict(self) -> str | None:
@@ -67,7 +69,17 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
             check = check_run(frame, meta, spec)
         except Exception as exc:
             check_error = _sentence(exc)
-    return RunFindings(path, frame, meta, model, fit, fit_error, spec, spec_path, check, check_error, self_heating)
+    soak = None
+    soak_error = ""
+    try:
+        from benchlog.analysis.thermal_response import analyse_soak, has_soak
+
+        if has_soak(frame):
+            soak = analyse_soak(frame, meta, spec)
+    except Exception as exc:
+        soak_error = _sentence(exc)
+    return RunFindings(path, frame, meta, model, fit, fit_error, spec, spec_path, check, check_error, self_heating,
+                       soak=soak, soak_error=soak_error)
 
 
 def _sentence(exc: BaseException) -> str:

@@ -7,7 +7,7 @@ simulator's ideality — the nominal of the part family (`benchlog.sim.elements.
 and the seeded part itself (`SimBench.truth()`, the spread drawn from the same
 seed as the recording) — within the expanded uncertainty, with u(n)/n below 10 %.
 The sweeps use a cool-down between points, so the junction stays close to ambient
-(`benchlog.sim.thermal`: τ = RθJA·Cth = 25 s against 20 ms of dwell per point).
+(`benchlog.sim.thermal`: a dominant τ of about 25 s against 20 ms of dwell per point).
 """
 
 from pathlib import Path

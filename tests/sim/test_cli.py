@@ -75,6 +75,8 @@ def test_sim_prints_resources_serves_pyvisa_and_ends_on_sigterm(sim_process, tmp
     assert all(r.startswith("TCPIP0::127.0.0.1::") and r.endswith("::SOCKET") for r in resources.values())
     data = json.loads(truth.read_text())
     assert data["kind"] == "rectifier" and {"ideality", "i_s_a", "r_s_ohm", "rth_ja_k_per_w"} <= set(data)
+    # the junction–case–ambient network: its time constants as a list, dominant first
+    assert isinstance(data["tau_s"], list) and len(data["tau_s"]) == 2 and data["tau_s"][0] > data["tau_s"][1]
 
     # a plain pyvisa-py script, SCPI-99 long forms
     rm = pyvisa.ResourceManager("@py")

@@ -29,12 +29,23 @@ def test_config_file_round_trip(tmp_path):
     assert config.faults == FaultPlan(hang_after=5, role="meter")
 
 
+def test_thermal_settings_from_a_file(tmp_path):
+    path = tmp_path / "sim.toml"
+    path.write_text('element = "pmos"\nthermal_time_scale = 0.05\n[element_params]\nrth_jc_k_per_w = 8.0\n'
+                    "cth_case_j_per_k = 0.3\n")
+    config = load_sim_config(path)
+    assert config.thermal_time_scale == 0.05
+    assert dict(config.element_params) == {"rth_jc_k_per_w": 8.0, "cth_case_j_per_k": 0.3}
+
+
 @pytest.mark.parametrize(
     "text, where",
     [
         ('element = "triode"\n', "element"),
         ("seed = 1.5\n", "seed"),
         ("latency_s = -1\n", "latency_s"),
+        ("thermal_time_scale = 0\n", "thermal_time_scale"),
+        ('element = "pmos"\n[element_params]\ncth_case = 0.1\n', "[element_params].cth_case"),
         ("colour = 1\n", "colour"),
         ('element = "pmos"\n[element_params]\nr_on = 0.01\n', "[element_params].r_on"),
         ("[faults]\nhang_after = -2\n", "[faults].hang_after"),

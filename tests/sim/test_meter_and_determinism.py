@@ -89,10 +89,11 @@ def test_truth_keys_are_si_suffixed(sim_bench):
 
 def test_self_heating_follows_the_injected_clock_to_jesd51_steady_state(sim_bench, clients):
     # 2 A through a 10 mΩ element with RθJA = 62.5 K/W at 25 °C: Tj = Ta + P·RθJA = 27.5 °C (JESD51-2).
+    # No case capacity: the network's single-pole special case, τ = RθJA·Cth.
     now = [0.0]
     running = sim_bench("resistor", seed=1, clock=lambda: now[0],
                         element_params={"r_on_ohm": 0.010, "tempco_per_k": 0.0, "rth_ja_k_per_w": 62.5,
-                                        "cth_j_per_k": 0.2})
+                                        "cth_j_per_k": 0.2, "cth_case_j_per_k": 0.0})
     supply = clients.open(running.resources["supply"])
     supply.write("VOLT 12;CURR 2;OUTP ON")
     supply.query("*OPC?")

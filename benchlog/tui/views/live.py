@@ -6,7 +6,10 @@ redraws stay at ~15 per second however fast the points come.
 
 from __future__ import annotations
 
+import numpy as np
 from textual.app import ComposeResult
+
+from benchlog.runs.events import FLAG_SOAK, SOAK_STARTED
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.widgets import DataTable, Static
@@ -28,6 +31,8 @@ class LiveView(View):
 
     _latest_of = None  # the run and point count the latest-points table shows
     _latest_count = -1
+    _soak_key: tuple | None = None  # the run, point and note counts the soak drift was built from
+    _soak = None
 
     def body(self) -> ComposeResult:
         yield Plain("", id="live-head")
@@ -64,8 +69,19 @@ class LiveView(View):
 
         data = live.arrays()
         self.query_one("#plot-vi", CurvePlot).show([Series("drop (measured)", data["current_a"], data["drop_v"])])
-        self.query_one("#plot-loss", CurvePlot).show([Series("loss I·V", data["current_a"], data["power_w"],
-                                                             style="series-b")])
+        key = (id(live), len(live.points), len(live.notes))
+        if self._soak_key != key:  # rebuilt only when a point arrived, so an unchanged plot is not redrawn
+            self._soak_key, self._soak = key, soak_drift(live)
+        soak = self._soak
+        if soak is not None:
+            # a heat-soak: the drop's drift against time since the current step (ΔTj needs the analysis: 4)
+            self.query_one("#plot-loss", CurvePlot).show(
+                [Series("drop while soaking", soak[0], soak[1], style="series-b")],
+                x_axis=Axis("time since step", "s"), y_axis=Axis("drop", "V"))
+        else:
+            self.query_one("#plot-loss", CurvePlot).show([Series("loss I·V", data["current_a"], data["power_w"],
+                                                                 style="series-b")],
+                                                         x_axis=Axis("current", "A"), y_axis=Axis("loss", "W"))
         self._show_limits(live, elapsed)
         self._show_latest(live)
         self._show_alert(live)
@@ -112,6 +128,17 @@ class LiveView(View):
 
     def action_run(self) -> None:
         self.app.request_sweep()
+
+
+def soak_drift(live) -> tuple[np.ndarray, np.ndarray] | None:
+    """(s since the soak's current step, drop) of the heat-soak readings so far; None before any."""
+    start = next((n.t_s for n in live.notes if n.kind == "info" and n.message.startswith(SOAK_STARTED + ":")), None)
+    if start is None:
+        return None
+    points = [p for p in live.points if FLAG_SOAK in p.flags]
+    if not points:
+        return None
+    return (np.array([p.t_s - start for p in points]), np.array([p.drop_v for p in points]))
 
 
 def _safe_state(outcome, finished) -> tuple[str, str] | None:

@@ -87,6 +87,7 @@ class ResultsView(View):
     TITLE_TEXT = "Results"
     BINDINGS = [
         Binding("t", "toggle_plot", "Curve/residuals"),
+        Binding("h", "toggle_soak", "Heat-soak"),
         Binding("m", "next_model", "Model"),
         Binding("k", "next_spec", "Spec"),
         Binding("e", "export", "Export report"),
@@ -95,11 +96,13 @@ class ResultsView(View):
     def __init__(self) -> None:
         super().__init__()
         self.show_residuals = False
+        self.show_soak = False
 
     def body(self) -> ComposeResult:
         with Horizontal(id="results-body"):
             with VerticalScroll(id="results-text"):
                 yield Plain("", id="verdict")
+                yield Plain("", id="soak")
                 yield Plain("", id="fit-table")
                 yield Plain("", id="operating")
                 yield Plain("", id="warnings")
@@ -113,14 +116,16 @@ class ResultsView(View):
         if findings is None:
             waiting = "analysing the run …" if self.app.state.findings_busy else "no run analysed yet"
             verdict.update(f" {waiting}\n Run a sweep (2 then r) or open one from the archive (6).")
-            for name in ("#fit-table", "#operating", "#warnings"):
+            for name in ("#fit-table", "#operating", "#warnings", "#soak"):
                 self.query_one(name, Static).update("")
+            self.query_one("#soak", Static).display = False
             self.query_one("#results-plot", CurvePlot).show([])
             return
         self._show_verdict(findings)
         self._show_fit(findings)
         self._show_operating(findings)
         self._show_warnings(findings)
+        self._show_soak(findings)
         self._show_plot(findings)
 
     def _show_verdict(self, f: RunFindings) -> None:
@@ -193,11 +198,35 @@ class ResultsView(View):
             lines.extend(f" · {n}" for n in f.fit.notes)
         box.update("\n".join(lines))
 
+    def _show_soak(self, f: RunFindings) -> None:
+        box = self.query_one("#soak", Static)
+        box.display = f.soak is not None or bool(f.soak_error)  # no empty line in a run without a soak
+        if f.soak is None:
+            box.update(f" heat-soak: ✘ {f.soak_error}" if f.soak_error else "")
+            return
+        from benchlog.analysis.thermal_response import soak_text
+
+        box.update("\n".join(" " + line for line in soak_text(f.soak)) + "\n (h: ΔTj against time)")
+
+    def _show_soak_plot(self, plot: CurvePlot, soak) -> None:
+        t = np.asarray(soak.t_s, dtype=float)
+        series = [line_series(f"{soak.chosen.poles}-pole fit", 0.0, float(t[-1]),
+                              lambda x: float(soak.curve(np.array([x]))[0])),
+                  Series("ΔTj from the drift", t, np.asarray(soak.delta_tj_k, dtype=float))]
+        if soak.cool_t_s is not None:
+            series.append(Series("cooling", np.asarray(soak.cool_t_s, float),
+                                 np.asarray(soak.cool_delta_tj_k, float), style="series-b"))
+        plot.show(series, x_axis=Axis("time since step", "s"), y_axis=Axis("ΔTj", "K"))
+
     def _show_plot(self, f: RunFindings) -> None:
         plot = self.query_one("#results-plot", CurvePlot)
+        if self.show_soak and f.soak is not None:
+            self._show_soak_plot(plot, f.soak)
+            return
         if f.fit is None:
             current = f.frame["current_a"].to_numpy(float)
-            plot.show([Series("measured", current, f.frame["drop_v"].to_numpy(float))])
+            plot.show([Series("measured", current, f.frame["drop_v"].to_numpy(float))],
+                      x_axis=Axis("current", "A"), y_axis=Axis("drop", "V"))
             return
         fit = f.fit
         if self.show_residuals:
@@ -215,6 +244,15 @@ class ResultsView(View):
 
     def action_toggle_plot(self) -> None:
         self.show_residuals = not self.show_residuals
+        self.show_soak = False
+        self.refresh_view()
+
+    def action_toggle_soak(self) -> None:
+        findings = self.app.state.findings
+        if findings is None or findings.soak is None:
+            self.app.say("This run has no heat-soak to show.")
+            return
+        self.show_soak = not self.show_soak
         self.refresh_view()
 
     def action_next_model(self) -> None:
