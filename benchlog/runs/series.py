@@ -1,0 +1,40 @@
+"""Series within one run: the points of an input-voltage sweep, one series per input voltage.
+
+A point of series k carries the flag ``input_<k>`` (k = 0, 1, ...; flags are the
+point record's own field, so files without series load as before); series k was
+run at ``plan.input.voltages_v[k]`` of the run header, and an info note marks its
+start (``SERIES_STARTED``). A point without such a flag belongs to no series.
+"""
+
+from __future__ import annotations
+
+import re
+
+SERIES_FLAG_PREFIX = "input_"
+SERIES_STARTED = "input series"  # the note's message starts with this
+_SERIES = re.compile(r"input_(\d{1,4})\Z")
+
+
+def series_flag(k: int) -> str:
+    """The flag of the points of series `k`."""
+    return f"{SERIES_FLAG_PREFIX}{int(k)}"
+
+
+def series_of(flags) -> int | None:
+    """The series a point's flags (a tuple, or "|"-joined text) put it in; None: no series."""
+    words = flags.split("|") if isinstance(flags, str) else (flags or ())
+    for word in words:
+        m = _SERIES.match(word)
+        if m:
+            return int(m.group(1))
+    return None
+
+
+def series_inputs_v(plan: dict | None) -> tuple[float, ...]:
+    """The input voltages of the series, from the header's plan table (empty: not an input sweep)."""
+    table = (plan or {}).get("input") or {}
+    values = table.get("voltages_v") or ()
+    return tuple(float(v) for v in values if isinstance(v, (int, float)) and not isinstance(v, bool))
+
+
+__all__ = ["SERIES_FLAG_PREFIX", "SERIES_STARTED", "series_flag", "series_of", "series_inputs_v"]
