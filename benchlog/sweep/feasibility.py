@@ -35,6 +35,9 @@ def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
             "force = 'load' with input_v above the gate threshold, [element].gate = 'driven', or "
             "[element].measure = 'body_diode' to measure the body diode on purpose",
         )
+    if plan.input is not None and w.force != "load":
+        raise BadInput(bench.source, "[wiring].force", "is 'supply', but the plan sweeps the input voltage ([input])",
+                       "force = 'load': the supply holds each input voltage while the load sets the current")
     if w.force == "supply":
         if lim.compliance_v is None:
             raise BadInput(plan.source, "[limits].compliance_v", "is missing",
@@ -74,9 +77,6 @@ def _check_input_sweep(plan: Plan, bench: BenchSetup, floor: float, gate_on_supp
                        warnings: list[str]) -> None:
     """An input-voltage sweep: the load wiring only (the supply holds each input), each input within the limits."""
     w, lim, e = bench.wiring, plan.limits, plan.element
-    if w.force != "load":
-        raise BadInput(bench.source, "[wiring].force", "is 'supply', but the plan sweeps the input voltage ([input])",
-                       "force = 'load': the supply holds each input voltage while the load sets the current")
     for i, v in enumerate(plan.input.voltages_v):
         if lim.compliance_v is not None and v > lim.compliance_v:
             raise BadInput(plan.source, f"[input].voltages_v[{i}]",
