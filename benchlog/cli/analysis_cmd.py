@@ -198,10 +198,18 @@ def _check(args) -> int:
 
     _argument("--at", args.at, positive=True)
     spec = load_spec(args.spec)
-    frame, meta = load(args.run)
+    from .sweeps_out import focus_frame, print_sweeps, sweeps_payload
+
+    whole, meta = load(args.run)
+    frame, focus = focus_frame(whole, meta)
     c = check_run(frame, meta, spec, at_a=args.at)
+    sweeps = sweeps_payload(whole, meta, spec=spec, operating_a=c.current_a)
     if args.json:
-        print_json(check_entry(c))
+        entry = check_entry(c)
+        if focus:
+            entry["notes"].insert(0, focus)
+        entry.update(sweeps)
+        print_json(entry)
     else:
         print(f"{c.outcome.upper()}  {c.part}, run {c.run}")
         print(f"  at {c.current_a:.4g} A ({c.current_source}), ambient {c.ambient_c:g} °C, fit: {c.model}")
@@ -224,10 +232,15 @@ def _check(args) -> int:
               f"at Tj {_fmt(c.predicted.tj_c, '.1f', '°C')}")
         print(f"  {c.typical_comparison}")
         print(f"  rule: {c.verdict.rule}")
+        print_sweeps(sweeps)
+        if focus:
+            print(f"  note: {focus}")
         for note in c.notes:
             if note not in flagged:
                 print(f"  note: {note}")
-    return EXIT_CODES[c.outcome]
+    leak = sweeps.get("leakage_sweep")
+    # a leakage sweep that fails fails the check, whatever the forward verdict says
+    return EXIT_CODES["fail" if leak and leak["outcome"] == "fail" else c.outcome]
 
 
 # --------------------------------------------------------------------------- lot

@@ -59,6 +59,10 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
     """Fit the run and build the JSON-ready result (also what the human output prints from)."""
     from benchlog.analysis.fits import detect_self_heating, fit_knee, fit_run
 
+    from .sweeps_out import focus_frame, sweeps_payload
+
+    whole = frame
+    frame, focus = focus_frame(frame, meta)
     fit = fit_run(frame, meta, args.model, exclude_outliers=args.exclude_outliers)
     heating = detect_self_heating(frame, fit, args.tempco)
     payload: dict[str, Any] = {
@@ -93,9 +97,10 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         "tj_c": fit.tj.value_c if fit.tj is not None else None,
         "tj_u_c": fit.tj.u_c if fit.tj is not None else None,
         "tj_source": fit.tj.source if fit.tj is not None else None,
-        "notes": list(fit.notes),
+        "notes": ([focus] if focus else []) + list(fit.notes),
         "drop_at": [],
     }
+    payload.update(sweeps_payload(whole, meta))
     for current in args.at:
         budget = fit.drop_budget_at(current)
         value, _ = fit.drop_at(current)
@@ -153,6 +158,9 @@ def print_human(payload: dict[str, Any]) -> None:
         print(f"  knee line above {knee['above_a']:.4g} A:")
         for key in _in_print_order(knee["params"], ("v_knee_v", "r_d_ohm")):
             print("    " + _value(key, knee["params"][key], knee["std_u"][key], knee["expanded_u"][key]))
+    from .sweeps_out import print_sweeps
+
+    print_sweeps(payload)
     for note in payload["notes"]:
         print(f"  note: {note}")
 
