@@ -109,6 +109,21 @@ def has_series(frame, meta) -> bool:
     return bool(series_inputs_v(_plan_table(getattr(meta, "header", None)))) and bool((series_column(frame) >= 0).any())
 
 
+def focus_frame(frame, meta):
+    """The points a single-series fit or verdict takes: the highest input of an input sweep, else all of them.
+
+    Returns (frame, note); the note says which series was taken (None: the run has no series).
+    """
+    if not has_series(frame, meta):
+        return frame, None
+    inputs = series_inputs_v(_plan_table(getattr(meta, "header", None)))
+    top = max(range(len(inputs)), key=lambda k: inputs[k])
+    rows = series_column(frame) == top
+    return frame[rows].reset_index(drop=True), (
+        f"input sweep: the single fit takes the series at the highest input, {inputs[top]:g} V "
+        f"({int(rows.sum())} points); each input is fitted in 'series'")
+
+
 def _drop_at(current: np.ndarray, drop: np.ndarray, at_a: float, fit) -> tuple[float | None, str]:
     order = np.argsort(current)
     c, d = current[order], drop[order]
@@ -216,5 +231,5 @@ def _takeover(rows: list[InputSeries], operating_a: float) -> tuple[float | None
                        f"takeover {mid:.3g} ± {half:.2g} V")
 
 
-__all__ = ["InputSeries", "InputSweepResult", "analyse_input_sweep", "has_series", "series_column",
+__all__ = ["InputSeries", "InputSweepResult", "analyse_input_sweep", "focus_frame", "has_series", "series_column",
            "BODY_DIODE_DROP_V", "CONDUCTION_RULE"]

@@ -7,59 +7,17 @@ from typing import Any
 
 
 def focus_frame(frame, meta):
-    """The points a single-series fit or verdict takes: the highest input of an input sweep, else all of them."""
-    from benchlog.analysis.input_sweep import has_series, series_column, _plan_table
-    from benchlog.runs.series import series_inputs_v
+    """`analysis.input_sweep.focus_frame`: the highest input's series of an input sweep, else every point."""
+    from benchlog.analysis.input_sweep import focus_frame as focus
 
-    if not has_series(frame, meta):
-        return frame, None
-    inputs = series_inputs_v(_plan_table(meta.header))
-    top = max(range(len(inputs)), key=lambda k: inputs[k])
-    rows = series_column(frame) == top
-    return frame[rows].reset_index(drop=True), (
-        f"input sweep: the single fit takes the series at the highest input, {inputs[top]:g} V "
-        f"({int(rows.sum())} points); each input is fitted in 'series'")
-
-
-def _operating_a(meta, given: float | None) -> float | None:
-    if given is not None:
-        return given
-    element = getattr(meta, "element", None)
-    value = element.get("operating_a") if isinstance(element, dict) else getattr(element, "operating_a", None)
-    return float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else None
+    return focus(frame, meta)
 
 
 def sweeps_payload(frame, meta, *, spec=None, operating_a: float | None = None) -> dict[str, Any]:
-    """`series`, `takeover_v` and `leakage` (empty or None when the run has no such sweep)."""
-    from benchlog.analysis.input_sweep import analyse_input_sweep
-    from benchlog.analysis.leakage_sweep import analyse_leakage, leakage_entry, run_temperature
-    from benchlog.runs import read_events
-    from benchlog.runs.events import ReverseResult
+    """`analysis.run_sweeps.sweeps_payload`: `series`, `takeover_v` and `leakage` of a loaded run."""
+    from benchlog.analysis.run_sweeps import sweeps_payload as payload
 
-    temperature_c, source = run_temperature(frame, meta)
-    out: dict[str, Any] = {"series": [], "takeover_v": None}
-    s = analyse_input_sweep(frame, meta, operating_a=_operating_a(meta, operating_a), spec=spec,
-                            ambient_c=temperature_c)
-    if s is not None:
-        out["series"] = [
-            {"input_v": x.input_v, "points": x.points, "conduction": x.conduction, "r_on_ohm": x.r_on_ohm,
-             "r_on_expanded_u_ohm": x.r_on_u_ohm, "vgs_v": x.vgs_v, "drop_v": x.drop_v, "loss_w": x.loss_w,
-             "spec_r_on_ohm": x.spec_r_on_ohm, "spec_r_on_max_ohm": x.spec_r_on_max_ohm, "note": x.note}
-            for x in s.series]
-        out.update({
-            "operating_a": s.operating_a, "takeover_v": s.takeover_v, "takeover_u_v": s.takeover_u_v,
-            "takeover_note": s.takeover_note, "predicted_takeover_v": s.predicted_takeover_v,
-            "predicted_full_takeover_v": s.predicted_full_v, "predicted_note": s.predicted_note,
-            "takeover_agrees": s.agrees, "conduction_rule": s.rule,
-            "worst_input_v": None if s.worst is None else s.worst.input_v,
-            "worst_loss_w": None if s.worst is None else s.worst.loss_w,
-        })
-    reverse = [e for e in read_events(meta.path) if isinstance(e, ReverseResult)] if getattr(meta, "path", None) else []
-    sweep = analyse_leakage(reverse, temperature_c, source, spec=spec) if len(reverse) > 1 else None
-    entry = leakage_entry(sweep)
-    out["leakage"] = entry["leakage"] if entry else []
-    out["leakage_sweep"] = entry
-    return out
+    return payload(frame, meta, spec=spec, operating_a=operating_a)
 
 
 def _g(x: float | None, fmt: str, unit: str = "") -> str:

@@ -112,3 +112,30 @@ def test_fit_text_shows_the_leakage_sweep(leakage_run, capsys):
     assert main(["fit", str(path)]) == 0
     out = capsys.readouterr().out
     assert "leakage sweep" in out and "25 V" in out
+
+
+def _sections(doc):
+    return {sec.title: sec for s in doc.sections for sec in s.walk()}
+
+
+def test_report_has_the_input_sweep_section_with_its_figure(input_run):
+    from benchlog.report.build import build_report
+
+    path, _ = input_run
+    doc = build_report([path], spec_path=DEMO / "specs" / "demo-pfet-10m.toml")
+    sec = _sections(doc)["Input-voltage sweep"]
+    table = sec.blocks[0]
+    assert [row[0] for row in table.rows] == ["12 V", "6 V", "4 V", "3.2 V", "2.6 V", "1.7 V"]
+    assert any(getattr(b, "name", "") == "input" for b in sec.blocks)
+    assert any("Takeover:" in getattr(b, "text", "") for b in sec.blocks)
+
+
+def test_report_has_the_leakage_section_on_a_log_scale(leakage_run):
+    from benchlog.report.build import build_report
+
+    path, _ = leakage_run
+    doc = build_report([path], spec_path=DEMO / "specs" / "demo-schottky-2a.toml")
+    sec = _sections(doc)["Reverse-leakage sweep"]
+    fig = next(b for b in sec.blocks if getattr(b, "name", "") == "leakage").figure
+    assert fig.axes[0].get_yscale() == "log"
+    assert len(sec.blocks[0].rows) == 5
