@@ -27,6 +27,7 @@ class RunFindings:
     check_error: str = ""
     self_heating: Any = None
     notes: tuple[str, ...] = field(default=())
+    sweeps: Any = None  # benchlog.analysis.run_sweeps.sweeps_payload: input and leakage sweeps, when the run has them
 
     @property
     def verdict(self) -> str | None:
@@ -38,7 +39,10 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
     """Load `path`, fit it with `model`, and judge it against the spec when one is given."""
     from benchlog.runs import load
 
-    frame, meta = load(path)
+    from benchlog.analysis.input_sweep import focus_frame
+
+    whole, meta = load(path)
+    frame, focus = focus_frame(whole, meta)  # an input sweep: the single fit takes the highest input's series
     fit = None
     fit_error = ""
     self_heating = None
@@ -67,7 +71,15 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
             check = check_run(frame, meta, spec)
         except Exception as exc:
             check_error = _sentence(exc)
-    return RunFindings(path, frame, meta, model, fit, fit_error, spec, spec_path, check, check_error, self_heating)
+    sweeps = None
+    try:
+        from benchlog.analysis.run_sweeps import sweeps_payload
+
+        sweeps = sweeps_payload(whole, meta, spec=spec)
+    except Exception as exc:  # the sweeps are an addition: their failure must not hide the fit
+        check_error = check_error or _sentence(exc)
+    return RunFindings(path, frame, meta, model, fit, fit_error, spec, spec_path, check, check_error, self_heating,
+                       notes=(focus,) if focus else (), sweeps=sweeps)
 
 
 def _sentence(exc: BaseException) -> str:
