@@ -11,7 +11,7 @@ import pytest
 
 from benchlog.analysis.input_sweep import analyse_input_sweep
 from benchlog.badinput import BadInput
-from benchlog.runs import load, read_events
+from benchlog.runs import load, read_events, replay
 from benchlog.runs.events import Note, Point
 from benchlog.runs.series import series_of
 from benchlog.sweep.bench_file import Wiring
@@ -41,6 +41,8 @@ def test_input_sweep_finds_the_body_diode_takeover(sim_bench, tmp_path, kind):
     assert [series_of(p.flags) for p in rec.points] == [k for k in range(len(inputs)) for _ in range(4)]
     starts = [e.message for e in read_events(rec.path) if isinstance(e, Note) and e.message.startswith("input series")]
     assert starts == [f"input series {k}: input {v:g} V" for k, v in enumerate(inputs)]
+    # a replay yields the same points, each with its series (the UI and the analysis see one stream)
+    assert [e for e in replay(rec.path) if isinstance(e, Point)] == rec.points
     # the supply held each input (its read-back of its own output voltage)
     for p in rec.points:
         assert p.supply_v == pytest.approx(inputs[series_of(p.flags)], abs=0.05)
