@@ -122,7 +122,7 @@ def sweep_plot(p):
 class ResultsView(View):
     TITLE_TEXT = "Results"
     BINDINGS = [
-        Binding("t", "toggle_plot", "Curve/residuals/sweep"),
+        Binding("t", "toggle_plot", "Curve/residuals"),
         Binding("m", "next_model", "Model"),
         Binding("k", "next_spec", "Spec"),
         Binding("e", "export", "Export report"),
@@ -153,13 +153,17 @@ class ResultsView(View):
             verdict.update(f" {waiting}\n Run a sweep (2 then r) or open one from the archive (6).")
             for name in ("#fit-table", "#operating", "#warnings", "#sweeps"):
                 self.query_one(name, Static).update("")
+            self.query_one("#sweeps", Static).display = False
             self.query_one("#results-plot", CurvePlot).show([])
             return
         self._show_verdict(findings)
         self._show_fit(findings)
         self._show_operating(findings)
         self._show_warnings(findings)
-        self.query_one("#sweeps", Static).update("\n".join(sweep_lines(findings.sweeps)))
+        lines = sweep_lines(findings.sweeps)
+        box = self.query_one("#sweeps", Static)
+        box.update("\n".join(lines))
+        box.display = bool(lines)  # a run without sweeps shows exactly what it did before
         if self.show_sweep and sweep_plot(findings.sweeps) is not None:
             series, x_axis, y_axis = sweep_plot(findings.sweeps)
             self.query_one("#results-plot", CurvePlot).show(series, x_axis=x_axis, y_axis=y_axis)
