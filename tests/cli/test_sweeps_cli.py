@@ -65,9 +65,13 @@ def test_fit_json_gives_r_per_input_and_the_takeover(input_run, capsys):
     # the single fit is the 12 V series: the same R as its series entry
     assert d["params"]["r_on_ohm"] == pytest.approx(top["r_on_ohm"], rel=1e-9)
     assert d["series"][-1]["conduction"] == "body_diode" and d["series"][-1]["r_on_ohm"] is None
-    assert 1.7 < d["takeover_v"] < 3.2 and d["worst_input_v"] == 1.7
-    # loss = I·V at the operating current (1 A): the worst is the body diode's drop times 1 A
-    assert d["worst_loss_w"] == pytest.approx(d["series"][-1]["drop_v"] * 1.0)
+    # 2.6 V lies in the band where channel and body diode are both self-consistent (the circuit's history
+    # decides), so the takeover is bracketed by 1.7–2.6 V or 2.6–3.2 V
+    assert 1.7 < d["takeover_v"] < 3.2
+    # loss = I·V at the operating current (1 A); the worst is the largest, on the body diode
+    worst = max(d["series"], key=lambda x: x["loss_w"])
+    assert d["worst_input_v"] == worst["input_v"] and worst["conduction"] == "body_diode"
+    assert d["worst_loss_w"] == pytest.approx(worst["drop_v"] * 1.0)
     assert d["leakage"] == []
 
 
