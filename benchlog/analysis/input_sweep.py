@@ -30,11 +30,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any, Mapping
 
 import numpy as np
 
-from benchlog.runs.series import series_inputs_v, series_of
+from benchlog.runs.series import series_of
 
 from .fit_resistive import fit_resistive
 from .fit_result import FitError
@@ -88,14 +87,10 @@ class InputSweepResult:
         return low - u <= self.takeover_v <= self.predicted_takeover_v + u
 
 
-def _plan_table(header: Any) -> Mapping[str, Any] | None:
-    """The header's plan table, whether the header is a dict or a typed record."""
-    if isinstance(header, Mapping):
-        plan = header.get("plan")
-        return plan if isinstance(plan, Mapping) else None
-    plan = getattr(header, "plan", None)
-    source = getattr(plan, "source", plan)
-    return source if isinstance(source, Mapping) else None
+def series_inputs(meta) -> tuple[float, ...]:
+    """The input voltages of the run's series (empty: not an input sweep)."""
+    plan = meta.header.plan
+    return plan.input_voltages_v if plan is not None else ()
 
 
 def series_column(frame) -> np.ndarray:
@@ -106,7 +101,7 @@ def series_column(frame) -> np.ndarray:
 
 
 def has_series(frame, meta) -> bool:
-    return bool(series_inputs_v(_plan_table(getattr(meta, "header", None)))) and bool((series_column(frame) >= 0).any())
+    return bool(series_inputs(meta)) and bool((series_column(frame) >= 0).any())
 
 
 def focus_frame(frame, meta):
@@ -116,7 +111,7 @@ def focus_frame(frame, meta):
     """
     if not has_series(frame, meta):
         return frame, None
-    inputs = series_inputs_v(_plan_table(getattr(meta, "header", None)))
+    inputs = series_inputs(meta)
     top = max(range(len(inputs)), key=lambda k: inputs[k])
     rows = series_column(frame) == top
     return frame[rows].reset_index(drop=True), (
@@ -141,14 +136,14 @@ def _drop_at(current: np.ndarray, drop: np.ndarray, at_a: float, fit) -> tuple[f
 def analyse_input_sweep(frame, meta, *, operating_a: float | None = None, spec=None,
                         ambient_c: float | None = None) -> InputSweepResult | None:
     """The input sweep of a loaded run (None when the run has no series)."""
-    inputs = series_inputs_v(_plan_table(getattr(meta, "header", None)))
+    inputs = series_inputs(meta)
     if not inputs:
         return None
     k_of = series_column(frame)
     current = frame["current_a"].to_numpy(dtype=float)
     drop = frame["drop_v"].to_numpy(dtype=float)
     ok = np.isfinite(current) & np.isfinite(drop)
-    offset = getattr(meta, "offset_v", None)
+    offset = meta.offset_v
     if offset is not None and math.isfinite(float(offset)):
         drop = drop - float(offset)
     if operating_a is None:

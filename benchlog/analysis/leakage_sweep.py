@@ -168,8 +168,7 @@ def run_temperature(frame, meta) -> tuple[float, str]:
         t = t[np.isfinite(t)]
         if t.size:
             return float(t[-1]), "measured (the last recorded point temperature)"
-    element = getattr(meta, "element", None)
-    ambient = element.get("ambient_c") if isinstance(element, dict) else getattr(element, "ambient_c", None)
+    ambient = meta.element.ambient_c
     if isinstance(ambient, (int, float)) and not isinstance(ambient, bool) and math.isfinite(ambient):
         return float(ambient), "assumed (the plan's ambient; no temperature recorded)"
     return 25.0, "assumed (25 °C; no temperature or ambient recorded)"

@@ -13,8 +13,7 @@ from typing import Any
 def _operating_a(meta, given: float | None) -> float | None:
     if given is not None:
         return given
-    element = getattr(meta, "element", None)
-    value = element.get("operating_a") if isinstance(element, dict) else getattr(element, "operating_a", None)
+    value = meta.element.operating_a
     return float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else None
 
 
@@ -43,7 +42,7 @@ def sweeps_payload(frame, meta, *, spec=None, operating_a: float | None = None) 
             "worst_input_v": None if s.worst is None else s.worst.input_v,
             "worst_loss_w": None if s.worst is None else s.worst.loss_w,
         })
-    reverse = [e for e in read_events(meta.path) if isinstance(e, ReverseResult)] if getattr(meta, "path", None) else []
+    reverse = [e for e in read_events(meta.path) if isinstance(e, ReverseResult)] if meta.path else []
     sweep = analyse_leakage(reverse, temperature_c, source, spec=spec) if len(reverse) > 1 else None
     entry = leakage_entry(sweep)
     out["leakage"] = entry["leakage"] if entry else []

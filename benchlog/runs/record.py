@@ -188,6 +188,13 @@ class PlanRecord:
     def limits(self) -> Table:
         return _table(self.source.get("limits"))
 
+    @property
+    def input_voltages_v(self) -> tuple[float, ...]:
+        """The input voltages of an input-voltage sweep, series by series (`series`); empty for any other plan."""
+        from .series import series_inputs_v
+
+        return series_inputs_v(self.source)
+
     def planned_points(self) -> int | None:
         """How many points the steps ask for; None for adaptive steps (they stop on a target)."""
         steps = self.steps
