@@ -33,8 +33,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from benchlog.runs.series import series_of
-
 from .fit_resistive import fit_resistive
 from .fit_result import FitError
 
@@ -87,38 +85,6 @@ class InputSweepResult:
         return low - u <= self.takeover_v <= self.predicted_takeover_v + u
 
 
-def series_inputs(meta) -> tuple[float, ...]:
-    """The input voltages of the run's series (empty: not an input sweep)."""
-    plan = meta.header.plan
-    return plan.input_voltages_v if plan is not None else ()
-
-
-def series_column(frame) -> np.ndarray:
-    """The series index of each point (−1: no series)."""
-    flags = frame["flags"] if "flags" in frame.columns else [None] * len(frame)
-    out = [series_of(x) if isinstance(x, str) else None for x in flags]
-    return np.array([-1 if k is None else k for k in out], dtype=int)
-
-
-def has_series(frame, meta) -> bool:
-    return bool(series_inputs(meta)) and bool((series_column(frame) >= 0).any())
-
-
-def focus_frame(frame, meta):
-    """The points a single-series fit or verdict takes: the highest input of an input sweep, else all of them.
-
-    Returns (frame, note); the note says which series was taken (None: the run has no series).
-    """
-    if not has_series(frame, meta):
-        return frame, None
-    inputs = series_inputs(meta)
-    top = max(range(len(inputs)), key=lambda k: inputs[k])
-    rows = series_column(frame) == top
-    return frame[rows].reset_index(drop=True), (
-        f"input sweep: the single fit takes the series at the highest input, {inputs[top]:g} V "
-        f"({int(rows.sum())} points); each input is fitted in 'series'")
-
-
 def _drop_at(current: np.ndarray, drop: np.ndarray, at_a: float, fit) -> tuple[float | None, str]:
     order = np.argsort(current)
     c, d = current[order], drop[order]
@@ -133,19 +99,23 @@ def _drop_at(current: np.ndarray, drop: np.ndarray, at_a: float, fit) -> tuple[f
     return None, f"{at_a:g} A is outside the measured range"
 
 
-def analyse_input_sweep(frame, meta, *, operating_a: float | None = None, spec=None,
+def analyse_input_sweep(frame, inputs_v, series_k, *, offset_v: float | None = None,
+                        operating_a: float | None = None, spec=None,
                         ambient_c: float | None = None) -> InputSweepResult | None:
-    """The input sweep of a loaded run (None when the run has no series)."""
-    inputs = series_inputs(meta)
+    """The input sweep of a run's points (None without series).
+
+    `inputs_v` are the series' input voltages in the order run, `series_k` the series of each point
+    (−1: none; `benchlog.runs.series.series_column`), `offset_v` the zero-current reading to subtract.
+    """
+    inputs = tuple(inputs_v)
     if not inputs:
         return None
-    k_of = series_column(frame)
+    k_of = np.asarray(series_k)
     current = frame["current_a"].to_numpy(dtype=float)
     drop = frame["drop_v"].to_numpy(dtype=float)
     ok = np.isfinite(current) & np.isfinite(drop)
-    offset = meta.offset_v
-    if offset is not None and math.isfinite(float(offset)):
-        drop = drop - float(offset)
+    if offset_v is not None and math.isfinite(float(offset_v)):
+        drop = drop - float(offset_v)
     if operating_a is None:
         operating_a = float(np.nanmax(current[ok])) if ok.any() else float("nan")
     channel_model = None
@@ -226,5 +196,5 @@ def _takeover(rows: list[InputSeries], operating_a: float) -> tuple[float | None
                        f"takeover {mid:.3g} ± {half:.2g} V")
 
 
-__all__ = ["InputSeries", "InputSweepResult", "analyse_input_sweep", "focus_frame", "has_series", "series_column",
+__all__ = ["InputSeries", "InputSweepResult", "analyse_input_sweep",
            "BODY_DIODE_DROP_V", "CONDUCTION_RULE"]

@@ -7,15 +7,15 @@ from typing import Any
 
 
 def focus_frame(frame, meta):
-    """`analysis.input_sweep.focus_frame`: the highest input's series of an input sweep, else every point."""
-    from benchlog.analysis.input_sweep import focus_frame as focus
+    """`runs.series.focus_frame`: the highest input's series of an input sweep, else every point."""
+    from benchlog.runs.series import focus_frame as focus
 
     return focus(frame, meta)
 
 
 def sweeps_payload(frame, meta, *, spec=None, operating_a: float | None = None) -> dict[str, Any]:
-    """`analysis.run_sweeps.sweeps_payload`: `series`, `takeover_v` and `leakage` of a loaded run."""
-    from benchlog.analysis.run_sweeps import sweeps_payload as payload
+    """`report.sweeps_data.sweeps_payload`: `series`, `takeover_v` and `leakage` of a loaded run."""
+    from benchlog.report.sweeps_data import sweeps_payload as payload
 
     return payload(frame, meta, spec=spec, operating_a=operating_a)
 

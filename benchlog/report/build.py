@@ -105,7 +105,7 @@ def analyse_run(path: str | Path, spec: PartSpec | None = None, *, model: str = 
     With a spec, the verdict comes from `check_run` and the fit shown is the one
     the verdict used (same model), so every number in the report agrees.
     """
-    from benchlog.analysis.input_sweep import focus_frame
+    from benchlog.runs.series import focus_frame
 
     path = Path(path)
     frame, meta = load(path)
@@ -353,7 +353,7 @@ def run_section(ra: RunAnalysis, spec: PartSpec | None) -> Section:
 
 def _sweep_sections(ra: RunAnalysis, spec: PartSpec | None) -> list[Section]:
     """The input-voltage and leakage sweeps of the run, when it holds them (`report.sweeps_section`)."""
-    from benchlog.analysis.run_sweeps import sweeps_payload
+    from benchlog.report.sweeps_data import sweeps_payload
     from benchlog.runs import load as load_run
 
     from .sweeps_section import sweep_sections

@@ -52,7 +52,7 @@ def _leakage_figure(s: dict[str, Any]):
 
 
 def sweep_sections(p: dict[str, Any]) -> list[Section]:
-    """Sections for the sweeps in `p` (`analysis.run_sweeps.sweeps_payload`); none when the run has neither."""
+    """Sections for the sweeps in `p` (`report.sweeps_data.sweeps_payload`); none when the run has neither."""
     out: list[Section] = []
     if p.get("series"):
         rows = tuple((number(x["input_v"], "V"), number(x["vgs_v"], "V", 4), x["conduction"].replace("_", " "),

@@ -9,6 +9,7 @@ start (``SERIES_STARTED``). A point without such a flag belongs to no series.
 from __future__ import annotations
 
 import re
+from typing import Any
 
 SERIES_FLAG_PREFIX = "input_"
 SERIES_STARTED = "input series"  # the note's message starts with this
@@ -37,4 +38,40 @@ def series_inputs_v(plan: dict | None) -> tuple[float, ...]:
     return tuple(float(v) for v in values if isinstance(v, (int, float)) and not isinstance(v, bool))
 
 
-__all__ = ["SERIES_FLAG_PREFIX", "SERIES_STARTED", "series_flag", "series_of", "series_inputs_v"]
+def series_inputs(meta) -> tuple[float, ...]:
+    """The input voltages of the run's series (empty: not an input sweep)."""
+    plan = meta.header.plan
+    return plan.input_voltages_v if plan is not None else ()
+
+
+def series_column(frame) -> Any:
+    """The series index of each point (−1: no series)."""
+    flags = frame["flags"] if "flags" in frame.columns else [None] * len(frame)
+    out = [series_of(x) if isinstance(x, str) else None for x in flags]
+    import numpy as np
+
+    return np.array([-1 if k is None else k for k in out], dtype=int)
+
+
+def has_series(frame, meta) -> bool:
+    return bool(series_inputs(meta)) and bool((series_column(frame) >= 0).any())
+
+
+def focus_frame(frame, meta):
+    """The points a single-series fit or verdict takes: the highest input of an input sweep, else all of them.
+
+    Returns (frame, note); the note says which series was taken (None: the run has no series).
+    """
+    if not has_series(frame, meta):
+        return frame, None
+    inputs = series_inputs(meta)
+    top = max(range(len(inputs)), key=lambda k: inputs[k])
+    rows = series_column(frame) == top
+    return frame[rows].reset_index(drop=True), (
+        f"input sweep: the single fit takes the series at the highest input, {inputs[top]:g} V "
+        f"({int(rows.sum())} points); each input is fitted in 'series'")
+
+
+
+__all__ = ["SERIES_FLAG_PREFIX", "SERIES_STARTED", "series_flag", "series_of", "series_inputs_v", "series_inputs",
+           "series_column", "has_series", "focus_frame"]

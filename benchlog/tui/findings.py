@@ -27,7 +27,7 @@ class RunFindings:
     check_error: str = ""
     self_heating: Any = None
     notes: tuple[str, ...] = field(default=())
-    sweeps: Any = None  # benchlog.analysis.run_sweeps.sweeps_payload: input and leakage sweeps, when the run has them
+    sweeps: Any = None  # benchlog.report.sweeps_data.sweeps_payload: input and leakage sweeps, when the run has them
 
     @property
     def verdict(self) -> str | None:
@@ -39,7 +39,7 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
     """Load `path`, fit it with `model`, and judge it against the spec when one is given."""
     from benchlog.runs import load
 
-    from benchlog.analysis.input_sweep import focus_frame
+    from benchlog.runs.series import focus_frame
 
     whole, meta = load(path)
     frame, focus = focus_frame(whole, meta)  # an input sweep: the single fit takes the highest input's series
@@ -73,7 +73,7 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
             check_error = _sentence(exc)
     sweeps = None
     try:
-        from benchlog.analysis.run_sweeps import sweeps_payload
+        from benchlog.report.sweeps_data import sweeps_payload
 
         sweeps = sweeps_payload(whole, meta, spec=spec)
     except Exception as exc:  # the sweeps are an addition: their failure must not hide the fit

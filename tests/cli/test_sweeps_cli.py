@@ -14,7 +14,7 @@ import pytest
 import benchlog
 from benchlog.cli import main
 from benchlog.sweep.plan import load_plan
-from benchlog.sweep.simbench import sim_wiring
+from benchlog.cli.simbench import sim_wiring
 
 from tests.sweep.simrig import record, setup_for
 

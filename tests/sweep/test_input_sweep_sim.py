@@ -13,7 +13,7 @@ from benchlog.analysis.input_sweep import analyse_input_sweep
 from benchlog.badinput import BadInput
 from benchlog.runs import load, read_events, replay
 from benchlog.runs.events import Note, Point
-from benchlog.runs.series import series_of
+from benchlog.runs.series import series_column, series_inputs, series_of
 from benchlog.sweep.bench_file import Wiring
 from benchlog.sweep.feasibility import check_plan_on_bench
 
@@ -48,7 +48,8 @@ def test_input_sweep_finds_the_body_diode_takeover(sim_bench, tmp_path, kind):
         assert p.supply_v == pytest.approx(inputs[series_of(p.flags)], abs=0.05)
 
     frame, meta = load(rec.path)
-    result = analyse_input_sweep(frame, meta, operating_a=1.0)
+    result = analyse_input_sweep(frame, series_inputs(meta), series_column(frame), offset_v=meta.offset_v,
+                                 operating_a=1.0)
     truth = running.truth()
     by_v = {s.input_v: s for s in result.series}
     # fully enhanced at 12 V: the fitted R is the simulator's R_DS(on) (channel tempco: 5 %)

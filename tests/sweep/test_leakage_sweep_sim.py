@@ -15,7 +15,7 @@ from benchlog.runs.events import ReverseResult
 from benchlog.sim.elements import Leakage
 from benchlog.sweep.plan import parse_plan
 from benchlog.sweep.rig import reverse_limit_a
-from benchlog.sweep.simbench import sim_wiring
+from benchlog.cli.simbench import sim_wiring
 
 from .simrig import parse, plan_text, record, setup_for
 

@@ -72,7 +72,7 @@ def verdict_rule(check) -> str:
 
 
 def sweep_lines(p) -> list[str]:
-    """The input and leakage sweeps in a few lines (`analysis.run_sweeps.sweeps_payload`)."""
+    """The input and leakage sweeps in a few lines (`report.sweeps_data.sweeps_payload`)."""
     if not p:
         return []
     lines: list[str] = []

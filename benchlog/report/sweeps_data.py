@@ -1,5 +1,7 @@
 """The input-voltage and reverse-leakage sweeps of a loaded run as one JSON-ready block (SI keys).
 
+It sits in report/ because it reads the run file (analysis/ reads none).
+
 `fit`, `check` and the report all show the same figures; this is where they are put together from
 `input_sweep` and `leakage_sweep`. The reverse records are read from the run file itself, because a
 loaded run's metadata keeps only the last one.
@@ -23,11 +25,12 @@ def sweeps_payload(frame, meta, *, spec=None, operating_a: float | None = None) 
     from benchlog.analysis.leakage_sweep import analyse_leakage, leakage_entry, run_temperature
     from benchlog.runs import read_events
     from benchlog.runs.events import ReverseResult
+    from benchlog.runs.series import series_column, series_inputs
 
     temperature_c, source = run_temperature(frame, meta)
     out: dict[str, Any] = {"series": [], "takeover_v": None}
-    s = analyse_input_sweep(frame, meta, operating_a=_operating_a(meta, operating_a), spec=spec,
-                            ambient_c=temperature_c)
+    s = analyse_input_sweep(frame, series_inputs(meta), series_column(frame), offset_v=meta.offset_v,
+                            operating_a=_operating_a(meta, operating_a), spec=spec, ambient_c=temperature_c)
     if s is not None:
         out["series"] = [
             {"input_v": x.input_v, "points": x.points, "conduction": x.conduction, "r_on_ohm": x.r_on_ohm,
