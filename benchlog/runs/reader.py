@@ -355,7 +355,7 @@ def iter_lines(path: str | os.PathLike[str]) -> Iterator[tuple[int, str]]:
                 return
             number += 1
             if len(raw) > RUN_LINE_MAX_BYTES:
-                raise _Line(source, number).bad(f"line is longer than {RUN_LINE_MAX_BYTES} bytes",
+                raise Position(source, number).bad(f"line is longer than {RUN_LINE_MAX_BYTES} bytes",
                                                 "one record per line, each well under 1 MB")
             if not raw.endswith(b"\n"):
                 return  # torn write: the process died inside this line
