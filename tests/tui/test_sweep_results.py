@@ -26,7 +26,7 @@ async def test_results_show_r_per_input_and_the_sweep_plot(scripted, runs_dir, d
         running.stop()
     plan, spec = demo_files
     app = BenchApp(scripted, runs_dir=runs_dir, plans=[plan], specs=[spec], start_view="archive")
-    async with app.run_test(size=(132, 44)) as pilot:
+    async with app.run_test(size=(132, 64)) as pilot:
         await settle(pilot, app, lambda: "Q1" in screen_text(app))
         await pilot.press("o")
         await settle(pilot, app, lambda: app.state.findings is not None and app.current_mode == "results")
