@@ -143,3 +143,35 @@ def test_report_has_the_leakage_section_on_a_log_scale(leakage_run):
     fig = next(b for b in sec.blocks if getattr(b, "name", "") == "leakage").figure
     assert fig.axes[0].get_yscale() == "log"
     assert len(sec.blocks[0].rows) == 5
+
+
+def test_focus_and_sweeps_agree_on_arrays_and_frames(input_run):
+    """`fit`/`check`/`report` read runs as arrays (`load_points`), the TUI as a frame (`load`): the series taken
+    by the single fit and every per-input figure must be the same numbers either way (same file, two readers)."""
+    from benchlog.report.sweeps_data import sweeps_payload
+    from benchlog.runs import load, load_points
+    from benchlog.runs.series import focus_frame
+
+    path, _truth = input_run
+    frame, meta = load(path)
+    arrays, meta_a = load_points(path)
+    f_frame, note_frame = focus_frame(frame, meta)
+    f_arrays, note_arrays = focus_frame(arrays, meta_a)
+    assert note_frame is not None and note_frame == note_arrays
+    assert len(f_arrays) == len(f_frame) < len(arrays)
+    assert list(f_arrays.current_a) == list(f_frame["current_a"])
+    assert list(f_arrays.index) == list(f_frame["index"])
+    assert json.dumps(sweeps_payload(arrays, meta_a), sort_keys=True, default=str) == \
+        json.dumps(sweeps_payload(frame, meta), sort_keys=True, default=str)
+
+
+def test_planned_points_count_every_input_series(input_run):
+    """The header's plan asks for the steps once per input voltage (counted from the plan file itself)."""
+    from benchlog.runs import load_points
+
+    path, _truth = input_run
+    plan = load_plan(DEMO / "plans" / "pmos-input-sweep.toml")
+    _arrays, meta = load_points(path)
+    steps = meta.header.plan.planned_points()
+    per_series = len(plan.steps.currents_a) if plan.steps.mode == "list" else plan.steps.count
+    assert steps == per_series * len(plan.input.voltages_v)
