@@ -307,9 +307,7 @@ class SweepRunner:
                                f"the {rng:g} V range (no reading)")
         except Interrupted:
             raise self._cancel_stop() from None
-        current = rig.read_current()
-        mode = rig.supply.mode()
-        supply_v = rig.supply.measure_voltage() if plan.record.supply_v else None
+        current, mode, supply_v = rig.read_back(plan.record.supply_v)
         t_s = self._t()
         flags: list[str] = []
         if not reading.settled:
