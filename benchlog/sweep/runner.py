@@ -67,7 +67,11 @@ CURRENT_READBACK_MARGIN = 0.02
 
 
 def step_source(plan: Plan) -> StepSource:
-    """The step source a plan asks for (adaptive stepping lives above the fixed schedules, so it is chosen here)."""
+    """The step source a plan asks for (adaptive and inspection stepping live above the fixed schedules, so they are chosen here)."""
+    if plan.inspection is not None:
+        from .sequential import SequentialSteps  # imports the fits only when they are used
+
+        return SequentialSteps(plan)
     if plan.steps.mode == "adaptive":
         from .adaptive import AdaptiveSteps  # imports the fits only when they are used
 
@@ -280,7 +284,8 @@ class SweepRunner:
                 self._pause(plan.cooldown.off_s)
         state = getattr(self.steps, "state", None)
         if state is not None:
-            yield self._emit(Note(self._t(), "info", f"adaptive stepping: {state.reason}"))
+            label = getattr(self.steps, "label", "adaptive stepping")
+            yield self._emit(Note(self._t(), "info", f"{label}: {state.reason}"))
         rig.check_errors("sweep")
         if plan.reverse is not None:
             yield from self._reverse()
