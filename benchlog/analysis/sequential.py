@@ -11,8 +11,13 @@ O'Brien, T. R. Fleming, "A multiple testing procedure for clinical trials",
 Biometrics 35(3), 1979, 549-556) has c·sqrt(n_K/n_k)·u at look k: wide early,
 close to the fixed plan's k·u at the last look. Either way c is chosen so that a
 part exactly on the limit is wrongly passed (or wrongly failed) at any of the K
-looks with the same probability alpha as one look with k = 2,
-alpha = 1 - Phi(2) (the one-sided coverage of the ILAC-G8 guard band w = U, U = 2u).
+looks with a set probability alpha. One look with k = 2 has alpha = 1 - Phi(2)
+(the one-sided coverage of the ILAC-G8 guard band w = U, U = 2u); inspection uses
+half of it (`INSPECTION_ALPHA`): matched alpha alone left the wrong decisions for
+parts just beyond the limit level with the fixed plan's within the noise of our
+simulation (173 against 162 in 60,000, one seed), half of it gives about half as
+many (70 against 162) at the price of more parts left undecided near the limit,
+while parts far from it, most of a lot, still stop at the first look.
 
 We stop with O'Brien-Fleming. In our simulation of parts spread within three
 standard uncertainties of the limit, Pocock's constant band wrongly decided more
@@ -64,6 +69,11 @@ def band_factors(looks: int, spacing: tuple[float, ...] | None = None, shape: st
     if shape == "obrien-fleming":
         return [math.sqrt(n[-1] / x) for x in n]
     raise ValueError(f"shape must be one of {', '.join(SHAPES)}, got {shape!r}")
+
+
+def inspection_alpha() -> float:
+    """The wrong-decision probability at the limit that inspection stops with: half of one k = 2 look's."""
+    return one_sided_alpha() / 2.0
 
 
 @lru_cache(maxsize=64)

@@ -6,7 +6,7 @@ uncertainty, type A and B, as the fits give it) and judged against the plan's
 acceptance limit `[inspection].max_drop_v` with a group-sequential guard band
 (O'Brien-Fleming, `benchlog.analysis.sequential`): pass or fail ends the sweep,
 conditional goes on, the end of the schedule ends it undecided. The boundary holds
-the chance of a wrong pass for a part on its limit to that of one look with k = 2.
+the chance of a wrong pass for a part on its limit to half that of one look with k = 2.
 The run file is an ordinary run of the points taken; the decision is a note in it,
 and `benchlog check` judges the run as it judges any other.
 """
@@ -40,7 +40,7 @@ class SequentialSteps:
     label = "inspection"
 
     def __init__(self, plan: Plan, accuracy: Any = None) -> None:
-        from benchlog.analysis.sequential import band_factors, boundary_constant, one_sided_alpha
+        from benchlog.analysis.sequential import band_factors, boundary_constant, inspection_alpha
 
         ins = plan.inspection
         assert ins is not None
@@ -57,7 +57,7 @@ class SequentialSteps:
         self.accuracy = accuracy
         levels = tuple(float(n) for n in range(self.first_look, self.planned + 1))
         self.looks = len(levels)
-        self.alpha = one_sided_alpha()
+        self.alpha = inspection_alpha()
         self.c = boundary_constant(self.looks, self.alpha, levels)
         self.factors = band_factors(self.looks, levels)
         self.state = InspectionState("not judged", 0, "not judged yet")
@@ -100,6 +100,6 @@ class SequentialSteps:
         self.state = InspectionState(look.outcome, n, (
             f"{verb} {look.outcome} at look {k + 1} of {self.looks} after {n} points: drop at "
             f"{self.operating_a:g} A {value:.6g} V, guard band {look.band:.3g} V "
-            f"({self.c * self.factors[k]:.3g} u, O'Brien-Fleming boundary, one-sided alpha {self.alpha:.4f} "
-            f"as one look with k = 2) against max_drop_v {self.limit_v:g} V"))
+            f"({self.c * self.factors[k]:.3g} u, O'Brien-Fleming boundary, one-sided alpha {self.alpha:.4f}, "
+            f"half that of one look with k = 2) against max_drop_v {self.limit_v:g} V"))
         return look.outcome
