@@ -36,6 +36,26 @@ from pathlib import Path
 
 import _common
 
+
+def _builtin_bench():
+    """The simulated bench starter; `timing` is passed on only to a simulator that has the setting."""
+    import dataclasses
+
+    try:
+        from benchlog.cli.simbench import builtin_bench
+    except ImportError:  # before the simulated bench moved to cli/
+        from benchlog.sweep.simbench import builtin_bench
+    from benchlog.sim.config import SimConfig
+
+    has_timing = "timing" in {f.name for f in dataclasses.fields(SimConfig)}
+
+    def start(element, seed=1, **options):
+        if not has_timing:
+            options.pop("timing", None)
+        return builtin_bench(element, seed=seed, **options)
+
+    return start
+
 PLAN = _common.REPO / "benchlog" / "demo" / "plans" / "pmos-prototype.toml"
 
 
@@ -136,7 +156,10 @@ def _per_point(stamps: list[float], log, skip_before: float) -> tuple[float, flo
 
 def single_unit_profiles(tmp: Path) -> dict[str, str]:
     """Copies of the sim profiles with compound_queries off (one program unit per message)."""
-    from benchlog.sweep.simbench import SIM_PROFILES
+    try:
+        from benchlog.cli.simbench import SIM_PROFILES
+    except ImportError:  # before the simulated bench moved to cli/
+        from benchlog.sweep.simbench import SIM_PROFILES
 
     out = {}
     for role, name in SIM_PROFILES.items():
@@ -155,7 +178,7 @@ def one_pair(latency_s: float, points: int, tmp: Path, k: int, timing: str) -> d
     from benchlog.runs.events import Point
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.session import run_sweep
-    from benchlog.sweep.simbench import builtin_bench
+    builtin_bench = _builtin_bench()
 
     plan_path = tmp / f"plan-{points}.toml"
     if not plan_path.exists():

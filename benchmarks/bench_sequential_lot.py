@@ -30,20 +30,41 @@ from pathlib import Path
 
 import _common
 
+
+def _builtin_bench():
+    """The simulated bench starter; `timing` is passed on only to a simulator that has the setting."""
+    import dataclasses
+
+    try:
+        from benchlog.cli.simbench import builtin_bench
+    except ImportError:  # before the simulated bench moved to cli/
+        from benchlog.sweep.simbench import builtin_bench
+    from benchlog.sim.config import SimConfig
+
+    has_timing = "timing" in {f.name for f in dataclasses.fields(SimConfig)}
+
+    def start(element, seed=1, **options):
+        if not has_timing:
+            options.pop("timing", None)
+        return builtin_bench(element, seed=seed, **options)
+
+    return start
+
 PLANS = _common.REPO / "benchlog" / "demo" / "plans"
 SPEC = _common.REPO / "benchlog" / "demo" / "specs" / "demo-pfet-10m.toml"
 
 
 def bench_parts(parts: int, timing: str, tmp: Path) -> dict:
-    from benchlog.analysis.verdict import check_run
+    try:
+        from benchlog.analysis.judging import check_run
+    except ImportError:  # before check_run moved to judging
+        from benchlog.analysis.verdict import check_run
     from benchlog.runs import load
     from benchlog.specfiles import load_spec
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.session import run_sweep
-    try:
-        from benchlog.cli.simbench import builtin_bench
-    except ImportError:  # before the simulated bench moved to cli/
-        from benchlog.sweep.simbench import builtin_bench
+
+    builtin_bench = _builtin_bench()
 
     spec = load_spec(SPEC)
     plans = {"fixed": load_plan(PLANS / "lot-inspection.toml"),
