@@ -198,7 +198,7 @@ def one_pair(latency_s: float, points: int, tmp: Path, k: int, timing: str) -> d
                 reads = None
             else:
                 stamps = []
-                done = run_sweep(plan, setup, tmp / f"runs-{side}", seed=k,
+                done = run_sweep(plan, setup, tmp / f"runs-{side}",
                                  on_event=lambda e: stamps.append(time.perf_counter()) if isinstance(e, Point) else None)
                 if done.outcome != "complete" or done.points != points:
                     raise RuntimeError(f"sweep ended {done.outcome} after {done.points} points: {done.message}")

@@ -77,7 +77,7 @@ def bench_parts(parts: int, timing: str, tmp: Path) -> dict:
         try:
             for side, plan in plans.items():
                 t0 = time.perf_counter()
-                done = run_sweep(plan, setup, tmp / side, seed=part)
+                done = run_sweep(plan, setup, tmp / side)
                 if part == 0:
                     continue
                 times[side].append(time.perf_counter() - t0)
