@@ -21,6 +21,9 @@ the nearest valid name, because a typo in a limit must not silently disable it.
     [reverse]   voltage_v, duration_s, max_current_a
     [soak]      current_a, duration_s, interval_s, cool_s, sense_a, rest_s,
                 calibration_c + calibration_v (the drop at sense_a at known temperatures)
+    [inspection] stop_when_decided, max_drop_v (acceptance limit of the drop at operating_a),
+                first_look (points before the first look): stop a part once its verdict is decided
+                (benchlog.sweep.sequential)
 """
 
 from __future__ import annotations
@@ -36,7 +39,8 @@ from benchlog.tomlcheck import Table, load_toml, parse_toml
 
 STEP_MODES = ("linear", "log", "list", "updown", "adaptive")
 
-_TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse", "soak")
+_TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse", "soak",
+           "inspection")
 #: A heat-soak records at most this many points per phase (heating, cooling).
 SOAK_MAX_POINTS = 100_000
 
@@ -125,6 +129,15 @@ class OffsetReading:
 
 
 @dataclass(frozen=True)
+class Inspection:
+    """Stop measuring a part once its guard-banded verdict at operating_a is decided."""
+
+    max_drop_v: float
+    first_look: int = 3
+    stop_when_decided: bool = True
+
+
+@dataclass(frozen=True)
 class Reverse:
     voltage_v: float
     duration_s: float
@@ -169,6 +182,7 @@ class Plan:
     reverse: Reverse | None
     source: str = "plan"
     soak: Soak | None = None
+    inspection: Inspection | None = None
 
     def to_dict(self) -> dict[str, Any]:
         """The complete plan with every default filled in: what the run header records."""
@@ -179,6 +193,8 @@ class Plan:
                 data["element"].pop(key, None)
         if data["soak"] is None:
             data.pop("soak")  # plans without a soak keep the header they always had
+        if data.get("inspection") is None:
+            data.pop("inspection", None)  # a plan without the table records exactly what it did before
         return _jsonable(data)
 
 
@@ -221,6 +237,7 @@ def plan_from_table(root: Table) -> Plan:
         reverse=_reverse(root.table("reverse", required=False), limits),
         source=root.source,
         soak=_soak(root.table("soak", required=False), limits),
+        inspection=_inspection(root.table("inspection", required=False), element, steps),
     )
     return plan
 
@@ -366,6 +383,22 @@ def _cooldown(t: Table | None) -> Cooldown:
         return Cooldown()
     t.only(("off_s",))
     return Cooldown(off_s=t.number("off_s", 0.0, min=0.0, max=3600.0, unit="s"))
+
+
+def _inspection(t: Table | None, element: Element, steps: Steps) -> Inspection | None:
+    if t is None:
+        return None
+    t.only(("stop_when_decided", "max_drop_v", "first_look"))
+    if not t.boolean("stop_when_decided", False):
+        return None
+    if steps.mode == "adaptive":
+        raise t.fail("stop_when_decided", "is true with [steps].mode = 'adaptive'",
+                     "a fixed schedule (linear, log, list or updown) to cut short")
+    if element.operating_a is None:
+        raise t.fail("stop_when_decided", "is true but [element].operating_a is not set",
+                     "the operating current the verdict is judged at")
+    first_look = t.integer("first_look", 3, min=2, max=1000)
+    return Inspection(max_drop_v=t.number("max_drop_v", positive=True, unit="V"), first_look=first_look)
 
 
 def _offset(t: Table | None) -> OffsetReading:
