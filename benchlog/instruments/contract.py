@@ -43,6 +43,10 @@ class BenchRole(Protocol):
         """Return once the instrument has applied every command sent so far."""
         ...
 
+    def check_new_errors(self, after: str | None = None) -> None:
+        """`check_errors` when something was sent since the queue was last read empty (else no news)."""
+        ...
+
     def safe_state(self) -> None:
         """Output or input off, setpoints to zero; raises `SafeStateFailed` if a step failed."""
         ...
@@ -79,6 +83,11 @@ class SupplyRole(BenchRole, Protocol):
 
     def mode(self) -> str:
         """One of `SUPPLY_MODES`."""
+        ...
+
+    def read_back(self, *, current: bool = False, voltage: bool = False) -> tuple[str, float | None, float | None]:
+        """(mode, current or None, voltage or None): the mode always, the read-backs asked for, in one
+        message where the profile allows."""
         ...
 
     def tripped(self) -> bool:

@@ -201,6 +201,10 @@ class Profile:
     accuracy: tuple[AccuracySpec, ...]
     path: Path | None
     sha256: str
+    #: [link].compound_queries: the instrument takes several `;`-joined program units in one
+    #: message and answers its queries in one `;`-separated response (IEEE 488.2 7.3 and 8.4.1,
+    #: SCPI-99 vol. 1 6.2.4), so a setpoint and its sync, or several read-backs, cost one round trip.
+    compound_queries: bool = False
 
     def has(self, operation: str) -> bool:
         return operation in self.commands
@@ -339,7 +343,7 @@ def _build(root: Table, path: Path | None, sha256: str) -> Profile:
     generic = root.boolean("generic", False)
 
     link = root.table("link")
-    link.only(("read_termination", "write_termination", "timeout_s", "connect_commands"))
+    link.only(("read_termination", "write_termination", "timeout_s", "connect_commands", "compound_queries"))
     terminations = ("\n", "\r\n", "\r")
     read_term = link.string("read_termination", "\n")
     write_term = link.string("write_termination", "\n")
@@ -347,6 +351,7 @@ def _build(root: Table, path: Path | None, sha256: str) -> Profile:
         if value not in terminations:
             raise link.fail(key, f"is {value!r}", 'one of "\\n", "\\r\\n", "\\r"')
     timeout_s = link.number("timeout_s", 2.0, min=0.05, max=600.0, unit="s")
+    compound = link.boolean("compound_queries", False)
     connect = link.strings("connect_commands", ())
     for i, command in enumerate(connect):
         _check_text(link, f"connect_commands[{i}]", command)
@@ -378,6 +383,7 @@ def _build(root: Table, path: Path | None, sha256: str) -> Profile:
         accuracy=accuracy,
         path=path,
         sha256=sha256,
+        compound_queries=compound,
     )
 
 

@@ -8,6 +8,12 @@ error-queue read (that would double the exchanges per point); callers drain the 
 at checkpoints with `check_errors()`, and `set_output(True)` / `set_input(True)` drain
 it before switching power on, so a rejected setpoint never goes live. A caller that
 must know a setpoint is applied before reading another instrument calls `sync()`.
+
+Round trips: on a profile with `[link].compound_queries`, a setpoint write is held
+back and sent in front of the next message to that instrument (`CURR 1.5;*OPC?`:
+the setpoint and its sync in one exchange), a triggered read goes out as one
+message (`INIT;:FETC?`) and the supply's per-point read-backs are asked together
+(`read_back`). A held setpoint is dropped, never sent, when the safe state begins.
 """
 
 from __future__ import annotations
@@ -20,6 +26,7 @@ from typing import Callable
 
 from benchlog.accuracy import Accuracy
 from benchlog.scpi.errors import ScpiError, ScpiReplyError
+from benchlog.scpi.messages import join_units, split_response
 from benchlog.scpi.numbers import fill_template
 from benchlog.scpi.replies import Idn, parse_bool, parse_error_entry, parse_idn, parse_int, parse_number, parse_numbers
 
@@ -71,6 +78,7 @@ class Role:
         self._pending: deque[str] = deque(maxlen=8)
         self._error_query = profile.error_query
         self._fixed: dict[str, str] = {}  # operation -> its command, for templates without placeholders
+        self._held: list[str] = []  # setpoint commands to send in front of the next message (compound profiles)
         self.idn_text = self._query("*IDN?")
         try:
             self.idn: Idn = parse_idn(self.idn_text)
@@ -89,11 +97,27 @@ class Role:
         pass
 
     # -- plumbing ---------------------------------------------------------------------
+    def _with_held(self, command: str) -> str:
+        if not self._held:
+            return command
+        message = join_units([*self._held, command])
+        self._held.clear()
+        return message
+
     def _write(self, command: str) -> None:
+        command = self._with_held(command)
         self.transport.write(command)
         self._pending.append(command)
 
+    def _write_setpoint(self, command: str) -> None:
+        """Send a setpoint now, or hold it for the next message when the profile takes compound messages."""
+        if self.profile.compound_queries:
+            self._held.append(command)
+        else:
+            self._write(command)
+
     def _query(self, command: str, timeout_s: float | None = None) -> str:
+        command = self._with_held(command)
         if command != self._error_query:  # a query can cause an error too (an unknown header)
             self._pending.append(command)
         if timeout_s is None:
@@ -135,6 +159,18 @@ class Role:
             )
         return v
 
+    def _query_all(self, commands: list[str]) -> list[str]:
+        """The reply to each query, in one message when the profile takes compound messages."""
+        if len(commands) <= 1 or not self.profile.compound_queries:
+            return [self._query(c) for c in commands]
+        message = join_units(commands)
+        reply = self._query(message)
+        try:
+            return split_response(reply, len(commands))
+        except ScpiError:
+            raise NonsenseReply(message, reply, f"{len(commands)} replies separated by ';'",
+                                resource=self.resource) from None
+
     def _number(self, command: str, timeout_s: float | None = None) -> float | None:
         reply = self._query(command, timeout_s)
         try:
@@ -142,9 +178,15 @@ class Role:
         except ScpiReplyError:
             raise NonsenseReply(command, reply, "a number", resource=self.resource) from None
 
-    def _reading(self, operation: str) -> float:
+    def _reading(self, operation: str, reply: str | None = None) -> float:
         command = self._command(operation)
-        value = self._number(command)
+        if reply is None:
+            value = self._number(command)
+        else:
+            try:
+                value = parse_number(reply)
+            except ScpiReplyError:
+                raise NonsenseReply(command, reply, "a number", resource=self.resource) from None
         if value is None:
             raise NonsenseReply(command, "overload", "a reading within range", resource=self.resource)
         return value
@@ -188,6 +230,20 @@ class Role:
             first = entries[0]
             raise InstrumentError(first.code, first.text, command, resource=self.resource,
                                   more=len(entries) - 1 + not_empty)
+
+    @property
+    def has_unchecked(self) -> bool:
+        """True when something was sent since the error queue was last read empty."""
+        return bool(self._pending or self._held)
+
+    def check_new_errors(self, after: str | None = None) -> None:
+        """`check_errors` when the queue can hold news of ours (something was sent since it was read empty).
+
+        A queue just read empty, with nothing sent since, has nothing of ours to say; reading
+        it again by rote only costs a round trip.
+        """
+        if self.has_unchecked:
+            self.check_errors(after)
 
     # -- safe state -------------------------------------------------------------------
     @property
@@ -266,6 +322,7 @@ class Role:
         stop the off commands: a failure (a lost link) is left for them to meet and reopen.
         """
         self._reopen_failed: BaseException | None = None  # a new pass tries to reopen again
+        self._held.clear()  # a setpoint not yet sent is dropped: the safe state decides what goes out
         if not self.has_power:
             return ()
         try:
@@ -353,11 +410,11 @@ class Supply(Role):
 
     def set_current_limit(self, current_a: float) -> None:
         a = self._setpoint("current_a", current_a, self.profile.limits.max_current_a, "A", "[limits].max_current_a")
-        self._write(self._command("set_current_limit", current_a=a))
+        self._write_setpoint(self._command("set_current_limit", current_a=a))
 
     def set_output(self, on: bool) -> None:
         if on:
-            self.check_errors()  # never switch on over a setpoint the instrument rejected
+            self.check_new_errors()  # never switch on over a setpoint the instrument rejected
             command = self._command("output_on")
             self._write(command)
             self.output_on = True
@@ -381,7 +438,29 @@ class Supply(Role):
         decoding = self.profile.mode
         if decoding is None:
             return "UNKNOWN"
-        reply = self._query(decoding.query)
+        return self._mode_from(self._query(decoding.query))
+
+    def read_back(self, *, current: bool = False, voltage: bool = False) -> tuple[str, float | None, float | None]:
+        """(mode, current, voltage) after a point: the mode always, the read-backs asked for.
+
+        One message on a compound profile (`STAT:OPER:COND?;:MEAS:CURR?;:MEAS:VOLT?`),
+        otherwise one query each, in that order.
+        """
+        decoding = self.profile.mode
+        commands = [decoding.query] if decoding is not None else []
+        if current:
+            commands.append(self._command("measure_current"))
+        if voltage:
+            commands.append(self._command("measure_voltage"))
+        replies = self._query_all(commands)
+        mode = self._mode_from(replies.pop(0)) if decoding is not None else "UNKNOWN"
+        amps = self._reading("measure_current", replies.pop(0)) if current else None
+        volts = self._reading("measure_voltage", replies.pop(0)) if voltage else None
+        return mode, amps, volts
+
+    def _mode_from(self, reply: str) -> str:
+        decoding = self.profile.mode
+        assert decoding is not None
         if decoding.uses_register:
             try:
                 bits = parse_int(reply)
@@ -507,11 +586,11 @@ class Load(Role):
 
     def set_current(self, current_a: float) -> None:
         a = self._setpoint("current_a", current_a, self.profile.limits.max_current_a, "A", "[limits].max_current_a")
-        self._write(self._command("set_current", current_a=a))
+        self._write_setpoint(self._command("set_current", current_a=a))
 
     def set_input(self, on: bool) -> None:
         if on:
-            self.check_errors()
+            self.check_new_errors()  # never switch on over a setpoint the instrument rejected
             command = self._command("input_on")
             self._write(command)
             self.input_on = True
@@ -628,9 +707,12 @@ class Meter(Role):
 
     def read(self) -> tuple[float | None, ...]:
         """Trigger (if the profile needs it) and read `samples` readings; None marks an overload."""
-        if self.profile.has("trigger"):
-            self._write(self._command("trigger"))
         command = self._command("read")
+        if self.profile.has("trigger"):
+            if self.profile.compound_queries:
+                command = join_units([self._command("trigger"), command])  # one message: INIT;:FETC?
+            else:
+                self._write(self._command("trigger"))
         reply = self._query(command, self.read_timeout_s())
         try:
             values = parse_numbers(reply)

@@ -93,3 +93,34 @@ def split_message(text: str) -> list[ProgramUnit]:
                 raise ScpiSyntaxError(f"empty parameter in {raw!r}", -102)
         units.append(ProgramUnit(full, is_query, params))
     return units
+
+
+def join_units(commands: list[str] | tuple[str, ...]) -> str:
+    """One program message of several commands, each kept at its own absolute path.
+
+    After a `;` a header without a leading `:` would continue the previous path
+    (SCPI-99 vol. 1 6.2.4), so every unit after the first that is not a common
+    command gets a leading `:`; a template that is itself compound already writes
+    its inner units that way.
+    """
+    parts: list[str] = []
+    for i, command in enumerate(commands):
+        text = command.strip()
+        if not text:
+            raise ScpiSyntaxError("an empty command cannot be joined into a message", -100)
+        if i and not text.startswith((":", "*")):
+            text = ":" + text
+        parts.append(text)
+    return ";".join(parts)
+
+
+def split_response(text: str, count: int) -> list[str]:
+    """The `count` response units of one response message, `;`-separated (IEEE 488.2 8.4.1).
+
+    A reply with another number of units raises ScpiSyntaxError (the caller turns it
+    into a nonsense reply naming what was expected).
+    """
+    units = _split_outside_quotes(text.strip(), ";")
+    if len(units) != count:
+        raise ScpiSyntaxError(f"{len(units)} response unit(s) in {text[:60]!r}, expected {count}", -102)
+    return [u.strip() for u in units]

@@ -24,6 +24,9 @@ the nearest valid name, because a typo in a limit must not silently disable it.
                 calibration_c + calibration_v (the drop at sense_a at known temperatures)
     [input]     voltages_v (list): a current sweep at each input voltage (load wiring only),
                 one series per input in the same run (`benchlog.runs.series`)
+    [inspection] stop_when_decided, max_drop_v (acceptance limit of the drop at operating_a),
+                first_look (points before the first look): stop a part once its verdict is decided
+                (benchlog.sweep.sequential)
 """
 
 from __future__ import annotations
@@ -40,7 +43,7 @@ from benchlog.tomlcheck import Table, load_toml, parse_toml
 STEP_MODES = ("linear", "log", "list", "updown", "adaptive")
 
 _TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse", "soak",
-           "input")
+           "input", "inspection")
 #: A heat-soak records at most this many points per phase (heating, cooling).
 SOAK_MAX_POINTS = 100_000
 #: At most this many input voltages or reverse voltages in one plan (each is a full step).
@@ -131,6 +134,15 @@ class OffsetReading:
 
 
 @dataclass(frozen=True)
+class Inspection:
+    """Stop measuring a part once its guard-banded verdict at operating_a is decided."""
+
+    max_drop_v: float
+    first_look: int = 3
+    stop_when_decided: bool = True
+
+
+@dataclass(frozen=True)
 class Reverse:
     """The reverse step: `voltage_v` is the highest reverse voltage; `voltages_v` every one, in the order applied."""
 
@@ -190,6 +202,7 @@ class Plan:
     source: str = "plan"
     soak: Soak | None = None
     input: InputSweep | None = None
+    inspection: Inspection | None = None
 
     def to_dict(self) -> dict[str, Any]:
         """The complete plan with every default filled in: what the run header records."""
@@ -205,6 +218,8 @@ class Plan:
             data.pop("input")
         if data["reverse"] is not None and not data["reverse"]["voltages_v"]:
             data["reverse"].pop("voltages_v")
+        if data.get("inspection") is None:
+            data.pop("inspection", None)  # a plan without the table records exactly what it did before
         return _jsonable(data)
 
 
@@ -248,6 +263,7 @@ def plan_from_table(root: Table) -> Plan:
         source=root.source,
         soak=_soak(root.table("soak", required=False), limits),
         input=_input(root.table("input", required=False)),
+        inspection=_inspection(root.table("inspection", required=False), element, steps),
     )
     return plan
 
@@ -393,6 +409,22 @@ def _cooldown(t: Table | None) -> Cooldown:
         return Cooldown()
     t.only(("off_s",))
     return Cooldown(off_s=t.number("off_s", 0.0, min=0.0, max=3600.0, unit="s"))
+
+
+def _inspection(t: Table | None, element: Element, steps: Steps) -> Inspection | None:
+    if t is None:
+        return None
+    t.only(("stop_when_decided", "max_drop_v", "first_look"))
+    if not t.boolean("stop_when_decided", False):
+        return None
+    if steps.mode == "adaptive":
+        raise t.fail("stop_when_decided", "is true with [steps].mode = 'adaptive'",
+                     "a fixed schedule (linear, log, list or updown) to cut short")
+    if element.operating_a is None:
+        raise t.fail("stop_when_decided", "is true but [element].operating_a is not set",
+                     "the operating current the verdict is judged at")
+    first_look = t.integer("first_look", 3, min=2, max=1000)
+    return Inspection(max_drop_v=t.number("max_drop_v", positive=True, unit="V"), first_look=first_look)
 
 
 def _offset(t: Table | None) -> OffsetReading:

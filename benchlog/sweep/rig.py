@@ -112,7 +112,7 @@ class Rig:
     def check_errors(self, after: str) -> None:
         """Drain every role's error queue (a checkpoint, not a per-point query)."""
         for role in self.roles():
-            role.check_errors(after)
+            role.check_new_errors(after)  # a queue read empty with nothing sent since holds no news
 
     # -- power ---------------------------------------------------------------
     def power_on(self) -> None:
@@ -173,6 +173,18 @@ class Rig:
             return None
         value = self.sensor.measure_temperature()
         return value if value is not None and math.isfinite(value) else None
+
+    def read_back(self, supply_v: bool) -> tuple[float | None, str, float | None]:
+        """(element current, supply mode, supply voltage or None), read once the drop has settled.
+
+        The supply's mode is always read (compliance and a tripped output show only there); its
+        voltage only when the plan records it, and its current only when the bench reads the
+        current from it. What the supply gives is asked in one message where its profile allows.
+        """
+        from_supply = self.wiring.current_from == "supply"
+        current = None if from_supply else self.read_current()
+        mode, amps, volts = self.supply.read_back(current=from_supply, voltage=supply_v)
+        return (amps if from_supply else current), mode, volts
 
     def reverse_current_reader(self, limit_a: float) -> Callable[[], float]:
         """A reader of the reverse current (magnitude) on the finest range that still holds `limit_a`."""

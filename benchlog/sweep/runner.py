@@ -74,7 +74,11 @@ CURRENT_READBACK_MARGIN = 0.02
 
 
 def step_source(plan: Plan) -> StepSource:
-    """The step source a plan asks for (adaptive stepping lives above the fixed schedules, so it is chosen here)."""
+    """The step source a plan asks for (adaptive and inspection stepping live above the fixed schedules, so they are chosen here)."""
+    if plan.inspection is not None:
+        from .sequential import SequentialSteps  # imports the fits only when they are used
+
+        return SequentialSteps(plan)
     if plan.steps.mode == "adaptive":
         from .adaptive import AdaptiveSteps  # imports the fits only when they are used
 
@@ -285,7 +289,8 @@ class SweepRunner:
             index = yield from self._series(first, index, series_flag(k) if input_v is not None else None)
         state = getattr(self.steps, "state", None)
         if state is not None:
-            yield self._emit(Note(self._t(), "info", f"adaptive stepping: {state.reason}"))
+            label = getattr(self.steps, "label", "adaptive stepping")
+            yield self._emit(Note(self._t(), "info", f"{label}: {state.reason}"))
         rig.check_errors("sweep")
         if plan.soak is not None:
             yield from self._soak()
@@ -405,9 +410,7 @@ class SweepRunner:
                                f"the {rng:g} V range (no reading)")
         except Interrupted:
             raise self._cancel_stop() from None
-        current = rig.read_current()
-        mode = rig.supply.mode()
-        supply_v = rig.supply.measure_voltage() if plan.record.supply_v else None
+        current, mode, supply_v = rig.read_back(plan.record.supply_v)
         t_s = self._t() if t_s is None else t_s
         flags: list[str] = list(flags)
         if not reading.settled:

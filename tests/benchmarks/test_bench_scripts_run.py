@@ -21,7 +21,7 @@ SCRIPTS = sorted(BENCHMARKS.glob("bench_*.py"))
 def test_the_benchmarks_are_there():
     names = {p.name for p in SCRIPTS}
     assert {"bench_analysis_scale.py", "bench_estimator_efficiency.py", "bench_time_to_answer.py",
-            "bench_sweep_overhead.py", "bench_ui_latency.py"} <= names
+            "bench_sweep_overhead.py", "bench_ui_latency.py", "bench_round_trips.py", "bench_sequential_lot.py"} <= names
 
 
 @pytest.mark.parametrize("script", SCRIPTS, ids=[p.stem for p in SCRIPTS])

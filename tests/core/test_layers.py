@@ -42,7 +42,7 @@ ALLOWED: dict[str, frozenset[str]] = {
 #: (its version string). A leaf imports only leaves.
 LEAVES = frozenset({"badinput", "tomlcheck", "filecheck", "kinds", "ambient", "accuracy", "<root>"})
 #: (importing package, imported package) -> the only modules allowed to draw that arrow.
-ONLY_FROM = {("sweep", "analysis"): frozenset({"benchlog.sweep.adaptive"})}
+ONLY_FROM = {("sweep", "analysis"): frozenset({"benchlog.sweep.adaptive", "benchlog.sweep.sequential"})}
 
 #: analysis/ modules allowed to read their own files: none (spec and design files are read by
 #: benchlog/specfiles.py, run files by report/lot_runs.py and the other callers).

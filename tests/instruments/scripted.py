@@ -47,6 +47,25 @@ class ScriptedTransport(Transport):
         if self.lost:
             raise ConnectionLost(f"scripted loss at {command!r}", resource=self.resource)
         self.sent.append(command)
+        units = _units(command)
+        if command not in self.replies and len(units) > 1:
+            # a compound message (IEEE 488.2 7.3): units run in order, one ';'-joined response
+            replies = []
+            for unit in units:
+                if unit.split(" ", 1)[0].endswith("?"):
+                    replies.append(self._answer(unit))
+                else:
+                    self._effect(unit)
+            return ";".join(replies)
+        return self._answer(command)
+
+    def _effect(self, command: str) -> None:
+        if command in self.on_commands:
+            self.power = True
+        elif command in self.off_commands and not self.stuck_on:
+            self.power = False
+
+    def _answer(self, command: str) -> str:
         if command == "*IDN?":
             return self.idn
         if command.startswith("SYST") and "ERR" in command:
@@ -63,3 +82,8 @@ class ScriptedTransport(Transport):
 
     def close(self) -> None:
         self.closed = True
+
+
+def _units(message: str) -> list[str]:
+    """The program units of a message joined by our roles (no ';' inside quotes there), leading ':' removed."""
+    return [u.strip().lstrip(":") for u in message.split(";")] if '"' not in message else [message]

@@ -185,6 +185,7 @@ def test_an_object_missing_a_member_does_not_keep_the_contract():
         resource, profile, idn, nplc, samples = "X", None, None, None, 1
 
         def check_errors(self, after=None): ...
+        def check_new_errors(self, after=None): ...
         def sync(self): ...
         def safe_state(self): ...
         def close(self): ...
@@ -228,6 +229,9 @@ def test_supply_output_on_then_safe_state_reads_back_off(roles):
     assert supply.output_on is True
     assert supply.mode() in ("CV", "CC")
     current, voltage = supply.measure_current(), supply.measure_voltage()
+    mode, current_back, voltage_back = supply.read_back(current=True, voltage=True)  # the same, asked together
+    assert mode in ("CV", "CC") and isinstance(current_back, float) and isinstance(voltage_back, float)
+    assert supply.read_back() == (supply.mode(), None, None)
     assert isinstance(current, float) and isinstance(voltage, float) and math.isfinite(current)
     assert supply.tripped() is False
     supply.safe_state()

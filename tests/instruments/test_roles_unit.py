@@ -14,13 +14,21 @@ from benchlog.instruments.errors import (
     SafetyLimit,
     WrongInstrument,
 )
-from benchlog.instruments.profile import load_profile, parse_profile
+from dataclasses import replace
+
+from benchlog.instruments.profile import load_profile as _load_profile, parse_profile
 from benchlog.instruments.roles import MAX_ERROR_READS, Load, Meter, Supply
 
 from .scripted import ScriptedTransport
 from .test_profile import SUPPLY
 
 SUPPLY_IDN = "BENCHLOG,SIM-SUPPLY,7,1.0"
+
+
+def load_profile(name, compound=False):
+    """The sim's profile, by default as an instrument that takes one program unit per message
+    (these tests pin the message-by-message exchanges; the compound ones are tested below)."""
+    return replace(_load_profile(name), compound_queries=compound)
 
 
 def _supply(replies=None) -> tuple[Supply, ScriptedTransport]:

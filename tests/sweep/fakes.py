@@ -109,6 +109,9 @@ class _Role:
     def check_errors(self, after: str | None = None) -> None:
         pass
 
+    def check_new_errors(self, after: str | None = None) -> None:
+        self.check_errors(after)
+
     def sync(self) -> None:
         self.bench.log.append(f"sync {self.resource}")
 
@@ -166,6 +169,11 @@ class FakeSupply(_Role):
         if self.bench.force == "supply":
             return "CC" if self.bench.element.drop(self.limit_a) <= self.voltage_v else "CV"
         return "CV"
+
+    def read_back(self, *, current: bool = False, voltage: bool = False) -> tuple[str, float | None, float | None]:
+        # the real role's order: mode, then the read-backs asked for
+        mode = self.mode()
+        return mode, (self.measure_current() if current else None), (self.measure_voltage() if voltage else None)
 
     def tripped(self) -> bool:
         return self.trip

@@ -142,7 +142,8 @@ async def test_an_instrument_fault_is_a_clear_message_with_outputs_off(tmp_path)
 
     plan = tmp_path / "trip.toml"
     plan.write_text(SLOW_PLAN.replace("count = 400", "count = 60"), encoding="utf-8")
-    app = demo_app(tmp_path / "runs", plan, sim_options={"faults": FaultPlan(drop_after_commands=120, role="meter")})
+    # about halfway through: the meter gets one message per reading, two per point
+    app = demo_app(tmp_path / "runs", plan, sim_options={"faults": FaultPlan(drop_after_commands=60, role="meter")})
     try:
         async with app.run_test(size=(80, 24)) as pilot:
             await _run_until_stopped(app, pilot)
