@@ -193,7 +193,7 @@ def _fit_blocks(ra: RunAnalysis) -> list:
         u = fit.std_u.get(key)
         U = fit.expanded_u.get(key)
         rows.append((key, number(value, unit), number(u, unit), number(U, unit),
-                     with_uncertainty(value, U, unit)))
+                     with_uncertainty(value, U, unit, fit.k)))
     blocks.append(Table(("parameter", "value", "standard u", f"expanded U (k = {fit.k:g})", "result"),
                         tuple(rows), caption=f"Fit: {fit.model} model, {fit.points} points, ν = {fit.dof}"))
     blocks.append(Paragraph(f"Model choice: {fit.reason}"))
@@ -208,8 +208,8 @@ def _fit_blocks(ra: RunAnalysis) -> list:
         v, u = fit.drop_at(ra.operating_current_a)
         i = ra.operating_current_a
         blocks.append(Paragraph(
-            f"At the operating current {number(i, 'A')}: drop {with_uncertainty(v, fit.k * u, 'V')}, "
-            f"loss {with_uncertainty(i * v, fit.k * i * u, 'W')} (expanded, k = {fit.k:g})."))
+            f"At the operating current {number(i, 'A')}: drop {with_uncertainty(v, fit.k * u, 'V', fit.k)}, "
+            f"loss {with_uncertainty(i * v, fit.k * i * u, 'W', fit.k)} (expanded)."))
     if fit.notes:
         blocks.append(Paragraph("Fit notes: " + "; ".join(fit.notes) + ".", "note"))
     if ra.heating is not None:
@@ -360,7 +360,7 @@ def comparison_section(runs: Sequence[RunAnalysis]) -> Section:
         drop = "—"
         if ra.fit is not None and ra.operating_current_a is not None:
             v, u = ra.fit.drop_at(ra.operating_current_a)
-            drop = f"{with_uncertainty(v, ra.fit.k * u, 'V')} at {number(ra.operating_current_a, 'A')}"
+            drop = f"{with_uncertainty(v, ra.fit.k * u, 'V', ra.fit.k)} at {number(ra.operating_current_a, 'A')}"
         outcome = getattr(getattr(ra.check, "verdict", None), "outcome", None) or getattr(ra.check, "outcome", None)
         rows.append((ra.path.name, e.serial or e.id or "—", e.kind or "—",
                      "complete" if ra.meta.complete else "INCOMPLETE", str(len(ra.frame)),

@@ -32,7 +32,7 @@ def fit_label(fit: FitResult) -> str:
     key = {"resistive": "r_on_ohm", "knee": "r_d_ohm", "diode": "ideality"}.get(fit.model)
     if key is None or key not in fit.params:
         return fit.model
-    return f"{fit.model}, {key} = {with_uncertainty(fit.params[key], fit.expanded_u.get(key), unit_of(key))} (k = {fit.k:g})"
+    return f"{fit.model}, {key} = {with_uncertainty(fit.params[key], fit.expanded_u.get(key), unit_of(key), fit.k)}"
 
 
 def measured_series(frame, fit: FitResult | None, label: str, offset_v: float | None = None) -> MeasuredSeries:
