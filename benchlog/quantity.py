@@ -119,18 +119,19 @@ def engineering(value: float | None, unit: str = "", digits: int = 4) -> str:
     return f"{text} {symbol}{unit}".strip()
 
 
-def measured(value: float | None, expanded_u: float | None, unit: str = "", k: float = 2.0) -> str:
+def measured(value: float | None, expanded_u: float | None, unit: str = "", k: float | None = 2.0) -> str:
     """`10.514 ± 0.012 mΩ (k = 2)`: the GUM 7.2.4 form with the coverage factor stated.
 
     Without a known uncertainty the value is written alone with "(no uncertainty)";
-    when U exceeds |value| the text ends "— not determined".
+    when U exceeds |value| the text ends "— not determined". `k=None` leaves the
+    coverage factor out, for a table whose heading states it.
     """
     if not _finite(value):
         return "—"
     if not _finite(expanded_u) or float(expanded_u) <= 0.0:
         return f"{engineering(value, unit)} (no uncertainty)"
     r = round_together(float(value), float(expanded_u), unit)
-    text = f"{r.value} ± {r.uncertainty} {r.unit_text}".rstrip() + f" (k = {k:g})"
+    text = f"{r.value} ± {r.uncertainty} {r.unit_text}".rstrip() + (f" (k = {k:g})" if k is not None else "")
     return text if r.determined else f"{text} — {NOT_DETERMINED}"
 
 
