@@ -100,8 +100,11 @@ def round_together(value: float, u: float, unit: str = "") -> Rounded:
     return Rounded(v_text, f"{u_r / scale:.{decimals}f}", symbol, unit, determined=u_r <= abs(v_r))
 
 
-def engineering(value: float | None, unit: str = "", digits: int = 4) -> str:
-    """A bare value with `digits` significant digits and a prefix: `0.02612` Ω -> `26.12 mΩ`; None -> `—`."""
+def engineering(value: float | None, unit: str = "", digits: int = 4, trim: bool = False) -> str:
+    """A bare value with `digits` significant digits and a prefix: `0.02612` Ω -> `26.12 mΩ`; None -> `—`.
+
+    `trim` drops trailing zeros, for a setting someone typed (2e-05 V -> `20 µV`, not `20.0000 µV`).
+    """
     if not _finite(value):
         return "—"
     value = float(value)
@@ -116,6 +119,8 @@ def engineering(value: float | None, unit: str = "", digits: int = 4) -> str:
         power += 3
         symbol = dict((p, s) for p, s in PREFIXES)[power]
         text = f"{value / 10.0 ** power:.{digits - 1}f}"
+    if trim and "." in text:
+        text = text.rstrip("0").rstrip(".")
     return f"{text} {symbol}{unit}".strip()
 
 

@@ -27,7 +27,7 @@ def number(value: Any, unit: str = "", digits: int = 6) -> str:
     return f"{value} {unit}".strip()
 
 
-def with_uncertainty(value: float | None, expanded_u: float | None, unit: str = "", k: float = 2.0) -> str:
+def with_uncertainty(value: float | None, expanded_u: float | None, unit: str = "", k: float | None = 2.0) -> str:
     """`value ± U unit (k = 2)` written the one way (benchlog.quantity, GUM 7.2.6)."""
     return measured(value, expanded_u, unit, k)
 

@@ -50,7 +50,7 @@ def test_single_run_report_shows_metadata_fit_verdict_and_escaped_user_text(tmp_
     assert inv.tags.count("figure") == 3
 
     # metadata: instruments with profile hashes, plan, element, ambient, times
-    for item in ("BENCHLOG,SIM-SUPPLY,0001,1.0", "a" * 64, "generic-dmm", "steps.count", "23.5 °C",
+    for item in ("BENCHLOG,SIM-SUPPLY,0001,1.0", "a" * 64, "generic-dmm", "steps: number of steps", "23.5 °C",
                  "2025-01-31T09:15:02Z", "sweep done"):
         assert item in text
 
@@ -96,9 +96,15 @@ def test_lot_summary_for_runs_sharing_a_lot_id(tmp_path):
     lot = next(s for s in doc.sections if s.title == "Lot L-7")
     summary = lot_from_runs(runs, load_spec(spec))
     names = [type(b).__name__ for b in lot.blocks]
-    assert names[:3] == ["VerdictBlock", "Table", "FigureBlock"]
-    assert lot.blocks[0].outcome == summary.outcome
-    stats = dict(lot.blocks[1].rows)
+    assert names[:2] == ["Table", "FigureBlock"]
+    # the lot's verdict leads the report: the first block of the first section
+    first = doc.sections[0]
+    assert first.title == "Verdict" and type(first.blocks[0]).__name__ == "VerdictBlock"
+    assert first.blocks[0].outcome == summary.outcome and "lot L-7" in first.blocks[0].headline
+    # six runs: one median-and-band figure, no per-run figures
+    figs = [f.name for f in doc.figures()]
+    assert figs.count("band") == 1 and "vi" not in figs
+    stats = dict(lot.blocks[0].rows)
     assert stats[summary.capability_name] == f"{summary.capability:.3g}"
     assert stats["parts"] == "6"
     parts = next(b for b in lot.blocks if isinstance(b, type(lot.blocks[1])) and b.caption == "Parts of the lot")
@@ -131,7 +137,7 @@ def test_diode_run_without_spec(tmp_path):
     run = runfiles.write_run(tmp_path / "d.run", current, drop, hdr=runfiles.header(kind="schottky"))
     doc = build_report([run])
     text = " ".join(str(b) for s in doc.sections for sec in s.walk() for b in sec.blocks)
-    assert "Without a part spec" in text
+    assert "no part spec was given" in text
     assert "ideality" in text
 
 
@@ -206,3 +212,29 @@ def test_design_alone_needs_no_run(tmp_path):
     assert main(["report", "--design", str(runfiles.design_file(tmp_path)), "-o", str(out)]) == 0
     assert out.read_bytes().startswith(b"%PDF")
     assert _exit_code(["report", "-o", str(tmp_path / "x.html")]) == 2
+
+
+def test_the_answer_comes_first_then_figures_then_traceability(tmp_path):
+    run = runfiles.pfet_run(tmp_path)
+    spec = runfiles.spec_file(tmp_path)
+    out = tmp_path / "r.html"
+    assert main(["report", str(run), "--spec", str(spec), "-o", str(out)]) == 0
+    page = out.read_text(encoding="utf-8")
+    verdict, first_table = page.index('class="verdict '), page.index("<table")
+    first_figure, plan = page.index("<figure"), page.index("Plan</caption>")
+    assert verdict < first_figure < first_table < plan
+    text = _text(page)
+    # human labels and engineering units, not plan keys with raw SI numbers
+    assert "steps: number of steps" in text and "steps.count" not in text
+    assert re.search(r"Report R-[0-9a-f]{8}-\d{8}T\d{4}Z", text)
+    assert "Sign-off for report R-" in text and "approved by" in text
+
+
+def test_two_runs_get_differences_with_numbers(tmp_path):
+    runs = [runfiles.pfet_run(tmp_path, "a.run", seed=1),
+            runfiles.pfet_run(tmp_path, "b.run", r_ohm=0.031, seed=2)]
+    doc = build_report(runs)
+    section = next(s for s in doc.sections if s.title == "Comparison of the runs")
+    table = next(b for b in section.blocks if getattr(b, "caption", "").startswith("Differences to"))
+    r_on = next(r for r in table.rows if r[1] == "r_on_ohm")
+    assert r_on[5] == "yes"  # 26 mΩ against 31 mΩ: far beyond U(d)
