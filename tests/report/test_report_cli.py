@@ -107,7 +107,7 @@ def test_lot_summary_for_runs_sharing_a_lot_id(tmp_path):
     stats = dict(lot.blocks[0].rows)
     assert stats[summary.capability_name] == f"{summary.capability:.3g}"
     assert stats["parts"] == "6"
-    parts = next(b for b in lot.blocks if isinstance(b, type(lot.blocks[1])) and b.caption == "Parts of the lot")
+    parts = next(b for b in lot.blocks if isinstance(b, type(lot.blocks[0])) and b.caption == "Parts of the lot")
     assert [r[0] for r in parts.rows] == [f"S-{i:03d}" for i in range(6)]
 
 
