@@ -172,7 +172,7 @@ def compare_runs(loaded: Sequence[tuple[object, object]], spec=None, at_a: float
     for f, (frame, meta) in zip(fits, loaded):
         verdict = None
         if spec is not None:
-            from .verdict import check_run
+            from .judging import check_run
 
             verdict = check_run(frame, meta, spec, at_a=current).verdict.outcome
         element = meta.header.element

@@ -63,7 +63,7 @@ def summary_row(path: str, spec=None) -> dict[str, Any]:
     row.update({"operating_a": current, "loss_w": drop * current, "expanded_u_loss_w": fit.k * u_drop * current,
                 "loss": measured(drop * current, fit.k * u_drop * current, "W", fit.k)})
     if spec is not None:
-        from benchlog.analysis.verdict import check_run
+        from benchlog.analysis.judging import check_run
 
         try:
             check = check_run(frame, meta, spec, at_a=current)
