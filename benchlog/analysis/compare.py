@@ -23,6 +23,8 @@ import math
 from dataclasses import dataclass
 from typing import Iterable, Sequence
 
+from benchlog.quantity import measured, unit_of
+
 #: components of a fit budget that come from one reading's accuracy, and which reading (fit_result.meter_components)
 READING_OF_TERM = {
     "drop meter gain": "drop", "drop meter offset": "drop",
@@ -194,3 +196,33 @@ def compare_runs(loaded: Sequence[tuple[object, object]], spec=None, at_a: float
                               vb * current, terms_of(drop_b, inst, current), k))
         rows.append(tuple(row))
     return Comparison(sides[0], tuple(sides[1:]), first_fit.model, current, source, k, tuple(rows), tuple(notes))
+
+
+_NAMES = {"r_on_ohm": "R_on", "v0_v": "V0", "ideality": "n", "i_s_a": "Is", "r_s_ohm": "Rs",
+          "v_knee_v": "V_knee", "r_d_ohm": "r_d", "loss_w": "loss"}
+
+
+def comparison_lines(c, names_only: bool = False) -> list[str]:
+    """The comparison for people: two runs side by side, or more as a table against the first."""
+    def where(side) -> str:
+        return side.path.replace("\\", "/").rsplit("/", 1)[-1] if names_only else side.path
+
+    ref = c.reference
+    lines = [f"reference: {ref.serial or '—'} ({where(ref)})" + (f", {ref.verdict.upper()}" if ref.verdict else ""),
+             f"model {c.model}; loss at {c.current_a:g} A ({c.current_source}); values ± U and d ± U(d) with "
+             f"{LEVEL}; significant: |d| > U(d)"]
+    for other, row in zip(c.others, c.rows):
+        lines.append(f"against {other.serial or '—'} ({where(other)})"
+                     + (f", {other.verdict.upper()}" if other.verdict else ""))
+        for d in row:
+            unit = unit_of(d.quantity)
+            name = _NAMES.get(d.quantity, d.quantity)
+            word = "SIGNIFICANT" if d.significant else "not significant"
+            lines.append(f"  {name:<7} {measured(d.a, d.k * d.u_a, unit, None):<22} -> "
+                         f"{measured(d.b, d.k * d.u_b, unit, None):<22}  d = {measured(d.d, d.expanded_u_d, unit, None)}"
+                         f"  {word}")
+        cancelled = sorted({name for d in row for name in d.cancelled})
+        lines.append("  same instrument and range in both, cancelled: " + (", ".join(cancelled) if cancelled else
+                     "nothing (other instruments or ranges: all terms add)"))
+    lines += [f"note: {n}" for n in c.notes]
+    return lines

@@ -6,6 +6,7 @@ import argparse
 import math
 from typing import Any
 
+from benchlog.analysis.compare import comparison_lines
 from benchlog.quantity import measured, unit_of
 
 from .output import print_json
@@ -72,33 +73,6 @@ def _level() -> str:
     from benchlog.analysis.compare import LEVEL
 
     return LEVEL
-
-
-_NAMES = {"r_on_ohm": "R_on", "v0_v": "V0", "ideality": "n", "i_s_a": "Is", "r_s_ohm": "Rs",
-          "v_knee_v": "V_knee", "r_d_ohm": "r_d", "loss_w": "loss"}
-
-
-def comparison_lines(c) -> list[str]:
-    """The comparison for people: two runs side by side, or more as a table against the first."""
-    ref = c.reference
-    lines = [f"reference: {ref.serial or '—'} ({ref.path})" + (f", {ref.verdict.upper()}" if ref.verdict else ""),
-             f"model {c.model}; loss at {c.current_a:g} A ({c.current_source}); values ± U and d ± U(d) with "
-             f"{_level()}; significant: |d| > U(d)"]
-    for other, row in zip(c.others, c.rows):
-        lines.append(f"against {other.serial or '—'} ({other.path})"
-                     + (f", {other.verdict.upper()}" if other.verdict else ""))
-        for d in row:
-            unit = unit_of(d.quantity)
-            name = _NAMES.get(d.quantity, d.quantity)
-            word = "SIGNIFICANT" if d.significant else "not significant"
-            lines.append(f"  {name:<7} {measured(d.a, d.k * d.u_a, unit, None):<22} -> "
-                         f"{measured(d.b, d.k * d.u_b, unit, None):<22}  d = {measured(d.d, d.expanded_u_d, unit, None)}"
-                         f"  {word}")
-        cancelled = sorted({name for d in row for name in d.cancelled})
-        lines.append("  same instrument and range in both, cancelled: " + (", ".join(cancelled) if cancelled else
-                     "nothing (other instruments or ranges: all terms add)"))
-    lines += [f"note: {n}" for n in c.notes]
-    return lines
 
 
 def run_compare(args: argparse.Namespace) -> int:
