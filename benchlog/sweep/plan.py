@@ -34,7 +34,7 @@ from benchlog.tomlcheck import Table, load_toml, parse_toml
 
 STEP_MODES = ("linear", "log", "list", "updown", "adaptive")
 
-_TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse")
+_TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse", "lab")
 
 
 @dataclass(frozen=True)
@@ -128,6 +128,15 @@ class Reverse:
 
 
 @dataclass(frozen=True)
+class Lab:
+    """Who measured which board revision, and the ambient read on the bench: for the report's lab record."""
+
+    operator: str | None = None
+    board_revision: str | None = None
+    ambient_measured_c: float | None = None
+
+
+@dataclass(frozen=True)
 class Plan:
     element: Element
     steps: Steps
@@ -139,11 +148,14 @@ class Plan:
     offset: OffsetReading
     reverse: Reverse | None
     source: str = "plan"
+    lab: Lab | None = None  # optional [lab] table
 
     def to_dict(self) -> dict[str, Any]:
         """The complete plan with every default filled in: what the run header records."""
         data = dataclasses.asdict(self)
         data.pop("source")
+        if data.get("lab") is None:  # recorded only when stated, so earlier headers stay as they were
+            data.pop("lab", None)
         for key in OPTIONAL_ELEMENT_KEYS:  # recorded only when stated, so earlier headers stay as they were
             if data["element"].get(key) is None:
                 data["element"].pop(key, None)
@@ -188,8 +200,18 @@ def plan_from_table(root: Table) -> Plan:
         offset=_offset(root.table("offset", required=False)),
         reverse=_reverse(root.table("reverse", required=False), limits),
         source=root.source,
+        lab=_lab(root.table("lab", required=False)),
     )
     return plan
+
+
+def _lab(t: Table | None) -> Lab | None:
+    """The optional [lab] table: operator, board revision, measured ambient (for the report, not the sweep)."""
+    if t is None:
+        return None
+    t.only(("operator", "board_revision", "ambient_measured_c"))
+    return Lab(operator=t.string("operator", None), board_revision=t.string("board_revision", None),
+               ambient_measured_c=t.number("ambient_measured_c", None, min=-60.0, max=150.0, unit="°C"))
 
 
 def _text(t: Table, key: str, default: str = "") -> str:

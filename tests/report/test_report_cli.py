@@ -238,3 +238,26 @@ def test_two_runs_get_differences_with_numbers(tmp_path):
     table = next(b for b in section.blocks if getattr(b, "caption", "").startswith("Differences to"))
     r_on = next(r for r in table.rows if r[1] == "r_on_ohm")
     assert r_on[5] == "yes"  # 26 mΩ against 31 mΩ: far beyond U(d)
+
+
+def test_lab_record_and_a_calibration_past_due_warn_next_to_the_verdict(tmp_path):
+    hdr = runfiles.header()
+    # the run was made on 2025-01-31; the meter's calibration ran out two weeks before
+    hdr["bench"] = {"roles": {"meter": {"resource": "TCPIP0::127.0.0.1::5026::SOCKET", "profile": "generic-dmm",
+                                        "asset": "LAB-0042", "calibration_due": "2025-01-15"},
+                              "supply": {"resource": "TCPIP0::127.0.0.1::5025::SOCKET", "profile": "generic-dc-supply",
+                                         "calibration_due": "2030-01-01"}}}
+    hdr["plan"] = {**hdr["plan"], "lab": {"operator": "A. Tester", "board_revision": "B2", "ambient_measured_c": 24.1}}
+    run = runfiles.pfet_run(tmp_path, hdr=hdr)
+    doc = build_report([run], spec_path=runfiles.spec_file(tmp_path), generated_utc="2025-02-01T08:00:00Z")
+    first = doc.sections[0]
+    warnings = [b.text for b in first.blocks if getattr(b, "kind", "") == "warning"]
+    assert len(warnings) == 1 and "CALIBRATION PAST DUE" in warnings[0] and "LAB-0042" in warnings[0]
+    assert "2025-01-15" in warnings[0]
+    lab = next(s for s in doc.sections if s.title == "Lab record and sign-off")
+    record = dict(lab.blocks[0].rows)
+    assert record["operator (pfet.run)"] == "A. Tester" and record["board revision (pfet.run)"] == "B2"
+    assert record["ambient, measured (pfet.run)"] == "24.1 °C"
+    assert record["report ID"].startswith("R-") and record["report ID"].endswith("-20250201T0800Z")
+    sign = lab.blocks[1]
+    assert sign.rows[0][:2] == ("measured by", "A. Tester") and [r[0] for r in sign.rows][1:] == ["checked by", "approved by"]
