@@ -261,3 +261,32 @@ def test_lab_record_and_a_calibration_past_due_warn_next_to_the_verdict(tmp_path
     assert record["report ID"].startswith("R-") and record["report ID"].endswith("-20250201T0800Z")
     sign = lab.blocks[1]
     assert sign.rows[0][:2] == ("measured by", "A. Tester") and [r[0] for r in sign.rows][1:] == ["checked by", "approved by"]
+
+
+def test_lot_band_is_the_median_and_quantiles_and_the_outlier_is_drawn_alone(tmp_path):
+    import numpy as np
+
+    from benchlog.report import from_analysis as fa
+
+    runs = [runfiles.pfet_run(tmp_path, f"p{i}.run", r_ohm=0.026 + 0.0002 * i, seed=i,
+                              hdr=runfiles.header(serial=f"S-{i:03d}", lot="L-9")) for i in range(7)]
+    runs.append(runfiles.pfet_run(tmp_path, "odd.run", r_ohm=0.040, seed=9,
+                                  hdr=runfiles.header(serial="S-ODD", lot="L-9")))
+    doc = build_report(runs, spec_path=runfiles.spec_file(tmp_path))
+    band = next(f for f in doc.figures() if f.name == "band")
+    labels = band.figure.axes[0].get_legend_handles_labels()[1]
+    assert "median curve" in labels and any(label.startswith("10–90 %") for label in labels)
+    outliers = [p.serial for p in lot_from_runs(runs, load_spec(runfiles.spec_file(tmp_path))).parts if p.outlier]
+    assert "S-ODD" in outliers
+    assert [label for label in labels if label.startswith("outlier")] == [f"outlier {s}" for s in outliers]
+    # the band against numpy's own median and quantiles of the same curves (numpy.quantile, linear method)
+    from benchlog.analysis.fits import fit_run
+    from benchlog.runs import load
+
+    fits = [fit_run(*load(r)) for r in runs]
+    grid, median, low, high = fa.lot_band(fits)
+    curves = np.array([[float(f.drop_at(float(i))[0]) for i in grid] for f in fits])
+    assert np.allclose(median, np.median(curves, axis=0), rtol=1e-9)
+    assert np.allclose(low, np.percentile(curves, 10, axis=0), rtol=1e-9)
+    assert np.allclose(high, np.percentile(curves, 90, axis=0), rtol=1e-9)
+    assert grid.max() <= min(f.current_a.max() for f in fits)  # no extrapolation
