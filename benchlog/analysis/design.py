@@ -30,6 +30,7 @@ from dataclasses import dataclass
 from . import eseries
 from .predict import Prediction, predict, reverse_leakage
 from benchlog.kinds import kind as element_kind
+from benchlog.quantity import margin as quantity_margin
 
 from .low_input import Takeover, guaranteed_vgs_v, takeover_input_v
 from .spec import PartSpec
@@ -269,7 +270,7 @@ def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None)
         checks.append(DesignCheck(
             "junction temperature", margin >= m.tj_margin_k,
             f"Tj {w.tj_c:.1f} °C at {design.load_max_a:g} A, {ta:g} °C ambient ({w.variant} values): "
-            f"{margin:.1f} K below Tj max {tj_max:g} °C (wanted ≥ {m.tj_margin_k:g} K)"))
+            f"{quantity_margin(margin, 'K', f'Tj max {tj_max:g} °C')} (wanted ≥ {m.tj_margin_k:g} K below)"))
 
     # Blocking voltage: the element must stand off the highest input, and the reversed input.
     needed = max(design.vin_max_v, design.reverse_v or 0.0)

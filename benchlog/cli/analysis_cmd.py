@@ -14,6 +14,7 @@ import math
 from typing import Any
 
 from benchlog.ambient import DEFAULT_AMBIENT_C
+from benchlog.quantity import measured
 
 from .output import print_json
 
@@ -240,8 +241,8 @@ def _check(args) -> int:
                     and n not in flagged]
         for note in flagged:  # what qualifies the verdict comes first, not among the notes
             print(f"  ! {note}")
-        print(f"  measured drop {c.measured_drop_v:.6g} V ± {c.k * c.drop_std_u_v:.2g} V, "
-              f"loss {c.measured_loss_w:.6g} W ± {c.k * c.loss_std_u_w:.2g} W (k = {c.k:g})")
+        print(f"  measured drop {measured(c.measured_drop_v, c.k * c.drop_std_u_v, 'V', c.k)}, "
+              f"loss {measured(c.measured_loss_w, c.k * c.loss_std_u_w, 'W', c.k)}")
         print(f"  limit {_fmt(c.verdict.limit, '.6g', 'W')}: {c.verdict.limit_source}")
         print(f"  predicted in service (typical, self-heated): {_fmt(c.predicted.loss_w, '.4g', 'W')} "
               f"at Tj {_fmt(c.predicted.tj_c, '.1f', '°C')}")
@@ -300,10 +301,11 @@ def _lot(args) -> int:
     unit = {"ohm": "Ω", "v": "V"}.get(_unit(s.quantity), "")
     width = max(6, *(len(p.serial) for p in s.parts))
     print(f"{s.outcome.upper()}  lot of {s.n} × {s.part}: {s.quantity}")
-    print(f"  {'serial':<{width}}  {'value':>12}  {'±U':>10}  verdict")
+    print(f"  {'serial':<{width}}  {'value (k = 2)':<28}  verdict")
     for p in s.parts:
-        flag = "  outlier" if p.outlier else ""
-        print(f"  {p.serial:<{width}}  {p.value:>12.6g}  {p.expanded_u:>10.2g}  {p.outcome}{flag}")
+        flag = "  OUTLIER" if p.outlier else ""
+        value = measured(p.value, p.expanded_u, unit).removesuffix(" (k = 2)")
+        print(f"  {p.serial:<{width}}  {value:<28}  {p.outcome}{flag}")
     print(f"  mean {s.mean:.6g} {unit}, σ {_fmt(s.std, '.3g', unit)}, min {s.min:.6g}, max {s.max:.6g}")
     print(f"  limits: USL {_fmt(s.usl, '.6g', unit)}, LSL {_fmt(s.lsl, '.6g', unit)} ({s.limit_source})")
     print(f"  {s.capability_name} = {_fmt(s.capability, '.3g')}, {s.capability_confidence:.0%} lower bound "

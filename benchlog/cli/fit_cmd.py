@@ -7,18 +7,19 @@ import math
 from typing import Any
 
 from benchlog.badinput import BadInput
+from benchlog.quantity import engineering, measured
 
 MODELS = ("auto", "resistive", "diode", "knee")
 
 # what each parameter is called for people, and the unit it is printed in
 _LABELS = {
-    "r_on_ohm": ("R_on", "ohm"),
+    "r_on_ohm": ("R_on", "Ω"),
     "v0_v": ("V0", "V"),
     "ideality": ("n", ""),
     "i_s_a": ("Is", "A"),
-    "r_s_ohm": ("Rs", "ohm"),
+    "r_s_ohm": ("Rs", "Ω"),
     "v_knee_v": ("V_knee", "V"),
-    "r_d_ohm": ("r_d", "ohm"),
+    "r_d_ohm": ("r_d", "Ω"),
 }
 
 
@@ -76,6 +77,8 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         "std_u": dict(fit.std_u),
         "k": fit.k,
         "expanded_u": dict(fit.expanded_u),
+        "text": {key: measured(v, fit.expanded_u.get(key), _LABELS.get(key, (key, ""))[1], fit.k)
+                 for key, v in fit.params.items()},
         "dof_eff": {key: b.dof for key, b in fit.budgets.items()},
         "k_t": {key: b.k_t for key, b in fit.budgets.items()},
         "budget": {
@@ -113,7 +116,8 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         payload["drop_at"].append({"current_a": current, "drop_v": value, "std_u_v": budget.u,
                                    "expanded_u_v": budget.expanded_u, "loss_w": value * current,
                                    "budget": [{"name": c.name, "type": c.kind, "u": c.u, "dof": c.dof}
-                                              for c in budget.components]})
+                                              for c in budget.components],
+                                   "text": measured(value, budget.expanded_u, "V", fit.k)})
     if fit.model == "diode":
         # the straight-line form for the operating range, beside the diode law (issue 4, item 1)
         knee = fit_knee(fit.current_a, fit.drop_v, fit.accuracy, offset_removed=fit.offset_removed,
@@ -139,14 +143,7 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
 
 def _value(key: str, value: float, u: float | None = None, expanded: float | None = None) -> str:
     label, unit = _LABELS.get(key, (key, ""))
-    text = f"{label:<7}= {value:.6g}"
-    if expanded is not None:
-        text += f" ± {expanded:.2g}"
-    if unit:
-        text += f" {unit}"
-    if u is not None:
-        text += f"   (u = {u:.2g}, k = 2)"
-    return text
+    return f"{label:<7}= {measured(value, expanded, unit)}"
 
 
 def _in_print_order(params: dict[str, float], first: tuple[str, ...]) -> list[str]:
@@ -175,8 +172,8 @@ def print_human(payload: dict[str, Any]) -> None:
     heating = payload["self_heating"]
     print(f"  self-heating: {'yes' if heating['detected'] else 'no'} - {heating['reason']}")
     for row in payload["drop_at"]:
-        print(f"  at {row['current_a']:.6g} A: drop {row['drop_v']:.6g} ± {row['expanded_u_v']:.2g} V (k = 2), "
-              f"loss {row['loss_w']:.4g} W")
+        print(f"  at {engineering(row['current_a'], 'A')}: drop {measured(row['drop_v'], row['expanded_u_v'], 'V')}, "
+              f"loss {measured(row['loss_w'], row['expanded_u_v'] * row['current_a'], 'W')}")
     if "knee" in payload:
         knee = payload["knee"]
         print(f"  knee line above {knee['above_a']:.4g} A:")

@@ -50,6 +50,8 @@ def register(sub) -> None:
                    "model the verdict uses when --spec is given)")
     p.add_argument("--design", metavar="DESIGN.toml", help="add the design review of this design file")
     p.add_argument("--figures", metavar="DIR", help="also write every figure as PNG and SVG into DIR")
+    p.add_argument("--compare", action="store_true", help="add the differences to the first run with their "
+                   "uncertainty for any number of runs (done without asking for up to 6 runs)")
     p.set_defaults(handler=run)
 
 
@@ -76,7 +78,8 @@ def run(args) -> int:
     from benchlog.report.build import build_report
     from benchlog.report.figures import save
 
-    doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a, design_path=args.design)
+    doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a, design_path=args.design,
+                       compare=True if args.compare else None)
     try:
         write_report(doc, out)
     except OSError as exc:

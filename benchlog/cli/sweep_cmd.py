@@ -353,8 +353,8 @@ def _demo(args) -> int:
         print(f"{result.points} points, outcome {result.outcome}" + _detail(result))
         fit = summary.get("fit")
         if fit:
-            parts = ", ".join(f"{k} = {v:.6g} ± {fit['std_u'].get(k, float('nan')):.2g}" for k, v in fit["params"].items())
-            print(f"fit ({fit['model']}): {parts} (standard uncertainties)")
+            parts = ", ".join(f"{k} = {text}" for k, text in fit["text"].items())
+            print(f"fit ({fit['model']}): {parts}")
         verdict = summary.get("verdict")
         if verdict:
             print(f"verdict: {verdict['outcome']} ({verdict['rule']})")
@@ -377,7 +377,11 @@ def _analysis_summary(run_file: Path, plan) -> dict[str, Any]:
         fit = fit_run(frame, meta)
     except Exception as exc:  # noqa: BLE001 -- the recording stands even if the fit cannot be made
         return {"analysis_note": f"no fit: {exc}"}
-    out["fit"] = {"model": fit.model, "params": dict(fit.params), "std_u": dict(fit.std_u), "reason": fit.reason}
+    from benchlog.quantity import measured, unit_of
+
+    out["fit"] = {"model": fit.model, "params": dict(fit.params), "std_u": dict(fit.std_u),
+                  "expanded_u": dict(fit.expanded_u), "k": fit.k, "reason": fit.reason,
+                  "text": {k: measured(v, fit.expanded_u.get(k), unit_of(k), fit.k) for k, v in fit.params.items()}}
     spec_path = _demo_spec_for(plan)
     if spec_path is None:
         return out

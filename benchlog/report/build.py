@@ -37,7 +37,14 @@ from .from_verdict import verdict_block
 from .lot_section import lot_section
 from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
 from .safety import SAFETY_NOTE
+from .front import answer_blocks, calibration_warnings, lab_fields, lab_table, report_id, sign_off_table
+from .labels import readable_rows
 from .text import flatten, number, unit_of, with_uncertainty
+
+#: runs up to this many get their verdict block and figures each; more get a table and one band figure
+DETAIL_UP_TO = 3
+#: runs up to this many get the comparison with numbers without asking (report --compare for more)
+COMPARE_UP_TO = 6
 
 
 @dataclass(frozen=True, eq=False)
@@ -196,7 +203,7 @@ def _fit_blocks(ra: RunAnalysis) -> list:
         u = fit.std_u.get(key)
         U = fit.expanded_u.get(key)
         rows.append((key, number(value, unit), number(u, unit), number(U, unit),
-                     with_uncertainty(value, U, unit)))
+                     with_uncertainty(value, U, unit, fit.k)))
     blocks.append(Table(("parameter", "value", "standard u", f"expanded U (k = {fit.k:g})", "result"),
                         tuple(rows), caption=f"Fit: {fit.model} model, {fit.points} points, ν = {fit.dof}"))
     blocks.append(Paragraph(f"Model choice: {fit.reason}"))
@@ -211,8 +218,8 @@ def _fit_blocks(ra: RunAnalysis) -> list:
         v, u = fit.drop_at(ra.operating_current_a)
         i = ra.operating_current_a
         blocks.append(Paragraph(
-            f"At the operating current {number(i, 'A')}: drop {with_uncertainty(v, fit.k * u, 'V')}, "
-            f"loss {with_uncertainty(i * v, fit.k * i * u, 'W')} (expanded, k = {fit.k:g})."))
+            f"At the operating current {number(i, 'A')}: drop {with_uncertainty(v, fit.k * u, 'V', fit.k)}, "
+            f"loss {with_uncertainty(i * v, fit.k * i * u, 'W', fit.k)} (expanded)."))
     if fit.notes:
         blocks.append(Paragraph("Fit notes: " + "; ".join(fit.notes) + ".", "note"))
     if ra.heating is not None:
@@ -311,6 +318,7 @@ def _figures(ra: RunAnalysis, spec: PartSpec | None) -> list:
 
 
 def run_section(ra: RunAnalysis, spec: PartSpec | None) -> Section:
+    """One run's details: fit and prediction, events, then the traceability tables (verdict and plots lead the report)."""
     complete = ra.meta.complete
     blocks: list = []
     if not complete:
@@ -318,40 +326,37 @@ def run_section(ra: RunAnalysis, spec: PartSpec | None) -> Section:
             "INCOMPLETE RUN: this file has no end record, so the recording stopped early (the process was "
             "killed, lost power, or is still running). Everything below uses only the points that reached "
             "the disk; treat the results as provisional.", "warning"))
-    blocks += [_run_table(ra), _element_table(ra), _instrument_table(ra)]
-    header = ra.meta.header
-    for data, caption in ((header.plan.table if header.plan else None, "Plan"),
-                          (header.bench.table if header.bench else None, "Bench"),
-                          (header.meter.to_table() if header.meter else None, "Meter settings"),
-                          (header.accuracy.to_table(), "Accuracy used in the uncertainty budget")):
-        table = _key_value_table(data, caption)
-        if table is not None:
-            blocks.append(table)
-    analysis: list = []
-    verdict = _verdict_block(ra)
-    if verdict is not None:
-        analysis.append(verdict)
-    analysis += _fit_blocks(ra)
+    analysis: list = list(_fit_blocks(ra))
     pred = _prediction_table(ra)
     if pred is not None:
         analysis.append(pred)
         if ra.prediction.notes:
             analysis.append(Paragraph("Prediction notes: " + "; ".join(ra.prediction.notes) + ".", "note"))
-    analysis += _figures(ra, spec)
     from .soak_section import soak_section
 
     soak = soak_section(ra.frame, ra.meta, spec, ra.label)
+    trace: list = [_run_table(ra), _element_table(ra), _instrument_table(ra)]
+    header = ra.meta.header
+    for data, caption in ((header.plan.table if header.plan else None, "Plan"),
+                          (header.bench.table if header.bench else None, "Bench"),
+                          (header.meter.to_table() if header.meter else None, "Meter settings"),
+                          (header.accuracy.to_table(), "Accuracy used in the uncertainty budget")):
+        table = _readable_table(data, caption)
+        if table is not None:
+            trace.append(table)
     return Section(
         title=f"Run {ra.label}",
         status="" if complete else "incomplete",
         blocks=tuple(blocks),
-        subsections=(
-            Section("Results", tuple(analysis)),
-            *((soak,) if soak is not None else ()),
-            *_sweep_sections(ra, spec),
-            Section("Events and limit hits", tuple(_event_blocks(ra))),
-        ),
+        subsections=(Section("Fit and prediction", tuple(analysis)),) + ((soak,) if soak is not None else ())
+        + tuple(_sweep_sections(ra, spec))
+        + (Section("Events and limit hits", tuple(_event_blocks(ra))), Section("Traceability", tuple(trace))),
     )
+
+
+def _readable_table(data: Any, caption: str) -> Table | None:
+    rows = readable_rows(data) if data else ()
+    return Table(("setting", "value"), rows, caption=caption) if rows else None
 
 
 def _sweep_sections(ra: RunAnalysis, spec: PartSpec | None) -> list[Section]:
@@ -372,14 +377,14 @@ def _main_parameter(ra: RunAnalysis) -> str:
     return fa.fit_label(ra.fit) if ra.fit is not None else f"no fit ({ra.fit_problem})"
 
 
-def comparison_section(runs: Sequence[RunAnalysis]) -> Section:
+def comparison_section(runs: Sequence[RunAnalysis], with_numbers: bool = True) -> Section:
     rows = []
     for ra in runs:
         e = ra.element
         drop = "—"
         if ra.fit is not None and ra.operating_current_a is not None:
             v, u = ra.fit.drop_at(ra.operating_current_a)
-            drop = f"{with_uncertainty(v, ra.fit.k * u, 'V')} at {number(ra.operating_current_a, 'A')}"
+            drop = f"{with_uncertainty(v, ra.fit.k * u, 'V', ra.fit.k)} at {number(ra.operating_current_a, 'A')}"
         outcome = getattr(ra.check, "outcome", None)  # the Check's: the worse of forward and reverse
         rows.append((ra.path.name, e.serial or e.id or "—", e.kind or "—",
                      "complete" if ra.meta.complete else "INCOMPLETE", str(len(ra.frame)),
@@ -395,10 +400,64 @@ def comparison_section(runs: Sequence[RunAnalysis]) -> Section:
         series.append(s)
         curves.append(fa.fit_curve(ra.fit, fa.current_grid(float(np.nanmax(s.current_a)))) if ra.fit else None)
     blocks: list = [table]
-    if series:
-        blocks.append(FigureBlock("overlay", figures.overlay_figure(series, curves),
-                                  caption="All runs on one axis; each run has its own marker and line style."))
+    if with_numbers:
+        blocks += difference_blocks(runs)
     return Section("Comparison of the runs", tuple(blocks))
+
+
+def overlay_block(runs: Sequence[RunAnalysis]) -> FigureBlock | None:
+    """A few runs on one axis, each with its own marker and line style."""
+    series, curves = [], []
+    for ra in runs:
+        if len(ra.frame) == 0:
+            continue
+        s = fa.measured_series(ra.frame, ra.fit, ra.label, ra.meta.offset_v)
+        series.append(s)
+        curves.append(fa.fit_curve(ra.fit, fa.current_grid(float(np.nanmax(s.current_a)))) if ra.fit else None)
+    if not series:
+        return None
+    return FigureBlock("overlay", figures.overlay_figure(series, curves),
+                       caption="All runs on one axis; each run has its own marker and line style.")
+
+
+def band_block(runs: Sequence[RunAnalysis], outlier_paths: set[str]) -> FigureBlock | None:
+    """Many runs as a median curve with a 10–90 % band; the lot's outliers drawn alone."""
+    fitted = [ra for ra in runs if ra.fit is not None and ra.fit.points > 0]
+    if len(fitted) < 2:
+        return None
+    grid, median, low, high = fa.lot_band([ra.fit for ra in fitted])
+    alone = [fa.measured_series(ra.frame, ra.fit, ra.element.serial or ra.path.name, ra.meta.offset_v)
+             for ra in fitted if str(ra.path) in outlier_paths]
+    lo, hi = fa.BAND_QUANTILES
+    return FigureBlock("band", figures.band_figure(grid, median, low, high, alone, quantiles=(lo, hi),
+                                                   count=len(fitted), title=f"{len(fitted)} runs: median curve and band"),
+                       caption=f"Median of the fitted curves with the band holding {lo:.0%}–{hi:.0%} of them, over "
+                       "the current range every run measured; each outlier part is drawn alone with its points.")
+
+
+def difference_blocks(runs: Sequence[RunAnalysis]) -> list:
+    """Each run against the first: d ± U(d), same-instrument terms cancelled (analysis.compare, GUM 5.2.2)."""
+    from benchlog.analysis.compare import LEVEL, compare_runs
+
+    usable = [ra for ra in runs if len(ra.frame) > 0]
+    try:
+        c = compare_runs([(ra.frame, ra.meta) for ra in usable])
+    except BadInput as exc:
+        return [Paragraph(f"No comparison with numbers: {exc.problem}.", "warning")]
+    rows = []
+    for other, row in zip(c.others, c.rows):
+        for d in row:
+            unit = unit_of(d.quantity)
+            rows.append((other.serial or Path(other.path).name, d.quantity,
+                         with_uncertainty(d.a, d.k * d.u_a, unit, None), with_uncertainty(d.b, d.k * d.u_b, unit, None),
+                         with_uncertainty(d.d, d.expanded_u_d, unit, None),
+                         "yes" if d.significant else "no", ", ".join(d.cancelled) or "—"))
+    ref = c.reference.serial or Path(c.reference.path).name
+    return [Table(("run", "quantity", f"reference {ref}", "this run", "difference d ± U(d)", "significant",
+                   "cancelled (same instrument and range)"), tuple(rows),
+                  caption=f"Differences to {ref}; loss at {number(c.current_a, 'A')} ({c.current_source}); "
+                  f"{LEVEL}; significant when |d| > U(d)"),
+            Paragraph("; ".join(c.notes) + ".", "note")] if rows else []
 
 
 # ----------------------------------------------------------------------------- lots
@@ -436,6 +495,7 @@ def build_report(
     at_a: float | None = None,
     design_path: str | Path | None = None,
     generated_utc: str | None = None,
+    compare: bool | None = None,
 ) -> Document:
     """Analyse the runs (and review the design, when given) and lay out the report.
 
@@ -452,26 +512,57 @@ def build_report(
         review = design_review(load_design(design_path))
     runs = [analyse_run(p, spec, model=model, at_a=at_a) for p in run_paths]
     when = generated_utc or datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
-    sections: list[Section] = []
+    rid = report_id([ra.meta.header.run_id for ra in runs] or [str(design_path)], when)
+    lots = lot_sections(runs, spec, at_a) if spec is not None else []
+    lot_verdicts = [b for sec in lots for b in sec.blocks if isinstance(b, VerdictBlock)]
+    lots = [Section(sec.title, tuple(b for b in sec.blocks if not isinstance(b, VerdictBlock)), sec.subsections,
+                    sec.status) for sec in lots]
+
+    # 1. the answer: verdicts with their rule and conditions, and what qualifies them
     incomplete = [ra for ra in runs if not ra.meta.complete]
-    summary = [Paragraph(
+    answer: list = []
+    answer += calibration_warnings(runs, _day_of(when))
+    answer += answer_blocks(runs, lot_verdicts, spec, DETAIL_UP_TO)
+    if review is not None:
+        answer.append(Paragraph(f"Design review of {review.design.name}: {review.recommendation}."))
+    answer.append(Paragraph(
         f"{len(runs)} run(s)" + (f", {len(incomplete)} of them incomplete" if incomplete else "")
         + (f"; judged against the part spec {spec.name} ({spec_path})" if spec is not None else "; no part spec given")
-        + ". Read the safety note at the end before repeating any measurement.")]
-    if spec is None and runs:
-        summary.append(Paragraph("Without a part spec (--spec) there is no prediction and no verdict.", "note"))
-    if review is not None:
-        summary.append(Paragraph(f"Design review of {review.design.name}: {review.recommendation}."))
-    sections.append(Section("Summary", tuple(summary)))
+        + ". Read the safety note at the end before repeating any measurement.", "note"))
+    sections: list[Section] = [Section("Verdict", tuple(answer))]
+
+    # 2. the plots
+    plots: list = []
+    if runs and len(runs) <= DETAIL_UP_TO:
+        for ra in runs:
+            plots += _figures(ra, spec)
+        if len(runs) > 1:
+            overlay = overlay_block(runs)
+            if overlay is not None:
+                plots.append(overlay)
+    elif runs:
+        outliers = {p.run for sec_runs in _lot_outliers(runs, spec, at_a) for p in sec_runs}
+        band = band_block(runs, outliers)
+        if band is not None:
+            plots.append(band)
+        plots.append(Paragraph(f"Figures of each run are left out of a report of more than {DETAIL_UP_TO} runs "
+                               "(they would make it slow and large); report a run alone for its figures.", "note"))
+    if plots:
+        sections.append(Section("Figures", tuple(plots)))
+
+    # 3. comparisons, lots, design, then each run's details and traceability
+    if len(runs) > 1:
+        numbers = compare if compare is not None else len(runs) <= COMPARE_UP_TO
+        sections.append(comparison_section(runs, with_numbers=numbers))
+    sections += lots
     if review is not None:
         from .design_section import design_section
 
         sections.append(design_section(review))
-    if len(runs) > 1:
-        sections.append(comparison_section(runs))
-    if spec is not None:
-        sections += lot_sections(runs, spec, at_a)
     sections += [run_section(ra, spec) for ra in runs]
+    operators = [str(lab_fields(ra.meta.header)["operator"] or "") for ra in runs]
+    if runs:
+        sections.append(Section("Lab record and sign-off", (lab_table(runs, rid, when), sign_off_table(rid, operators))))
     sections.append(Section("Safety", (Paragraph(SAFETY_NOTE, "safety"),)))
     if not runs:
         title = f"benchlog report: design review of {review.design.name}"
@@ -479,7 +570,33 @@ def build_report(
         title = f"benchlog report: {runs[0].label}"
     else:
         title = f"benchlog report: {len(runs)} runs"
-    return Document(title, f"Generated {when} by benchlog {benchlog.__version__}.", tuple(sections))
+    return Document(title, f"Report {rid}, generated {when} by benchlog {benchlog.__version__}.", tuple(sections))
 
 
+def _day_of(when: str):
+    from datetime import date
 
+    try:
+        return date.fromisoformat(when[:10])
+    except ValueError:
+        return datetime.now(timezone.utc).date()
+
+
+def _lot_outliers(runs, spec, at_a):
+    """The outlier parts of each lot, as lot parts (`.run` is the run path)."""
+    if spec is None:
+        return []
+    from .lot_runs import lot_from_runs
+
+    groups: dict[str, list] = {}
+    for ra in runs:
+        if ra.fit is not None and isinstance(ra.element.lot, str) and ra.element.lot.strip():
+            groups.setdefault(ra.element.lot, []).append(ra.path)
+    out = []
+    for paths in groups.values():
+        if len(paths) >= 2:
+            try:
+                out.append([p for p in lot_from_runs(paths, spec, at_a).parts if p.outlier])
+            except BadInput:
+                continue
+    return out

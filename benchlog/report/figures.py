@@ -291,6 +291,47 @@ def overlay_figure(
     return fig
 
 
+def band_figure(
+    current_a: np.ndarray,
+    median_v: np.ndarray,
+    low_v: np.ndarray,
+    high_v: np.ndarray,
+    alone: Sequence[FitCurve | MeasuredSeries] = (),
+    *,
+    quantiles: tuple[float, float] = (0.10, 0.90),
+    count: int = 0,
+    title: str = "",
+) -> Figure:
+    """Many runs as their median fitted curve and a quantile band; the runs in `alone` (outliers) drawn one by one.
+
+    A band with one median line stays readable at 20 or 200 parts where one trace per
+    part and a legend entry each would not; an outlier keeps its own line and label.
+    """
+    fig = _new_figure()
+    ax = fig.add_subplot()
+    lo_pct, hi_pct = (round(q * 100) for q in quantiles)
+    ax.fill_between(current_a, low_v, high_v, color=style.FIT.color, alpha=style.BAND_ALPHA,
+                    hatch=style.BAND_HATCH, linewidth=0,
+                    label=plain(f"{lo_pct}–{hi_pct} % of the {count} fitted curves" if count else
+                                f"{lo_pct}–{hi_pct} % band"))
+    ax.plot(current_a, median_v, color=style.FIT.color, linestyle="-", linewidth=1.6, label="median curve")
+    for i, item in enumerate(alone):
+        st = style.series_style(i + 1)
+        label = plain(f"outlier {item.label}")
+        if isinstance(item, MeasuredSeries):
+            ax.plot(item.current_a, item.drop_v, linestyle="none", marker=st.marker, color=st.color,
+                    markersize=4, markerfacecolor="none", label=label)
+        else:
+            ax.plot(item.current_a, item.drop_v, linestyle=st.linestyle, color=st.color, linewidth=1.2,
+                    marker=st.marker, markevery=8, markerfacecolor="none", label=label)
+    ax.set_xlabel(CURRENT_LABEL)
+    ax.set_ylabel(DROP_LABEL)
+    ax.set_title(plain(title or "Lot: median curve and band"))
+    ax.grid(True, linewidth=0.4, alpha=0.6)
+    _legend(ax)
+    return fig
+
+
 # -- output ------------------------------------------------------------------------------------
 
 _SVG_RC = {"svg.fonttype": "none", "svg.hashsalt": "benchlog"}

@@ -32,7 +32,7 @@ def fit_label(fit: FitResult) -> str:
     key = {"resistive": "r_on_ohm", "knee": "r_d_ohm", "diode": "ideality"}.get(fit.model)
     if key is None or key not in fit.params:
         return fit.model
-    return f"{fit.model}, {key} = {with_uncertainty(fit.params[key], fit.expanded_u.get(key), unit_of(key))} (k = {fit.k:g})"
+    return f"{fit.model}, {key} = {with_uncertainty(fit.params[key], fit.expanded_u.get(key), unit_of(key), fit.k)}"
 
 
 def measured_series(frame, fit: FitResult | None, label: str, offset_v: float | None = None) -> MeasuredSeries:
@@ -107,3 +107,20 @@ def operating_point(fit: FitResult | None, current_a: float, prediction=None) ->
 
 def _num(value) -> float:
     return float("nan") if value is None else float(value)
+
+
+#: the band drawn around a lot's median curve: 10 % to 90 % of the parts (quantiles of the fitted curves)
+BAND_QUANTILES = (0.10, 0.90)
+
+
+def lot_band(fits: list[FitResult], points: int = GRID_POINTS,
+             quantiles: tuple[float, float] = BAND_QUANTILES) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """(grid, median, low, high) of the fitted drops over the current range every run measured (no extrapolation).
+
+    Quantiles by numpy's default (linear interpolation, Hyndman & Fan type 7).
+    """
+    top = min(float(np.nanmax(f.current_a)) for f in fits)
+    grid = np.linspace(top / points, top, points)
+    drops = np.vstack([np.asarray(f.curve.value(grid), dtype=float) for f in fits])
+    low, median, high = np.quantile(drops, [quantiles[0], 0.5, quantiles[1]], axis=0)
+    return grid, median, low, high

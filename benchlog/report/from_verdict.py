@@ -10,10 +10,10 @@ from .text import number, with_uncertainty
 
 def verdict_block(check: Check) -> VerdictBlock:
     v = check.verdict
-    measured = with_uncertainty(v.measured, v.expanded_u, "W" if v.quantity.endswith("_w") else "V")
+    measured = with_uncertainty(v.measured, v.expanded_u, "W" if v.quantity.endswith("_w") else "V", v.k)
     limit = "no limit" if v.limit is None else number(v.limit, "W" if v.quantity.endswith("_w") else "V")
     headline = (f"{check.part} at {number(check.current_a, 'A')}: measured {v.quantity} {measured} "
-                f"(k = {v.k:g}) against the limit {limit}")
+                f"against the limit {limit}")
     r = check.reverse
     if r is not None:
         headline += (f"; reverse {r.outcome.upper()}: {number(r.current_a, 'A', 3)} at {number(r.voltage_v, 'V')} "

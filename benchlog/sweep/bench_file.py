@@ -51,6 +51,8 @@ class RoleSpec:
     resource: str
     profile: str  # a profile name, or a path (absolute after loading)
     backend: str = "@py"
+    asset: str | None = None  # the lab's asset number, for the report's lab record
+    calibration_due: str | None = None  # ISO date; the report warns when a run was made after it
 
 
 @dataclass(frozen=True)
@@ -97,7 +99,10 @@ class BenchSetup:
                  if getattr(self.wiring, key) is not None}
         return {
             "roles": {
-                name: {"resource": r.resource, "profile": r.profile, "backend": r.backend}
+                name: {"resource": r.resource, "profile": r.profile, "backend": r.backend,
+                       # recorded only when stated, so earlier headers stay as they were
+                       **({"asset": r.asset} if r.asset else {}),
+                       **({"calibration_due": r.calibration_due} if r.calibration_due else {})}
                 for name, r in self.roles.items()
             },
             "wiring": {
@@ -128,7 +133,8 @@ def _looks_like_path(profile: str) -> bool:
 
 
 def _role(t: Table, name: str, base_dir: Path | None) -> RoleSpec:
-    t.only(("resource", "profile", "backend") + (("attached_to", "transducer", "accuracy_c") if name == SENSOR_ROLE else ()))
+    t.only(("resource", "profile", "backend", "asset", "calibration_due")
+           + (("attached_to", "transducer", "accuracy_c") if name == SENSOR_ROLE else ()))
     resource = t.string("resource")
     if not resource.strip() or any(c in resource for c in "\n\r;"):
         raise t.fail("resource", f"is {resource!r}", "a VISA resource string such as 'TCPIP0::10.0.0.5::5025::SOCKET'")
@@ -137,7 +143,24 @@ def _role(t: Table, name: str, base_dir: Path | None) -> RoleSpec:
         raise t.fail("profile", "is empty", "a profile name from instrument_profiles/ or a path to one")
     if _looks_like_path(profile) and base_dir is not None and not Path(profile).is_absolute():
         profile = str((base_dir / profile).resolve())
-    return RoleSpec(role=name, resource=resource, profile=profile, backend=t.string("backend", "@py"))
+    return RoleSpec(role=name, resource=resource, profile=profile, backend=t.string("backend", "@py"),
+                    asset=t.string("asset", None), calibration_due=_due_date(t))
+
+
+def _due_date(t: Table) -> str | None:
+    """`calibration_due` as an ISO date: a TOML date (2026-06-30) or the same as a string."""
+    import datetime
+
+    if not t.has("calibration_due"):
+        return None
+    value = t.data["calibration_due"]
+    if isinstance(value, datetime.date):
+        return value.isoformat()[:10]
+    text = t.string("calibration_due")
+    try:
+        return datetime.date.fromisoformat(text).isoformat()
+    except ValueError:
+        raise t.fail("calibration_due", f"is {text!r}", "a date such as 2026-06-30") from None
 
 
 def bench_from_table(root: Table, base_dir: Path | None = None) -> BenchSetup:

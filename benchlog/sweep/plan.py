@@ -43,7 +43,7 @@ from benchlog.tomlcheck import Table, load_toml, parse_toml
 STEP_MODES = ("linear", "log", "list", "updown", "adaptive")
 
 _TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse", "soak",
-           "input", "inspection")
+           "input", "inspection", "lab")
 #: A heat-soak records at most this many points per phase (heating, cooling).
 SOAK_MAX_POINTS = 100_000
 #: At most this many input voltages or reverse voltages in one plan (each is a full step).
@@ -189,6 +189,15 @@ class Soak:
 
 
 @dataclass(frozen=True)
+class Lab:
+    """Who measured which board revision, and the ambient read on the bench: for the report's lab record."""
+
+    operator: str | None = None
+    board_revision: str | None = None
+    ambient_measured_c: float | None = None
+
+
+@dataclass(frozen=True)
 class Plan:
     element: Element
     steps: Steps
@@ -203,11 +212,14 @@ class Plan:
     soak: Soak | None = None
     input: InputSweep | None = None
     inspection: Inspection | None = None
+    lab: Lab | None = None  # optional [lab] table
 
     def to_dict(self) -> dict[str, Any]:
         """The complete plan with every default filled in: what the run header records."""
         data = dataclasses.asdict(self)
         data.pop("source")
+        if data.get("lab") is None:  # recorded only when stated, so earlier headers stay as they were
+            data.pop("lab", None)
         for key in OPTIONAL_ELEMENT_KEYS:  # recorded only when stated, so earlier headers stay as they were
             if data["element"].get(key) is None:
                 data["element"].pop(key, None)
@@ -264,8 +276,18 @@ def plan_from_table(root: Table) -> Plan:
         soak=_soak(root.table("soak", required=False), limits),
         input=_input(root.table("input", required=False)),
         inspection=_inspection(root.table("inspection", required=False), element, steps),
+        lab=_lab(root.table("lab", required=False)),
     )
     return plan
+
+
+def _lab(t: Table | None) -> Lab | None:
+    """The optional [lab] table: operator, board revision, measured ambient (for the report, not the sweep)."""
+    if t is None:
+        return None
+    t.only(("operator", "board_revision", "ambient_measured_c"))
+    return Lab(operator=t.string("operator", None), board_revision=t.string("board_revision", None),
+               ambient_measured_c=t.number("ambient_measured_c", None, min=-60.0, max=150.0, unit="°C"))
 
 
 def _text(t: Table, key: str, default: str = "") -> str:

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import math
 
+from benchlog.quantity import measured
+
 _PREFIXES = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "µ"), (1e-9, "n"), (1e-12, "p"))
 
 
@@ -34,16 +36,9 @@ def si(value: float | None, unit: str, digits: int = 4) -> str:
 
 
 def with_uncertainty(value: float, std_u: float, unit: str, k: float = 2.0) -> str:
-    """`value ± k·u unit (k=2)`, both in the value's prefix; U to two significant digits (GUM 7.2.6)."""
-    if value is None or not math.isfinite(value):
-        return "—"
+    """`value ± k·u unit (k = 2)` written the one way (benchlog.quantity, GUM 7.2.6)."""
     expanded = k * std_u if std_u is not None and math.isfinite(std_u) else None
-    scale, symbol = prefix_for(value if value else (expanded or 0.0))
-    if expanded is None or expanded <= 0.0:
-        return f"{si(value, unit)} (no uncertainty)"
-    scaled_u = expanded / scale
-    decimals = max(0, 1 - int(math.floor(math.log10(scaled_u))))
-    return f"{value / scale:.{decimals}f} ± {scaled_u:.{decimals}f} {symbol}{unit} (k={k:g})"
+    return measured(value, expanded, unit, k)
 
 
 def duration(seconds: float | None) -> str:

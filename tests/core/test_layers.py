@@ -37,10 +37,10 @@ ALLOWED: dict[str, frozenset[str]] = {
     # installed package (issue 10, item 7), and this row with it.
     "sample_runs": frozenset({"sim", "sweep", "runs", "instruments", "cli", "specfiles"}),
 }
-#: Leaves any layer may use: the input error, typed TOML tables, file checks, the element registry, the default ambient, the accuracy type,
+#: Leaves any layer may use: the input error, typed TOML tables, file checks, the element registry, the default ambient, the accuracy type, the one way to write a result (quantity),
 #: the package root
 #: (its version string). A leaf imports only leaves.
-LEAVES = frozenset({"badinput", "tomlcheck", "filecheck", "kinds", "ambient", "accuracy", "<root>"})
+LEAVES = frozenset({"badinput", "tomlcheck", "filecheck", "kinds", "ambient", "accuracy", "quantity", "<root>"})
 #: (importing package, imported package) -> the only modules allowed to draw that arrow.
 ONLY_FROM = {("sweep", "analysis"): frozenset({"benchlog.sweep.adaptive", "benchlog.sweep.sequential"})}
 

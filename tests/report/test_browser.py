@@ -45,3 +45,33 @@ def test_report_renders_in_headless_chromium(tmp_path):
     assert (grey < 0.5).mean() > 0.01
     # the figures are drawn: rows with long dark runs (axes frames) exist below the tables
     assert np.count_nonzero((grey < 0.3).sum(axis=1) > 400) >= 4
+
+
+def _rows_with(image, rgb_hex: str) -> np.ndarray:
+    """Screen rows where at least 40 pixels have exactly this colour (a box background)."""
+    want = np.array([int(rgb_hex[i:i + 2], 16) for i in (1, 3, 5)]) / 255.0
+    hit = np.all(np.abs(image[..., :3] - want) < 1.5 / 255.0, axis=2)
+    return np.flatnonzero(hit.sum(axis=1) >= 40)
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="headless Chromium not installed (apt-get install chromium)")
+def test_verdict_is_on_the_first_screen_above_the_first_table(tmp_path):
+    run = runfiles.pfet_run(tmp_path)
+    out = tmp_path / "r.html"
+    assert main(["report", str(run), "--spec", str(runfiles.spec_file(tmp_path)), "-o", str(out)]) == 0
+    shot = tmp_path / "first.png"
+    proc = subprocess.run(
+        [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars",
+         "--proxy-server=127.0.0.1:9", "--proxy-bypass-list=<-loopback>",
+         "--user-data-dir=" + str(tmp_path / "profile"), "--window-size=1200,3000",
+         f"--screenshot={shot}", out.as_uri()],
+        capture_output=True, text=True, timeout=180,
+    )
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    image = matplotlib.image.imread(shot)
+    # box colours from the report's own style sheet (htmlfile.CSS): verdict backgrounds and table headers
+    verdict = np.concatenate([_rows_with(image, c) for c in ("#e8f4e8", "#fbe4e4", "#fff4d6")])
+    header_rows = _rows_with(image, "#eeeeee")
+    assert verdict.size, "no verdict box drawn"
+    assert verdict.min() < 800  # on the first screen of a laptop
+    assert header_rows.size and verdict.min() < header_rows.min()

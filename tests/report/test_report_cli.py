@@ -50,7 +50,7 @@ def test_single_run_report_shows_metadata_fit_verdict_and_escaped_user_text(tmp_
     assert inv.tags.count("figure") == 3
 
     # metadata: instruments with profile hashes, plan, element, ambient, times
-    for item in ("BENCHLOG,SIM-SUPPLY,0001,1.0", "a" * 64, "generic-dmm", "steps.count", "23.5 °C",
+    for item in ("BENCHLOG,SIM-SUPPLY,0001,1.0", "a" * 64, "generic-dmm", "steps: number of steps", "23.5 °C",
                  "2025-01-31T09:15:02Z", "sweep done"):
         assert item in text
 
@@ -96,12 +96,18 @@ def test_lot_summary_for_runs_sharing_a_lot_id(tmp_path):
     lot = next(s for s in doc.sections if s.title == "Lot L-7")
     summary = lot_from_runs(runs, load_spec(spec))
     names = [type(b).__name__ for b in lot.blocks]
-    assert names[:3] == ["VerdictBlock", "Table", "FigureBlock"]
-    assert lot.blocks[0].outcome == summary.outcome
-    stats = dict(lot.blocks[1].rows)
+    assert names[:2] == ["Table", "FigureBlock"]
+    # the lot's verdict leads the report: the first block of the first section
+    first = doc.sections[0]
+    assert first.title == "Verdict" and type(first.blocks[0]).__name__ == "VerdictBlock"
+    assert first.blocks[0].outcome == summary.outcome and "lot L-7" in first.blocks[0].headline
+    # six runs: one median-and-band figure, no per-run figures
+    figs = [f.name for f in doc.figures()]
+    assert figs.count("band") == 1 and "vi" not in figs
+    stats = dict(lot.blocks[0].rows)
     assert stats[summary.capability_name] == f"{summary.capability:.3g}"
     assert stats["parts"] == "6"
-    parts = next(b for b in lot.blocks if isinstance(b, type(lot.blocks[1])) and b.caption == "Parts of the lot")
+    parts = next(b for b in lot.blocks if isinstance(b, type(lot.blocks[0])) and b.caption == "Parts of the lot")
     assert [r[0] for r in parts.rows] == [f"S-{i:03d}" for i in range(6)]
 
 
@@ -131,7 +137,7 @@ def test_diode_run_without_spec(tmp_path):
     run = runfiles.write_run(tmp_path / "d.run", current, drop, hdr=runfiles.header(kind="schottky"))
     doc = build_report([run])
     text = " ".join(str(b) for s in doc.sections for sec in s.walk() for b in sec.blocks)
-    assert "Without a part spec" in text
+    assert "no part spec was given" in text
     assert "ideality" in text
 
 
@@ -206,3 +212,81 @@ def test_design_alone_needs_no_run(tmp_path):
     assert main(["report", "--design", str(runfiles.design_file(tmp_path)), "-o", str(out)]) == 0
     assert out.read_bytes().startswith(b"%PDF")
     assert _exit_code(["report", "-o", str(tmp_path / "x.html")]) == 2
+
+
+def test_the_answer_comes_first_then_figures_then_traceability(tmp_path):
+    run = runfiles.pfet_run(tmp_path)
+    spec = runfiles.spec_file(tmp_path)
+    out = tmp_path / "r.html"
+    assert main(["report", str(run), "--spec", str(spec), "-o", str(out)]) == 0
+    page = out.read_text(encoding="utf-8")
+    verdict, first_table = page.index('class="verdict '), page.index("<table")
+    first_figure, plan = page.index("<figure"), page.index("Plan</caption>")
+    assert verdict < first_figure < first_table < plan
+    text = _text(page)
+    # human labels and engineering units, not plan keys with raw SI numbers
+    assert "steps: number of steps" in text and "steps.count" not in text
+    assert re.search(r"Report R-[0-9a-f]{8}-\d{8}T\d{4}Z", text)
+    assert "Sign-off for report R-" in text and "approved by" in text
+
+
+def test_two_runs_get_differences_with_numbers(tmp_path):
+    runs = [runfiles.pfet_run(tmp_path, "a.run", seed=1),
+            runfiles.pfet_run(tmp_path, "b.run", r_ohm=0.031, seed=2)]
+    doc = build_report(runs)
+    section = next(s for s in doc.sections if s.title == "Comparison of the runs")
+    table = next(b for b in section.blocks if getattr(b, "caption", "").startswith("Differences to"))
+    r_on = next(r for r in table.rows if r[1] == "r_on_ohm")
+    assert r_on[5] == "yes"  # 26 mΩ against 31 mΩ: far beyond U(d)
+
+
+def test_lab_record_and_a_calibration_past_due_warn_next_to_the_verdict(tmp_path):
+    hdr = runfiles.header()
+    # the run was made on 2025-01-31; the meter's calibration ran out two weeks before
+    hdr["bench"] = {"roles": {"meter": {"resource": "TCPIP0::127.0.0.1::5026::SOCKET", "profile": "generic-dmm",
+                                        "asset": "LAB-0042", "calibration_due": "2025-01-15"},
+                              "supply": {"resource": "TCPIP0::127.0.0.1::5025::SOCKET", "profile": "generic-dc-supply",
+                                         "calibration_due": "2030-01-01"}}}
+    hdr["plan"] = {**hdr["plan"], "lab": {"operator": "A. Tester", "board_revision": "B2", "ambient_measured_c": 24.1}}
+    run = runfiles.pfet_run(tmp_path, hdr=hdr)
+    doc = build_report([run], spec_path=runfiles.spec_file(tmp_path), generated_utc="2025-02-01T08:00:00Z")
+    first = doc.sections[0]
+    warnings = [b.text for b in first.blocks if getattr(b, "kind", "") == "warning"]
+    assert len(warnings) == 1 and "CALIBRATION PAST DUE" in warnings[0] and "LAB-0042" in warnings[0]
+    assert "2025-01-15" in warnings[0]
+    lab = next(s for s in doc.sections if s.title == "Lab record and sign-off")
+    record = dict(lab.blocks[0].rows)
+    assert record["operator (pfet.run)"] == "A. Tester" and record["board revision (pfet.run)"] == "B2"
+    assert record["ambient, measured (pfet.run)"] == "24.1 °C"
+    assert record["report ID"].startswith("R-") and record["report ID"].endswith("-20250201T0800Z")
+    sign = lab.blocks[1]
+    assert sign.rows[0][:2] == ("measured by", "A. Tester") and [r[0] for r in sign.rows][1:] == ["checked by", "approved by"]
+
+
+def test_lot_band_is_the_median_and_quantiles_and_the_outlier_is_drawn_alone(tmp_path):
+    import numpy as np
+
+    from benchlog.report import from_analysis as fa
+
+    runs = [runfiles.pfet_run(tmp_path, f"p{i}.run", r_ohm=0.026 + 0.0002 * i, seed=i,
+                              hdr=runfiles.header(serial=f"S-{i:03d}", lot="L-9")) for i in range(7)]
+    runs.append(runfiles.pfet_run(tmp_path, "odd.run", r_ohm=0.040, seed=9,
+                                  hdr=runfiles.header(serial="S-ODD", lot="L-9")))
+    doc = build_report(runs, spec_path=runfiles.spec_file(tmp_path))
+    band = next(f for f in doc.figures() if f.name == "band")
+    labels = band.figure.axes[0].get_legend_handles_labels()[1]
+    assert "median curve" in labels and any(label.startswith("10–90 %") for label in labels)
+    outliers = [p.serial for p in lot_from_runs(runs, load_spec(runfiles.spec_file(tmp_path))).parts if p.outlier]
+    assert "S-ODD" in outliers
+    assert [label for label in labels if label.startswith("outlier")] == [f"outlier {s}" for s in outliers]
+    # the band against numpy's own median and quantiles of the same curves (numpy.quantile, linear method)
+    from benchlog.analysis.fits import fit_run
+    from benchlog.runs import load
+
+    fits = [fit_run(*load(r)) for r in runs]
+    grid, median, low, high = fa.lot_band(fits)
+    curves = np.array([[float(f.drop_at(float(i))[0]) for i in grid] for f in fits])
+    assert np.allclose(median, np.median(curves, axis=0), rtol=1e-9)
+    assert np.allclose(low, np.percentile(curves, 10, axis=0), rtol=1e-9)
+    assert np.allclose(high, np.percentile(curves, 90, axis=0), rtol=1e-9)
+    assert grid.max() <= min(f.current_a.max() for f in fits)  # no extrapolation

@@ -86,3 +86,23 @@ def test_load_wiring_without_a_load_is_refused(tmp_path):
     path.write_text(text)
     with pytest.raises(BadInput, match=r"\[wiring\].force.*needs a \[load\] table"):
         load_bench(path)
+
+
+def test_asset_and_calibration_due_are_optional_and_recorded_when_stated(tmp_path):
+    path = tmp_path / "bench.toml"
+    path.write_text(GOOD.replace('profile = "sim-supply"\n', 'profile = "sim-supply"\nasset = "LAB-0042"\n'
+                                 "calibration_due = 2026-06-30\n", 1)
+                    .replace('backend = "@py"\n', 'backend = "@py"\ncalibration_due = "2027-01-15"\n', 1))
+    bench = load_bench(path)
+    roles = bench.to_dict()["roles"]
+    assert roles["supply"]["asset"] == "LAB-0042" and roles["supply"]["calibration_due"] == "2026-06-30"
+    assert roles["load"]["calibration_due"] == "2027-01-15" and "asset" not in roles["load"]
+    assert "calibration_due" not in roles["meter"]  # not stated: the header stays as before
+
+
+def test_a_calibration_date_that_is_not_a_date_is_one_line(tmp_path):
+    path = tmp_path / "bench.toml"
+    path.write_text(GOOD.replace('profile = "sim-supply"\n', 'profile = "sim-supply"\ncalibration_due = "June"\n', 1))
+    with pytest.raises(BadInput) as err:
+        load_bench(path)
+    assert "calibration_due" in err.value.line() and "2026-06-30" in err.value.line()

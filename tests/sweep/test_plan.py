@@ -130,3 +130,13 @@ def test_broken_plan_names_the_key(tmp_path, text, where, expected):
     assert str(path) in line
     assert where in line, line
     assert expected in line, line
+
+
+def test_lab_table_is_optional_and_recorded_when_stated():
+    assert "lab" not in parse_plan(GOOD, "good.toml").to_dict()  # earlier headers stay as they were
+    plan = parse_plan(GOOD + '\n[lab]\noperator = "A. Tester"\nboard_revision = "B2"\nambient_measured_c = 24.1\n',
+                      "lab.toml")
+    assert plan.to_dict()["lab"] == {"operator": "A. Tester", "board_revision": "B2", "ambient_measured_c": 24.1}
+    with pytest.raises(BadInput) as err:
+        parse_plan(GOOD + '\n[lab]\nambient_measured_c = 900\n', "lab.toml")
+    assert "ambient_measured_c" in err.value.line()

@@ -188,7 +188,7 @@ async def test_results_show_fit_uncertainty_verdict_and_rule(scripted, runs_dir,
         text = screen_text(app)
         assert "VERDICT:" in text and any(w in text for w in ("PASS ✔", "FAIL ✘", "COND ◆"))
         assert "rule:" in text and "ILAC" in text
-        assert "R_on" in text and "± " in text and "(k=2)" in text
+        assert "R_on" in text and "± " in text and "(k = 2)" in text
         assert "loss measured" in text and "predicted loss" in text
         await pilot.press("t")
         await pilot.pause(0.2)

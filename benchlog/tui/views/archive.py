@@ -70,6 +70,7 @@ class ArchiveView(View):
         Binding("a", "mark('a')", "Mark A"),
         Binding("b", "mark('b')", "Mark B"),
         Binding("v", "overlay", "Overlay A+B"),
+        Binding("c", "compare", "Compare A−B"),
         Binding("m", "refit_model", "Re-fit model"),
         Binding("k", "refit_spec", "Re-judge spec"),
         Binding("g", "rescan", "Rescan"),
@@ -198,6 +199,14 @@ class ArchiveView(View):
             self.app.say("Mark two runs first: a on one, b on another, then v.")
             return
         self.app.push_screen(OverlayScreen(self.marks["a"], self.marks["b"]))
+
+    def action_compare(self) -> None:
+        if len(self.marks) < 2:
+            self.app.say("Mark two runs first: a on one, b on another, then c.")
+            return
+        from .compare import CompareScreen
+
+        self.app.push_screen(CompareScreen(self.marks["a"], self.marks["b"]))
 
     def action_refit_model(self) -> None:
         entry = self.selected()

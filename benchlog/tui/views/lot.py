@@ -62,7 +62,7 @@ class LotView(View):
             if entry.value is None:
                 value = entry.message[:30] if entry.message else ("…" if entry.run_path else "no run")
             else:
-                value = with_uncertainty(entry.value, entry.std_u or 0.0, entry.unit).replace(" (k=2)", "")
+                value = with_uncertainty(entry.value, entry.std_u or 0.0, entry.unit).replace(" (k = 2)", "")
             outcome = part.outcome if part is not None else entry.verdict
             verdict = VERDICT_WORDS.get(outcome or "", "—" if entry.outcome == "complete" else entry.outcome)
             if part is not None and part.outlier:

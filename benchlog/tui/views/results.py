@@ -219,9 +219,7 @@ class ResultsView(View):
         for key, value in fit.params.items():
             name, unit = PARAM_NAMES.get(key, (key, ""))
             u = fit.std_u.get(key)
-            shown = with_uncertainty(value, u, unit, k) if u is not None else si(value, unit)
-            if not unit:
-                shown = f"{value:.4g} ± {k * u:.2g} (k={k:g})" if u is not None else f"{value:.4g}"
+            shown = with_uncertainty(value, u, unit, k)
             lines.append(f"  {name:<7}{shown}")
         outliers = int(np.count_nonzero(fit.outliers)) if fit.outliers is not None else 0
         lines.append(f"  outliers: {outliers} flagged (kept in the file)")
