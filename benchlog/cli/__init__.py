@@ -24,7 +24,7 @@ from benchlog import __version__
 from benchlog.badinput import BadInput
 from benchlog.filecheck import CannotWrite
 
-from . import analysis_cmd, export_cmd, fit_cmd, profiles_cmd, report_cmd, sim_cmd, sweep_cmd, ui_cmd
+from . import analysis_cmd, archive_cmd, export_cmd, fit_cmd, profiles_cmd, report_cmd, sim_cmd, sweep_cmd, ui_cmd
 
 EXIT_OK = 0
 EXIT_FAILED = 1
@@ -34,7 +34,7 @@ EXIT_CANNOT_WRITE = 4
 EXIT_IN_USE = 75
 EXIT_INTERRUPTED = 130
 
-_COMMAND_MODULES = (ui_cmd, sweep_cmd, fit_cmd, analysis_cmd, report_cmd, sim_cmd, profiles_cmd, export_cmd)
+_COMMAND_MODULES = (ui_cmd, sweep_cmd, fit_cmd, analysis_cmd, report_cmd, sim_cmd, profiles_cmd, export_cmd, archive_cmd)
 
 
 class OneLineParser(argparse.ArgumentParser):
