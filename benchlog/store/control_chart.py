@@ -28,11 +28,12 @@ import numpy as np
 
 #: d2 and d3 (mean and standard deviation of the range of n standard normal values) for n = 2 .. 25,
 #: from the table of control chart constants in ISO 7870-2 (from memory; d2 is checked in the tests
-#: against its defining integral).
-D2 = {2: 1.128, 3: 1.693, 4: 2.059, 5: 2.326, 6: 2.534, 7: 2.704, 8: 2.847, 9: 2.970, 10: 3.078,
+#: against its defining integral). For n = 2 both are exact: |X1 − X2| of two unit normals has mean
+#: 2/√π and variance 2 − 4/π.
+D2 = {2: 2 / math.sqrt(math.pi), 3: 1.693, 4: 2.059, 5: 2.326, 6: 2.534, 7: 2.704, 8: 2.847, 9: 2.970, 10: 3.078,
       11: 3.173, 12: 3.258, 13: 3.336, 14: 3.407, 15: 3.472, 16: 3.532, 17: 3.588, 18: 3.640,
       19: 3.689, 20: 3.735, 21: 3.778, 22: 3.819, 23: 3.858, 24: 3.895, 25: 3.931}
-D3_SD = {2: 0.853, 3: 0.888, 4: 0.880, 5: 0.864, 6: 0.848, 7: 0.833, 8: 0.820, 9: 0.808, 10: 0.797,
+D3_SD = {2: math.sqrt(2 - 4 / math.pi), 3: 0.888, 4: 0.880, 5: 0.864, 6: 0.848, 7: 0.833, 8: 0.820, 9: 0.808, 10: 0.797,
          11: 0.787, 12: 0.778, 13: 0.770, 14: 0.763, 15: 0.756, 16: 0.750, 17: 0.744, 18: 0.739,
          19: 0.734, 20: 0.729, 21: 0.724, 22: 0.720, 23: 0.716, 24: 0.712, 25: 0.708}
 MAX_SUBGROUP = 25

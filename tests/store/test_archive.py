@@ -176,7 +176,7 @@ def _publish(url: str, paths: list[str]) -> None:
 def test_four_benches_publishing_at_once_lose_nothing_and_double_nothing(archive_url, tmp_path):
     shared = write_lot(tmp_path / "shared", "SH", 0.01, 8)  # every bench publishes these (a shared folder)
     own = [write_lot(tmp_path / f"own{b}", f"B{b}", 0.01, 4, seed=b + 1) for b in range(4)]
-    ctx = multiprocessing.get_context("spawn")
+    ctx = multiprocessing.get_context("fork")  # each bench a process of its own; fork spares re-importing
     procs = [ctx.Process(target=_publish, args=(archive_url, [str(p) for p in shared[b:] + shared[:b] + own[b]]))
              for b in range(4)]  # a fresh archive: the four also race to create the schema
     for p in procs:
