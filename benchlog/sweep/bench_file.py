@@ -15,6 +15,10 @@
         input_v      = 12.0                # with force = "load": the supply's CV setting
     [mains]
         line_frequency_hz = 50             # sets the meter's NPLC time and its line-noise rejection
+    [archive]
+        url = "postgresql://bench@lab-db/benchlog"   # optional: publish each finished run to this archive
+                                           # (or "sqlite:///FILE"); never a password: libpq reads it from
+                                           # PGPASSWORD or ~/.pgpass. Not copied into the run file.
 
 A profile path is taken relative to the bench file. Wiring that names a role
 the file does not define is refused here, before anything is opened.
@@ -63,6 +67,7 @@ class BenchSetup:
     line_frequency_hz: float = 50.0
     source: str = "bench"
     simulated: bool = False
+    archive_url: str | None = None  # where finished runs are published; kept out of `to_dict` (the run header)
 
     def role(self, name: str) -> RoleSpec | None:
         return self.roles.get(name)
@@ -116,7 +121,7 @@ def _role(t: Table, name: str, base_dir: Path | None) -> RoleSpec:
 
 
 def bench_from_table(root: Table, base_dir: Path | None = None) -> BenchSetup:
-    root.only(ROLE_NAMES + ("wiring", "mains"))
+    root.only(ROLE_NAMES + ("wiring", "mains", "archive"))
     roles: dict[str, RoleSpec] = {}
     for name in ROLE_NAMES:
         t = root.table(name, required=False)
@@ -129,9 +134,30 @@ def bench_from_table(root: Table, base_dir: Path | None = None) -> BenchSetup:
     if mains is not None:
         mains.only(("line_frequency_hz",))
         line_hz = mains.number("line_frequency_hz", 50.0, min=16.0, max=400.0, unit="Hz")
-    setup = BenchSetup(roles=roles, wiring=wiring, line_frequency_hz=line_hz, source=root.source)
+    setup = BenchSetup(roles=roles, wiring=wiring, line_frequency_hz=line_hz, source=root.source,
+                       archive_url=_archive_url(root.table("archive", required=False)))
     _check_roles(setup, wiring_table)
     return setup
+
+
+def _archive_url(t: Table | None) -> str | None:
+    """The archive a bench publishes to: a database URL without a password (the file is shared and recorded)."""
+    if t is None:
+        return None
+    from urllib.parse import urlsplit
+
+    t.only(("url",))
+    url = t.string("url")
+    expected = "'sqlite:///FILE' or 'postgresql://USER@HOST[:PORT]/DB' (password from PGPASSWORD or ~/.pgpass)"
+    if not url.startswith(("sqlite:///", "postgresql://", "postgresql+psycopg://")):
+        raise t.fail("url", f"is {url.split('@')[-1]!r}", expected)
+    try:
+        has_password = urlsplit(url).password is not None
+    except ValueError:
+        raise t.fail("url", "is not a URL", expected) from None
+    if has_password:
+        raise t.fail("url", "holds a password", expected)
+    return url
 
 
 def _wiring(t: Table) -> Wiring:
