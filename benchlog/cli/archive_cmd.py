@@ -96,14 +96,12 @@ def _spec(args):
 
 def _publish(args, paths) -> int:
     from benchlog.cli.output import print_json
-    from benchlog.store.ingest import CONFLICT, add_run
+    from benchlog.store.ingest import CONFLICT, add_runs
 
     spec = _spec(args)
     archive = _open(args)
-    results = []
     try:
-        for path in paths:
-            results.append(add_run(archive, path, spec))
+        results = add_runs(archive, paths, spec)
     finally:
         archive.close()
     counts = {a: sum(r.action == a for r in results) for a in ("added", "updated", "unchanged", "conflict")}

@@ -88,6 +88,9 @@ def _sqlite_engine(url):
         dbapi_connection.isolation_level = None  # we issue BEGIN ourselves (below)
         cursor = dbapi_connection.cursor()
         cursor.execute("PRAGMA journal_mode=WAL")
+        # NORMAL in WAL mode: a crash never corrupts the archive, a power cut may lose the last
+        # commits; the run files are the source of truth and `archive sync` re-adds them.
+        cursor.execute("PRAGMA synchronous=NORMAL")
         cursor.execute(f"PRAGMA busy_timeout={int(BUSY_TIMEOUT_S * 1000)}")
         cursor.execute("PRAGMA foreign_keys=ON")
         cursor.close()

@@ -9,9 +9,9 @@
   complete, or the file shrank) is left as it is and reported as a conflict:
   run files are append-only, so a changed finished file is someone's mistake.
 
-Each run is one transaction, so a bench that dies mid-way leaves the run absent,
-never half-stored. Two benches racing to add the same run meet the unique run id
-constraint: the loser retries once and then finds the run there.
+Runs are stored whole inside a transaction, so a bench that dies mid-way leaves a
+run absent, never half-stored. Two benches racing to add the same run meet the unique run id
+constraint: the loser's transaction rolls back, and its retry finds the run there.
 """
 
 from __future__ import annotations
@@ -183,23 +183,37 @@ def _store(conn, p: _Prepared) -> str:
     return action
 
 
-def add_run(archive, path: str | Path, spec: SpecForVerdict | None = None) -> Ingested:
-    """Publish one run file (see the module docstring); BadInput for a file that is not a run."""
+def add_runs(archive, paths, spec: SpecForVerdict | None = None, *, batch: int = 200) -> list[Ingested]:
+    """Publish run files (see the module docstring), `batch` runs to a transaction; BadInput for a non-run.
+
+    Each file is read, hashed and fitted before its transaction opens, so a
+    transaction holds the database only for the inserts.
+    """
     from sqlalchemy.exc import IntegrityError
 
-    prepared = prepare(path, spec)
-    for attempt in (1, 2):
-        try:
-            with archive.writing() as conn:
-                action = _store(conn, prepared)
-            break
-        except IntegrityError:
-            if attempt == 2:
-                raise
-    note = prepared.note
-    if action == CONFLICT:
-        note = "the archive holds a different finished version of this run; left as it was"
-    return Ingested(str(path), prepared.run["run_id"], action, note)
+    paths = list(paths)
+    out: list[Ingested] = []
+    for start in range(0, len(paths), batch):
+        prepared = [prepare(p, spec) for p in paths[start:start + batch]]
+        for attempt in (1, 2):
+            try:
+                with archive.writing() as conn:
+                    actions = [_store(conn, p) for p in prepared]
+                break
+            except IntegrityError:  # another bench added one of these runs meanwhile: the retry finds it
+                if attempt == 2:
+                    raise
+        for path, p, action in zip(paths[start:start + batch], prepared, actions):
+            note = p.note
+            if action == CONFLICT:
+                note = "the archive holds a different finished version of this run; left as it was"
+            out.append(Ingested(str(path), p.run["run_id"], action, note))
+    return out
+
+
+def add_run(archive, path: str | Path, spec: SpecForVerdict | None = None) -> Ingested:
+    """Publish one run file in its own transaction (what a sweep does when it ends)."""
+    return add_runs(archive, [path], spec)[0]
 
 
 def run_files(folder: str | Path) -> list[Path]:
