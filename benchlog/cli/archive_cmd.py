@@ -38,13 +38,13 @@ def register(sub) -> None:
     p.add_argument("paths", nargs="+", metavar="PATH", help="run files (*.run)")
     p.add_argument("--spec", metavar="SPEC", help="part spec to judge each run against (stores its verdict)")
     p.add_argument("--json", action="store_true", help="one JSON object on stdout")
-    p.set_defaults(handler=_add)
+    p.set_defaults(handler=_database_errors(_add))
 
     p = action("sync", "publish every run file under FOLDER that the archive lacks or holds an older copy of")
     p.add_argument("folder", nargs="?", default="runs", metavar="FOLDER", help="folder of run files (default ./runs)")
     p.add_argument("--spec", metavar="SPEC", help="part spec to judge each run against (stores its verdict)")
     p.add_argument("--json", action="store_true", help="one JSON object on stdout")
-    p.set_defaults(handler=_sync)
+    p.set_defaults(handler=_database_errors(_sync))
 
     p = action("find", "list the runs that match every filter given")
     for option, what in (("--lot", "lot"), ("--serial", "serial number"), ("--kind", "element kind"),
@@ -55,12 +55,12 @@ def register(sub) -> None:
     p.add_argument("--until", metavar="DATE", help="started before the end of this day (or this UTC time)")
     p.add_argument("--limit", type=int, metavar="N", help="at most N runs (oldest first)")
     p.add_argument("--json", action="store_true", help='one JSON object {"runs": [...]} on stdout')
-    p.set_defaults(handler=_find)
+    p.set_defaults(handler=_database_errors(_find))
 
     p = action("history", "every measurement of one part (by serial), in time order")
     p.add_argument("serial", metavar="SERIAL")
     p.add_argument("--json", action="store_true", help='one JSON object {"serial", "runs": [...]} on stdout')
-    p.set_defaults(handler=_history)
+    p.set_defaults(handler=_database_errors(_history))
 
     p = action("trend", "control chart of a fitted quantity across runs (ISO 7870-2 limits, run rules flagged)")
     p.add_argument("quantity", metavar="QUANTITY", help="a fitted parameter's JSON key, e.g. r_on_ohm")
@@ -68,7 +68,7 @@ def register(sub) -> None:
     p.add_argument("-o", "--output", metavar="FILE", help="chart file (.png or .svg)")
     p.add_argument("--kind", metavar="K", help="only runs of this element kind")
     p.add_argument("--json", action="store_true", help="the chart's numbers as one JSON object")
-    p.set_defaults(handler=_trend)
+    p.set_defaults(handler=_database_errors(_trend))
 
     p = action("compare-lots", "difference of two lots' means (Welch's t-test) and each lot's capability")
     p.add_argument("lot_a", metavar="A")
@@ -77,7 +77,30 @@ def register(sub) -> None:
     p.add_argument("--usl", type=float, help="upper specification limit (for Cpk / Cpu)")
     p.add_argument("--lsl", type=float, help="lower specification limit (for Cpk / Cpl)")
     p.add_argument("--json", action="store_true", help="one JSON object on stdout")
-    p.set_defaults(handler=_compare)
+    p.set_defaults(handler=_database_errors(_compare))
+
+
+def _database_errors(handler):
+    """A database that refuses the work (no privilege, connection lost) is one line and exit 2, not a traceback."""
+    import functools
+
+    @functools.wraps(handler)
+    def run(args):
+        from sqlalchemy.exc import DBAPIError
+
+        from benchlog.badinput import BadInput
+
+        try:
+            return handler(args)
+        except DBAPIError as exc:
+            from benchlog.store import resolve_url
+            from benchlog.store.connect import _shown, _parse
+
+            reason = " ".join(str(getattr(exc, "orig", exc)).split())[:200]
+            raise BadInput(_shown(_parse(resolve_url(args.db))), "", f"the database refused: {reason}",
+                           "a role allowed to do this (viewers may only read)") from None
+
+    return run
 
 
 def _open(args):
