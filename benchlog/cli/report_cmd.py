@@ -50,7 +50,42 @@ def register(sub) -> None:
                    "model the verdict uses when --spec is given)")
     p.add_argument("--design", metavar="DESIGN.toml", help="add the design review of this design file")
     p.add_argument("--figures", metavar="DIR", help="also write every figure as PNG and SVG into DIR")
+    p.add_argument("--trend", metavar="QUANTITY", help="add the archive's control chart of a fitted quantity "
+                                                       "(e.g. r_on_ohm; see `benchlog archive trend`)")
+    p.add_argument("--trend-by", choices=("lot", "day", "bench"), default="lot", help="subgroups of the trend")
+    p.add_argument("--db", metavar="URL", help="archive for --trend (default: $BENCHLOG_DB, else "
+                                               "sqlite:///benchlog-archive.sqlite)")
     p.set_defaults(handler=run)
+
+
+def _trend_section(args):
+    """The archive's control chart of one fitted quantity, as a report section (composed here: cli sees both)."""
+    from benchlog.report.document import FigureBlock, Paragraph, Section
+    from benchlog.store import open_archive
+    from benchlog.store.chart_figure import chart_figure
+    from benchlog.store.control_chart import LIMITS_SOURCE, RULES_SOURCE, chart_for
+    from benchlog.store.queries import grouped, quantity_values
+
+    archive = open_archive(args.db)
+    try:
+        values = quantity_values(archive, args.trend)
+    finally:
+        archive.close()
+    if not values:
+        raise BadInput(archive.shown_url, "--trend", f"no run in the archive has the fitted quantity {args.trend!r}",
+                       "a fitted parameter's key such as r_on_ohm")
+    try:
+        chart = chart_for(grouped(values, args.trend_by))
+    except ValueError as exc:
+        raise BadInput(archive.shown_url, "--trend", str(exc), "more runs or another --trend-by") from None
+    hits = "; ".join(f"rule {h.rule} ({h.text}) at {chart.labels[h.index]}" for h in chart.hits) or "none"
+    return Section(f"Trend of {args.trend} by {args.trend_by} (archive)", blocks=(
+        FigureBlock("trend", chart_figure(chart, args.trend, args.trend_by),
+                    caption=f"{LIMITS_SOURCE} ({chart.kind}) of {len(values)} archived runs in "
+                            f"{len(chart.values)} subgroups; ringed points complete a run rule ({RULES_SOURCE})."),
+        Paragraph(f"Archive {archive.shown_url}. Centre {chart.centre:.6g}, σ̂ {chart.sigma:.3g}. "
+                  f"Run-rule hits: {hits}."),
+    ))
 
 
 def run(args) -> int:
@@ -77,6 +112,10 @@ def run(args) -> int:
     from benchlog.report.figures import save
 
     doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a, design_path=args.design)
+    if args.trend:
+        from dataclasses import replace
+
+        doc = replace(doc, sections=(*doc.sections, _trend_section(args)))
     try:
         write_report(doc, out)
     except OSError as exc:

@@ -10,14 +10,18 @@ from .control_chart import LIMITS_SOURCE, RULES_SOURCE, ControlChart
 
 
 def draw(chart: ControlChart, quantity: str, by: str, path: str | Path) -> None:
-    """Write the chart; points that complete a run rule are ringed and numbered with the rule."""
-    import matplotlib
+    """Write the chart to a .png or .svg file."""
+    chart_figure(chart, quantity, by).savefig(path)
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+
+def chart_figure(chart: ControlChart, quantity: str, by: str):
+    """The chart as a matplotlib Figure (no pyplot state); points that complete a run rule are ringed
+    and numbered with the rule."""
+    from matplotlib.figure import Figure
 
     x = np.arange(len(chart.values))
-    fig, (top, bottom) = plt.subplots(2, 1, figsize=(9, 6), sharex=True, height_ratios=(2, 1))
+    fig = Figure(figsize=(9, 6))
+    top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=(2, 1))
     top.plot(x, chart.values, marker="o", lw=1, color="tab:blue")
     top.axhline(chart.centre, color="k", lw=1)
     top.step(x, chart.ucl, where="mid", color="tab:red", lw=1, ls="--", label="limits (3σ)")
@@ -41,5 +45,4 @@ def draw(chart: ControlChart, quantity: str, by: str, path: str | Path) -> None:
     step = max(1, len(x) // 25)
     bottom.set_xticks(x[::step], [chart.labels[i] for i in x[::step]], rotation=60, fontsize=7, ha="right")
     fig.tight_layout()
-    fig.savefig(path)
-    plt.close(fig)
+    return fig

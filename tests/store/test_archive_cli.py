@@ -151,3 +151,18 @@ def test_a_read_only_viewer_role_can_ask_but_not_publish(postgres_server, tmp_pa
     assert main(["archive", "add", str(other), "--db", viewer]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "refused" in err and "permission denied" in err
+
+
+def test_the_report_carries_the_archives_trend_chart(tmp_path, capsys):
+    url = f"sqlite:///{tmp_path / 'a.sqlite'}"
+    paths = []
+    for i, lot in enumerate(("T1", "T2", "T3")):
+        paths += write_lot(tmp_path / lot, lot, 0.01, 3, seed=i + 1, spread=0.01)
+    assert main(["archive", "add", *map(str, paths), "--db", url]) == 0
+    out = tmp_path / "r.html"
+    assert main(["report", str(paths[0]), "-o", str(out), "--trend", "r_on_ohm", "--db", url,
+                 "--figures", str(tmp_path / "fig")]) == 0
+    html = out.read_text()
+    assert "Trend of r_on_ohm by lot (archive)" in html and "ISO 7870-2" in html
+    assert list((tmp_path / "fig").glob("*-trend.png"))
+    assert main(["report", str(paths[0]), "-o", str(tmp_path / "s.html"), "--trend", "nope_ohm", "--db", url]) == 2
