@@ -7,8 +7,8 @@ Measured side by side in one run:
           and the cost of publishing one run in its own transaction as a sweep does;
 - find:   the runs of one lot (20 runs) with their fits: `find_runs` against a folder scan
           (`read_summary` of every file, keeping those of the lot);
-- trend:  every run's r_on_ohm grouped by lot and the control chart computed: `quantity_values` +
-          `chart_for` against a folder scan (load and fit every file, group, same chart).
+- trend:  every run's r_on_ohm grouped by lot and the control chart computed: the database's
+          count, mean and range per lot (`subgroup_stats`) + `chart_from_stats` against a folder scan (load and fit every file, group, same chart).
 The folder holds `--runs` invented runs written by the real run writer (lots of 20, six points
 each). The archive holds the same runs: the first `--ingest` are ingested (timed), the others are
 copies of those rows inserted in bulk with their own run ids, serials and lots; each copied file
@@ -100,10 +100,11 @@ def archive_find(archive, lot: str) -> int:
 
 
 def archive_trend(archive):
-    from benchlog.store.control_chart import chart_for
-    from benchlog.store.queries import grouped, quantity_values
+    from benchlog.store.control_chart import chart_from_stats
+    from benchlog.store.queries import subgroup_stats
 
-    return chart_for(grouped(quantity_values(archive, "r_on_ohm"), "lot"))
+    stats = subgroup_stats(archive, "r_on_ohm", "lot")
+    return chart_from_stats(stats.names, stats.sizes, stats.means, stats.ranges)
 
 
 def main() -> int:
@@ -169,7 +170,7 @@ def main() -> int:
                     "trend": lambda: found.__setitem__("trend", archive_trend(archive))}, args.repeat)
                 archive.close()
                 f_s, t_s = _common.best(times["find"]), _common.best(times["trend"])
-                same = found["find"] == scan["find"] and abs(found["trend"].centre - scan["trend"].centre) <= 1e-12 \
+                same = found["find"] == scan["find"] and abs(found["trend"].centre - scan["trend"].centre) <= 1e-12 * abs(scan["trend"].centre) \
                     and len(found["trend"].values) == len(scan["trend"].values)
                 figures[engine] = {"ingest_runs": batched, "ingest_s": ingest_s, "publish_one_run_ms": single_ms,
                                    "ingest_per_run_ms": 1e3 * ingest_s / batched,

@@ -223,8 +223,8 @@ def _history(args) -> int:
 def _trend(args) -> int:
     from benchlog.badinput import BadInput
     from benchlog.cli.output import print_json
-    from benchlog.store.control_chart import LIMITS_SOURCE, RULES, RULES_SOURCE, chart_for
-    from benchlog.store.queries import RunFilter, grouped, known_quantities, quantity_values
+    from benchlog.store.control_chart import LIMITS_SOURCE, RULES, RULES_SOURCE, chart_from_stats
+    from benchlog.store.queries import RunFilter, known_quantities, subgroup_stats
 
     if args.output is None and not args.json:
         raise BadInput("argument", "-o", "no output given", "-o FILE.png, -o FILE.svg or --json")
@@ -236,16 +236,15 @@ def _trend(args) -> int:
         check_output_file(args.output, "-o")
     archive = _open(args)
     try:
-        values = quantity_values(archive, args.quantity, RunFilter(kind=args.kind))
-        known = known_quantities(archive) if not values else []
+        stats = subgroup_stats(archive, args.quantity, args.by, RunFilter(kind=args.kind))
+        known = known_quantities(archive) if not stats.names else []
     finally:
         archive.close()
-    if not values:
+    if not stats.names:
         raise BadInput(archive.shown_url, args.quantity, "no run in the archive has this fitted quantity",
                        " or ".join(known) if known else "an archive with fitted runs")
-    groups = grouped(values, args.by)
     try:
-        chart = chart_for(groups)
+        chart = chart_from_stats(stats.names, stats.sizes, stats.means, stats.ranges)
     except ValueError as exc:
         raise BadInput(archive.shown_url, args.quantity, str(exc), "more runs or another --by") from None
     if args.output is not None:
@@ -253,7 +252,7 @@ def _trend(args) -> int:
 
         draw(chart, args.quantity, args.by, args.output)
     payload = {"quantity": args.quantity, "by": args.by, "chart": chart.kind, "limits_by": LIMITS_SOURCE,
-               "runs": len(values), "centre": chart.centre, "sigma": chart.sigma,
+               "runs": stats.runs, "centre": chart.centre, "sigma": chart.sigma,
                "subgroups": [{"name": chart.labels[i], "n": chart.sizes[i], "value": chart.values[i],
                               "lcl": chart.lcl[i], "ucl": chart.ucl[i], "spread": chart.spread[i]}
                              for i in range(len(chart.values))],
@@ -262,8 +261,8 @@ def _trend(args) -> int:
     if args.json:
         print_json(payload)
     else:
-        sys.stdout.write(f"{args.output}: {chart.kind} chart of {args.quantity} over {len(values)} runs in "
-                         f"{len(groups)} subgroups by {args.by}; centre {chart.centre:.6g}, σ̂ {chart.sigma:.3g}; "
+        sys.stdout.write(f"{args.output}: {chart.kind} chart of {args.quantity} over {stats.runs} runs in "
+                         f"{len(stats.names)} subgroups by {args.by}; centre {chart.centre:.6g}, σ̂ {chart.sigma:.3g}; "
                          f"{len(chart.hits)} run-rule hits\n")
         for h in chart.hits:
             sys.stdout.write(f"  rule {h.rule} ({RULES[h.rule]}) at {chart.labels[h.index]}\n")

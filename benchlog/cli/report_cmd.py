@@ -63,25 +63,25 @@ def _trend_section(args):
     from benchlog.report.document import FigureBlock, Paragraph, Section
     from benchlog.store import open_archive
     from benchlog.store.chart_figure import chart_figure
-    from benchlog.store.control_chart import LIMITS_SOURCE, RULES_SOURCE, chart_for
-    from benchlog.store.queries import grouped, quantity_values
+    from benchlog.store.control_chart import LIMITS_SOURCE, RULES_SOURCE, chart_from_stats
+    from benchlog.store.queries import subgroup_stats
 
     archive = open_archive(args.db)
     try:
-        values = quantity_values(archive, args.trend)
+        stats = subgroup_stats(archive, args.trend, args.trend_by)
     finally:
         archive.close()
-    if not values:
+    if not stats.names:
         raise BadInput(archive.shown_url, "--trend", f"no run in the archive has the fitted quantity {args.trend!r}",
                        "a fitted parameter's key such as r_on_ohm")
     try:
-        chart = chart_for(grouped(values, args.trend_by))
+        chart = chart_from_stats(stats.names, stats.sizes, stats.means, stats.ranges)
     except ValueError as exc:
         raise BadInput(archive.shown_url, "--trend", str(exc), "more runs or another --trend-by") from None
     hits = "; ".join(f"rule {h.rule} ({h.text}) at {chart.labels[h.index]}" for h in chart.hits) or "none"
     return Section(f"Trend of {args.trend} by {args.trend_by} (archive)", blocks=(
         FigureBlock("trend", chart_figure(chart, args.trend, args.trend_by),
-                    caption=f"{LIMITS_SOURCE} ({chart.kind}) of {len(values)} archived runs in "
+                    caption=f"{LIMITS_SOURCE} ({chart.kind}) of {stats.runs} archived runs in "
                             f"{len(chart.values)} subgroups; ringed points complete a run rule ({RULES_SOURCE})."),
         Paragraph(f"Archive {archive.shown_url}. Centre {chart.centre:.6g}, σ̂ {chart.sigma:.3g}. "
                   f"Run-rule hits: {hits}."),

@@ -96,31 +96,29 @@ class ControlChart:
         return (self.values - self.centre) / sd
 
 
+def _windows(flags: np.ndarray, width: int) -> np.ndarray:
+    """Count of True in each window of `width` points ending at each index (0 before the first full window)."""
+    counts = np.convolve(flags.astype(int), np.ones(width, dtype=int))[:flags.size]
+    counts[:width - 1] = 0
+    return counts
+
+
 def run_rules(z: np.ndarray) -> tuple[RuleHit, ...]:
     """The run rules (module docstring) on z-scores of the plotted points; each hit once, at its last point."""
     z = np.asarray(z, dtype=float)
-    hits: list[RuleHit] = []
-    n = z.size
-    for i in range(n):
-        if abs(z[i]) > 3:
-            hits.append(RuleHit(1, i))
-        if i >= 8:
-            w = z[i - 8:i + 1]
-            if (w > 0).all() or (w < 0).all():
-                hits.append(RuleHit(2, i))
-        if i >= 5:
-            d = np.diff(z[i - 5:i + 1])
-            if (d > 0).all() or (d < 0).all():
-                hits.append(RuleHit(3, i))
-        if i >= 2:
-            w = z[i - 2:i + 1]
-            if (w > 2).sum() >= 2 or (w < -2).sum() >= 2:
-                hits.append(RuleHit(5, i))
-        if i >= 4:
-            w = z[i - 4:i + 1]
-            if (w > 1).sum() >= 4 or (w < -1).sum() >= 4:
-                hits.append(RuleHit(6, i))
-    return tuple(hits)
+    hits: list[tuple[int, int]] = []
+    rising = np.concatenate([[False], np.diff(z) > 0])
+    falling = np.concatenate([[False], np.diff(z) < 0])
+    found = {
+        1: np.abs(z) > 3,
+        2: (_windows(z > 0, 9) == 9) | (_windows(z < 0, 9) == 9),
+        3: (_windows(rising, 5) == 5) | (_windows(falling, 5) == 5),
+        5: (_windows(z > 2, 3) >= 2) | (_windows(z < -2, 3) >= 2),
+        6: (_windows(z > 1, 5) >= 4) | (_windows(z < -1, 5) >= 4),
+    }
+    for rule, mask in found.items():
+        hits += [(int(i), rule) for i in np.flatnonzero(mask)]
+    return tuple(RuleHit(rule, i) for i, rule in sorted(hits))
 
 
 def individuals_chart(values, labels=None) -> ControlChart:
@@ -143,22 +141,39 @@ def individuals_chart(values, labels=None) -> ControlChart:
 
 def mean_range_chart(groups: list[tuple[str, list[float]]]) -> ControlChart:
     """Mean-and-range chart of subgroups of 2 .. 25 values (module docstring); a larger one is refused."""
-    sizes = np.array([len(g) for _, g in groups])
-    if len(groups) < 2:
+    return mean_range_from_stats([k for k, _ in groups], [len(g) for _, g in groups],
+                                 [float(np.mean(g)) for _, g in groups], [float(np.ptp(g)) for _, g in groups])
+
+
+def mean_range_from_stats(names, sizes, means, ranges) -> ControlChart:
+    """The mean-and-range chart from each subgroup's size, mean and range (what a database aggregates)."""
+    sizes = np.asarray(sizes, dtype=int)
+    if sizes.size < 2:
         raise ValueError("a control chart needs at least two subgroups")
     if sizes.min() < 2 or sizes.max() > MAX_SUBGROUP:
         raise ValueError(f"subgroups of a mean-and-range chart hold 2 to {MAX_SUBGROUP} values")
-    means = np.array([float(np.mean(g)) for _, g in groups])
-    ranges = np.array([float(np.ptp(g)) for _, g in groups])
-    d2 = np.array([D2[n] for n in sizes])
+    means = np.asarray(means, dtype=float)
+    ranges = np.asarray(ranges, dtype=float)
+    d2_table = np.array([np.nan, np.nan] + [D2[n] for n in range(2, MAX_SUBGROUP + 1)])
+    d3_table = np.array([np.nan, np.nan] + [d3_factor(n) for n in range(2, MAX_SUBGROUP + 1)])
+    d4_table = np.array([np.nan, np.nan] + [d4_factor(n) for n in range(2, MAX_SUBGROUP + 1)])
+    d2 = d2_table[sizes]
     sigma = float(np.mean(ranges / d2))
     centre = float(means.mean())
     half = 3 * sigma / np.sqrt(sizes)
     chart = ControlChart(
-        "mean-range", tuple(k for k, _ in groups), tuple(int(n) for n in sizes), means, centre, sigma,
-        centre - half, centre + half, ranges, d2 * sigma, np.array([d3_factor(n) for n in sizes]) * d2 * sigma,
-        np.array([d4_factor(n) for n in sizes]) * d2 * sigma, ())
+        "mean-range", tuple(names), tuple(int(n) for n in sizes), means, centre, sigma,
+        centre - half, centre + half, ranges, d2 * sigma, d3_table[sizes] * d2 * sigma,
+        d4_table[sizes] * d2 * sigma, ())
     return _with_hits(chart)
+
+
+def chart_from_stats(names, sizes, means, ranges) -> ControlChart:
+    """`chart_for` from each subgroup's size, mean and range."""
+    sizes = list(sizes)
+    if len(sizes) >= 2 and min(sizes) >= 2 and max(sizes) <= MAX_SUBGROUP:
+        return mean_range_from_stats(names, sizes, means, ranges)
+    return individuals_chart(list(means), list(names))
 
 
 def _with_hits(chart: ControlChart) -> ControlChart:

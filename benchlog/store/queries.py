@@ -196,3 +196,44 @@ def grouped(values: list[QuantityValue], by: str) -> list[tuple[str, list[float]
     for v in values:
         groups.setdefault(group_key(v, by), []).append(v.value)
     return list(groups.items())
+
+
+@dataclass(frozen=True)
+class SubgroupStats:
+    """Each subgroup's name, size, mean and range of one fitted quantity, subgroups in order of their first run."""
+
+    names: tuple[str, ...]
+    sizes: tuple[int, ...]
+    means: tuple[float, ...]
+    ranges: tuple[float, ...]
+
+    @property
+    def runs(self) -> int:
+        return sum(self.sizes)
+
+
+def subgroup_stats(archive, quantity: str, by: str, flt: RunFilter | None = None) -> SubgroupStats:
+    """What a control chart needs, aggregated by the database (count, mean, max − min per subgroup)."""
+    from sqlalchemy import func, select
+
+    runs, fits = schema.runs, schema.fits
+    key = {"lot": runs.c.lot, "day": func.substr(runs.c.started_utc, 1, 10), "bench": runs.c.bench_host}[by]
+    query = (select(key.label("name"), func.count().label("n"), func.avg(fits.c.value).label("mean"),
+                    (func.max(fits.c.value) - func.min(fits.c.value)).label("range"),
+                    func.min(runs.c.started_utc).label("first"))
+             .join(fits, fits.c.run_pk == runs.c.id).where(fits.c.parameter == quantity))
+    flt = flt or RunFilter()
+    for column, value in ((runs.c.lot, flt.lot), (runs.c.kind, flt.kind), (runs.c.bench_host, flt.bench),
+                          (runs.c.label, flt.part)):
+        if value is not None:
+            query = query.where(column == value)
+    if flt.since is not None:
+        query = query.where(runs.c.started_utc >= flt.since)
+    if flt.until is not None:
+        query = query.where(runs.c.started_utc < _until_bound(flt.until))
+    query = query.group_by(key).order_by("first", "name")
+    with archive.reading() as conn:
+        rows = conn.execute(query).all()
+    none = {"lot": "(no lot)", "day": "(no date)", "bench": "(no host)"}[by]
+    return SubgroupStats(tuple(r.name if r.name is not None else none for r in rows), tuple(int(r.n) for r in rows),
+                         tuple(float(r.mean) for r in rows), tuple(float(r.range) for r in rows))

@@ -194,3 +194,22 @@ def test_four_benches_publishing_at_once_lose_nothing_and_double_nothing(archive
         assert len(set(ids)) == len(ids) == 24
     finally:
         archive.close()
+
+
+@pytest.mark.parametrize("by", ["lot", "day", "bench"])
+def test_the_databases_subgroup_aggregates_give_the_chart_of_the_values_themselves(archive, tmp_path, by):
+    from benchlog.store.control_chart import chart_for, chart_from_stats
+    from benchlog.store.queries import grouped, subgroup_stats
+
+    for i, lot in enumerate(("G1", "G2", "G3", "G4")):
+        for p in write_lot(tmp_path / lot, lot, 0.01 * (1 + 0.02 * i), 3, host=f"bench-{i % 2}",
+                           day=f"2025-03-0{1 + i // 2}", seed=i + 1, spread=0.01):
+            add_run(archive, p)
+    stats = subgroup_stats(archive, "r_on_ohm", by)
+    ours = chart_from_stats(stats.names, stats.sizes, stats.means, stats.ranges)
+    reference = chart_for(grouped(quantity_values(archive, "r_on_ohm"), by))  # numpy on the values read back
+    assert ours.labels == reference.labels and ours.sizes == reference.sizes
+    np.testing.assert_allclose(ours.values, reference.values, rtol=1e-12)
+    np.testing.assert_allclose(ours.spread, reference.spread, rtol=1e-9, atol=1e-15)
+    np.testing.assert_allclose(ours.ucl, reference.ucl, rtol=1e-12)
+    assert [(h.rule, h.index) for h in ours.hits] == [(h.rule, h.index) for h in reference.hits]
