@@ -82,7 +82,7 @@ def scan_find(folder: Path, lot: str) -> int:
 
 
 def scan_trend(folder: Path):
-    from benchlog.analysis.lot import fit_points
+    from benchlog.analysis.fits import fit_points
     from benchlog.runs import load_points
     from benchlog.store.control_chart import chart_for
 

@@ -64,7 +64,7 @@ def _finite(x) -> float | None:
 
 def _fit_rows(points, meta) -> tuple[list[dict], str]:
     """The fitted parameters of a run as table rows, by the model its element kind implies."""
-    from benchlog.analysis.lot import fit_points
+    from benchlog.analysis.fits import fit_points
     from benchlog.kinds import REGISTRY
 
     kind = REGISTRY.get(meta.header.kind or "")
@@ -89,7 +89,7 @@ def _fit_rows(points, meta) -> tuple[list[dict], str]:
 
 
 def _verdict_row(path: str, spec: SpecForVerdict) -> tuple[dict | None, str]:
-    from benchlog.analysis.verdict import check_run
+    from benchlog.analysis.judging import check_run
     from benchlog.runs import load
 
     try:

@@ -142,7 +142,7 @@ def test_a_spec_given_at_ingest_stores_the_verdict_and_find_selects_on_it(archiv
     paths = sorted((REPO / "sample_runs" / "lot-demo-07").glob("*.run"))[:3]
     for p in paths:
         add_run(archive, p, spec)
-    from benchlog.analysis.verdict import check_run
+    from benchlog.analysis.judging import check_run
     from benchlog.runs import load
 
     expected = [check_run(*load(p), spec.spec).verdict.outcome for p in paths]
