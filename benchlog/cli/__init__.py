@@ -24,7 +24,8 @@ from benchlog import __version__
 from benchlog.badinput import BadInput
 from benchlog.filecheck import CannotWrite
 
-from . import analysis_cmd, compare_cmd, export_cmd, summary_cmd, fit_cmd, profiles_cmd, report_cmd, sim_cmd, sweep_cmd, ui_cmd
+from . import (analysis_cmd, archive_cmd, compare_cmd, export_cmd, fit_cmd, profiles_cmd, report_cmd, sim_cmd,
+               summary_cmd, sweep_cmd, ui_cmd)
 
 EXIT_OK = 0
 EXIT_FAILED = 1
@@ -35,7 +36,8 @@ EXIT_THERMAL = 5  # estimate / design: a part runs away thermally or exceeds its
 EXIT_IN_USE = 75
 EXIT_INTERRUPTED = 130
 
-_COMMAND_MODULES = (ui_cmd, sweep_cmd, fit_cmd, analysis_cmd, compare_cmd, summary_cmd, report_cmd, sim_cmd, profiles_cmd, export_cmd)
+_COMMAND_MODULES = (ui_cmd, sweep_cmd, fit_cmd, analysis_cmd, compare_cmd, summary_cmd, report_cmd, sim_cmd, profiles_cmd,
+                    export_cmd, archive_cmd)
 
 
 class OneLineParser(argparse.ArgumentParser):

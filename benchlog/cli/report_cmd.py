@@ -52,7 +52,42 @@ def register(sub) -> None:
     p.add_argument("--figures", metavar="DIR", help="also write every figure as PNG and SVG into DIR")
     p.add_argument("--compare", action="store_true", help="add the differences to the first run with their "
                    "uncertainty for any number of runs (done without asking for up to 6 runs)")
+    p.add_argument("--trend", metavar="QUANTITY", help="add the archive's control chart of a fitted quantity "
+                                                       "(e.g. r_on_ohm; see `benchlog archive trend`)")
+    p.add_argument("--trend-by", choices=("lot", "day", "bench"), default="lot", help="subgroups of the trend")
+    p.add_argument("--db", metavar="URL", help="archive for --trend (default: $BENCHLOG_DB, else "
+                                               "sqlite:///benchlog-archive.sqlite)")
     p.set_defaults(handler=run)
+
+
+def _trend_section(args):
+    """The archive's control chart of one fitted quantity, as a report section (composed here: cli sees both)."""
+    from benchlog.report.document import FigureBlock, Paragraph, Section
+    from benchlog.store import open_archive
+    from benchlog.store.chart_figure import chart_figure
+    from benchlog.store.control_chart import LIMITS_SOURCE, RULES_SOURCE, chart_from_stats
+    from benchlog.store.queries import subgroup_stats
+
+    archive = open_archive(args.db)
+    try:
+        stats = subgroup_stats(archive, args.trend, args.trend_by)
+    finally:
+        archive.close()
+    if not stats.names:
+        raise BadInput(archive.shown_url, "--trend", f"no run in the archive has the fitted quantity {args.trend!r}",
+                       "a fitted parameter's key such as r_on_ohm")
+    try:
+        chart = chart_from_stats(stats.names, stats.sizes, stats.means, stats.ranges)
+    except ValueError as exc:
+        raise BadInput(archive.shown_url, "--trend", str(exc), "more runs or another --trend-by") from None
+    hits = "; ".join(f"rule {h.rule} ({h.text}) at {chart.labels[h.index]}" for h in chart.hits) or "none"
+    return Section(f"Trend of {args.trend} by {args.trend_by} (archive)", blocks=(
+        FigureBlock("trend", chart_figure(chart, args.trend, args.trend_by),
+                    caption=f"{LIMITS_SOURCE} ({chart.kind}) of {stats.runs} archived runs in "
+                            f"{len(chart.values)} subgroups; ringed points complete a run rule ({RULES_SOURCE})."),
+        Paragraph(f"Archive {archive.shown_url}. Centre {chart.centre:.6g}, σ̂ {chart.sigma:.3g}. "
+                  f"Run-rule hits: {hits}."),
+    ))
 
 
 def run(args) -> int:
@@ -80,6 +115,10 @@ def run(args) -> int:
 
     doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a, design_path=args.design,
                        compare=True if args.compare else None)
+    if args.trend:
+        from dataclasses import replace
+
+        doc = replace(doc, sections=(*doc.sections, _trend_section(args)))
     try:
         write_report(doc, out)
     except OSError as exc:

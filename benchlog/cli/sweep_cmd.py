@@ -268,16 +268,46 @@ def _sweep(args) -> int:
     plan, result = _run(args.plan, args.bench, args.out, seed=args.seed, assume_yes=args.yes,
                         sim_timing=args.sim_timing, case_sensor=args.case_sensor,
                         thermal_scale=args.sim_thermal_scale)
+    archive_url = None
+    if args.bench:  # read again after the sweep: the arguments were checked, and the file already once
+        from benchlog.sweep.bench_file import load_bench
+
+        archive_url = load_bench(args.bench).archive_url
+    published = _publish(result.run_file, archive_url, args.out) if archive_url and result.run_file else None
     if args.json:
-        print_json({"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome,
-                    "safe_state": result.safe_state})
+        summary = {"run_file": str(result.run_file), "points": result.points, "outcome": result.outcome,
+                   "safe_state": result.safe_state}
+        if published is not None:
+            summary["archive"] = published
+        print_json(summary)
     else:
         print(f"run file: {result.run_file}")
         if not args.bench:
             print(f"built-in simulated bench: {SIM_TIMING_TEXT[args.sim_timing or 'real']}")
         print(f"{result.points} points, outcome {result.outcome}" + _detail(result))
+        if published is not None:
+            print(f"archive: {published['note']}")
     _say_safe_state(result, text=not args.json)
     return _exit_code(result)
+
+
+def _publish(run_file, url: str, out: str) -> dict[str, Any]:
+    """Publish a finished run to the bench's archive; when that fails the run file stands and a note says so."""
+    from benchlog.store import open_archive
+    from benchlog.store.ingest import add_run
+
+    try:
+        archive = open_archive(url)
+        try:
+            done = add_run(archive, run_file)
+        finally:
+            archive.close()
+    except Exception as exc:  # noqa: BLE001 - any archive fault: the run file is complete, sync later
+        line = exc.line() if isinstance(exc, BadInput) else " ".join(str(exc).split())[:200]
+        return {"published": False, "note": f"not published ({line}); the run file is complete: "
+                                            f"run 'benchlog archive sync {out} --db URL' later"}
+    return {"published": done.action != "conflict", "action": done.action, "run_id": done.run_id,
+            "note": f"{done.action} in the archive" + (f" ({done.note})" if done.note else "")}
 
 
 def _detail(result) -> str:

@@ -21,6 +21,10 @@
         attached_to = "case" | "tab"       # where the probe sits on the element
         transducer  = "thermocouple" | "rtd" | "thermistor"
         accuracy_c  = 1.0                  # optional: ± limit of the probe and meter together, °C
+    [archive]
+        url = "postgresql://bench@lab-db/benchlog"   # optional: publish each finished run to this archive
+                                           # (or "sqlite:///FILE"); never a password: libpq reads it from
+                                           # PGPASSWORD or ~/.pgpass. Not copied into the run file.
 
 A profile path is taken relative to the bench file. Wiring that names a role
 the file does not define is refused here, before anything is opened.
@@ -89,6 +93,7 @@ class BenchSetup:
     sensor: SensorSpec | None = None  # with a [sensor] role: where its probe sits
     #: the simulated bench's settings that change what is measured (thermal_time_scale), for the header
     sim_settings: dict[str, Any] | None = None
+    archive_url: str | None = None  # where finished runs are published; kept out of `to_dict` (the run header)
 
     def role(self, name: str) -> RoleSpec | None:
         return self.roles.get(name)
@@ -164,7 +169,7 @@ def _due_date(t: Table) -> str | None:
 
 
 def bench_from_table(root: Table, base_dir: Path | None = None) -> BenchSetup:
-    root.only(ROLE_NAMES + (SENSOR_ROLE, "wiring", "mains"))
+    root.only(ROLE_NAMES + (SENSOR_ROLE, "wiring", "mains", "archive"))
     roles: dict[str, RoleSpec] = {}
     for name in ROLE_NAMES:
         t = root.table(name, required=False)
@@ -184,9 +189,30 @@ def bench_from_table(root: Table, base_dir: Path | None = None) -> BenchSetup:
     if mains is not None:
         mains.only(("line_frequency_hz",))
         line_hz = mains.number("line_frequency_hz", 50.0, min=16.0, max=400.0, unit="Hz")
-    setup = BenchSetup(roles=roles, wiring=wiring, line_frequency_hz=line_hz, source=root.source, sensor=sensor)
+    setup = BenchSetup(roles=roles, wiring=wiring, line_frequency_hz=line_hz, source=root.source, sensor=sensor,
+                       archive_url=_archive_url(root.table("archive", required=False)))
     _check_roles(setup, wiring_table)
     return setup
+
+
+def _archive_url(t: Table | None) -> str | None:
+    """The archive a bench publishes to: a database URL without a password (the file is shared and recorded)."""
+    if t is None:
+        return None
+    from urllib.parse import urlsplit
+
+    t.only(("url",))
+    url = t.string("url")
+    expected = "'sqlite:///FILE' or 'postgresql://USER@HOST[:PORT]/DB' (password from PGPASSWORD or ~/.pgpass)"
+    if not url.startswith(("sqlite:///", "postgresql://", "postgresql+psycopg://")):
+        raise t.fail("url", f"is {url.split('@')[-1]!r}", expected)
+    try:
+        has_password = urlsplit(url).password is not None
+    except ValueError:
+        raise t.fail("url", "is not a URL", expected) from None
+    if has_password:
+        raise t.fail("url", "holds a password", expected)
+    return url
 
 
 def _wiring(t: Table) -> Wiring:
