@@ -19,6 +19,8 @@ the nearest valid name, because a typo in a limit must not silently disable it.
     [cooldown]  off_s
     [offset]    enabled (zero-current reading of the drop before power is applied)
     [reverse]   voltage_v, duration_s, max_current_a
+    spec        (top level, optional) the part spec this plan is judged against, a path relative to the
+                plan file's folder: plan and spec travel together
 """
 
 from __future__ import annotations
@@ -139,6 +141,7 @@ class Plan:
     offset: OffsetReading
     reverse: Reverse | None
     source: str = "plan"
+    spec: str = ""  # the part spec as written in the plan (relative to the plan file); "" when none is named
 
     def to_dict(self) -> dict[str, Any]:
         """The complete plan with every default filled in: what the run header records."""
@@ -163,8 +166,10 @@ def _jsonable(value: Any) -> Any:
 
 
 def load_plan(path: str | Path) -> Plan:
-    """Read and check a plan file."""
-    return plan_from_table(load_toml(path))
+    """Read and check a plan file; the spec it names is resolved against the file's folder."""
+    plan = plan_from_table(load_toml(path))
+    resolved = plan_spec_path(plan, path)
+    return dataclasses.replace(plan, spec=str(resolved.resolve())) if resolved is not None else plan
 
 
 def parse_plan(text: str, source: str = "plan") -> Plan:
@@ -173,7 +178,10 @@ def parse_plan(text: str, source: str = "plan") -> Plan:
 
 
 def plan_from_table(root: Table) -> Plan:
-    root.only(_TABLES)
+    root.only(_TABLES + ("spec",))
+    spec = root.string("spec", "")
+    if "spec" in root.data and not str(spec).strip():
+        raise root.fail("spec", "is empty", "the path of a part spec file, relative to the plan")
     limits = _limits(root.table("limits"))
     element = _element(root.table("element"), limits)
     steps = _steps(root.table("steps"), limits)
@@ -188,6 +196,7 @@ def plan_from_table(root: Table) -> Plan:
         offset=_offset(root.table("offset", required=False)),
         reverse=_reverse(root.table("reverse", required=False), limits),
         source=root.source,
+        spec=str(spec or ""),
     )
     return plan
 
@@ -355,3 +364,13 @@ def _reverse(t: Table | None, limits: Limits) -> Reverse | None:
         raise t.fail("max_current_a", f"is {reverse.max_current_a:g} A, above [limits].max_current_a "
                      f"{limits.max_current_a:g} A", "a reverse-current limit within the plan's limit")
     return reverse
+
+
+def plan_spec_path(plan: Plan, plan_file: str | Path | None) -> Path | None:
+    """The part spec a plan names, resolved against the plan file's folder (None: the plan names none)."""
+    if not plan.spec:
+        return None
+    named = Path(plan.spec)
+    if named.is_absolute() or plan_file is None:
+        return named
+    return Path(plan_file).parent / named

@@ -92,7 +92,8 @@ class KeyBar(Static):
         from textual.widgets import Input
 
         if isinstance(self.screen.focused, Input):
-            items = [("Enter", "done", False), ("Esc", "leave the field (view keys work again)", False)]
+            items = [("Tab", "next field", False), ("Shift+Tab", "previous field", False), ("Enter", "done", False),
+                     ("Esc", "leave the field (view keys work again)", False)]
         width = max(20, self.size.width or 80)
         line_len = 0
         text = Text(no_wrap=True)
