@@ -482,23 +482,23 @@ class BenchApp(App):
             self.state.spec_path = specs[index]
         return specs[index]
 
-    def spec_of_run(self, header: dict) -> Path | None:
+    def spec_of_run(self, header) -> Path | None:
         """The spec a recorded run goes with: the one its header's plan names, else the one named like its part.
 
+        `header` is the run's typed header (`runs.record.RunHeader`; None when unreadable).
         Only specs the app knows (given on the command line or the demo's) are
         used, matched by file name, so a run recorded elsewhere still finds its spec.
         """
-        plan = header.get("plan") if isinstance(header.get("plan"), dict) else {}
-        element = header.get("element") if isinstance(header.get("element"), dict) else {}
-        kind = element.get("kind") or (plan.get("element") or {}).get("kind")
-        named = plan.get("spec")
+        if header is None:
+            return None
+        kind, label = header.element.kind, str(header.element.label or "").lower()
+        named = header.plan.source.get("spec") if header.plan is not None else None
         if isinstance(named, str) and named:
             for path in self.state.specs:
                 if path.name == Path(named).name and self.spec_kind(path) in (None, kind):
                     return path
-            if Path(named).is_file():
+            if Path(named).is_absolute() and Path(named).is_file():
                 return Path(named)
-        label = str(element.get("label") or (plan.get("element") or {}).get("label") or "").lower()
         if label:
             for path in self.state.specs:
                 if path.stem.lower() == label and self.spec_kind(path) == kind:
@@ -512,24 +512,55 @@ class BenchApp(App):
             self.say("Type the part's serial first.", severity="warning")
             return
         if any(entry.serial == serial for entry in self.state.lot):
-            self.say(f"Serial {serial} is already in this lot.", severity="warning")
+            self.say(f"Serial {serial} is already in this lot: select it and press r to re-measure it "
+                     f"(the newer run replaces the older) or x to remove it.", severity="warning")
             return
         self.state.lot_pending_serial = serial
         self.request_sweep(serial=serial)
+
+    def remeasure_lot_part(self, serial: str) -> None:
+        """Measure a part of the lot again: the new run replaces the old one in the lot; both files stay on disk."""
+        if not any(entry.serial == serial for entry in self.state.lot):
+            self.say(f"Serial {serial} is not in this lot.", severity="warning")
+            return
+        self.state.lot_pending_serial = serial
+        self.request_sweep(serial=serial)
+
+    def remove_lot_part(self, serial: str) -> None:
+        """Take a part out of the lot (its run file stays on disk) and sum the lot up again."""
+        kept = [entry for entry in self.state.lot if entry.serial != serial]
+        if len(kept) == len(self.state.lot):
+            self.say(f"Serial {serial} is not in this lot.", severity="warning")
+            return
+        self.state.lot = kept
+        self.say(f"Serial {serial} removed from the lot (its run file is kept on disk).")
+        self._lot_worker(None, self.state.spec_path)
 
     def _lot_part_done(self, outcome: SweepOutcome) -> None:
         serial = self.state.lot_pending_serial
         self.state.lot_pending_serial = None
         entry = LotEntry(serial, outcome.run_path, outcome=outcome.outcome, message=outcome.message)
-        self.state.lot.append(entry)
+        older = [e for e in self.state.lot if e.serial == serial]
+        if older:
+            if outcome.run_path is None:  # nothing new was recorded: the older run stays in the lot
+                self.say(f"Serial {serial} kept its earlier run: the new one recorded nothing.", severity="warning")
+                return
+            index = self.state.lot.index(older[0])
+            self.state.lot[index] = entry
+            gone = older[0].run_path.name if older[0].run_path else "none"
+            self.say(f"Serial {serial} re-measured: {outcome.run_path.name} replaces {gone} in the lot "
+                     f"(both files kept).")
+        else:
+            self.state.lot.append(entry)
         if outcome.run_path is not None:
             self._lot_worker(entry, self.state.spec_path)
 
     @work(thread=True, exclusive=True, group="lot")
-    def _lot_worker(self, entry: LotEntry, spec_path: Path | None) -> None:
+    def _lot_worker(self, entry: LotEntry | None, spec_path: Path | None) -> None:
         from .lotview import judge_part, summarise
 
-        judge_part(entry, spec_path)
+        if entry is not None:
+            judge_part(entry, spec_path)
         runs = [e.run_path for e in self.state.lot if e.run_path is not None and e.value is not None]
         try:
             summary, error = summarise(runs, spec_path), ""

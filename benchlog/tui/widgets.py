@@ -7,8 +7,9 @@ from typing import Sequence
 from rich.cells import cell_len
 from rich.style import Style
 from rich.text import Text
+from textual.binding import Binding
 from textual.widget import Widget
-from textual.widgets import Static
+from textual.widgets import DataTable, Static
 
 from .histogram import render_histogram
 from .plotting import Axis, PlotStyles, Series, render_plot
@@ -191,3 +192,14 @@ def bar(fraction: float | None, width: int) -> str:
         return "[" + "?" * width + "]"
     filled = int(round(max(0.0, min(1.0, fraction)) * width))
     return "[" + "█" * filled + "·" * (width - filled) + "]"
+
+
+class RowTable(DataTable):
+    """A table of runs or parts moved by row: Home/End go to the first/last row, PgUp/PgDn by a page."""
+
+    BINDINGS = [
+        Binding("home", "scroll_top", "First", key_display="Home"),
+        Binding("end", "scroll_bottom", "Last", key_display="End"),
+        Binding("pageup", "page_up", "Page up", key_display="PgUp"),
+        Binding("pagedown", "page_down", "Page down", key_display="PgDn"),
+    ]

@@ -22,6 +22,8 @@ from benchlog.sweep.plan import parse_plan
 from benchlog.tui.session import BenchSession, RoleStatus, SweepOutcome
 
 PLAN_TEXT = """\
+spec = "DEMO-PFET-26M.toml"
+
 [element]
 id = "Q1"
 kind = "pmos"
