@@ -595,9 +595,15 @@ class BenchApp(App):
     async def _stop_and_quit(self) -> None:
         self.session.cancel()
         self.say("Stopping the run before quitting …", severity="warning")
+        import asyncio
+
         for worker in list(self.workers):
             if worker.group == "sweep":
                 await worker.wait()
+        for _ in range(100):  # let the sweep's ending be handled first (it records what the guard read back)
+            if self.state.sweep_state == "finished":
+                break
+            await asyncio.sleep(0.02)
         outcome = self.state.last_outcome
         if outcome is None:  # the ending message was not handled yet: the session kept the guard's read-back
             report = getattr(self.session, "last_safe_report", None)

@@ -96,6 +96,7 @@ class SetupView(View):
             return
         self._form_to_plan()
         self._show_check()
+        self._show_spec()  # a kind typed in the form is checked against the spec at once
 
     def _form_to_plan(self) -> None:
         doc = self._doc()
@@ -166,9 +167,11 @@ class SetupView(View):
             return
         named = self.app.plan_spec()
         origin = "named by the plan" if named is not None and _same(named, path) else "picked with k"
-        lines = [f"part spec: {shown(path)} ({origin})", f"  {getattr(spec, 'name', '')} ({getattr(spec, 'kind', '')})"]
+        lines = [f"part spec ({origin}):", f"  {shown(path)}",
+                 f"  {getattr(spec, 'name', '')} ({getattr(spec, 'kind', '')})"]
         if kind is not None and getattr(spec, "kind", None) != kind:
-            lines.insert(1, f"  ✘ for a {getattr(spec, 'kind', '?')}, the plan measures a {kind}: k picks another")
+            lines[2:2] = [f"  ✘ spec for a {getattr(spec, 'kind', '?')},", f"    plan measures a {kind}:",
+                          "    k picks one of its kind"]
         for attr, label, unit in (("rds_on_ohm", "R_DS(on)", "Ω"), ("vf_v", "Vf", "V"), ("rth_ja_k_per_w", "RθJA", "K/W"),
                                   ("tj_max_c", "Tj max", "°C")):
             value = _find(spec, attr)
