@@ -197,9 +197,9 @@ def bar(fraction: float | None, width: int) -> str:
 class RowTable(DataTable):
     """A table of runs or parts moved by row: Home/End go to the first/last row, PgUp/PgDn by a page."""
 
-    BINDINGS = [
-        Binding("home", "scroll_top", "First", key_display="Home"),
-        Binding("end", "scroll_bottom", "Last", key_display="End"),
-        Binding("pageup", "page_up", "Page up", key_display="PgUp"),
-        Binding("pagedown", "page_down", "Page down", key_display="PgDn"),
+    BINDINGS = [  # one entry in the key bar for all four, so the bar keeps room for STOP
+        Binding("home", "scroll_top", "rows", key_display="Home/End/PgUp/PgDn"),
+        Binding("end", "scroll_bottom", "Last row", show=False),
+        Binding("pageup", "page_up", "Page up", show=False),
+        Binding("pagedown", "page_down", "Page down", show=False),
     ]

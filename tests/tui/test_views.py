@@ -177,7 +177,7 @@ async def test_results_show_fit_uncertainty_verdict_and_rule(scripted, runs_dir,
         assert "residual" in screen_text(app)
         await pilot.press("m")
         await settle(pilot, app, lambda: app.state.findings is not None and app.state.findings.model == "resistive")
-        assert "model resistive: CHOSEN with m" in screen_text(app)
+        assert "resistive (CHOSEN with m" in screen_text(app)
 
 
 async def test_results_export_writes_the_html_report_beside_the_run(scripted, runs_dir, demo_files):

@@ -156,9 +156,8 @@ class ResultsView(View):
             box.update(f" fit ({f.model}): ✘ {f.fit_error or 'not possible'}")
             return
         fit = f.fit
-        chosen = (f"model {fit.model}: CHOSEN with m (m again for the next; a new run starts on auto)"
-                  if f.model != "auto" else f"model {fit.model}: automatic choice")
-        lines = [f" fit: {chosen}, {fit.points} points", f"  why: {fit.reason}"]
+        chosen = "CHOSEN with m; a new run starts on auto" if f.model != "auto" else "automatic choice"
+        lines = [f" fit: {fit.model} ({chosen}), {fit.points} points", f"  why: {fit.reason}"]
         k = getattr(fit, "k", 2.0)
         for key, value in fit.params.items():
             name, unit = PARAM_NAMES.get(key, (key, ""))
@@ -167,7 +166,7 @@ class ResultsView(View):
             if not unit:
                 shown = f"{value:.4g} ± {k * u:.2g} (k={k:g})" if u is not None else f"{value:.4g}"
             if not_determined(value, u, k):
-                shown += "  NOT DETERMINED (U > value)"
+                shown += "  NOT DETERMINED"  # U > |value|
             lines.append(f"  {name:<7}{shown}")
         outliers = int(np.count_nonzero(fit.outliers)) if fit.outliers is not None else 0
         lines.append(f"  outliers: {outliers} flagged (kept in the file)")
