@@ -141,7 +141,8 @@ class Plan:
     offset: OffsetReading
     reverse: Reverse | None
     source: str = "plan"
-    spec: str = ""  # the part spec as written in the plan (relative to the plan file); "" when none is named
+    spec: str = ""  # the part spec as written in the plan (relative to the plan file, so a run header stays
+    # the same on every machine); "" when none is named
 
     def to_dict(self) -> dict[str, Any]:
         """The complete plan with every default filled in: what the run header records."""
@@ -166,10 +167,8 @@ def _jsonable(value: Any) -> Any:
 
 
 def load_plan(path: str | Path) -> Plan:
-    """Read and check a plan file; the spec it names is resolved against the file's folder."""
-    plan = plan_from_table(load_toml(path))
-    resolved = plan_spec_path(plan, path)
-    return dataclasses.replace(plan, spec=str(resolved.resolve())) if resolved is not None else plan
+    """Read and check a plan file (its `spec` stays as written: `plan_spec_path` resolves it)."""
+    return plan_from_table(load_toml(path))
 
 
 def parse_plan(text: str, source: str = "plan") -> Plan:

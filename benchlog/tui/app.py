@@ -237,7 +237,10 @@ class BenchApp(App):
         source = shown(self.state.plan_path) if self.state.plan_path else "edited plan"
         plan = parse_plan(self.state.plan_text, source)
         spec = self.state.spec_path  # the spec in use travels with the run (its header names it)
-        return dataclasses.replace(plan, spec=str(spec.resolve()) if spec is not None else "")
+        if spec is None:
+            return dataclasses.replace(plan, spec="")
+        named = self.plan_spec()
+        return plan if named is not None and _same_file(named, spec) else dataclasses.replace(plan, spec=str(spec))
 
     def request_sweep(self, serial: str | None = None) -> None:
         """Start a sweep of the current plan, after the safety caution the first time in a session."""

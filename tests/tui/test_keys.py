@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from benchlog.sweep.plan import load_plan
+from benchlog.sweep.plan import load_plan, plan_spec_path
 from benchlog.tui.app import BenchApp
 from benchlog.tui.launch import DEMO_DIR, demo_plans, demo_specs
 from benchlog.tui.paths import shown
@@ -62,7 +62,7 @@ async def test_tab_moves_through_the_fields_typing_edits_and_w_saves_what_was_ty
     assert app.messages[-1] == f"Plan saved to {shown(saved)}"
     plan = load_plan(saved)  # the saved file passes the same reader, and still finds its spec
     assert plan.element.serial == "SN-42" and plan.steps.count == 12
-    assert Path(plan.spec) == demo_files[1].resolve()
+    assert plan_spec_path(plan, saved).resolve() == demo_files[1].resolve()
 
 
 def _other_rectifier_spec(folder: Path) -> Path:
@@ -85,7 +85,8 @@ async def test_n_picks_each_plan_with_its_own_spec_and_k_offers_only_its_kind(tm
             await pilot.press("n")
             await pilot.pause(0.05)
             plan = load_plan(app.state.plan_path)
-            assert app.state.spec_path.resolve() == Path(plan.spec)  # the spec the plan names
+            named = plan_spec_path(plan, app.state.plan_path)
+            assert app.state.spec_path.resolve() == named.resolve()  # the spec the plan names
             assert app.spec_kind(app.state.spec_path) == plan.element.kind
             text = screen_text(app)
             assert "part spec (named by the plan):" in text and f"  {shown(app.state.spec_path)}" in text

@@ -71,6 +71,7 @@ def test_demo_in_a_real_terminal(tmp_path):
 
         plan = load_plan(saved)  # what was typed, through the plan reader, with its spec still found
         assert plan.element.serial == "TMUX-7" and Path(plan.spec).name == "demo-pfet-10m.toml"
+        assert (saved.parent / plan.spec).resolve().is_file()
         term.keys("r")
         term.wait_for("CAUTION")
         term.keys("y")
