@@ -107,7 +107,7 @@ class BenchApp(App):
         Binding("question_mark", "view('help')", "Help", key_display="?"),
         Binding("s", "stop", "STOP", key_display="s"),
         Binding("q", "quit_safely", "Quit"),
-        Binding("ctrl+c", "quit_safely", "Quit", show=False, priority=True),
+        Binding("ctrl+c", "quit_now", "Quit", show=False, priority=True),
     ]
 
     def __init__(
@@ -594,6 +594,13 @@ class BenchApp(App):
                 self.say("Quit cancelled: the run goes on (s stops it).")
 
         self.push_screen(QuitDuringRunScreen(), answered)
+
+    def action_quit_now(self) -> None:
+        """Ctrl+C: no question — stop any sweep (outputs to the safe state), say what was read back, quit."""
+        if self.session is None or self.state.sweep_state not in ("running", "stopping"):
+            self.exit()
+            return
+        self.run_worker(self._stop_and_quit(), group="quitting", exclusive=True)
 
     async def _stop_and_quit(self) -> None:
         self.session.cancel()

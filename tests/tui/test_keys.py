@@ -130,6 +130,10 @@ async def test_an_extrapolated_value_says_so_and_a_chosen_model_ends_with_its_ru
         await pilot.press("m")
         await settle(pilot, app, lambda: app.state.findings.model == "resistive")
         assert "CHOSEN with m" in screen_text(app)
+        await pilot.press("k")  # the only spec of the run's kind: judged again against it, model kept
+        await settle(pilot, app, lambda: not app.state.findings_busy)
+        assert any(m.startswith(f"Judging {short.name} against") for m in app.messages[-2:])
+        assert app.state.findings.model == "resistive" and app.state.findings.spec_path == demo_files[1]
         await run_a_sweep(pilot, app)  # a new run starts on the automatic choice
         await pilot.press("4")
         await settle(pilot, app, lambda: app.state.findings.path != short)
@@ -255,6 +259,20 @@ async def test_q_during_a_sweep_asks_and_says_outputs_off_only_as_read_back(runs
         await pilot.pause(0.1)
         assert app.is_running and not held.cancel_seen.is_set() and "Quit cancelled" in app.messages[-1]
         await pilot.press("q", "y")
+        await settle(pilot, app, lambda: not app.is_running or "Run stopped before quitting" in app.messages[-1])
+    assert held.cancel_seen.is_set() and not held.output_on
+    assert app.messages[-1] == "Run stopped before quitting; outputs are off (read back)."
+
+
+async def test_ctrl_c_during_a_sweep_stops_it_without_a_question(runs_dir, demo_files):
+    held = ScriptedSession(runs_dir, hold_at=5)
+    app = make_app(held, runs_dir, demo_files)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await pilot.press("2", "r")
+        await settle(pilot, app, lambda: isinstance(app.screen, CautionScreen))
+        await pilot.press("y")
+        await settle(pilot, app, lambda: held.reached_hold.is_set())
+        await pilot.press("ctrl+c")
         await settle(pilot, app, lambda: not app.is_running or "Run stopped before quitting" in app.messages[-1])
     assert held.cancel_seen.is_set() and not held.output_on
     assert app.messages[-1] == "Run stopped before quitting; outputs are off (read back)."

@@ -244,7 +244,7 @@ class ResultsView(View):
         if findings is None:
             self.app.say("No run to judge yet.")
             return
-        kind = (findings.meta.element or {}).get("kind")
+        kind = findings.meta.header.element.kind
         spec = self.app.next_spec(kind=kind, current=findings.spec_path)
         if spec is None:
             self.app.say(f"No part spec of kind {kind or '?'} to pick from.")
