@@ -429,7 +429,12 @@ def _analysis_summary(run_file: Path, plan) -> dict[str, Any]:
 
 
 def _demo_spec_for(plan) -> Path | None:
-    """The demo part spec named like the plan's element label (benchlog/demo/specs/<label>.toml)."""
+    """The spec the plan names (its `spec` key, beside the plan file), else the demo spec named like its label."""
+    from benchlog.sweep.plan import plan_spec_path
+
+    named = plan_spec_path(plan, plan.source)
+    if named is not None and named.is_file():
+        return named.resolve()
     if not plan.element.label:
         return None
     specs = demo_plans_dir().parent / "specs"

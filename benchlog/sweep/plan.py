@@ -27,6 +27,8 @@ the nearest valid name, because a typo in a limit must not silently disable it.
     [inspection] stop_when_decided, max_drop_v (acceptance limit of the drop at operating_a),
                 first_look (points before the first look): stop a part once its verdict is decided
                 (benchlog.sweep.sequential)
+    spec        (top level, optional) the part spec this plan is judged against, a path relative to the
+                plan file's folder: plan and spec travel together
 """
 
 from __future__ import annotations
@@ -213,6 +215,8 @@ class Plan:
     input: InputSweep | None = None
     inspection: Inspection | None = None
     lab: Lab | None = None  # optional [lab] table
+    spec: str = ""  # the part spec as written in the plan (relative to the plan file, so a run header stays
+    # the same on every machine); "" when none is named
 
     def to_dict(self) -> dict[str, Any]:
         """The complete plan with every default filled in: what the run header records."""
@@ -248,7 +252,7 @@ def _jsonable(value: Any) -> Any:
 
 
 def load_plan(path: str | Path) -> Plan:
-    """Read and check a plan file."""
+    """Read and check a plan file (its `spec` stays as written: `plan_spec_path` resolves it)."""
     return plan_from_table(load_toml(path))
 
 
@@ -258,7 +262,10 @@ def parse_plan(text: str, source: str = "plan") -> Plan:
 
 
 def plan_from_table(root: Table) -> Plan:
-    root.only(_TABLES)
+    root.only(_TABLES + ("spec",))
+    spec = root.string("spec", "")
+    if "spec" in root.data and not str(spec).strip():
+        raise root.fail("spec", "is empty", "the path of a part spec file, relative to the plan")
     limits = _limits(root.table("limits"))
     element = _element(root.table("element"), limits)
     steps = _steps(root.table("steps"), limits)
@@ -277,7 +284,15 @@ def plan_from_table(root: Table) -> Plan:
         input=_input(root.table("input", required=False)),
         inspection=_inspection(root.table("inspection", required=False), element, steps),
         lab=_lab(root.table("lab", required=False)),
+        spec=str(spec or ""),
     )
+    if plan.input is not None:
+        for other in ("soak", "inspection"):
+            if getattr(plan, other) is not None:
+                # a heat-soak or a stop-when-decided inspection holds one input voltage; a series per input
+                # would leave it unclear which one it was run at
+                raise root.fail("input", f"is given together with [{other}]",
+                                f"[input] or [{other}] in one plan (make a plan for each)")
     return plan
 
 
@@ -552,3 +567,13 @@ def _input(t: Table | None) -> InputSweep | None:
     if len(set(voltages)) != len(voltages):
         raise t.fail("voltages_v", "repeats a voltage", "each input voltage once")
     return InputSweep(voltages_v=voltages)
+
+
+def plan_spec_path(plan: Plan, plan_file: str | Path | None) -> Path | None:
+    """The part spec a plan names, resolved against the plan file's folder (None: the plan names none)."""
+    if not plan.spec:
+        return None
+    named = Path(plan.spec)
+    if named.is_absolute() or plan_file is None:
+        return named
+    return Path(plan_file).parent / named

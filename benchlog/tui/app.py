@@ -21,6 +21,7 @@ from .collector import CollectorPolicy
 from .feed import EventFeed
 from .findings import MODELS, RunFindings, study_run
 from .liverun import LiveRun
+from .paths import shown
 from .session import BenchSession, RoleStatus, SweepOutcome, outputs_sentence
 from .views import VIEWS
 
@@ -106,7 +107,7 @@ class BenchApp(App):
         Binding("question_mark", "view('help')", "Help", key_display="?"),
         Binding("s", "stop", "STOP", key_display="s"),
         Binding("q", "quit_safely", "Quit"),
-        Binding("ctrl+c", "quit_safely", "Quit", show=False, priority=True),
+        Binding("ctrl+c", "quit_now", "Quit", show=False, priority=True),
     ]
 
     def __init__(
@@ -139,12 +140,13 @@ class BenchApp(App):
             self.state.plan_path = self.state.plans[0]
         if self.state.plan_path is not None:
             self.state.plan_text = _read_text(self.state.plan_path)
+        self._spec_kinds: dict[Path, str | None] = {}
         if spec is not None:
             self.state.spec_path = Path(spec)
             if self.state.spec_path not in self.state.specs:
                 self.state.specs.insert(0, self.state.spec_path)
-        elif self.state.specs:
-            self.state.spec_path = self.state.specs[0]
+        else:
+            self.pair_spec()
         if session is not None:
             self.state.roles = session.roles()
         self._start_view = start_view
@@ -230,8 +232,15 @@ class BenchApp(App):
 
         if not self.state.plan_text.strip():
             raise BadInput("plan", "", "no plan is loaded", "a plan picked in the set-up view")
-        source = str(self.state.plan_path) if self.state.plan_path else "edited plan"
-        return parse_plan(self.state.plan_text, source)
+        import dataclasses
+
+        source = shown(self.state.plan_path) if self.state.plan_path else "edited plan"
+        plan = parse_plan(self.state.plan_text, source)
+        spec = self.state.spec_path  # the spec in use travels with the run (its header names it)
+        if spec is None:
+            return dataclasses.replace(plan, spec="")
+        named = self.plan_spec()
+        return plan if named is not None and _same_file(named, spec) else dataclasses.replace(plan, spec=str(spec))
 
     def request_sweep(self, serial: str | None = None) -> None:
         """Start a sweep of the current plan, after the safety caution the first time in a session."""
@@ -249,6 +258,12 @@ class BenchApp(App):
                 plan = _with_serial(plan, serial)
         except BadInput as exc:
             self.say(f"Plan refused: {exc.line()}", severity="error")
+            return
+        spec = self.state.spec_path
+        if spec is not None and self.spec_kind(spec) not in (None, plan.element.kind):
+            self.say(f"Run not started: spec {shown(spec)} is for a {self.spec_kind(spec)}, the plan measures a "
+                     f"{plan.element.kind}; k picks a spec of the plan's kind.", severity="error")
+            self.state.lot_pending_serial = None
             return
         if self.state.caution_confirmed:
             self._start_sweep(plan)
@@ -270,6 +285,7 @@ class BenchApp(App):
         self.state.live = LiveRun(source="live")
         self.state.sweep_state = "running"
         self.state.last_outcome = None
+        self.state.model = "auto"  # a model chosen with m belongs to the run it was chosen for
         self._sweep_started_at = self.clock()
         self.switch_mode("live") if self.current_mode != "lot" else None
         self._sweep_worker(plan, self._generation)
@@ -331,6 +347,7 @@ class BenchApp(App):
         self._generation = self.feed.reset()
         self.state.live = LiveRun(source="replay")
         self.state.sweep_state = "replaying"
+        self.state.model = "auto"
         self._sweep_started_at = None
         self.switch_mode("live")
         self._replay_worker(Path(path), speed, self._generation)
@@ -397,13 +414,99 @@ class BenchApp(App):
         self.state.model = MODELS[index]
         return self.state.model
 
-    def next_spec(self) -> Path | None:
-        specs = self.state.specs
+    # -- plan and spec together ----------------------------------------------------------
+    def plan_table(self) -> dict:
+        """The edited plan as a TOML table ({} when it does not parse: the plan check says why)."""
+        import tomllib
+
+        try:
+            return tomllib.loads(self.state.plan_text) if self.state.plan_text else {}
+        except tomllib.TOMLDecodeError:
+            return {}
+
+    def plan_kind(self) -> str | None:
+        kind = (self.plan_table().get("element") or {}).get("kind")
+        return kind if isinstance(kind, str) else None
+
+    def plan_spec(self) -> Path | None:
+        """The spec the plan names (its `spec` key), resolved against the plan file's folder."""
+        named = self.plan_table().get("spec")
+        if not isinstance(named, str) or not named.strip():
+            return None
+        path = Path(named)
+        if not path.is_absolute() and self.state.plan_path is not None:
+            path = self.state.plan_path.parent / path
+        return path
+
+    def spec_kind(self, path: Path) -> str | None:
+        """The element kind a spec file is for (None: unreadable; the set-up view names the fault)."""
+        if path not in self._spec_kinds:
+            try:
+                from benchlog.specfiles import load_spec
+
+                self._spec_kinds[path] = getattr(load_spec(path), "kind", None)
+            except Exception:  # noqa: BLE001 -- a broken spec is reported where it is shown
+                self._spec_kinds[path] = None
+        return self._spec_kinds[path]
+
+    def specs_for_plan(self) -> list[Path]:
+        """The specs `k` may offer: those of the plan's element kind (all of them while the kind is unknown)."""
+        kind = self.plan_kind()
+        if kind is None:
+            return list(self.state.specs)
+        return [p for p in self.state.specs if self.spec_kind(p) == kind]
+
+    def pair_spec(self) -> str:
+        """Pick the spec that goes with the plan: the one it names, else the first of its kind, else none."""
+        state = self.state
+        named = self.plan_spec()
+        if named is not None:
+            known = [p for p in state.specs if _same_file(p, named)]
+            if known:
+                named = known[0]
+            else:
+                state.specs.insert(0, named)
+            state.spec_path = named
+            return "the plan's own spec"
+        fitting = self.specs_for_plan()
+        if state.spec_path is not None and state.spec_path in fitting:
+            return "kept: same element kind"
+        state.spec_path = fitting[0] if fitting else None
+        return "first spec of the plan's kind" if fitting else "no spec of the plan's kind"
+
+    def next_spec(self, kind: str | None = None, current: Path | None | str = "state") -> Path | None:
+        """The next spec of the plan's kind, or of `kind` (k never offers a spec of another kind)."""
+        specs = self.specs_for_plan() if kind is None else [p for p in self.state.specs if self.spec_kind(p) == kind]
         if not specs:
             return None
-        index = (specs.index(self.state.spec_path) + 1) % len(specs) if self.state.spec_path in specs else 0
-        self.state.spec_path = specs[index]
-        return self.state.spec_path
+        now = self.state.spec_path if current == "state" else current
+        index = (specs.index(now) + 1) % len(specs) if now in specs else 0
+        if current == "state":
+            self.state.spec_path = specs[index]
+        return specs[index]
+
+    def spec_of_run(self, header) -> Path | None:
+        """The spec a recorded run goes with: the one its header's plan names, else the one named like its part.
+
+        `header` is the run's typed header (`runs.record.RunHeader`; None when unreadable).
+        Only specs the app knows (given on the command line or the demo's) are
+        used, matched by file name, so a run recorded elsewhere still finds its spec.
+        """
+        if header is None:
+            return None
+        kind, label = header.element.kind, str(header.element.label or "").lower()
+        named = header.plan.source.get("spec") if header.plan is not None else None
+        if isinstance(named, str) and named:
+            for path in self.state.specs:
+                if path.name == Path(named).name and self.spec_kind(path) in (None, kind):
+                    return path
+            if Path(named).is_absolute() and Path(named).is_file():
+                return Path(named)
+        if label:
+            for path in self.state.specs:
+                if path.stem.lower() == label and self.spec_kind(path) == kind:
+                    return path
+        return None
 
     # -- lot -------------------------------------------------------------------------
     def run_lot_part(self, serial: str) -> None:
@@ -412,24 +515,55 @@ class BenchApp(App):
             self.say("Type the part's serial first.", severity="warning")
             return
         if any(entry.serial == serial for entry in self.state.lot):
-            self.say(f"Serial {serial} is already in this lot.", severity="warning")
+            self.say(f"Serial {serial} is already in this lot: select it and press r to re-measure it "
+                     f"(the newer run replaces the older) or x to remove it.", severity="warning")
             return
         self.state.lot_pending_serial = serial
         self.request_sweep(serial=serial)
+
+    def remeasure_lot_part(self, serial: str) -> None:
+        """Measure a part of the lot again: the new run replaces the old one in the lot; both files stay on disk."""
+        if not any(entry.serial == serial for entry in self.state.lot):
+            self.say(f"Serial {serial} is not in this lot.", severity="warning")
+            return
+        self.state.lot_pending_serial = serial
+        self.request_sweep(serial=serial)
+
+    def remove_lot_part(self, serial: str) -> None:
+        """Take a part out of the lot (its run file stays on disk) and sum the lot up again."""
+        kept = [entry for entry in self.state.lot if entry.serial != serial]
+        if len(kept) == len(self.state.lot):
+            self.say(f"Serial {serial} is not in this lot.", severity="warning")
+            return
+        self.state.lot = kept
+        self.say(f"Serial {serial} removed from the lot (its run file is kept on disk).")
+        self._lot_worker(None, self.state.spec_path)
 
     def _lot_part_done(self, outcome: SweepOutcome) -> None:
         serial = self.state.lot_pending_serial
         self.state.lot_pending_serial = None
         entry = LotEntry(serial, outcome.run_path, outcome=outcome.outcome, message=outcome.message)
-        self.state.lot.append(entry)
+        older = [e for e in self.state.lot if e.serial == serial]
+        if older:
+            if outcome.run_path is None:  # nothing new was recorded: the older run stays in the lot
+                self.say(f"Serial {serial} kept its earlier run: the new one recorded nothing.", severity="warning")
+                return
+            index = self.state.lot.index(older[0])
+            self.state.lot[index] = entry
+            gone = older[0].run_path.name if older[0].run_path else "none"
+            self.say(f"Serial {serial} re-measured: {outcome.run_path.name} replaces {gone} in the lot "
+                     f"(both files kept).")
+        else:
+            self.state.lot.append(entry)
         if outcome.run_path is not None:
             self._lot_worker(entry, self.state.spec_path)
 
     @work(thread=True, exclusive=True, group="lot")
-    def _lot_worker(self, entry: LotEntry, spec_path: Path | None) -> None:
+    def _lot_worker(self, entry: LotEntry | None, spec_path: Path | None) -> None:
         from .lotview import judge_part, summarise
 
-        judge_part(entry, spec_path)
+        if entry is not None:
+            judge_part(entry, spec_path)
         runs = [e.run_path for e in self.state.lot if e.run_path is not None and e.value is not None]
         try:
             summary, error = summarise(runs, spec_path), ""
@@ -444,13 +578,54 @@ class BenchApp(App):
 
     # -- leaving ------------------------------------------------------------------------
     async def action_quit_safely(self) -> None:
-        if self.session is not None and self.state.sweep_state in ("running", "stopping"):
-            self.session.cancel()
-            self.say("Stopping the run before quitting: outputs go off.", severity="warning")
-            for worker in list(self.workers):
-                if worker.group == "sweep":
-                    await worker.wait()
-        self.exit()
+        """q: quit at once when idle; during a sweep ask first, then stop it and say what the guard read back."""
+        if self.session is None or self.state.sweep_state not in ("running", "stopping"):
+            self.exit()
+            return
+        from .views.caution import QuitDuringRunScreen
+
+        if isinstance(self.screen, QuitDuringRunScreen):
+            return
+
+        def answered(yes: bool | None) -> None:
+            if yes:
+                self.run_worker(self._stop_and_quit(), group="quitting", exclusive=True)
+            else:
+                self.say("Quit cancelled: the run goes on (s stops it).")
+
+        self.push_screen(QuitDuringRunScreen(), answered)
+
+    def action_quit_now(self) -> None:
+        """Ctrl+C: no question — stop any sweep (outputs to the safe state), say what was read back, quit."""
+        if self.session is None or self.state.sweep_state not in ("running", "stopping"):
+            self.exit()
+            return
+        self.run_worker(self._stop_and_quit(), group="quitting", exclusive=True)
+
+    async def _stop_and_quit(self) -> None:
+        self.session.cancel()
+        self.say("Stopping the run before quitting …", severity="warning")
+        import asyncio
+
+        for worker in list(self.workers):
+            if worker.group == "sweep":
+                await worker.wait()
+        for _ in range(100):  # let the sweep's ending be handled first (it records what the guard read back)
+            if self.state.sweep_state == "finished":
+                break
+            await asyncio.sleep(0.02)
+        outcome = self.state.last_outcome
+        if outcome is None:  # the ending message was not handled yet: the session kept the guard's read-back
+            report = getattr(self.session, "last_safe_report", None)
+            state = getattr(report, "state", "unknown") if report is not None else "unknown"
+            statement = report.statement() if report is not None and hasattr(report, "statement") else ""
+        else:
+            state, statement = getattr(outcome, "safe_state", ""), getattr(outcome, "safe_statement", "")
+        sentence = "Run stopped before quitting; " + (
+            "outputs are off (read back)." if state == "verified"
+            else outputs_sentence(state or "unknown", statement))
+        self.say(sentence, severity="information" if state == "verified" else "error")
+        self.exit(message=sentence)
 
     def on_unmount(self) -> None:
         if self.session is not None:
@@ -463,6 +638,13 @@ class ReplayEnded(Message):
         super().__init__()
         self.generation = generation
         self.outcome = outcome
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        return a.resolve() == b.resolve()
+    except OSError:
+        return a == b
 
 
 def _with_serial(plan, serial: str):

@@ -72,7 +72,7 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
             spec = load_spec(spec_path)
             check = check_run(frame, meta, spec)
         except Exception as exc:
-            check_error = _sentence(exc)
+            check_error = _short_paths(_sentence(exc), spec_path)
     soak = None
     soak_error = ""
     try:
@@ -91,6 +91,15 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
         check_error = check_error or _sentence(exc)
     return RunFindings(path, frame, meta, model, fit, fit_error, spec, spec_path, check, check_error, self_heating,
                        notes=(focus,) if focus else (), soak=soak, soak_error=soak_error, sweeps=sweeps)
+
+
+def _short_paths(text: str, path: Path) -> str:
+    """The spec's path as the user reads it (relative, or demo/…), never an installed package's full path."""
+    from .paths import shown
+
+    for form in sorted({str(path), str(Path(path).resolve())}, key=len, reverse=True):
+        text = text.replace(form, shown(path))
+    return text
 
 
 def _sentence(exc: BaseException) -> str:

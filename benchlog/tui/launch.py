@@ -60,8 +60,8 @@ def build_demo_app(start_sim, plan_name: str = "pmos-prototype", out: str | Path
     session = BenchSession.simulated(plan.element, start_sim, runs_dir=Path(out), seed=seed)
     specs = demo_specs()
     plans = demo_plans()
-    return BenchApp(session, runs_dir=Path(out), plans=plans, specs=specs, plan=plan_path,
-                    spec=spec_for_kind(plan.element.kind, specs))
+    # the spec is the one the plan names (its `spec` key), else the first of its kind: BenchApp pairs them
+    return BenchApp(session, runs_dir=Path(out), plans=plans, specs=specs, plan=plan_path)
 
 
 def run_demo_ui(args, start_sim) -> int:

@@ -7,8 +7,9 @@ from typing import Sequence
 from rich.cells import cell_len
 from rich.style import Style
 from rich.text import Text
+from textual.binding import Binding
 from textual.widget import Widget
-from textual.widgets import Static
+from textual.widgets import DataTable, Static
 
 from .histogram import render_histogram
 from .plotting import Axis, PlotStyles, Series, render_plot
@@ -92,7 +93,8 @@ class KeyBar(Static):
         from textual.widgets import Input
 
         if isinstance(self.screen.focused, Input):
-            items = [("Enter", "done", False), ("Esc", "leave the field (view keys work again)", False)]
+            items = [("Tab", "next field", False), ("Shift+Tab", "previous field", False), ("Enter", "done", False),
+                     ("Esc", "leave the field (view keys work again)", False)]
         width = max(20, self.size.width or 80)
         line_len = 0
         text = Text(no_wrap=True)
@@ -190,3 +192,14 @@ def bar(fraction: float | None, width: int) -> str:
         return "[" + "?" * width + "]"
     filled = int(round(max(0.0, min(1.0, fraction)) * width))
     return "[" + "█" * filled + "·" * (width - filled) + "]"
+
+
+class RowTable(DataTable):
+    """A table of runs or parts moved by row: Home/End go to the first/last row, PgUp/PgDn by a page."""
+
+    BINDINGS = [  # one entry in the key bar for all four, so the bar keeps room for STOP
+        Binding("home", "scroll_top", "rows", key_display="Home/End/PgUp/PgDn"),
+        Binding("end", "scroll_bottom", "Last row", show=False),
+        Binding("pageup", "page_up", "Page up", show=False),
+        Binding("pagedown", "page_down", "Page down", show=False),
+    ]

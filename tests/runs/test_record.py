@@ -31,6 +31,7 @@ from benchlog.runs.record import (
     freeze,
     is_run_id,
     new_run_id,
+    thaw,
 )
 
 from .samples import header_table
@@ -182,11 +183,15 @@ def test_schema1_files_load_into_the_same_record(path):
     pd.testing.assert_frame_equal(frame, new_frame, check_exact=True)
     same_profiles = tuple(replace(old, profile_sha256=now.profile_sha256)
                           for old, now in zip(meta.header.instruments, new_meta.header.instruments))
-    # ... and a reverse step's run now also records the reverse range's accuracy, which the old one lacks
+    # ... a reverse step's run now also records the reverse range's accuracy, which the old one lacks
     accuracy = replace(meta.header.accuracy, reverse_current=new_meta.header.accuracy.reverse_current)
     assert (meta.header.accuracy.reverse_current is None) or accuracy == meta.header.accuracy
+    # ... and a plan also names its part spec (the top-level `spec` key): the plan differs by that key only.
+    new_plan = thaw(new_meta.header.plan.source)
+    assert new_plan.pop("spec").startswith("../specs/")
+    assert PlanRecord(new_plan) == meta.header.plan
     assert replace(meta.header, schema=2, run_id=new_meta.header.run_id,
-                   instruments=same_profiles, accuracy=accuracy) == new_meta.header
+                   instruments=same_profiles, accuracy=accuracy, plan=new_meta.header.plan) == new_meta.header
     assert np.array_equal(points.drop_v, new_frame["drop_v"].to_numpy(), equal_nan=True)
     # rewriting an old header from its record gives back the same JSON (no run_id is invented)
     assert json.loads(line) == {"record": "header", **meta.header.to_table()}

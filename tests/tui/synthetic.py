@@ -22,6 +22,8 @@ from benchlog.sweep.plan import parse_plan
 from benchlog.tui.session import BenchSession, RoleStatus, SweepOutcome
 
 PLAN_TEXT = """\
+spec = "DEMO-PFET-26M.toml"
+
 [element]
 id = "Q1"
 kind = "pmos"
@@ -96,12 +98,12 @@ def header(serial: str = "DEMO-0001", started_utc: str = "2025-03-04T10:20:30.00
 
 
 def events(serial: str = "DEMO-0001", r_ohm: float = 0.027, n: int = 30, seed: int = 1,
-           started_utc: str = "2025-03-04T10:20:30.000Z", stop_after: int | None = None):
+           started_utc: str = "2025-03-04T10:20:30.000Z", stop_after: int | None = None, plan_text: str = PLAN_TEXT):
     """A resistive element's sweep as events: R = `r_ohm`, 20 µV noise (invented demo data)."""
     rng = np.random.default_rng(seed)
     current = np.linspace(0.1, 3.0, n)
     drop = 1e-5 + r_ohm * current + rng.normal(0.0, 2e-5, n)
-    out = [RunStarted(header(serial, started_utc)), Offset(0.1, 1e-5)]
+    out = [RunStarted(header(serial, started_utc, plan_text)), Offset(0.1, 1e-5)]
     t = 0.5
     for k, (i, v) in enumerate(zip(current, drop)):
         if stop_after is not None and k >= stop_after:
@@ -154,6 +156,7 @@ class ScriptedSession(BenchSession):
         self.cancel_seen = threading.Event()
         self.output_on = False
         self.sweeps = 0
+        self.r_by_serial: dict[str, float] = {}  # a part's invented R_on (default 27 mΩ)
 
     def probe(self, role: str) -> RoleStatus:
         spec = self.setup.roles[role]
@@ -162,7 +165,7 @@ class ScriptedSession(BenchSession):
     def sweep(self, plan, on_event) -> SweepOutcome:
         self.sweeps += 1
         serial = plan.element.serial
-        evs = events(serial=serial, n=self.n, seed=self.sweeps)
+        evs = events(serial=serial, n=self.n, seed=self.sweeps, r_ohm=self.r_by_serial.get(serial, 0.027))
         path = new_run_path(self.runs_dir, evs[0].header)
         with RunWriter(path, fsync=False) as writer:
             for k, event in enumerate(evs):

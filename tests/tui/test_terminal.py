@@ -60,7 +60,19 @@ def test_demo_in_a_real_terminal(tmp_path):
     try:
         screen = term.wait_for("✔ answers")
         assert "1 [Bench]" in screen and "2 Set-up" in screen  # the key bar shows the way
-        term.keys("2", "r")
+        term.keys("2")
+        term.wait_for("Tab Edit fields")
+        term.keys("Tab", "Tab", "Tab")  # element id, kind, serial: entering a field selects its value
+        term.wait_for("Shift+Tab previous field")
+        term.keys("TMUX-7", "Enter", "w")
+        screen = term.wait_for("Plan saved to")
+        saved = out / "plans" / "pmos-prototype-edited.toml"
+        from benchlog.sweep.plan import load_plan
+
+        plan = load_plan(saved)  # what was typed, through the plan reader, with its spec still found
+        assert plan.element.serial == "TMUX-7" and Path(plan.spec).name == "demo-pfet-10m.toml"
+        assert (saved.parent / plan.spec).resolve().is_file()
+        term.keys("r")
         term.wait_for("CAUTION")
         term.keys("y")
         screen = term.wait_for("Run complete", timeout=90)
@@ -79,6 +91,8 @@ def test_demo_in_a_real_terminal(tmp_path):
         after = term.screen()
         assert "q Quit" not in after, "q did not close the UI"
         assert "Traceback" not in after
-        assert len(list(out.glob("*.run"))) == 1, "the demo recorded no run file"
+        runs = list(out.glob("*.run"))
+        assert len(runs) == 1, "the demo recorded no run file"
+        assert '"serial":"TMUX-7"' in runs[0].read_text(encoding="utf-8").splitlines()[0]  # the typed serial ran
     finally:
         term.close()

@@ -13,9 +13,11 @@ from textual.widgets import DataTable, Static
 
 from benchlog.badinput import BadInput
 from benchlog.runs.reader import read_summary
+from benchlog.runs.record import RunHeader
 
 from ..plotting import Axis, Series
-from ..widgets import CurvePlot, KeyBar, Plain, cells
+from ..paths import shown
+from ..widgets import CurvePlot, KeyBar, Plain, RowTable, cells
 from .base import View
 from .results import VERDICT_WORDS
 
@@ -36,6 +38,7 @@ class RunEntry:
     kind: str
     serial: str
     outcome: str
+    header: RunHeader | None = None  # the run's typed header (None: unreadable), for the spec it goes with
 
 
 def scan_run(path: Path) -> RunEntry:
@@ -45,9 +48,9 @@ def scan_run(path: Path) -> RunEntry:
     except BadInput as exc:
         raise OSError(exc.line()) from None  # the file went away or cannot be read: not listed
     if header is None:
-        return RunEntry(path, "", "", "", "", outcome)
+        return RunEntry(path, "", "", "", "", outcome, None)
     e = header.element
-    return RunEntry(path, header.started_utc, e.id, e.kind or "", e.serial or "", outcome)
+    return RunEntry(path, header.started_utc, e.id, e.kind or "", e.serial or "", outcome, header)
 
 
 def list_runs(folder: Path) -> list[RunEntry]:
@@ -65,14 +68,14 @@ class ArchiveView(View):
     BINDINGS = [
         Binding("o", "open_run", "Open"),
         Binding("p", "replay", "Replay"),
-        Binding("right_square_bracket", "faster", "Faster", key_display="]"),
-        Binding("left_square_bracket", "slower", "Slower", key_display="["),
+        Binding("right_square_bracket", "faster", "Fast", key_display="]"),
+        Binding("left_square_bracket", "slower", "Slow", key_display="["),
         Binding("a", "mark('a')", "Mark A"),
         Binding("b", "mark('b')", "Mark B"),
         Binding("v", "overlay", "Overlay A+B"),
         Binding("c", "compare", "Compare A−B"),
-        Binding("m", "refit_model", "Re-fit model"),
-        Binding("k", "refit_spec", "Re-judge spec"),
+        Binding("m", "refit_model", "Model"),
+        Binding("k", "refit_spec", "Spec"),
         Binding("g", "rescan", "Rescan"),
     ]
 
@@ -81,10 +84,15 @@ class ArchiveView(View):
         self.entries: list[RunEntry] = []
         self.verdicts: dict[tuple[Path, Path | None], str] = {}
         self.marks: dict[str, Path] = {}
+        self.spec_choice: dict[Path, Path] = {}  # a spec picked with k for one run, over the one it goes with
+
+    def spec_for(self, entry: RunEntry) -> Path | None:
+        """The spec this run is judged against: one picked with k, else its own (app.spec_of_run)."""
+        return self.spec_choice.get(entry.path) or self.app.spec_of_run(entry.header)
 
     def body(self) -> ComposeResult:
         yield Plain("", id="archive-head")
-        table = DataTable(id="runs", cursor_type="row")
+        table = RowTable(id="runs", cursor_type="row")
         table.add_columns("date (UTC)", "element", "serial", "outcome", "verdict", "file")
         yield table
 
@@ -96,20 +104,21 @@ class ArchiveView(View):
         folder = self.app.runs_dir
         self.entries = list_runs(folder) if folder.is_dir() else []
         self._fill()
-        self._judge_all(list(self.entries), self.app.state.spec_path)
+        self._judge_all([(e, self.spec_for(e)) for e in self.entries])
 
     @work(thread=True, exclusive=True, group="archive-verdicts")
-    def _judge_all(self, entries: list[RunEntry], spec: Path | None) -> None:
-        if spec is None:
-            return
+    def _judge_all(self, pairs: list[tuple[RunEntry, Path | None]]) -> None:
+        """Each run against its own spec (runs without one stay "—": no verdict without a spec)."""
         from textual.worker import get_current_worker
 
         from ..findings import study_run
 
         worker = get_current_worker()
-        for entry in entries:
+        for entry, spec in pairs:
             if worker.is_cancelled:
                 return
+            if spec is None:
+                continue
             key = (entry.path, spec)
             if key in self.verdicts:
                 continue
@@ -124,10 +133,10 @@ class ArchiveView(View):
         table = self.query_one("#runs", DataTable)
         row = table.cursor_row
         table.clear()
-        spec = self.app.state.spec_path
         for entry in self.entries:
+            spec = self.spec_for(entry)
             marks = "".join(k.upper() for k, p in sorted(self.marks.items()) if p == entry.path)
-            verdict = self.verdicts.get((entry.path, spec), "…" if spec else "—")
+            verdict = self.verdicts.get((entry.path, spec), "…" if spec else "— no spec")
             table.add_row(*cells(entry.started_utc.replace("T", " ")[:19], f"{entry.element} {entry.kind}"[:18],
                                  entry.serial or "—", entry.outcome, VERDICT_WORDS.get(verdict, verdict),
                                  (f"[{marks}] " if marks else "") + entry.path.name), key=str(entry.path))
@@ -137,11 +146,20 @@ class ArchiveView(View):
 
     def _head(self) -> None:
         state = self.app.state
-        spec = state.spec_path.name if state.spec_path else "none"
+        entry = self.selected()
+        if entry is None:
+            spec = "none"
+        else:
+            path = self.spec_for(entry)
+            how = "picked with k" if entry.path in self.spec_choice else "its own"
+            spec = f"{shown(path)} ({how})" if path is not None else "none known (k picks one of its kind)"
         marks = "  ".join(f"{k.upper()}={p.name}" for k, p in sorted(self.marks.items())) or "none"
         self.query_one("#archive-head", Static).update(
-            f" folder {self.app.runs_dir} · {len(self.entries)} runs · replay speed {speed_text(state.replay_speed)}"
-            f"\n spec {spec} · model {state.model} · marked {marks}")
+            f" folder {shown(self.app.runs_dir)} · {len(self.entries)} runs · replay {speed_text(state.replay_speed)}"
+            f" · marked {marks}\n selected run's spec: {spec}")
+
+    def on_data_table_row_highlighted(self, _event) -> None:
+        self._head()
 
     def on_screen_resume(self) -> None:
         self.rescan()  # runs recorded since the last visit appear at once
@@ -164,7 +182,8 @@ class ArchiveView(View):
             self.app.say("No runs in this folder.")
             return
         self.app.state.findings = None
-        self.app.analyse(entry.path)
+        self.app.state.model = "auto"  # every run opens on the automatic choice
+        self.app.analyse(entry.path, model="auto", spec=self.spec_for(entry))
         self.app.switch_mode("results")
 
     def on_data_table_row_selected(self, _event) -> None:
@@ -190,12 +209,18 @@ class ArchiveView(View):
 
     def action_mark(self, which: str) -> None:
         entry = self.selected()
-        if entry is not None:
-            self.marks[which] = entry.path
-            self._fill()
+        if entry is None:
+            return
+        other = "b" if which == "a" else "a"
+        if self.marks.get(other) == entry.path:
+            self.app.say(f"{entry.path.name} is already marked {other.upper()}: mark another run as "
+                         f"{which.upper()}.", severity="warning")
+            return
+        self.marks[which] = entry.path
+        self._fill()
 
     def action_overlay(self) -> None:
-        if len(self.marks) < 2:
+        if len(self.marks) < 2 or self.marks["a"] == self.marks["b"]:
             self.app.say("Mark two runs first: a on one, b on another, then v.")
             return
         self.app.push_screen(OverlayScreen(self.marks["a"], self.marks["b"]))
@@ -213,17 +238,21 @@ class ArchiveView(View):
         if entry is not None:
             model = self.app.next_model()
             self.app.say(f"Re-fitting {entry.path.name} with the {model} model …")
-            self.app.analyse(entry.path, model=model)
+            self.app.analyse(entry.path, model=model, spec=self.spec_for(entry))
             self.app.switch_mode("results")
 
     def action_refit_spec(self) -> None:
         entry = self.selected()
-        spec = self.app.next_spec()
-        if spec is None:
-            self.app.say("No part specs to pick from.")
+        if entry is None:
             return
+        spec = self.app.next_spec(kind=entry.kind, current=self.spec_for(entry))
+        if spec is None:
+            self.app.say(f"No part spec of kind {entry.kind or '?'} to pick from.")
+            return
+        self.spec_choice[entry.path] = spec
+        self.app.say(f"Judging {entry.path.name} against {shown(spec)} (picked with k).")
         self._fill()
-        self._judge_all(list(self.entries), spec)
+        self._judge_all([(e, self.spec_for(e)) for e in self.entries])
 
     def action_rescan(self) -> None:
         self.rescan()

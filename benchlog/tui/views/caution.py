@@ -47,3 +47,29 @@ class CautionScreen(ModalScreen[bool]):
 
     def action_answer(self, yes: bool) -> None:
         self.dismiss(yes)
+
+
+class QuitDuringRunScreen(ModalScreen[bool]):
+    """Asked when q is pressed while a sweep runs: y stops it (outputs to the safe state) and quits."""
+
+    BINDINGS = [
+        Binding("y", "answer(True)", "Yes, stop and quit"),
+        Binding("n,escape", "answer(False)", "No, keep running"),
+    ]
+
+    def compose(self) -> ComposeResult:
+        with Vertical(id="caution-box"):
+            yield Plain("A sweep is running.\n\nStop it, switch every output to its safe state and quit?\n"
+                        "(y: stop and quit · n or Esc: keep the run going)", id="caution-text")
+            with Horizontal(id="caution-buttons"):
+                yield Button("y  Stop the run and quit", id="quit-yes", variant="warning")
+                yield Button("n  Keep running", id="quit-no")
+
+    def on_mount(self) -> None:
+        self.query_one("#quit-no", Button).focus()  # Enter alone keeps the run going
+
+    def on_button_pressed(self, event: Button.Pressed) -> None:
+        self.dismiss(event.button.id == "quit-yes")
+
+    def action_answer(self, yes: bool) -> None:
+        self.dismiss(yes)

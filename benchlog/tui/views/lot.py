@@ -12,16 +12,18 @@ from textual.widgets import DataTable, Input, Static
 from ..plotting import Axis
 from ..units import si, with_uncertainty
 from ..lotview import QUANTITY_NAMES
-from ..widgets import HistogramPlot, Plain, cells
+from ..widgets import HistogramPlot, Plain, RowTable, cells
 from .base import View
 from .results import VERDICT_WORDS
 
 
 class LotView(View):
     TITLE_TEXT = "Lot"
-    AUTO_FOCUS = ""  # n moves to the serial box; after Enter the keys belong to the view again (s stops)
+    AUTO_FOCUS = "#lot-parts"  # n moves to the serial box; after Enter the table has the keys again (s stops)
     BINDINGS = [
         Binding("n", "focus_serial", "Next serial"),
+        Binding("r", "remeasure", "Re-measure part"),
+        Binding("x", "remove", "Remove part"),
         Binding("escape", "leave_field", "Leave field", show=False),
     ]
 
@@ -30,7 +32,7 @@ class LotView(View):
             yield Plain(" next serial ▸", id="lot-prompt")
             yield Input(placeholder="n, then type the serial; Enter runs it", id="lot-serial", compact=True)
         with Horizontal(id="lot-body"):
-            table = DataTable(id="lot-parts", cursor_type="row")
+            table = RowTable(id="lot-parts", cursor_type="row")
             table.add_columns("serial", "value ± U", "verdict")
             yield table
             with Vertical(id="lot-side"):
@@ -41,14 +43,32 @@ class LotView(View):
         if event.input.id == "lot-serial":
             serial = event.value
             event.input.value = ""
-            self.set_focus(None)  # keys (s to stop) belong to the view while the part is measured
+            self.query_one("#lot-parts", DataTable).focus()  # keys (s to stop) belong to the view again
             self.app.run_lot_part(serial)
 
     def action_focus_serial(self) -> None:
         self.query_one("#lot-serial", Input).focus()
 
     def action_leave_field(self) -> None:
-        self.set_focus(None)
+        self.query_one("#lot-parts", DataTable).focus()
+
+    def _selected_serial(self) -> str | None:
+        lot = self.app.state.lot
+        if not lot:
+            self.app.say("No parts in this lot yet: n, type a serial, Enter.")
+            return None
+        row = self.query_one("#lot-parts", DataTable).cursor_row
+        return lot[min(max(row, 0), len(lot) - 1)].serial
+
+    def action_remeasure(self) -> None:
+        serial = self._selected_serial()
+        if serial is not None:
+            self.app.remeasure_lot_part(serial)
+
+    def action_remove(self) -> None:
+        serial = self._selected_serial()
+        if serial is not None:
+            self.app.remove_lot_part(serial)
 
     def refresh_view(self) -> None:
         super().refresh_view()
@@ -56,6 +76,7 @@ class LotView(View):
         summary = state.lot_summary
         by_run = {str(part.run): part for part in getattr(summary, "parts", ())}
         table = self.query_one("#lot-parts", DataTable)
+        row = table.cursor_row
         table.clear()
         for entry in state.lot:
             part = by_run.get(str(entry.run_path)) if entry.run_path else None
@@ -66,10 +87,13 @@ class LotView(View):
             outcome = part.outcome if part is not None else entry.verdict
             verdict = VERDICT_WORDS.get(outcome or "", "—" if entry.outcome == "complete" else entry.outcome)
             if part is not None and part.outlier:
-                verdict += " ‼outlier"
-            table.add_row(*cells(entry.serial, value, verdict))
-        if state.lot_pending_serial:
+                verdict += " ‼ OUTLIER"  # said in words: colour alone is lost on a monochrome terminal
+            pending = entry.serial == state.lot_pending_serial
+            table.add_row(*cells(entry.serial, "re-measuring …" if pending else value, verdict))
+        if state.lot_pending_serial and not any(e.serial == state.lot_pending_serial for e in state.lot):
             table.add_row(*cells(state.lot_pending_serial, "measuring …", ""))
+        if table.row_count:
+            table.move_cursor(row=min(max(row, 0), table.row_count - 1))
         self._show_stats()
 
     def _show_stats(self) -> None:

@@ -14,6 +14,7 @@ from textual.widgets import Static
 
 from ..findings import RunFindings
 from ..plotting import Axis, Series, line_series
+from ..paths import shown
 from ..units import si, with_uncertainty
 from ..widgets import CurvePlot, Plain, cells
 from .base import View
@@ -51,12 +52,25 @@ def operating_current(findings: RunFindings) -> float | None:
     return None
 
 
+def is_extrapolated(check) -> bool:
+    """The operating current lies outside the currents the fit has points at (the verdict's own test)."""
+    ext = getattr(check, "extrapolation", None)
+    return bool(ext is not None and ext.side)
+
+
 def check_lines(check) -> list[str]:
-    """Measured against predicted at the operating point, from `analysis.verdict.Check`."""
+    """Measured against predicted at the operating point, from `analysis.verdict.Check`.
+
+    Outside the measured currents the value comes from the fit, not a reading:
+    it is labelled "extrapolated" and the verdict's own sentence says how far.
+    """
     k = check.k
-    lines = [f" at {si(check.current_a, 'A')} ({check.current_source}), ambient {check.ambient_c:g} °C",
-             f"  drop measured         {with_uncertainty(check.measured_drop_v, check.drop_std_u_v, 'V', k)}",
-             f"  loss measured         {with_uncertainty(check.measured_loss_w, check.loss_std_u_w, 'W', k)}"]
+    how = "EXTRAPOLATED" if is_extrapolated(check) else "measured    "
+    lines = [f" at {si(check.current_a, 'A')} ({check.current_source}), ambient {check.ambient_c:g} °C"]
+    if is_extrapolated(check):
+        lines.append(f"  ⚠ {check.extrapolation.text()}")
+    lines += [f"  drop {how}     {with_uncertainty(check.measured_drop_v, check.drop_std_u_v, 'V', k)}",
+              f"  loss {how}     {with_uncertainty(check.measured_loss_w, check.loss_std_u_w, 'W', k)}"]
     predicted = check.predicted
     for label, point in (("typ", predicted.typical), ("max", predicted.maximum)):
         if point is None or point.loss_w is None:
@@ -77,6 +91,13 @@ def check_lines(check) -> list[str]:
     if check.typical_comparison:
         lines.append(f"  {check.typical_comparison}")
     return lines
+
+
+def not_determined(value: float, std_u: float | None, k: float = 2.0) -> bool:
+    """A fitted parameter whose expanded uncertainty exceeds its magnitude: the run does not determine it."""
+    if std_u is None or value is None or not (math.isfinite(value) and math.isfinite(std_u)):
+        return False
+    return k * std_u > abs(value)
 
 
 def verdict_rule(check) -> str:
@@ -199,11 +220,13 @@ class ResultsView(View):
             box.update(f" VERDICT: none — {why}{_reverse_line(f)}\n run {f.path.name} · {who} · {f.meta.outcome}")
             return
         rule = verdict_rule(f.check)
-        spec_name = f.spec_path.name if f.spec_path else ""
         rev = getattr(f.check, "reverse", None)
         reverse = "" if rev is None else (
             f"\n reverse: {VERDICT_WORDS.get(rev.outcome, rev.outcome.upper())}  {si(rev.current_a, 'A')} at "
             f"{rev.voltage_v:g} V against {si(rev.limit_a, 'A')} (T {rev.tj_c:.1f} °C, {rev.tj_source})")
+        spec_name = shown(f.spec_path) if f.spec_path else ""
+        if is_extrapolated(f.check):
+            spec_name += "  (value EXTRAPOLATED beyond the measured currents)"
         box.update(f" VERDICT: {VERDICT_WORDS.get(outcome, outcome.upper())}  against {spec_name}\n"
                    f" rule: {rule or 'as stated by the check'}{reverse}\n run {f.path.name} · {who} · {f.meta.outcome}")
 
@@ -213,13 +236,13 @@ class ResultsView(View):
             box.update(f" fit ({f.model}): ✘ {f.fit_error or 'not possible'}")
             return
         fit = f.fit
-        lines = [f" fit: {fit.model} model (asked: {f.model}), {fit.points} points",
-                 f"  why: {fit.reason}"]
+        chosen = "CHOSEN with m; a new run starts on auto" if f.model != "auto" else "automatic choice"
+        lines = [f" fit: {fit.model} ({chosen}), {fit.points} points", f"  why: {fit.reason}"]
         k = getattr(fit, "k", 2.0)
         for key, value in fit.params.items():
             name, unit = PARAM_NAMES.get(key, (key, ""))
             u = fit.std_u.get(key)
-            shown = with_uncertainty(value, u, unit, k)
+            shown = with_uncertainty(value, u, unit, k) if u is not None else si(value, unit)
             lines.append(f"  {name:<7}{shown}")
         outliers = int(np.count_nonzero(fit.outliers)) if fit.outliers is not None else 0
         lines.append(f"  outliers: {outliers} flagged (kept in the file)")
@@ -235,8 +258,14 @@ class ResultsView(View):
         if at is not None and f.fit is not None:
             drop, u_drop = f.fit.drop_at(at)
             lines.append(f" at {si(at, 'A')} (operating point, no spec)")
-            lines.append(f"  drop (fit)            {with_uncertainty(drop, u_drop, 'V')}")
-            lines.append(f"  loss measured         {with_uncertainty(drop * at, u_drop * at, 'W')}")
+            current = np.asarray(f.fit.current_a, dtype=float)
+            outside = bool(current.size) and not (float(np.nanmin(current)) <= at <= float(np.nanmax(current)))
+            how = "EXTRAPOLATED" if outside else "from the fit"
+            if outside:
+                lines.append(f"  ⚠ extrapolated: {si(at, 'A')} is outside the fitted currents "
+                             f"{si(float(np.nanmin(current)), 'A')}–{si(float(np.nanmax(current)), 'A')}")
+            lines.append(f"  drop ({how})   {with_uncertainty(drop, u_drop, 'V')}")
+            lines.append(f"  loss ({how})   {with_uncertainty(drop * at, u_drop * at, 'W')}")
         if f.check_error:
             lines.append(f"  prediction: ✘ {f.check_error}")
         box.update("\n".join(lines))
@@ -325,16 +354,20 @@ class ResultsView(View):
         model = self.app.next_model()
         if findings is not None:
             self.app.say(f"Re-fitting {findings.path.name} with the {model} model …")
-            self.app.analyse(findings.path, model=model)
+            self.app.analyse(findings.path, model=model, spec=findings.spec_path)
 
     def action_next_spec(self) -> None:
         findings = self.app.state.findings
-        spec = self.app.next_spec()
+        if findings is None:
+            self.app.say("No run to judge yet.")
+            return
+        kind = findings.meta.header.element.kind
+        spec = self.app.next_spec(kind=kind, current=findings.spec_path)
         if spec is None:
-            self.app.say("No part specs to pick from.")
-        elif findings is not None:
-            self.app.say(f"Judging {findings.path.name} against {spec.name} …")
-            self.app.analyse(findings.path)
+            self.app.say(f"No part spec of kind {kind or '?'} to pick from.")
+            return
+        self.app.say(f"Judging {findings.path.name} against {shown(spec)} …")
+        self.app.analyse(findings.path, model=findings.model, spec=spec)
 
     def action_export(self) -> None:
         findings = self.app.state.findings
@@ -342,7 +375,7 @@ class ResultsView(View):
             self.app.say("Nothing to export yet.")
             return
         target = findings.path.with_suffix(".html")
-        self.app.say(f"Writing the report to {target} …")
+        self.app.say(f"Writing the report to {shown(target)} …")
         self._export(findings.path, findings.spec_path, target)
 
     @work(thread=True, group="export")
@@ -352,7 +385,7 @@ class ResultsView(View):
 
             doc = build_report([run], spec_path=spec)
             write_report(doc, target)
-            self.app.call_from_thread(self.app.say, f"Report written: {target}")
+            self.app.call_from_thread(self.app.say, f"Report written: {shown(target)}")
         except Exception as exc:
             text = exc.line() if hasattr(exc, "line") else (str(exc) or type(exc).__name__)
             self.app.call_from_thread(self.app.say, f"Report not written: {text}", severity="error")

@@ -15,6 +15,7 @@ from benchlog.filecheck import write_failure
 from benchlog.kinds import kind as element_kind
 from benchlog.tomlcheck import read_utf8
 
+from ..paths import shown
 from ..tomltext import dump_tables
 from ..widgets import Plain, cells
 from .base import View
@@ -51,7 +52,8 @@ class SetupView(View):
     TITLE_TEXT = "Set-up"
     AUTO_FOCUS = ""  # keys belong to the view until the user tabs into a field
     BINDINGS = [
-        Binding("tab", "focus_next", "Edit fields", show=True, key_display="Tab"),
+        Binding("tab", "app.focus_next", "Edit fields", show=True, key_display="Tab"),
+        Binding("shift+tab", "app.focus_previous", "Previous field", show=False),
         Binding("escape", "leave_field", "Leave field", show=False),
         Binding("r", "run", "Run sweep"),
         Binding("n", "next_plan", "Next plan"),
@@ -61,7 +63,7 @@ class SetupView(View):
 
     def body(self) -> ComposeResult:
         with Horizontal(id="setup-body"):
-            with VerticalScroll(id="plan-form"):
+            with VerticalScroll(id="plan-form", can_focus=False):  # Tab goes from field to field
                 yield Plain("", id="plan-name")
                 for table, key, label, _type in FIELDS:
                     with Horizontal(classes="field"):
@@ -94,6 +96,7 @@ class SetupView(View):
             return
         self._form_to_plan()
         self._show_check()
+        self._show_spec()  # a kind typed in the form is checked against the spec at once
 
     def _form_to_plan(self) -> None:
         doc = self._doc()
@@ -113,7 +116,7 @@ class SetupView(View):
     def refresh_view(self) -> None:
         super().refresh_view()
         state = self.app.state
-        name = state.plan_path.name if state.plan_path else "(no plan)"
+        name = shown(state.plan_path) if state.plan_path else "(no plan)"
         self.query_one("#plan-name", Static).update(f" plan {name} ({len(state.plans)} with n)")
         self._show_check()
         self._show_spec()
@@ -150,17 +153,25 @@ class SetupView(View):
     def _show_spec(self) -> None:
         box = self.query_one("#spec-summary", Static)
         path = self.app.state.spec_path
+        kind = self.app.plan_kind()
         if path is None:
-            box.update("part spec: none (k picks one)\nwithout a spec there is no verdict")
+            offered = len(self.app.specs_for_plan())
+            box.update(f"part spec: none ({offered} of kind {kind or '?'} with k)\nwithout a spec there is no verdict")
             return
         try:
             from benchlog.specfiles import load_spec
 
             spec = load_spec(path)
         except Exception as exc:
-            box.update(f"part spec {path.name}: ✘ {exc.line() if hasattr(exc, 'line') else exc}")
+            box.update(f"part spec {shown(path)}: ✘ {exc.line() if hasattr(exc, 'line') else exc}")
             return
-        lines = [f"part spec: {path.name}", f"  {getattr(spec, 'name', '')} ({getattr(spec, 'kind', '')})"]
+        named = self.app.plan_spec()
+        origin = "named by the plan" if named is not None and _same(named, path) else "picked with k"
+        lines = [f"part spec ({origin}):", f"  {shown(path)}",
+                 f"  {getattr(spec, 'name', '')} ({getattr(spec, 'kind', '')})"]
+        if kind is not None and getattr(spec, "kind", None) != kind:
+            lines[2:2] = [f"  ✘ spec for a {getattr(spec, 'kind', '?')},", f"    plan measures a {kind}:",
+                          "    k picks one of its kind"]
         for attr, label, unit in (("rds_on_ohm", "R_DS(on)", "Ω"), ("vf_v", "Vf", "V"), ("rth_ja_k_per_w", "RθJA", "K/W"),
                                   ("tj_max_c", "Tj max", "°C")):
             value = _find(spec, attr)
@@ -182,25 +193,41 @@ class SetupView(View):
             self.app.say("No plans to pick from (start with --plan or use the demo).")
             return
         index = (state.plans.index(state.plan_path) + 1) % len(state.plans) if state.plan_path in state.plans else 0
-        state.plan_path = state.plans[index]
+        path = state.plans[index]
         try:
-            state.plan_text = read_utf8(state.plan_path)[0]
+            text = read_utf8(path)[0]
         except BadInput as exc:
             self.app.say(f"Plan not loaded: {exc.line()}")
             return
+        state.plan_path, state.plan_text = path, text
+        how = self.app.pair_spec()
         self._load_form()
+        spec = shown(state.spec_path) if state.spec_path else "none"
+        self.app.say(f"Plan {shown(path)} with spec {spec} ({how}).")
         self.refresh_view()
 
     def action_next_spec(self) -> None:
         if self.app.next_spec() is None:
-            self.app.say("No part specs to pick from.")
+            self.app.say(f"No part spec of kind {self.app.plan_kind() or '?'} to pick from.")
+        else:
+            self.app.say(f"Spec {shown(self.app.state.spec_path)} picked with k.")
         self.refresh_view()
 
     def action_save_plan(self) -> None:
-        """Save the edited plan under a new name: never over the plan it came from nor an earlier save."""
+        """Save the plan as typed under a new name: never over the plan it came from nor an earlier save.
+
+        A plan the plan reader refuses is not saved (the check names the key); the
+        spec it names is rewritten relative to the new file, so the pair still holds.
+        """
         state = self.app.state
+        try:
+            self.app.current_plan()
+        except BadInput as exc:
+            self.app.say(f"Plan not saved: {exc.line()}", severity="error")
+            return
         folder = self.app.runs_dir / "plans"
         stem = state.plan_path.stem if state.plan_path else "plan"
+        text = self._text_for(folder)
         target = folder / f"{stem}-edited.toml"
         try:
             folder.mkdir(parents=True, exist_ok=True)
@@ -209,17 +236,36 @@ class SetupView(View):
                 target = folder / f"{stem}-edited{'' if serial == 1 else f'-{serial}'}.toml"
                 try:
                     with open(target, "x", encoding="utf-8") as handle:  # "x": an existing file is never replaced
-                        handle.write(state.plan_text)
+                        handle.write(text)
                     break
                 except FileExistsError:
                     serial += 1
         except OSError as exc:
             self.app.say(f"Plan not saved: {write_failure(target, exc).line()}")
             return
-        self.app.say(f"Plan saved to {target}")
+        self.app.say(f"Plan saved to {shown(target)}")
+
+    def _text_for(self, folder: Path) -> str:
+        """The edited plan's text with its `spec` key pointing at the spec in use, from `folder`."""
+        state = self.app.state
+        doc = self.app.plan_table()
+        if state.spec_path is None:
+            return state.plan_text
+        import os
+
+        doc = {"spec": os.path.relpath(state.spec_path.resolve(), folder.resolve()),
+               **{k: v for k, v in doc.items() if k != "spec"}}
+        return dump_tables(doc)
 
     def action_run(self) -> None:
         self.app.request_sweep()
+
+
+def _same(a: Path, b: Path) -> bool:
+    try:
+        return a.resolve() == b.resolve()
+    except OSError:
+        return a == b
 
 
 def _find(obj, attr: str):
