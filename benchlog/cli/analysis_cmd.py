@@ -210,15 +210,21 @@ def _check(args) -> int:
 
     _argument("--at", args.at, positive=True)
     spec = load_spec(args.spec)
-    frame, meta = load_points(args.run)
-    c = check_run(frame, meta, spec, at_a=args.at)
     from .soak_out import soak_block
+    from .sweeps_out import focus_frame, print_sweeps, sweeps_payload
 
-    soak, soak_lines = soak_block(frame, meta, spec)
+    whole, meta = load_points(args.run)
+    frame, focus = focus_frame(whole, meta)
+    c = check_run(frame, meta, spec, at_a=args.at)
+    soak, soak_lines = soak_block(whole, meta, spec)
+    sweeps = sweeps_payload(whole, meta, spec=spec, operating_a=c.current_a)
     if args.json:
         entry = check_entry(c)
+        if focus:
+            entry["notes"].insert(0, focus)
         if soak is not None:
             entry["soak"] = soak
+        entry.update(sweeps)
         print_json(entry)
     else:
         print(f"{c.outcome.upper()}  {c.part}, run {c.run}")
@@ -245,12 +251,17 @@ def _check(args) -> int:
         if c.reverse is not None:
             print(f"  {c.reverse.text()}")
             print(f"  verdict: the worse of forward ({c.verdict.outcome}) and reverse ({c.reverse.outcome})")
+        print_sweeps(sweeps)
+        if focus:
+            print(f"  note: {focus}")
         for note in c.notes:
             if note not in flagged:
                 print(f"  note: {note}")
         for line in soak_lines:
             print(f"  {line}")
-    return EXIT_CODES[c.outcome]
+    leak = sweeps.get("leakage_sweep")
+    # a leakage sweep that fails fails the check, whatever the forward verdict says
+    return EXIT_CODES["fail" if leak and leak["outcome"] == "fail" else c.outcome]
 
 
 # --------------------------------------------------------------------------- lot
@@ -308,6 +319,14 @@ def _lot(args) -> int:
 
 
 # --------------------------------------------------------------------------- design
+def takeover_entry(t) -> dict[str, Any] | None:
+    """Where the body diode takes over (None for an element without a channel)."""
+    if t is None:
+        return None
+    return {"takeover_v": t.input_v, "full_v": t.full_v, "current_a": t.current_a, "ambient_c": t.ambient_c,
+            "variant": t.variant, "body_loss_w": t.body_loss_w, "body_tj_c": t.body_tj_c, "note": t.note}
+
+
 def design_entry(r) -> dict[str, Any]:
     d = r.design
     clamp = None
@@ -317,7 +336,8 @@ def design_entry(r) -> dict[str, Any]:
                  "at_vin_v": c.at_vin_v, "active": c.active, "zener_current_a": c.zener_current_a,
                  "zener_power_w": c.zener_power_w, "resistor_power_w": c.resistor_power_w,
                  "resistor_rating_w": c.resistor_rating_w, "zener_power_rating_w": c.zener_power_rating_w,
-                 "zener_ok": c.zener_ok, "note": c.note}
+                 "zener_ok": c.zener_ok, "note": c.note, "nominal_v": c.nominal_v,
+                 "quiescent_a": c.quiescent_a, "quiescent_w": c.quiescent_w}
     return {
         "design": d.name, "file": d.path, "application": d.application,
         "input": {"nominal_v": d.vin_nominal_v, "min_v": d.vin_min_v, "max_v": d.vin_max_v, "reverse_v": d.reverse_v},
@@ -333,6 +353,7 @@ def design_entry(r) -> dict[str, Any]:
              "vgs_clamped_v": c.vgs_clamped_v, "vgs_max_v": c.vgs_max_v,
              "threshold_margin_v": c.threshold_margin_v, "min_input_conduction": c.min_input_conduction,
              "leakage_a": c.leakage_a, "reverse_tj_c": c.reverse_tj_c, "thermal_fault": c.thermal_fault,
+             "guaranteed_vgs_v": c.guaranteed_vgs_v, "takeover": takeover_entry(c.takeover),
              "checks": [{"name": k.name, "ok": k.ok, "detail": k.detail} for k in c.checks]}
             for c in r.candidates
         ],
@@ -363,6 +384,9 @@ def _design(args) -> int:
         ("|Vgs| unclamped", lambda c: _fmt(c.vgs_unclamped_v, ".3g", "V")),
         ("|Vgs| clamped", lambda c: _fmt(c.vgs_clamped_v, ".3g", "V")),
         ("threshold margin", lambda c: _fmt(c.threshold_margin_v, ".2f", "V")),
+        ("R_DS(on) down to", lambda c: _fmt(c.guaranteed_vgs_v, ".3g", "V")),
+        ("takeover below", lambda c: _fmt(c.takeover_v, ".3g", "V")),
+        ("loss below it", lambda c: _fmt(None if c.takeover is None else c.takeover.body_loss_w, ".3g", "W")),
         ("reverse leakage", lambda c: _fmt(None if c.leakage_a is None else c.leakage_a * 1e6, ".3g", "µA")),
         ("meets every check", lambda c: "yes" if c.acceptable else "no"),
     ]

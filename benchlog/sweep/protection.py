@@ -43,6 +43,8 @@ def protection_levels(plan: Plan, rig: Any) -> ProtectionLevels:
     wiring, lim = rig.wiring, plan.limits
     profile = rig.supply.profile
     volts = [lim.compliance_v if wiring.force == "supply" else wiring.input_v]
+    if plan.input is not None and wiring.force == "load":
+        volts = [max(plan.input.voltages_v)]  # the highest input of the sweep, not the bench file's
     if plan.reverse is not None:
         volts.append(plan.reverse.voltage_v)
     volts = [v for v in volts if v is not None]
