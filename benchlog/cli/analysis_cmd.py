@@ -14,7 +14,7 @@ import math
 from typing import Any
 
 from benchlog.ambient import DEFAULT_AMBIENT_C
-from benchlog.quantity import measured
+from benchlog.quantity import engineering, label_of, measured, unit_of
 
 from .output import print_json
 
@@ -234,8 +234,9 @@ def _check(args) -> int:
             print(f"  judged at {j.tj.text()}")
             if j.gate is not None:
                 print(f"  gate drive: {j.gate.text()}")
-            print(f"  {j.quantity} = {j.value:.6g} ± {j.expanded_u:.2g} (k = {c.k:g}) against {_fmt(j.limit, '.6g')}"
-                  f" [{j.limit_at}]")
+            unit = unit_of(j.quantity)
+            print(f"  {label_of(j.quantity)} = {measured(j.value, j.expanded_u, unit, c.k)}"
+                  f" against {engineering(j.limit, unit, 5)} [{j.limit_at}]")
         flagged = [n for n in c.notes if n.startswith(("extrapolated:", "the run is incomplete", "the run ended"))]
         flagged += [n for n in c.notes if c.judgement is not None and n in c.judgement.bars + c.judgement.notes
                     and n not in flagged]
@@ -243,8 +244,8 @@ def _check(args) -> int:
             print(f"  ! {note}")
         print(f"  measured drop {measured(c.measured_drop_v, c.k * c.drop_std_u_v, 'V', c.k)}, "
               f"loss {measured(c.measured_loss_w, c.k * c.loss_std_u_w, 'W', c.k)}")
-        print(f"  limit {_fmt(c.verdict.limit, '.6g', 'W')}: {c.verdict.limit_source}")
-        print(f"  predicted in service (typical, self-heated): {_fmt(c.predicted.loss_w, '.4g', 'W')} "
+        print(f"  limit {engineering(c.verdict.limit, 'W', 5)}: {c.verdict.limit_source}")
+        print(f"  predicted in service (typical, self-heated): {engineering(c.predicted.loss_w, 'W')} "
               f"at Tj {_fmt(c.predicted.tj_c, '.1f', '°C')}")
         print(f"  {c.typical_comparison}")
         print(f"  rule: {c.verdict.rule}")
@@ -298,16 +299,17 @@ def _lot(args) -> int:
     if args.json:
         print_json(lot_entry(s))
         return EXIT_CODES[s.outcome]
-    unit = {"ohm": "Ω", "v": "V"}.get(_unit(s.quantity), "")
+    unit = unit_of(s.quantity)
     width = max(6, *(len(p.serial) for p in s.parts))
-    print(f"{s.outcome.upper()}  lot of {s.n} × {s.part}: {s.quantity}")
+    print(f"{s.outcome.upper()}  lot of {s.n} × {s.part}: {label_of(s.quantity)} ({s.quantity})")
     print(f"  {'serial':<{width}}  {'value (k = 2)':<28}  verdict")
     for p in s.parts:
         flag = "  OUTLIER" if p.outlier else ""
         value = measured(p.value, p.expanded_u, unit).removesuffix(" (k = 2)")
         print(f"  {p.serial:<{width}}  {value:<28}  {p.outcome}{flag}")
-    print(f"  mean {s.mean:.6g} {unit}, σ {_fmt(s.std, '.3g', unit)}, min {s.min:.6g}, max {s.max:.6g}")
-    print(f"  limits: USL {_fmt(s.usl, '.6g', unit)}, LSL {_fmt(s.lsl, '.6g', unit)} ({s.limit_source})")
+    print(f"  mean {engineering(s.mean, unit, 5)}, σ {engineering(s.std, unit, 3)}, "
+          f"min {engineering(s.min, unit, 5)}, max {engineering(s.max, unit, 5)}")
+    print(f"  limits: USL {engineering(s.usl, unit, 5)}, LSL {engineering(s.lsl, unit, 5)} ({s.limit_source})")
     print(f"  {s.capability_name} = {_fmt(s.capability, '.3g')}, {s.capability_confidence:.0%} lower bound "
           f"{_fmt(s.capability_lower, '.3g')} ({s.capability_method})")
     print(f"  outliers: {s.outliers} ({s.outlier_rule})")

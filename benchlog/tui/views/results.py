@@ -12,6 +12,8 @@ from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Static
 
+from benchlog.quantity import label_of, unit_of
+
 from ..findings import RunFindings
 from ..plotting import Axis, Series, line_series
 from ..paths import shown
@@ -20,10 +22,8 @@ from ..widgets import CurvePlot, Plain, cells
 from .base import View
 
 #: Fitted parameter keys: the name people use and the unit.
-PARAM_NAMES = {
-    "r_on_ohm": ("R_on", "Ω"), "v0_v": ("V0", "V"), "ideality": ("n", ""), "i_s_a": ("Is", "A"),
-    "r_s_ohm": ("Rs", "Ω"), "v_knee_v": ("V_knee", "V"), "r_d_ohm": ("r_d", "Ω"),
-}
+PARAM_NAMES = {key: (label_of(key), unit_of(key)) for key in
+               ("r_on_ohm", "v0_v", "ideality", "i_s_a", "r_s_ohm", "v_knee_v", "r_d_ohm")}
 
 VERDICT_WORDS = {"pass": "PASS ✔", "fail": "FAIL ✘", "conditional": "COND ◆"}
 
