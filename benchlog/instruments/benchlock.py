@@ -71,6 +71,10 @@ class Holder:
     def describe(self) -> str:
         return f"PID {self.pid} on {self.host} ({self.command!r}, since {self.started_utc})"
 
+    def in_use(self) -> str:
+        """What a scan says of a resource this holder has: "in use by PID … on HOST since …"."""
+        return f"in use by PID {self.pid} on {self.host} since {self.started_utc} ({self.command!r})"
+
 
 def _me() -> Holder:
     now = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")

@@ -17,11 +17,11 @@ at the end.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Iterator
+from typing import Callable, Iterator
 
 from benchlog.scpi.errors import ScpiReplyError
 from benchlog.scpi.numbers import fill_template
-from benchlog.scpi.replies import ErrorEntry, parse_error_entry, parse_numbers
+from benchlog.scpi.replies import ErrorEntry, parse_bool, parse_error_entry, parse_numbers
 
 from .errors import InstrumentTimeout, NonsenseReply, TransportError, WrongInstrument
 from .profile import Profile
@@ -32,6 +32,8 @@ NEVER_SENT = {"output_on": "switches the output on", "input_on": "switches the i
               "polarity_reversed": "reverses the polarity"}
 #: The off command of each role, sent first and last.
 OFF_OPERATION = {"supply": "output_off", "load": "input_off"}
+#: The state query of each power role, asked before the first off command: an output found on is reported.
+STATE_OPERATION = {"supply": ("output_state", "output"), "load": ("input_state", "input")}
 #: Setpoints for the setting operations: nothing flows with the output off, and 0 is the safest value.
 ZERO_SETPOINTS = {"voltage_v": 0.0, "current_a": 0.0}
 # How many error-queue entries are read at most after one command (a queue that never empties is a fault).
@@ -68,6 +70,10 @@ class ExerciseResult:
     idn_text: str
     earlier_errors: tuple[ErrorEntry, ...]
     trials: tuple[Trial, ...]
+    #: what the state query said at connect, before anything was switched: True (on), False, None (not asked)
+    found_on: bool | None = None
+    #: the state read back right after the first off command, when it was found on
+    on_after_off: bool | None = None
 
     @property
     def refused(self) -> tuple[Trial, ...]:
@@ -216,8 +222,26 @@ def _plan(profile: Profile) -> Iterator[tuple[str, str, int | None] | Trial]:
             yield Trial(operation, template, "not sent", note="not sent: no harmless value is known for it")
 
 
-def exercise(transport: Transport, profile: Profile, *, check_idn: bool = True) -> ExerciseResult:
-    """Send every operation of `profile` over `transport` with the output off; the link stays open."""
+def _state(session: _Session, profile: Profile) -> bool | None:
+    """The output/input state by the profile's own query (None: no query, or no usable reply)."""
+    operation, _ = STATE_OPERATION.get(profile.role, ("", ""))
+    if not profile.has(operation):
+        return None
+    try:
+        reply = session.transport.query(fill_template(profile.commands[operation]))
+        session.drain()
+        return parse_bool(reply)
+    except (InstrumentTimeout, ScpiReplyError):
+        return None  # the exercise itself then reports the state query's trouble
+
+
+def exercise(transport: Transport, profile: Profile, *, check_idn: bool = True,
+             on_notice: Callable[[str], None] | None = None) -> ExerciseResult:
+    """Send every operation of `profile` over `transport` with the output off; the link stays open.
+
+    An output (input) found ON when the link opens is told to `on_notice` at once, in one
+    line naming role and resource, before the off command goes out; then read back.
+    """
     session = _Session(transport, profile)
     idn_text = transport.query("*IDN?").strip()
     if check_idn and not profile.matches_idn(idn_text):
@@ -225,13 +249,22 @@ def exercise(transport: Transport, profile: Profile, *, check_idn: bool = True) 
     earlier = session.drain()  # queued before we came: not blamed on any command of ours
     trials: list[Trial] = []
     off = OFF_OPERATION.get(profile.role)
+    found_on = _state(session, profile) if off is not None else None
+    on_after_off: bool | None = None
+    if found_on and on_notice is not None:
+        what = STATE_OPERATION[profile.role][1]
+        on_notice(f"{profile.role} {transport.resource}: {what} found ON at connect; "
+                  "switching it off and reading it back")
     if off is not None:
         first = session.send(off, fill_template(profile.commands[off]))
         trials.append(first)
+        if found_on:
+            on_after_off = _state(session, profile)
         if first.outcome != "accepted":
             # Without a working off command nothing else is sent: the output could be on.
             trials.append(Trial("(the rest)", "", "not sent", note=f"not sent: {off} was not accepted"))
-            return ExerciseResult(transport.resource, profile, idn_text, earlier, tuple(trials))
+            return ExerciseResult(transport.resource, profile, idn_text, earlier, tuple(trials), found_on,
+                                  on_after_off)
     try:
         for step in _plan(profile):
             if isinstance(step, Trial):
@@ -245,4 +278,4 @@ def exercise(transport: Transport, profile: Profile, *, check_idn: bool = True) 
                 trials.append(session.send(f"{off} (again, at the end)", fill_template(profile.commands[off])))
             except TransportError:
                 pass  # the link is gone; the caller reports the transport error
-    return ExerciseResult(transport.resource, profile, idn_text, earlier, tuple(trials))
+    return ExerciseResult(transport.resource, profile, idn_text, earlier, tuple(trials), found_on, on_after_off)

@@ -254,6 +254,10 @@ class RunningBench:
     def truth(self) -> dict:
         return self.bench.truth()
 
+    def messages(self, role: str) -> int:
+        """How many program messages `role` has received so far (a witness that nothing was sent)."""
+        return next(s.faults.count for s in self._servers if s.role == role)
+
     def __enter__(self) -> "RunningBench":
         return self
 
