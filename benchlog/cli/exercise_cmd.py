@@ -32,6 +32,10 @@ def _pick_profile(args):
     return found.matches[0]  # specific profiles come before generic ones
 
 
+def _note(text: str) -> None:
+    sys.stderr.write(f"benchlog: note: {text}\n")
+
+
 def _notice(text: str) -> None:
     """An output found on at connect: said at once, before it is switched off (also with --json)."""
     sys.stderr.write(f"benchlog: {text}\n")
@@ -40,24 +44,27 @@ def _notice(text: str) -> None:
 
 def _at_connect(result) -> str:
     """What the state query said when the link opened, and after the first off command."""
+    role = result.profile.role
+    if role == "meter":
+        return ""
+    what = "input" if role == "load" else "output"
     if result.found_on is None:
-        return "not read (the profile has no state query)" if result.profile.role != "meter" else ""
+        return f"{what} not read at connect (the profile has no state query)"
     if not result.found_on:
-        return "off"
+        return f"{what} off at connect"
     if result.on_after_off is False:
-        return "ON; switched off (read back)"
-    return "ON; NOT confirmed off -- switch it off by hand now"
+        return f"{what} ON at connect; switched off (read back)"
+    return f"{what} ON at connect; NOT confirmed off -- switch it off by hand now"
 
 
 def exercise_resource(args) -> int:
+    from benchlog.instruments.benchlock import BenchLock
     from benchlog.instruments.errors import TransportError
     from benchlog.instruments.exercise import exercise
     from benchlog.instruments.transport import VisaTransport
 
-    from .profiles_cmd import resource_lock
-
     try:
-        with resource_lock(args.resource):  # BenchInUse -> exit 75 before anything is sent
+        with BenchLock([args.resource], on_note=_note):  # BenchInUse -> exit 75 before anything is sent
             profile = _pick_profile(args)
             with VisaTransport(args.resource, read_termination=profile.read_termination,
                                write_termination=profile.write_termination,
@@ -87,7 +94,7 @@ def exercise_resource(args) -> int:
     print(f"idn       {result.idn_text}")
     state = _at_connect(result)
     if state:
-        print(f"at connect {state}")
+        print(f"state     {state}")
     if result.earlier_errors:
         listed = "; ".join(f"{e.code},\"{e.text}\"" for e in result.earlier_errors)
         print(f"earlier   queued before we connected (not ours): {listed}")

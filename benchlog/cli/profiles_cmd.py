@@ -22,7 +22,6 @@ takes each resource's lock for its probe, and lists a locked one as "in use by P
 from __future__ import annotations
 
 import sys
-from contextlib import contextmanager
 
 from benchlog.badinput import BadInput
 
@@ -211,7 +210,6 @@ def _scan(args) -> int:
     return EXIT_OK if found and not unanswered else EXIT_FAILED
 
 
-@contextmanager
 def resource_lock(resource: str):
     """The resource's instrument lock, as a sweep takes it; a lock left by a dead process is taken over with a note.
 
@@ -219,10 +217,7 @@ def resource_lock(resource: str):
     """
     from benchlog.instruments.benchlock import BenchLock
 
-    with BenchLock([resource]) as lock:
-        for note in lock.notes:
-            sys.stderr.write(f"benchlog: note: {note}\n")
-        yield lock
+    return BenchLock([resource], on_note=lambda note: sys.stderr.write(f"benchlog: note: {note}\n"))
 
 
 def _check_resource(resource: str) -> None:

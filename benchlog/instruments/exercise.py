@@ -8,7 +8,8 @@ the output (supply) or input (load) switched off first, and the error queue
 every command is the instrument's own: accepted, or its error code and text.
 
 What is never sent: `output_on`, `input_on` (power) and `polarity_reversed`
-(a reversed board). Setpoints are sent as 0 V and 0 A. An operation this module
+(a reversed board). Setpoints are sent as 0 V and 0 A; protection levels at the
+profile's own maxima (nothing flows, and nothing is left to trip early). An operation this module
 does not know is sent only when it is a fixed query (a query changes no
 setting); otherwise it is listed as not sent. The output is switched off again
 at the end.
@@ -146,6 +147,21 @@ def _nplc_values(profile: Profile) -> tuple[float | None, ...]:
     return tuple(v for v in values if v is not None)
 
 
+def _protection_tops(profile: Profile) -> Iterator[tuple[str, str, float]]:
+    """(operation, placeholder, level) for each protection level the profile has, at the profile's own maximum.
+
+    The top of the range is the harmless value: with the output off nothing flows, and a level
+    left there cannot trip a later session early (the sweep programs its own levels anyway).
+    A level whose maximum the profile does not state is not sent.
+    """
+    most_v, most_a = profile.limits.max_voltage_v, profile.limits.max_current_a
+    tops = {"over_voltage_protection": ("voltage_v", most_v), "over_current_protection": ("current_a", most_a),
+            "over_power_protection": ("power_w", most_v * most_a if most_v and most_a else None)}
+    for operation, (key, value) in tops.items():
+        if operation in profile.commands and value:
+            yield operation, key, value
+
+
 def _label(operation: str, **values: float | None) -> str:
     shown = " ".join(f"{k} {v:g}" for k, v in values.items() if v is not None)
     return f"{operation} {shown}".strip()
@@ -204,6 +220,9 @@ def _plan(profile: Profile) -> Iterator[tuple[str, str, int | None] | Trial]:
                 yield _label(operation, **{k: v for k, v in ZERO_SETPOINTS.items()
                                            if "{" + k + "}" in commands[operation]}), \
                     fill_template(commands[operation], **ZERO_SETPOINTS), None
+        for operation, key, value in _protection_tops(profile):
+            handled.add(operation)
+            yield _label(operation, **{key: value}), fill_template(commands[operation], **{key: value}), None
         for operation in ("measure_voltage", "measure_current"):
             if operation in commands:
                 handled.add(operation)

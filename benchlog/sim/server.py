@@ -170,8 +170,10 @@ class _InstrumentServer:
                 reply = None
             else:
                 bench.supply.check_protection()
+                bench.load.check_protection()
                 reply = self.device.execute(text)
                 bench.supply.check_protection()
+                bench.load.check_protection()
             instrument_s = self.device.reply_delay_s if reply is not None else 0.0
         if reply is None or "hang" in fired:
             return True

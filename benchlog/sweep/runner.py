@@ -71,6 +71,9 @@ CHECKPOINT_S = 5.0
 #: limit hit: the read-back's own accuracy (a few 0.1 % plus counts) must not stop a
 #: sweep whose setpoints are all within the limit.
 CURRENT_READBACK_MARGIN = 0.02
+#: In the load wiring a current read below this fraction of the setpoint makes the runner ask the
+#: load whether its own protection switched its input off.
+LOAD_TRIP_FRACTION = 0.5
 
 
 def step_source(plan: Plan) -> StepSource:
@@ -422,6 +425,10 @@ class SweepRunner:
             cause = "its protection tripped" if tripped else f"status {mode}: neither CV nor CC"
             return None, _Stop("fault", "fault", f"supply output went off during the sweep ({cause}) at "
                                f"{step.setpoint_a:g} A; point not recorded")
+        if self._load_tripped(step.setpoint_a, current):
+            rig.element_off()
+            return None, _Stop("fault", "fault", f"load input went off during the sweep (its protection tripped) "
+                               f"at {step.setpoint_a:g} A; point not recorded")
         stop: _Stop | None = None
         expected = rig.expected_mode()
         if mode in ("CV", "CC") and mode != expected:
@@ -463,6 +470,18 @@ class SweepRunner:
             flags=tuple(flags),
         )
         return point, stop
+
+    def _load_tripped(self, setpoint_a: float, current_a: float | None) -> bool:
+        """In the load wiring, a current far below the setpoint may be the load's protection: ask it then.
+
+        Asked only on such a reading, so a sweep that runs as planned sends no extra query.
+        """
+        load = getattr(self.rig, "load", None)
+        if self.rig.wiring.force != "load" or load is None or not getattr(load, "can_detect_trip", False):
+            return False
+        if current_a is not None and math.isfinite(current_a) and current_a >= LOAD_TRIP_FRACTION * setpoint_a:
+            return False
+        return bool(_safe_call(load.tripped))
 
     def _reverse(self) -> Iterator[Event]:
         """Reverse the supply across the element at each reverse voltage for duration_s and read the reverse current.

@@ -125,7 +125,7 @@ def test_exercise_reports_an_output_found_on_before_switching_it_off(sim_bench, 
     # off at connect: nothing said, and the text report says so
     assert main(["profiles", "probe", supply, "--exercise", "--profile", "sim-supply"]) == 0
     out, err = capsys.readouterr()
-    assert "found ON" not in err and "at connect off" in out.splitlines()
+    assert "found ON" not in err and "state     output off at connect" in out.splitlines()
 
 
 def test_exercise_of_a_load_left_on_names_its_input(sim_bench, capsys):
@@ -136,5 +136,5 @@ def test_exercise_of_a_load_left_on_names_its_input(sim_bench, capsys):
     assert main(["profiles", "probe", load, "--exercise", "--profile", "sim-load"]) == 0
     out, err = capsys.readouterr()
     assert f"benchlog: load {load}: input found ON at connect; switching it off and reading it back" in err
-    assert "at connect ON; switched off (read back)" in out
+    assert "state     input ON at connect; switched off (read back)" in out.splitlines()
     assert not running.bench.load.input_on
