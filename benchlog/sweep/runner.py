@@ -408,6 +408,8 @@ class SweepRunner:
                 reading = settle(rig.read_drop, plan.settle, self._clock, self._cancel.is_set)
         except Overload:
             rig.element_off()
+            if self._load_tripped(step.setpoint_a, None):  # an open load leaves the drop undefined: say why
+                return None, _load_trip_stop(step.setpoint_a)
             rng = rig.ranges.get("meter", 0.0)
             return None, _Stop("limit", "limit", f"meter overload at {step.setpoint_a:g} A: the drop is beyond "
                                f"the {rng:g} V range (no reading)")
@@ -427,8 +429,7 @@ class SweepRunner:
                                f"{step.setpoint_a:g} A; point not recorded")
         if self._load_tripped(step.setpoint_a, current):
             rig.element_off()
-            return None, _Stop("fault", "fault", f"load input went off during the sweep (its protection tripped) "
-                               f"at {step.setpoint_a:g} A; point not recorded")
+            return None, _load_trip_stop(step.setpoint_a)
         stop: _Stop | None = None
         expected = rig.expected_mode()
         if mode in ("CV", "CC") and mode != expected:
@@ -661,6 +662,11 @@ def _safety_limit_type() -> type:
     except ImportError:  # pragma: no cover
         return type("NoSafetyLimit", (Exception,), {})
     return SafetyLimit
+
+
+def _load_trip_stop(setpoint_a: float) -> "_Stop":
+    return _Stop("fault", "fault", f"load input went off during the sweep (its protection tripped) "
+                 f"at {setpoint_a:g} A; point not recorded")
 
 
 def _safe_call(fn: Callable[[], Any] | None) -> Any:
