@@ -77,12 +77,13 @@ def load_protection_levels(plan: Plan, rig: Any) -> LoadProtectionLevels:
 
     Programmed in the load wiring only (there the load carries the element current). The
     load never carries more than the plan's max_current_a (the heat-soak's current is held
-    below it too) and its input never sees more than the supply's input voltage; the power
-    is the product of the two, the most the sweep can put into the load.
+    below it too) and its input never sees more than the supply's input voltage (the highest
+    input of an input-voltage sweep); the power is the product of the two, the most the sweep
+    can put into the load.
     """
     wiring, lim = rig.wiring, plan.limits
     profile = rig.load.profile
-    volts = wiring.input_v
+    volts = max(plan.input.voltages_v) if plan.input is not None else wiring.input_v
     amps = lim.max_current_a
     ocp = amps * (1 + PROTECTION_MARGIN)
     ovp = volts * (1 + PROTECTION_MARGIN) if volts else None

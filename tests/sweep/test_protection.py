@@ -182,6 +182,15 @@ def test_load_levels_sit_ten_percent_above_what_the_load_can_carry_and_stop_at_i
     assert math.isclose(capped.over_power_w, 58.0 * 2.0 * 1.1)  # below 60 V x 30 A, not capped
 
 
+def test_an_input_voltage_sweep_sets_the_load_levels_from_its_highest_input():
+    # the load's input sees the supply's input voltage: an input sweep's highest, not the bench file's
+    plan = parse_plan(LOAD_PLAN + "[input]\nvoltages_v = [12.0, 24.0, 6.0]\n", "plan.toml")
+    levels = load_protection_levels(plan, _load_rig(12.0))
+    assert math.isclose(levels.over_voltage_v, 24.0 * 1.1)
+    assert math.isclose(levels.over_power_w, 24.0 * 2.0 * 1.1)
+    assert math.isclose(protection_levels(plan, _load_rig(12.0)).over_voltage_v, 24.0 * 1.1)  # as the supply's
+
+
 def _load_bench(tmp_path, running):
     text = "".join(f'[{r}]\nresource = "{running.resources[r]}"\nprofile = "sim-{r}"\n\n'
                    for r in ("supply", "load", "meter"))
