@@ -71,6 +71,9 @@ CHECKPOINT_S = 5.0
 #: limit hit: the read-back's own accuracy (a few 0.1 % plus counts) must not stop a
 #: sweep whose setpoints are all within the limit.
 CURRENT_READBACK_MARGIN = 0.02
+#: In the load wiring a current read below this fraction of the setpoint makes the runner ask the
+#: load whether its own protection switched its input off.
+LOAD_TRIP_FRACTION = 0.5
 
 
 def step_source(plan: Plan) -> StepSource:
@@ -405,6 +408,8 @@ class SweepRunner:
                 reading = settle(rig.read_drop, plan.settle, self._clock, self._cancel.is_set)
         except Overload:
             rig.element_off()
+            if self._load_tripped(step.setpoint_a, None):  # an open load leaves the drop undefined: say why
+                return None, _load_trip_stop(step.setpoint_a)
             rng = rig.ranges.get("meter", 0.0)
             return None, _Stop("limit", "limit", f"meter overload at {step.setpoint_a:g} A: the drop is beyond "
                                f"the {rng:g} V range (no reading)")
@@ -422,6 +427,9 @@ class SweepRunner:
             cause = "its protection tripped" if tripped else f"status {mode}: neither CV nor CC"
             return None, _Stop("fault", "fault", f"supply output went off during the sweep ({cause}) at "
                                f"{step.setpoint_a:g} A; point not recorded")
+        if self._load_tripped(step.setpoint_a, current):
+            rig.element_off()
+            return None, _load_trip_stop(step.setpoint_a)
         stop: _Stop | None = None
         expected = rig.expected_mode()
         if mode in ("CV", "CC") and mode != expected:
@@ -463,6 +471,18 @@ class SweepRunner:
             flags=tuple(flags),
         )
         return point, stop
+
+    def _load_tripped(self, setpoint_a: float, current_a: float | None) -> bool:
+        """In the load wiring, a current far below the setpoint may be the load's protection: ask it then.
+
+        Asked only on such a reading, so a sweep that runs as planned sends no extra query.
+        """
+        load = getattr(self.rig, "load", None)
+        if self.rig.wiring.force != "load" or load is None or not getattr(load, "can_detect_trip", False):
+            return False
+        if current_a is not None and math.isfinite(current_a) and current_a >= LOAD_TRIP_FRACTION * setpoint_a:
+            return False
+        return bool(_safe_call(load.tripped))
 
     def _reverse(self) -> Iterator[Event]:
         """Reverse the supply across the element at each reverse voltage for duration_s and read the reverse current.
@@ -642,6 +662,11 @@ def _safety_limit_type() -> type:
     except ImportError:  # pragma: no cover
         return type("NoSafetyLimit", (Exception,), {})
     return SafetyLimit
+
+
+def _load_trip_stop(setpoint_a: float) -> "_Stop":
+    return _Stop("fault", "fault", f"load input went off during the sweep (its protection tripped) "
+                 f"at {setpoint_a:g} A; point not recorded")
 
 
 def _safe_call(fn: Callable[[], Any] | None) -> Any:
