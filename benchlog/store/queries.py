@@ -27,7 +27,9 @@ class RunFilter:
     bench: str | None = None
     since: str | None = None
     until: str | None = None
+    text: str | None = None  # a fragment of the serial, lot or part label (case-insensitive), searched anywhere
     limit: int | None = None
+    newest_first: bool = False  # with `limit`: the newest N runs rather than the oldest
 
 
 def check_date(text: str | None, option: str) -> str | None:
@@ -46,6 +48,36 @@ def check_date(text: str | None, option: str) -> str | None:
 def _until_bound(text: str) -> str:
     """`--until 2025-03-01` includes that whole day: compare below the next character after the day."""
     return text + "~" if len(text) == 10 else text
+
+
+def _like_fragment(text: str) -> str:
+    """`text` as a LIKE pattern that matches it literally anywhere (its own % _ and \\ escaped)."""
+    escaped = text.replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_")
+    return f"%{escaped}%"
+
+
+def filtered(query, flt: RunFilter | None):
+    """`query` (over `runs`, perhaps joined) narrowed by every field `flt` gives: the one place a filter becomes SQL."""
+    from sqlalchemy import exists, func, or_
+
+    if flt is None:
+        return query
+    runs, verdicts = schema.runs, schema.verdicts
+    for column, value in ((runs.c.lot, flt.lot), (runs.c.serial, flt.serial), (runs.c.kind, flt.kind),
+                          (runs.c.label, flt.part), (runs.c.bench_host, flt.bench)):
+        if value is not None:
+            query = query.where(column == value)
+    if flt.since is not None:
+        query = query.where(runs.c.started_utc >= flt.since)
+    if flt.until is not None:
+        query = query.where(runs.c.started_utc < _until_bound(flt.until))
+    if flt.verdict is not None:
+        query = query.where(exists().where(verdicts.c.run_pk == runs.c.id, verdicts.c.outcome == flt.verdict))
+    if flt.text:
+        pattern = _like_fragment(flt.text.lower())
+        query = query.where(or_(*(func.lower(c).like(pattern, escape="\\")
+                                  for c in (runs.c.serial, runs.c.lot, runs.c.label))))
+    return query
 
 
 def _run_row(row) -> dict:
@@ -84,22 +116,16 @@ def _verdicts_by_run(conn, run_pks: list[int]) -> dict[int, list]:
 
 
 def find_runs(archive, flt: RunFilter, *, with_fits: bool = True) -> list[dict]:
-    """Runs matching every given filter, oldest first, each with its fits and verdicts."""
-    from sqlalchemy import exists, select
+    """Runs matching every given filter, oldest first (or the newest `limit` of them, newest first, when
+    `flt.newest_first`), each with its fits and verdicts."""
+    from sqlalchemy import select
 
-    runs, verdicts = schema.runs, schema.verdicts
-    query = select(runs)
-    for column, value in ((runs.c.lot, flt.lot), (runs.c.serial, flt.serial), (runs.c.kind, flt.kind),
-                          (runs.c.label, flt.part), (runs.c.bench_host, flt.bench)):
-        if value is not None:
-            query = query.where(column == value)
-    if flt.since is not None:
-        query = query.where(runs.c.started_utc >= flt.since)
-    if flt.until is not None:
-        query = query.where(runs.c.started_utc < _until_bound(flt.until))
-    if flt.verdict is not None:
-        query = query.where(exists().where(verdicts.c.run_pk == runs.c.id, verdicts.c.outcome == flt.verdict))
-    query = query.order_by(runs.c.started_utc, runs.c.id)
+    runs = schema.runs
+    query = filtered(select(runs), flt)
+    if flt.newest_first:
+        query = query.order_by(runs.c.started_utc.desc(), runs.c.id.desc())
+    else:
+        query = query.order_by(runs.c.started_utc, runs.c.id)
     if flt.limit is not None:
         query = query.limit(flt.limit)
     with archive.reading() as conn:
@@ -158,16 +184,7 @@ def quantity_values(archive, quantity: str, flt: RunFilter | None = None) -> lis
     query = (select(runs.c.run_id, runs.c.started_utc, runs.c.lot, runs.c.bench_host, runs.c.serial,
                     fits.c.value, fits.c.std_u)
              .join(fits, fits.c.run_pk == runs.c.id).where(fits.c.parameter == quantity))
-    flt = flt or RunFilter()
-    for column, value in ((runs.c.lot, flt.lot), (runs.c.kind, flt.kind), (runs.c.bench_host, flt.bench),
-                          (runs.c.label, flt.part)):
-        if value is not None:
-            query = query.where(column == value)
-    if flt.since is not None:
-        query = query.where(runs.c.started_utc >= flt.since)
-    if flt.until is not None:
-        query = query.where(runs.c.started_utc < _until_bound(flt.until))
-    query = query.order_by(runs.c.started_utc, runs.c.id)
+    query = filtered(query, flt).order_by(runs.c.started_utc, runs.c.id)
     with archive.reading() as conn:
         return [QuantityValue(*row) for row in conn.execute(query)]
 
@@ -222,15 +239,7 @@ def subgroup_stats(archive, quantity: str, by: str, flt: RunFilter | None = None
                     (func.max(fits.c.value) - func.min(fits.c.value)).label("range"),
                     func.min(runs.c.started_utc).label("first"))
              .join(fits, fits.c.run_pk == runs.c.id).where(fits.c.parameter == quantity))
-    flt = flt or RunFilter()
-    for column, value in ((runs.c.lot, flt.lot), (runs.c.kind, flt.kind), (runs.c.bench_host, flt.bench),
-                          (runs.c.label, flt.part)):
-        if value is not None:
-            query = query.where(column == value)
-    if flt.since is not None:
-        query = query.where(runs.c.started_utc >= flt.since)
-    if flt.until is not None:
-        query = query.where(runs.c.started_utc < _until_bound(flt.until))
+    query = filtered(query, flt)
     query = query.group_by(key).order_by("first", "name")
     with archive.reading() as conn:
         rows = conn.execute(query).all()
