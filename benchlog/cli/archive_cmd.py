@@ -16,7 +16,6 @@ including a malformed URL or an archive that cannot be opened (one line).
 
 from __future__ import annotations
 
-import argparse
 import sys
 
 
@@ -94,10 +93,10 @@ def _database_errors(handler):
             return handler(args)
         except DBAPIError as exc:
             from benchlog.store import resolve_url
-            from benchlog.store.connect import _shown, _parse
+            from benchlog.store.connect import shown_url
 
             reason = " ".join(str(getattr(exc, "orig", exc)).split())[:200]
-            raise BadInput(_shown(_parse(resolve_url(args.db))), "", f"the database refused: {reason}",
+            raise BadInput(shown_url(resolve_url(args.db)), "", f"the database refused: {reason}",
                            "a role allowed to do this (viewers may only read)") from None
 
     return run

@@ -1,0 +1,63 @@
+"""A control chart as braille-plot series: the plotted statistic, its centre line, its limits, the run-rule hits.
+
+The chart itself is computed once, by `store.trend` (ISO 7870-2 limits, the run
+rules of `store.control_chart`); this module only lays its numbers out for
+`plotting.render_plot`. Subgroup i sits at x = i + 1; a limit that changes with
+the subgroup size is drawn as a step across each subgroup's cell.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from benchlog.quantity import engineering, unit_of
+from benchlog.store.control_chart import LIMITS_SOURCE, RULES, ControlChart
+
+from .plotting import Axis, Series
+
+#: Samples across the whole chart for the centre and limit lines: more than a wide terminal has braille
+#: columns, so every cell a line crosses is touched.
+_LINE_SAMPLES = 1200
+
+
+def _steps(levels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    per = max(2, -(-_LINE_SAMPLES // max(1, levels.size)))
+    x = np.concatenate([np.linspace(i + 0.5, i + 1.5, per) for i in range(levels.size)])
+    return x, np.repeat(levels, per)
+
+
+def chart_series(chart: ControlChart) -> list[Series]:
+    """Values as `o`, rule hits as `!` over them, centre `·`, limits `-`; each named in the legend."""
+    n = len(chart.values)
+    x = np.arange(1, n + 1, dtype=float)
+    what = "value" if chart.kind == "individuals" else "subgroup mean"
+    cx, cy = _steps(np.full(n, chart.centre))
+    ux, uy = _steps(np.asarray(chart.ucl, dtype=float))
+    lx, ly = _steps(np.asarray(chart.lcl, dtype=float))
+    series = [
+        Series("centre", cx, cy, kind="line", glyph="·", style="model"),
+        Series("3σ limits", np.concatenate([ux, lx]), np.concatenate([uy, ly]), kind="line", glyph="-",
+               style="limit"),
+        Series(what, x, np.asarray(chart.values, dtype=float), kind="marks", glyph="o", style="series-a"),
+    ]
+    hit_at = sorted({h.index for h in chart.hits})
+    if hit_at:
+        series.append(Series("run rule", x[hit_at], np.asarray(chart.values, dtype=float)[hit_at], kind="marks",
+                             glyph="!", style="series-b"))
+    return series
+
+
+def chart_axes(quantity: str) -> tuple[Axis, Axis]:
+    return Axis("subgroup", "#"), Axis(quantity, unit_of(quantity))
+
+
+def chart_text(chart: ControlChart, quantity: str, by: str, runs: int, *, most_labels: int = 12) -> str:
+    """What the plot shows, in words: the chart, its centre and σ̂, each rule hit, and which subgroup is which."""
+    unit = unit_of(quantity)
+    hits = "; ".join(f"rule {h.rule} ({RULES[h.rule]}) at {h.index + 1} {chart.labels[h.index]}"
+                     for h in chart.hits) or "none"
+    labels = " ".join(f"{i + 1}={chart.labels[i]}" for i in range(min(len(chart.labels), most_labels)))
+    more = f" … ({len(chart.labels) - most_labels} more)" if len(chart.labels) > most_labels else ""
+    return (f" {chart.kind} chart of {quantity} by {by}: {runs} runs in {len(chart.values)} subgroups · centre "
+            f"{engineering(chart.centre, unit)} · σ̂ {engineering(chart.sigma, unit, 2)} · limits {LIMITS_SOURCE}, 3σ\n"
+            f" run-rule hits (!): {hits}\n subgroups: {labels}{more}")

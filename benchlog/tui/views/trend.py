@@ -1,0 +1,96 @@
+"""The archive's trend: a fitted quantity's control chart over the runs the archive view's filter selects."""
+
+from __future__ import annotations
+
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.screen import Screen
+from textual.widgets import Static
+
+from benchlog.store.queries import GROUPINGS, RunFilter
+
+from ..trendplot import chart_axes, chart_series, chart_text
+from ..widgets import CurvePlot, KeyBar, Plain
+from ..plotting import Axis
+from ..archive_query import filter_text
+
+
+class TrendScreen(Screen):
+    """`n` picks the next fitted quantity, `g` groups by lot, day or bench; the chart is `store.trend`'s."""
+
+    BINDINGS = [
+        Binding("n", "next_quantity", "Quantity"),
+        Binding("g", "next_grouping", "Group by"),
+        Binding("escape,t", "app.pop_screen", "Back"),
+    ]
+
+    def __init__(self, flt: RunFilter) -> None:
+        super().__init__()
+        self.filter = flt
+        self.quantities: list[str] = []
+        self.quantity: str | None = None
+        self.by = "lot"
+        self.trend = None  # store.trend.Trend, when the archive gave one
+        self.problem = ""
+
+    def compose(self) -> ComposeResult:
+        yield Plain(" benchlog ▸ Trend", id="view-title")
+        yield CurvePlot(Axis("subgroup", "#"), Axis("value", ""), id="trend-plot")
+        yield Plain("", id="trend-text")
+        yield Plain("", id="status-line")
+        yield KeyBar(id="keybar")
+
+    def refresh_view(self) -> None:
+        """The app's newest message on the status line (the views' own line, so none is missed here)."""
+        last = self.app.messages[-1] if self.app.messages else ""
+        self.query_one("#status-line", Static).update(f" {last}")
+
+    def on_mount(self) -> None:
+        self.refresh_view()
+        self.query_one("#trend-plot", CurvePlot).empty_text = "reading the archive …"
+        self._ask(None, self.by)
+
+    @work(thread=True, exclusive=True, group="trend")
+    def _ask(self, quantity: str | None, by: str) -> None:
+        from benchlog.store.queries import known_quantities
+        from benchlog.store.trend import trend
+
+        try:
+            archive = self.app.archive_store()
+            if not self.quantities:
+                self.quantities = known_quantities(archive)
+            if quantity is None:
+                quantity = "r_on_ohm" if "r_on_ohm" in self.quantities else (self.quantities or [None])[0]
+            if quantity is None:
+                found, problem = None, "no run in the archive has a fitted quantity yet"
+            else:
+                found, problem = trend(archive, quantity, by, self.filter), ""
+        except Exception as exc:  # BadInput (too few subgroups, unknown quantity) or the database: one sentence
+            line = getattr(exc, "line", None)
+            found, problem = None, line() if callable(line) else (str(exc).splitlines() or [type(exc).__name__])[0]
+        self.app.call_from_thread(self._show, quantity, by, found, problem)
+
+    def _show(self, quantity, by, found, problem: str) -> None:
+        self.quantity, self.by, self.trend, self.problem = quantity, by, found, problem
+        typed = filter_text(self.filter)
+        self.query_one("#view-title", Static).update(
+            f" benchlog ▸ Trend   │ {quantity or '—'} by {by}" + (f" · filter {typed}" if typed else ""))
+        plot = self.query_one("#trend-plot", CurvePlot)
+        if found is None:
+            plot.empty_text = "no chart"
+            plot.show([])
+            self.query_one("#trend-text", Static).update(f" No chart: {problem}")
+            return
+        x_axis, y_axis = chart_axes(quantity)
+        plot.show(chart_series(found.chart), x_axis, y_axis)
+        self.query_one("#trend-text", Static).update(chart_text(found.chart, quantity, by, found.stats.runs))
+
+    def action_next_quantity(self) -> None:
+        if not self.quantities:
+            return
+        index = (self.quantities.index(self.quantity) + 1) % len(self.quantities) if self.quantity in self.quantities else 0
+        self._ask(self.quantities[index], self.by)
+
+    def action_next_grouping(self) -> None:
+        self._ask(self.quantity, GROUPINGS[(GROUPINGS.index(self.by) + 1) % len(GROUPINGS)])
