@@ -218,7 +218,7 @@ class ArchiveView(View):
             marks = "".join(k.upper() for k, p in sorted(self.marks.items()) if p == entry.path)
             verdict = self._verdict_of(entry)
             if verdict is None:
-                verdict = "…" if spec else ("— not judged" if self.from_database else "— no spec")
+                verdict = "…" if spec else ("— none stored" if self.from_database else "— no spec")
             last = entry.bench or "—" if self.from_database else entry.path.name
             table.add_row(*cells(entry.started_utc.replace("T", " ")[:19], f"{entry.element} {entry.kind}"[:18],
                                  entry.serial or "—", entry.lot or "—", entry.outcome,

@@ -82,7 +82,7 @@ class HistoryScreen(Screen):
         table = self.query_one("#history", DataTable)
         table.clear()
         for run in runs:
-            verdict = worst_verdict(v["verdict"] for v in run["verdicts"]) or "— not judged"
+            verdict = worst_verdict(v["verdict"] for v in run["verdicts"]) or "— none stored"
             idn = next((i["idn"] for i in run.get("instruments", []) if i["role"] == "meter"), None)
             table.add_row(*cells(run["started_utc"].replace("T", " ")[:19], run["bench_host"] or "—",
                                  run["lot"] or "—", run["outcome"], VERDICT_WORDS.get(verdict, verdict),
