@@ -450,37 +450,11 @@ class ArchiveView(View):
         specs = [self._own_spec(by_path.get(p) or RunEntry(p, "", "", "", "", "")) for p in paths]
         which = "marked" if marked else "listed"
         self.app.say(f"Writing the summary of {len(paths)} {which} run(s) …")
-        self._summary_worker(paths, specs, which)
+        from ..summary_export import export_summary
 
-    @work(thread=True, exclusive=True, group="archive-summary")
-    def _summary_worker(self, paths: list[Path], spec_paths: list[Path | None], which: str) -> None:
-        """Each run judged against its own spec (as listed), one row each, to .csv and (with openpyxl) .xlsx."""
-        from datetime import datetime, timezone
+        self.run_worker(lambda: export_summary(self.app, paths, specs, which), thread=True, exclusive=True,
+                        group="summary")
 
-        from benchlog.report.summary_rows import write_summary
-        from benchlog.specfiles import load_spec
-
-        loaded: dict[Path, object] = {}
-        try:
-            for path in {p for p in spec_paths if p is not None}:
-                loaded[path] = load_spec(path)
-        except BadInput as exc:
-            self.app.call_from_thread(self.app.say, f"Summary not written: {exc.line()}", severity="error")
-            return
-        specs = [loaded.get(p) if p is not None else None for p in spec_paths]
-        stamp = datetime.now(timezone.utc).strftime("%Y%m%dT%H%M%SZ")
-        folder = self.app.runs_dir if self.app.runs_dir.is_dir() else Path(".")
-        written, notes = [], []
-        for suffix in (".csv", ".xlsx"):
-            out = folder / f"summary-{stamp}{suffix}"
-            try:
-                write_summary(paths, out, specs)
-                written.append(shown(out))
-            except BadInput as exc:
-                notes.append(exc.line())
-        text = (f"Summary of {len(paths)} {which} run(s) written: {', '.join(written)}" if written
-                else "Summary not written") + (f" ({'; '.join(notes)})" if notes else "") + "."
-        self.app.call_from_thread(self.app.say, text, severity="information" if written else "error")
 
 class OverlayScreen(Screen):
     """Two runs on one V–I plot: A as braille dots, B as `+` marks, named in the legend."""
