@@ -47,8 +47,13 @@ def chart_series(chart: ControlChart) -> list[Series]:
     return series
 
 
+#: Short symbols of the fitted quantities for the y axis (the plot's label column is seven characters wide);
+#: the text under the plot names the quantity by its JSON key.
+SYMBOLS = {"r_on_ohm": "R_on", "v0_v": "V0", "r_s_ohm": "Rs", "i_s_a": "Is", "ideality": "n"}
+
+
 def chart_axes(quantity: str) -> tuple[Axis, Axis]:
-    return Axis("subgroup", "#"), Axis(quantity, unit_of(quantity))
+    return Axis("subgroup", "#"), Axis(SYMBOLS.get(quantity, quantity), unit_of(quantity))
 
 
 def chart_text(chart: ControlChart, quantity: str, by: str, runs: int, *, most_labels: int = 12) -> str:

@@ -303,3 +303,30 @@ def test_hostile_words_are_searched_literally(tmp_path, capsys):
         assert len(find_runs(archive, parse_filter(""))) == 4  # the table is still there
     finally:
         archive.close()
+
+
+async def test_a_run_whose_file_is_elsewhere_is_listed_and_opening_it_says_where(tmp_path, capsys):
+    import shutil
+
+    from tests.store.synthetic import demo_header, write_run
+
+    url = f"sqlite:///{tmp_path / 'far.sqlite'}"
+    (tmp_path / "far").mkdir()
+    far = write_run(tmp_path / "far" / "x.run", demo_header(serial="FAR-1", lot="F", host="bench-b"), 0.01)
+    assert main(["archive", "add", str(far), "--db", url]) == 0
+    capsys.readouterr()
+    shutil.rmtree(far.parent)  # the file stays on the bench that recorded it
+    app = _app(url, tmp_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot, app, lambda: _serials(app) == ["FAR-1"])
+        await pilot.press("o")
+        assert "is not on this machine (recorded on bench-b)" in app.messages[-1]
+        assert app.current_mode == "archive"  # not sent to an empty results view
+        await pilot.press("w")
+        assert "Summary not written: 1 of 1 run files are not on this machine" in app.messages[-1]
+
+
+def test_ui_with_a_malformed_archive_url_is_one_line_and_exit_2(capsys):
+    assert main(["ui", "--db", "nosuchdb://x/y"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "is not supported" in err

@@ -290,10 +290,23 @@ class ArchiveView(View):
         table = self.query_one("#runs", DataTable)
         return self.entries[min(max(table.cursor_row, 0), len(self.entries) - 1)]
 
+    def here(self, path: Path) -> bool:
+        """Whether a run's file can be read on this machine; if not, say so (the archive indexes runs of
+        every bench, their files stay where they were recorded)."""
+        if path.is_file():
+            return True
+        entry = next((e for e in self.entries if e.path == path), None)
+        bench = f" (recorded on {entry.bench})" if entry is not None and entry.bench else ""
+        self.app.say(f"{shown(path)} is not on this machine{bench}: the archive indexes it, the run file is "
+                     "where it was recorded.", severity="warning")
+        return False
+
     def action_open_run(self) -> None:
         entry = self.selected()
         if entry is None:
-            self.app.say("No runs in this folder.")
+            self.app.say("No runs listed." if self.from_database else "No runs in this folder.")
+            return
+        if not self.here(entry.path):
             return
         self.app.state.findings = None
         self.app.state.model = "auto"  # every run opens on the automatic choice
@@ -305,7 +318,7 @@ class ArchiveView(View):
 
     def action_replay(self) -> None:
         entry = self.selected()
-        if entry is not None:
+        if entry is not None and self.here(entry.path):
             self.app.say(f"Replaying {entry.path.name} at {speed_text(self.app.state.replay_speed)} …")
             self.app.start_replay(entry.path)
 
@@ -337,11 +350,15 @@ class ArchiveView(View):
         if len(self.marks) < 2 or self.marks["a"] == self.marks["b"]:
             self.app.say("Mark two runs first: a on one, b on another, then v.")
             return
+        if not (self.here(self.marks["a"]) and self.here(self.marks["b"])):
+            return
         self.app.push_screen(OverlayScreen(self.marks["a"], self.marks["b"]))
 
     def action_compare(self) -> None:
         if len(self.marks) < 2:
             self.app.say("Mark two runs first: a on one, b on another, then c.")
+            return
+        if not (self.here(self.marks["a"]) and self.here(self.marks["b"])):
             return
         from .compare import CompareScreen
 
@@ -349,7 +366,7 @@ class ArchiveView(View):
 
     def action_refit_model(self) -> None:
         entry = self.selected()
-        if entry is not None:
+        if entry is not None and self.here(entry.path):
             model = self.app.next_model()
             self.app.say(f"Re-fitting {entry.path.name} with the {model} model …")
             self.app.analyse(entry.path, model=model, spec=self.spec_for(entry))
@@ -357,7 +374,7 @@ class ArchiveView(View):
 
     def action_refit_spec(self) -> None:
         entry = self.selected()
-        if entry is None:
+        if entry is None or not self.here(entry.path):
             return
         spec = self.app.next_spec(kind=entry.kind, current=self.spec_for(entry))
         if spec is None:
@@ -444,8 +461,8 @@ class ArchiveView(View):
             return
         missing = [p for p in paths if not p.is_file()]
         if missing:
-            self.app.say(f"Summary not written: {shown(missing[0])} is not on this machine "
-                         f"({len(missing)} of {len(paths)} run files missing).", severity="warning")
+            self.app.say(f"Summary not written: {len(missing)} of {len(paths)} run files are not on this machine, "
+                         f"{shown(missing[0])} the first.", severity="warning")
             return
         specs = [self._own_spec(by_path.get(p) or RunEntry(p, "", "", "", "", "")) for p in paths]
         which = "marked" if marked else "listed"
