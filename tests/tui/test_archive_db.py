@@ -330,3 +330,15 @@ def test_ui_with_a_malformed_archive_url_is_one_line_and_exit_2(capsys):
     assert main(["ui", "--db", "nosuchdb://x/y"]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "is not supported" in err
+
+
+async def test_an_archive_that_does_not_answer_is_one_sentence_not_a_crash(tmp_path):
+    app = _app("postgresql://nobody@127.0.0.1:1/none", tmp_path)  # port 1: nothing listens there
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot, app, lambda: app.screen.problem != "", timeout=30)
+        assert "UNREADABLE" in _head(app) and app.screen.entries == []
+        assert app.messages[-1].startswith("The archive cannot be read: ") and "\n" not in app.messages[-1]
+        await pilot.press("t")  # the trend screen says it too, and the keys still work
+        await settle(pilot, app, lambda: isinstance(app.screen, TrendScreen) and app.screen.problem != "", timeout=30)
+        assert "No chart:" in screen_text(app)
+        await pilot.press("escape", "q")

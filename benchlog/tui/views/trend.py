@@ -83,6 +83,7 @@ class TrendScreen(Screen):
             self.query_one("#trend-text", Static).update(f" No chart: {problem}")
             return
         x_axis, y_axis = chart_axes(quantity)
+        plot.whole_x, plot.x_range = True, (0.5, len(found.chart.values) + 0.5)
         plot.show(chart_series(found.chart), x_axis, y_axis)
         self.query_one("#trend-text", Static).update(chart_text(found.chart, quantity, by, found.stats.runs))
 
