@@ -224,22 +224,13 @@ async def test_a_run_recorded_in_the_ui_is_published_and_listed(scripted, runs_d
 async def test_the_archive_view_reads_postgresql_as_a_read_only_viewer(postgres_server, tmp_path, capsys):  # noqa: F811
     if not postgres_server.started:
         pytest.skip(postgres_server.skip_reason)
-    import psycopg
-
     url = postgres_server.new_database()
     _fill(url, capsys)
-    dbname = url.rsplit("/", 1)[1]
-    role = f"viewer_{dbname}"  # the README's read-only viewer role: SELECT only
-    with psycopg.connect(f"host=127.0.0.1 port={postgres_server.port} user=postgres dbname={dbname}",
-                         autocommit=True) as c:
-        for statement in (f'CREATE ROLE "{role}" LOGIN', f'GRANT CONNECT ON DATABASE "{dbname}" TO "{role}"',
-                          f'GRANT USAGE ON SCHEMA public TO "{role}"',
-                          f'GRANT SELECT ON ALL TABLES IN SCHEMA public TO "{role}"'):
-            c.execute(statement)  # names generated here, not user input
-    app = _app(url.replace("postgres@", f"{role}@"), tmp_path)
+    viewer = postgres_server.viewer_url(url)  # the README's read-only viewer role: SELECT only
+    app = _app(viewer, tmp_path)
     async with app.run_test(size=(80, 24)) as pilot:
         await settle(pilot, app, lambda: len(app.screen.entries) == 28, timeout=30)
-        assert _head(app).startswith(f" archive postgresql://{role}@127.0.0.1")
+        assert _head(app).startswith(f" archive {viewer}")
         await _type_filter(pilot, app, "lot:LOT-DEMO-07 l07-000")
         await settle(pilot, app, lambda: len(app.screen.entries) == 9)
         await pilot.press("t")

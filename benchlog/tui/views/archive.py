@@ -27,6 +27,7 @@ from ..archive_query import LIST_LIMIT, filter_text, listing_filter, matches, pa
 from ..plotting import Axis, Series
 from ..paths import shown
 from ..widgets import CurvePlot, KeyBar, Plain, RowTable, cells
+from .asked import sentence
 from .base import View
 from .results import VERDICT_WORDS
 
@@ -163,7 +164,7 @@ class ArchiveView(View):
             rows = find_runs(self.app.archive_store(), listing_filter(flt), with_fits=False)
             entries, problem = [archived_entry(r) for r in rows], ""
         except Exception as exc:  # unreachable, refused, malformed: one sentence in the head line
-            entries, problem = [], _sentence(exc)
+            entries, problem = [], sentence(exc)
         self.app.call_from_thread(self._archive_answered, entries, problem)
 
     def _archive_answered(self, entries: list[RunEntry], problem: str) -> None:
@@ -502,10 +503,3 @@ class OverlayScreen(Screen):
                                  frame["drop_v"].to_numpy(float), kind=kind, glyph="+",
                                  style="series-a" if kind == "dots" else "series-b"))
         self.query_one("#overlay-plot", CurvePlot).show(series)
-
-
-def _sentence(exc: BaseException) -> str:
-    line = getattr(exc, "line", None)
-    if callable(line):
-        return line()
-    return (str(exc).strip() or type(exc).__name__).splitlines()[0]

@@ -7,13 +7,13 @@ from pathlib import Path
 from textual import work
 from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.screen import Screen
 from textual.widgets import DataTable, Static
 
 from benchlog.quantity import measured, unit_of
 
 from ..archive_query import worst_verdict
-from ..widgets import KeyBar, Plain, RowTable, cells
+from ..widgets import Plain, RowTable, cells
+from .asked import AskedScreen, sentence
 from .results import VERDICT_WORDS
 
 
@@ -35,8 +35,10 @@ def meter_name(idn: str | None) -> str:
     return " ".join(fields[1:3]) if len(fields) >= 3 else idn
 
 
-class HistoryScreen(Screen):
+class HistoryScreen(AskedScreen):
     """Every archived run of one serial; `o` opens the selected run's file in Results."""
+
+    TITLE_TEXT = "History"
 
     BINDINGS = [
         Binding("o", "open_run", "Open"),
@@ -48,33 +50,24 @@ class HistoryScreen(Screen):
         self.serial = serial
         self.runs: list[dict] = []
 
-    def compose(self) -> ComposeResult:
-        yield Plain(f" benchlog ▸ History   │ serial {self.serial}", id="view-title")
+    def body(self) -> ComposeResult:
         yield Plain(" reading the archive …", id="history-head")
         table = RowTable(id="history", cursor_type="row")
         table.add_columns("date (UTC)", "bench", "lot", "outcome", "verdict", "meter", "fit (expanded U)")
         yield table
-        yield Plain("", id="status-line")
-        yield KeyBar(id="keybar")
-
-    def refresh_view(self) -> None:
-        """The app's newest message on the status line (the views' own line, so none is missed here)."""
-        last = self.app.messages[-1] if self.app.messages else ""
-        self.query_one("#status-line", Static).update(f" {last}")
 
     def on_mount(self) -> None:
-        self.refresh_view()
-        self._ask()
+        super().on_mount()
+        self.query_one("#view-title", Static).update(f" benchlog ▸ History   │ serial {self.serial}")
 
     @work(thread=True, exclusive=True, group="history")
-    def _ask(self) -> None:
+    def ask(self) -> None:
         from benchlog.store.queries import history
 
         try:
             runs, problem = history(self.app.archive_store(), self.serial), ""
         except Exception as exc:  # the database: one sentence
-            line = getattr(exc, "line", None)
-            runs, problem = [], line() if callable(line) else (str(exc).splitlines() or [type(exc).__name__])[0]
+            runs, problem = [], sentence(exc)
         self.app.call_from_thread(self._show, runs, problem)
 
     def _show(self, runs: list[dict], problem: str) -> None:

@@ -5,19 +5,21 @@ from __future__ import annotations
 from textual import work
 from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.screen import Screen
 from textual.widgets import Static
 
 from benchlog.store.queries import GROUPINGS, RunFilter
 
 from ..trendplot import chart_axes, chart_series, chart_text
-from ..widgets import CurvePlot, KeyBar, Plain
-from ..plotting import Axis
 from ..archive_query import filter_text
+from ..plotting import Axis
+from ..widgets import CurvePlot, Plain
+from .asked import AskedScreen, sentence
 
 
-class TrendScreen(Screen):
+class TrendScreen(AskedScreen):
     """`n` picks the next fitted quantity, `g` groups by lot, day or bench; the chart is `store.trend`'s."""
+
+    TITLE_TEXT = "Trend"
 
     BINDINGS = [
         Binding("n", "next_quantity", "Quantity"),
@@ -34,21 +36,13 @@ class TrendScreen(Screen):
         self.trend = None  # store.trend.Trend, when the archive gave one
         self.problem = ""
 
-    def compose(self) -> ComposeResult:
-        yield Plain(" benchlog ▸ Trend", id="view-title")
-        yield CurvePlot(Axis("subgroup", "#"), Axis("value", ""), id="trend-plot")
+    def body(self) -> ComposeResult:
+        plot = CurvePlot(Axis("subgroup", "#"), Axis("value", ""), id="trend-plot")
+        plot.empty_text = "reading the archive …"
+        yield plot
         yield Plain("", id="trend-text")
-        yield Plain("", id="status-line")
-        yield KeyBar(id="keybar")
 
-    def refresh_view(self) -> None:
-        """The app's newest message on the status line (the views' own line, so none is missed here)."""
-        last = self.app.messages[-1] if self.app.messages else ""
-        self.query_one("#status-line", Static).update(f" {last}")
-
-    def on_mount(self) -> None:
-        self.refresh_view()
-        self.query_one("#trend-plot", CurvePlot).empty_text = "reading the archive …"
+    def ask(self) -> None:
         self._ask(None, self.by)
 
     @work(thread=True, exclusive=True, group="trend")
@@ -67,8 +61,7 @@ class TrendScreen(Screen):
             else:
                 found, problem = trend(archive, quantity, by, self.filter), ""
         except Exception as exc:  # BadInput (too few subgroups, unknown quantity) or the database: one sentence
-            line = getattr(exc, "line", None)
-            found, problem = None, line() if callable(line) else (str(exc).splitlines() or [type(exc).__name__])[0]
+            found, problem = None, sentence(exc)
         self.app.call_from_thread(self._show, quantity, by, found, problem)
 
     def _show(self, quantity, by, found, problem: str) -> None:
