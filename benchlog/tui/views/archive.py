@@ -246,7 +246,7 @@ class ArchiveView(View):
                 source += " UNREADABLE"
         else:
             source = f"folder {shown(self.app.runs_dir)}"
-        count = f"{len(self.entries)} runs"
+        count = f"{len(self.entries)} run" + ("" if len(self.entries) == 1 else "s")
         if self.from_database and len(self.entries) >= LIST_LIMIT:
             count = f"newest {len(self.entries)} runs"
         typed = filter_text(self.filter)
