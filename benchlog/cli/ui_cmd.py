@@ -19,8 +19,9 @@ def register(sub) -> None:
     p.add_argument("--runs", metavar="DIR", default="runs", help="folder of run files (default: ./runs)")
     p.add_argument("--plan", metavar="PLAN.toml", action="append", help="a plan to offer (repeatable)")
     p.add_argument("--spec", metavar="SPEC.toml", action="append", help="a part spec to offer (repeatable)")
-    p.add_argument("--db", metavar="URL", help="the lab archive the Archive view lists (default: the bench file's "
-                   "[archive], else $BENCHLOG_DB, else ./benchlog-archive.sqlite when it exists, else the --runs folder)")
+    p.add_argument("--db", metavar="URL", help="the lab archive the Archive view lists (default: the bench "
+                   "file's [archive], else $BENCHLOG_DB, else ./benchlog-archive.sqlite when it exists, "
+                   "else the --runs folder)")
     p.set_defaults(handler=_ui)
 
     r = sub.add_parser(

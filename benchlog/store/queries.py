@@ -45,7 +45,7 @@ def check_date(text: str | None, option: str) -> str | None:
     return text
 
 
-def _until_bound(text: str) -> str:
+def until_bound(text: str) -> str:
     """`--until 2025-03-01` includes that whole day: compare below the next character after the day."""
     return text + "~" if len(text) == 10 else text
 
@@ -70,7 +70,7 @@ def filtered(query, flt: RunFilter | None):
     if flt.since is not None:
         query = query.where(runs.c.started_utc >= flt.since)
     if flt.until is not None:
-        query = query.where(runs.c.started_utc < _until_bound(flt.until))
+        query = query.where(runs.c.started_utc < until_bound(flt.until))
     if flt.verdict is not None:
         query = query.where(exists().where(verdicts.c.run_pk == runs.c.id, verdicts.c.outcome == flt.verdict))
     if flt.text:

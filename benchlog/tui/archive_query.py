@@ -17,7 +17,7 @@ from dataclasses import dataclass, fields, replace
 from pathlib import Path
 
 from benchlog.badinput import BadInput
-from benchlog.store.queries import RunFilter, check_date
+from benchlog.store.queries import RunFilter, check_date, until_bound
 
 #: The filter's keys, and what each selects on.
 FILTER_KEYS = {"serial": "serial", "lot": "lot", "kind": "kind", "part": "part", "verdict": "verdict",
@@ -115,7 +115,7 @@ def matches(entry, flt: RunFilter, verdict: str | None) -> bool:
     started = entry.started_utc or ""
     if flt.since is not None and started < flt.since:
         return False
-    if flt.until is not None and started >= (flt.until + "~" if len(flt.until) == 10 else flt.until):
+    if flt.until is not None and started >= until_bound(flt.until):
         return False
     if flt.text:
         fragment = flt.text.lower()

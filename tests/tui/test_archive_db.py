@@ -156,8 +156,14 @@ async def test_t_draws_the_clis_control_chart_of_the_filtered_runs(sample_archiv
         words = " ".join(str(app.screen.query_one("#trend-text").render()).split())
         assert f"{want['chart']} chart of r_on_ohm by lot: {want['runs']} runs in 2 subgroups" in words
         assert "ISO 7870-2" in words and "3σ limits" in screen_text(app) and "filter kind:pmos" in screen_text(app)
+        quantities = app.screen.quantities
+        await pilot.press("n")  # the next fitted quantity the archive holds
+        following = quantities[(quantities.index("r_on_ohm") + 1) % len(quantities)]
+        await settle(pilot, app, lambda: app.screen.problem != "" or getattr(app.screen.trend, "quantity", "") == following)
+        await pilot.press(*(["n"] * (len(quantities) - 1)))  # round to r_on_ohm again
+        await settle(pilot, app, lambda: getattr(app.screen.trend, "quantity", "") == "r_on_ohm")
         await pilot.press("g")  # by day: one day of samples, one subgroup — no chart, and why
-        await settle(pilot, app, lambda: app.screen.by == "day")
+        await settle(pilot, app, lambda: app.screen.by == "day" and app.screen.problem != "")
         assert app.screen.trend is None and "No chart:" in screen_text(app)
         await pilot.press("escape")
         assert not isinstance(app.screen, TrendScreen)

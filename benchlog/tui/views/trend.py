@@ -84,7 +84,13 @@ class TrendScreen(AskedScreen):
         if not self.quantities:
             return
         index = (self.quantities.index(self.quantity) + 1) % len(self.quantities) if self.quantity in self.quantities else 0
-        self._ask(self.quantities[index], self.by)
+        self.quantity = self.quantities[index]  # at once: a second press goes on from here, not from the last answer
+        self._ask_again()
 
     def action_next_grouping(self) -> None:
-        self._ask(self.quantity, GROUPINGS[(GROUPINGS.index(self.by) + 1) % len(GROUPINGS)])
+        self.by = GROUPINGS[(GROUPINGS.index(self.by) + 1) % len(GROUPINGS)]
+        self._ask_again()
+
+    def _ask_again(self) -> None:
+        self.trend, self.problem = None, ""  # until the answer comes
+        self._ask(self.quantity, self.by)
