@@ -252,22 +252,14 @@ def _trend(args) -> int:
 
 
 def _compare(args) -> int:
-    from benchlog.badinput import BadInput
     from benchlog.cli.output import print_json
-    from benchlog.store.lots import compare
-    from benchlog.store.queries import RunFilter, quantity_values
+    from benchlog.store.lots import compare_lots
 
     archive = _open(args)
     try:
-        a = [v.value for v in quantity_values(archive, args.quantity, RunFilter(lot=args.lot_a))]
-        b = [v.value for v in quantity_values(archive, args.quantity, RunFilter(lot=args.lot_b))]
+        c = compare_lots(archive, args.quantity, args.lot_a, args.lot_b, args.usl, args.lsl)
     finally:
         archive.close()
-    for name, values in ((args.lot_a, a), (args.lot_b, b)):
-        if len(values) < 2:
-            raise BadInput(archive.shown_url, f"lot {name!r}", f"{len(values)} runs with {args.quantity}",
-                           "at least two fitted runs per lot")
-    c = compare(args.lot_a, a, args.lot_b, b, args.usl, args.lsl)
 
     def lot(s):
         return {"lot": s.name, "n": s.n, "mean": s.mean, "sd": s.sd, "capability": s.capability_name,

@@ -66,3 +66,15 @@ def chart_text(chart: ControlChart, quantity: str, by: str, runs: int, *, most_l
     return (f" {chart.kind} chart of {quantity} by {by}: {runs} runs in {len(chart.values)} subgroups · centre "
             f"{engineering(chart.centre, unit)} · σ̂ {engineering(chart.sigma, unit, 2)} · limits {LIMITS_SOURCE}, 3σ\n"
             f" run-rule hits (!): {hits}\n subgroups: {labels}{more}")
+
+
+def comparison_text(c, quantity: str, level: float = 0.05) -> str:
+    """Two lots compared (`store.lots.LotComparison`) in one line: A − B with its 95 % expanded uncertainty
+    (Welch–Satterthwaite ν), the test and whether the difference is significant at `level`."""
+    from benchlog.quantity import measured
+
+    unit = unit_of(quantity)
+    verdict = "different" if c.p_two_sided < level else "not shown different"
+    return (f" {c.a.name} − {c.b.name}: {measured(c.difference, c.expanded_u_95, unit, None)} (95 %, "
+            f"ν = {c.dof:.1f}; n = {c.a.n}, {c.b.n}) · {c.test}: t = {c.t:.2f}, p = {c.p_two_sided:.2g} · "
+            f"{verdict} at {level:.0%}")

@@ -178,6 +178,7 @@ async def test_a_run_rule_hit_is_marked_on_the_chart_as_the_cli_flags_it(tmp_pat
     capsys.readouterr()
     want = _cli_json(["archive", "trend", "r_on_ohm", "--by", "lot", "--json", "--db", url], capsys)
     assert any(h["subgroup"] == "L3" and h["rule"] == 1 for h in want["rule_hits"])
+    lots = _cli_json(["archive", "compare-lots", "L2", "L3", "--json", "--db", url], capsys)
     app = _app(url, tmp_path)
     async with app.run_test(size=(100, 32)) as pilot:
         await settle(pilot, app, lambda: len(app.screen.entries) == 15)
@@ -190,6 +191,15 @@ async def test_a_run_rule_hit_is_marked_on_the_chart_as_the_cli_flags_it(tmp_pat
         plot = str(app.screen.query_one("#trend-plot").render())
         legend, canvas = plot.split("\n", 1)
         assert "! run rule" in legend and "!" in canvas  # the hit drawn on the chart itself
+        await pilot.press("c")  # the newest lot against the one before: `archive compare-lots L2 L3`
+        await settle(pilot, app, lambda: app.screen.comparison is not None)
+        c = app.screen.comparison
+        assert (c.a.name, c.b.name) == ("L2", "L3")
+        assert c.difference == pytest.approx(lots["difference"], rel=1e-12)
+        assert c.expanded_u_95 == pytest.approx(lots["difference_expanded_u_95"], rel=1e-12)
+        assert c.p_two_sided == pytest.approx(lots["p_two_sided"], rel=1e-9)
+        line = str(app.screen.query_one("#trend-compare").render())
+        assert line.startswith(" L2 − L3: -") and "Welch's t-test" in line and "different at 5%" in line
 
 
 async def test_w_writes_the_summary_of_the_marked_runs_as_the_cli_does(sample_archive, tmp_path, capsys):

@@ -9,7 +9,7 @@ from textual.widgets import Static
 
 from benchlog.store.queries import GROUPINGS, RunFilter
 
-from ..trendplot import chart_axes, chart_series, chart_text
+from ..trendplot import chart_axes, chart_series, chart_text, comparison_text
 from ..archive_query import filter_text
 from ..plotting import Axis
 from ..widgets import CurvePlot, Plain
@@ -24,6 +24,7 @@ class TrendScreen(AskedScreen):
     BINDINGS = [
         Binding("n", "next_quantity", "Quantity"),
         Binding("g", "next_grouping", "Group by"),
+        Binding("c", "compare_lots", "Last two lots"),
         Binding("escape,t", "app.pop_screen", "Back"),
     ]
 
@@ -35,12 +36,14 @@ class TrendScreen(AskedScreen):
         self.by = "lot"
         self.trend = None  # store.trend.Trend, when the archive gave one
         self.problem = ""
+        self.comparison = None  # store.lots.LotComparison of the last two lots, after c
 
     def body(self) -> ComposeResult:
         plot = CurvePlot(Axis("subgroup", "#"), Axis("value", ""), id="trend-plot")
         plot.empty_text = "reading the archive …"
         yield plot
         yield Plain("", id="trend-text")
+        yield Plain("", id="trend-compare")
 
     def ask(self) -> None:
         self._ask(None, self.by)
@@ -91,6 +94,33 @@ class TrendScreen(AskedScreen):
         self.by = GROUPINGS[(GROUPINGS.index(self.by) + 1) % len(GROUPINGS)]
         self._ask_again()
 
+    def action_compare_lots(self) -> None:
+        """c: the newest lot against the one before it (Welch's t, as `archive compare-lots`), on the chart's
+        quantity and the view's filter."""
+        chart = self.trend.chart if self.trend is not None else None
+        if self.by != "lot" or chart is None or len(chart.labels) < 2:
+            self.app.say("Compare needs the chart by lot with two lots or more (g groups by lot).")
+            return
+        self.comparison = None
+        self._compare(self.quantity, chart.labels[-2], chart.labels[-1])
+
+    @work(thread=True, exclusive=True, group="trend-compare")
+    def _compare(self, quantity: str, lot_a: str, lot_b: str) -> None:
+        from benchlog.store.lots import compare_lots
+
+        try:
+            found, text = compare_lots(self.app.archive_store(), quantity, lot_a, lot_b, flt=self.filter), ""
+        except Exception as exc:  # a lot with fewer than two fitted runs, or the database: one sentence
+            found, text = None, f" No comparison: {sentence(exc)}"
+        if found is not None:
+            text = comparison_text(found, quantity)
+        self.app.call_from_thread(self._compared, found, text)
+
+    def _compared(self, found, text: str) -> None:
+        self.comparison = found
+        self.query_one("#trend-compare", Static).update(text)
+
     def _ask_again(self) -> None:
         self.trend, self.problem = None, ""  # until the answer comes
+        self.query_one("#trend-compare", Static).update("")
         self._ask(self.quantity, self.by)
