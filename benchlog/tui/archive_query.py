@@ -17,7 +17,7 @@ from dataclasses import dataclass, fields, replace
 from pathlib import Path
 
 from benchlog.badinput import BadInput
-from benchlog.store.queries import RunFilter, check_date, until_bound
+from benchlog.store.filters import RunFilter, check_date, until_bound
 
 #: The filter's keys, and what each selects on.
 FILTER_KEYS = {"serial": "serial", "lot": "lot", "kind": "kind", "part": "part", "verdict": "verdict",

@@ -20,7 +20,7 @@ from textual.widgets import DataTable, Input, Static
 from benchlog.badinput import BadInput
 from benchlog.runs.reader import read_summary
 from benchlog.runs.record import RunHeader
-from benchlog.store.queries import RunFilter
+from benchlog.store.filters import RunFilter
 
 from ..archive_query import LIST_LIMIT, filter_text, listing_filter, matches, parse_filter, worst_verdict
 

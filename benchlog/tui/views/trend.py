@@ -7,7 +7,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.widgets import Static
 
-from benchlog.store.queries import GROUPINGS, RunFilter
+from benchlog.store.filters import GROUPINGS, RunFilter
 
 from ..trendplot import chart_axes, chart_series, chart_text, comparison_text
 from ..archive_query import filter_text
