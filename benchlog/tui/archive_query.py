@@ -2,8 +2,9 @@
 
 The archive is the one the CLI would use, with the bench's own: `--db URL`, else
 the bench file's `[archive].url`, else `BENCHLOG_DB`, else the embedded default
-`benchlog-archive.sqlite` when that file exists in the current folder. With none
-of these the view lists the run folder, as before. The filter is typed as words:
+`benchlog-archive.sqlite` when that file exists in the current folder (unless a
+run folder was named with `--runs`). With none of these the view lists the run
+folder, as before. The filter is typed as words:
 `lot:L07 kind:pmos verdict:fail since:2025-03-01` (`key:value`, all must hold);
 a bare word is searched in the serial, lot and part label. The same filter
 selects rows from the database (`store.queries.filtered`, bound parameters) or
@@ -35,9 +36,11 @@ class ArchiveChoice:
     how: str
 
 
-def choose_archive(db: str | None, bench_url: str | None, *, environ=None, here: Path | None = None
-                   ) -> ArchiveChoice | None:
-    """The archive in force for `benchlog ui` (module docstring); None: list the run folder."""
+def choose_archive(db: str | None, bench_url: str | None, *, environ=None, here: Path | None = None,
+                   default_file: bool = True) -> ArchiveChoice | None:
+    """The archive in force for `benchlog ui` (module docstring); None: list the run folder.
+
+    `default_file=False` (the user named a run folder with --runs) leaves the embedded default out."""
     from benchlog.store.connect import DEFAULT_FILE, DEFAULT_URL, ENV_VAR
 
     environ = os.environ if environ is None else environ
@@ -47,7 +50,7 @@ def choose_archive(db: str | None, bench_url: str | None, *, environ=None, here:
         return ArchiveChoice(bench_url, "the bench file's [archive]")
     if environ.get(ENV_VAR):
         return ArchiveChoice(environ[ENV_VAR], ENV_VAR)
-    if ((here or Path.cwd()) / DEFAULT_FILE).is_file():
+    if default_file and ((here or Path.cwd()) / DEFAULT_FILE).is_file():
         return ArchiveChoice(DEFAULT_URL, "the default file here")
     return None
 

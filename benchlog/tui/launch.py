@@ -83,13 +83,13 @@ def run_ui(args) -> int:
 
     from .archive_query import choose_archive
 
-    runs = Path(args.runs)
+    runs = Path(args.runs or "runs")
     bench_url = None
     if args.bench:
         from benchlog.sweep.bench_file import load_bench
 
         bench_url = load_bench(args.bench).archive_url  # a bad bench file is one line before any link opens
-    archive = choose_archive(getattr(args, "db", None), bench_url)
+    archive = choose_archive(getattr(args, "db", None), bench_url, default_file=args.runs is None)
     if archive is not None:
         from benchlog.store.connect import shown_url
 

@@ -277,6 +277,8 @@ def test_the_archive_in_force_is_chosen_as_the_cli_chooses(tmp_path):
     assert choose_archive(None, None, environ={}, here=tmp_path) is None  # nothing configured: the folder
     (tmp_path / "benchlog-archive.sqlite").write_bytes(b"")
     assert choose_archive(None, None, environ={}, here=tmp_path).how == "the default file here"
+    assert choose_archive(None, None, environ={}, here=tmp_path, default_file=False) is None  # --runs DIR given
+    assert choose_archive(None, None, environ=env, here=tmp_path, default_file=False).how == "BENCHLOG_DB"
 
 
 @pytest.mark.parametrize("text, problem", [
