@@ -6,7 +6,10 @@ part, real instrument timing unless `--sim-timing instant`):
 - fixed: `benchlog/demo/plans/lot-inspection.toml`, all five points per part;
 - stop when decided: `benchlog/demo/plans/lot-inspection-sequential.toml`, the same
   points nearest the operating current first, a look after each from the third on
-  (O'Brien-Fleming group-sequential guard band, `benchlog.sweep.sequential`).
+  (O'Brien-Fleming group-sequential guard band, `benchlog.sweep.sequential`), and one
+  sample per reading where the lot plan takes four;
+- fixed, same meter: the lot plan with the sequential plan's meter setting, so the two
+  levers (fewer readings per point, fewer points per part) show apart.
 
 One warm-up part on each side first (not counted): imports and the boundary's
 one-time computation (about half a second, once per process). Bench time per part is the whole `run_sweep` (connect, configure, offset, the points,
@@ -47,8 +50,12 @@ def bench_parts(parts: int, timing: str, tmp: Path) -> dict:
     builtin_bench = _common.builtin_bench_starter()
 
     spec = load_spec(SPEC)
-    plans = {"fixed": load_plan(PLANS / "lot-inspection.toml"),
-             "sequential": load_plan(PLANS / "lot-inspection-sequential.toml")}
+    import dataclasses
+
+    fixed = load_plan(PLANS / "lot-inspection.toml")
+    sequential = load_plan(PLANS / "lot-inspection-sequential.toml")
+    plans = {"fixed": fixed, "sequential": sequential,
+             "fixed_same_meter": dataclasses.replace(fixed, meter=sequential.meter)}
     times = {k: [] for k in plans}
     points = {k: [] for k in plans}
     verdicts = {k: [] for k in plans}
@@ -76,7 +83,9 @@ def bench_parts(parts: int, timing: str, tmp: Path) -> dict:
                      "verdicts": {v: verdicts[side].count(v) for v in ("pass", "fail", "conditional")}}
     out["ratio"] = out["sequential"]["parts_per_hour"] / out["fixed"]["parts_per_hour"]
     out["ratio_median"] = out["fixed"]["median_s"] / out["sequential"]["median_s"]
+    out["ratio_same_meter"] = out["sequential"]["parts_per_hour"] / out["fixed_same_meter"]["parts_per_hour"]
     out["same_verdicts"] = sum(a == b for a, b in zip(verdicts["fixed"], verdicts["sequential"]))
+    out["verdicts_by_part"] = verdicts
     out["parts"] = parts
     return out
 
@@ -123,12 +132,13 @@ def main() -> int:
     parts = 2 if args.quick else args.parts
     with tempfile.TemporaryDirectory() as d:
         lot = bench_parts(parts, args.sim_timing, Path(d))
-    for side in ("fixed", "sequential"):
+    for side in ("fixed", "sequential", "fixed_same_meter"):
         s = lot[side]
-        print(f"{side:10s}: {s['mean_s'] * 1e3:7.1f} ms per part (median {s['median_s'] * 1e3:.1f}), "
+        print(f"{side:16s}: {s['mean_s'] * 1e3:7.1f} ms per part (median {s['median_s'] * 1e3:.1f}), "
               f"{s['parts_per_hour']:7.0f} parts per hour, {s['mean_points']:.2f} points per part, verdicts {s['verdicts']}")
     print(f"ratio {lot['ratio']:.2f}x parts per hour (medians {lot['ratio_median']:.2f}x) ({parts} parts, {args.sim_timing} sim timing); "
           f"same verdict on {lot['same_verdicts']} of {parts} parts")
+    print(f"against the lot plan with the same meter setting (the stopping alone): {lot['ratio_same_meter']:.2f}x")
     size = 20_000 if args.quick else 1_000_000
     wrong = wrong_decisions(size)
     for key, row in wrong.items():

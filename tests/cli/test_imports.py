@@ -77,3 +77,26 @@ def test_html_report_needs_neither_the_pdf_backend_nor_the_design_review(tmp_pat
     assert "matplotlib.backends.backend_pdf" not in modules
     assert "benchlog.analysis.design" not in modules
     assert not tops(modules) & {"scipy", "pandas", "textual"}
+
+
+def test_each_command_is_registered_by_the_module_the_table_names():
+    # `benchlog lot ...` builds only its module's subparsers (COMMAND_MODULE): the table must list
+    # every command of the full parser, and building one module must give that command the same options.
+    from benchlog.cli import COMMAND_MODULE, build_parser
+
+    full = build_parser()._subparsers._group_actions[0].choices
+    assert set(COMMAND_MODULE) == set(full)
+    for name in full:
+        alone = build_parser(name)._subparsers._group_actions[0].choices
+        assert name in alone
+        assert alone[name].format_help() == full[name].format_help()
+
+
+def test_an_unknown_command_still_names_every_command(capsys):
+    from benchlog.cli import COMMAND_MODULE, main
+
+    with pytest.raises(SystemExit) as exc:
+        main(["no-such-command"])
+    assert exc.value.code == 2
+    err = capsys.readouterr().err
+    assert all(repr(name) in err for name in COMMAND_MODULE)
