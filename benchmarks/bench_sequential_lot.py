@@ -108,7 +108,7 @@ def near_limit(parts: int, timing: str, tmp: Path, seed: int = 14) -> dict:
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.session import run_sweep
 
-    builtin_bench = _builtin_bench()
+    builtin_bench = _common.builtin_bench_starter()
     fixed = load_plan(PLANS / "lot-inspection.toml")
     sequential = load_plan(PLANS / "lot-inspection-sequential.toml")
     op = float(fixed.element.operating_a)
