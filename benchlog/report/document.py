@@ -14,6 +14,8 @@ from typing import TYPE_CHECKING, Literal, Union
 if TYPE_CHECKING:  # the document's types only; drawing imports matplotlib where it draws
     from matplotlib.figure import Figure
 
+    from .chart import Chart
+
 ParagraphKind = Literal["text", "note", "warning", "safety"]
 
 
@@ -47,7 +49,7 @@ class FigureBlock:
     """A figure and its caption; `name` is a short file-friendly id ("vi", "loss", ...)."""
 
     name: str
-    figure: Figure
+    figure: "Chart | Figure"  # a chart (report.chart) or a matplotlib figure
     caption: str = ""
 
 

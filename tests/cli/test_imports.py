@@ -71,9 +71,44 @@ def test_check_and_lot_import_no_scipy_pandas_or_plotting(args):
     assert "benchlog.analysis.design" not in modules
 
 
-def test_html_report_needs_neither_the_pdf_backend_nor_the_design_review(tmp_path):
+def test_html_report_needs_neither_matplotlib_nor_the_design_review(tmp_path):
+    # the figures of an HTML report are written by our own SVG writer (report/svgchart.py)
     modules = loaded("report", str(RUNS / "pmos-prototype.run"), "-o", str(tmp_path / "r.html"))
-    assert "matplotlib" in modules  # the figures
-    assert "matplotlib.backends.backend_pdf" not in modules
+    assert "benchlog.report.svgchart" in modules
     assert "benchlog.analysis.design" not in modules
-    assert not tops(modules) & {"scipy", "pandas", "textual"}
+    assert not tops(modules) & {"matplotlib", "scipy", "pandas", "textual"}
+    lot = loaded("report", *(str(p) for p in sorted((RUNS / "lot-demo-07").glob("*.run"))), "--spec", str(SPEC),
+                 "-o", str(tmp_path / "lot.html"))
+    assert not tops(lot) & {"matplotlib", "scipy", "pandas", "textual"}
+
+
+def test_png_figures_and_a_pdf_do_draw_with_matplotlib(tmp_path):
+    # the other side: PNG files and the PDF are matplotlib's (the PDF backend only for a PDF)
+    png = loaded("report", str(RUNS / "pmos-prototype.run"), "-o", str(tmp_path / "r.html"),
+                 "--figures", str(tmp_path / "figs"))
+    assert "matplotlib.backends.backend_agg" in png and "matplotlib.backends.backend_pdf" not in png
+    assert "matplotlib.backends.backend_pdf" in loaded("report", str(RUNS / "pmos-prototype.run"),
+                                                       "-o", str(tmp_path / "r.pdf"))
+
+
+def test_each_command_is_registered_by_the_module_the_table_names():
+    # `benchlog lot ...` builds only its module's subparsers (COMMAND_MODULE): the table must list
+    # every command of the full parser, and building one module must give that command the same options.
+    from benchlog.cli import COMMAND_MODULE, build_parser
+
+    full = build_parser()._subparsers._group_actions[0].choices
+    assert set(COMMAND_MODULE) == set(full)
+    for name in full:
+        alone = build_parser(name)._subparsers._group_actions[0].choices
+        assert name in alone
+        assert alone[name].format_help() == full[name].format_help()
+
+
+def test_an_unknown_command_still_names_every_command(capsys):
+    from benchlog.cli import COMMAND_MODULE, main
+
+    with pytest.raises(SystemExit) as exc:
+        main(["no-such-command"])
+    assert exc.value.code == 2
+    err = capsys.readouterr().err
+    assert all(repr(name) in err for name in COMMAND_MODULE)
