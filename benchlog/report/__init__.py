@@ -1,4 +1,4 @@
-"""Figures (our own SVG for HTML, matplotlib for PNG and PDF) and the self-contained report (HTML or PDF) for one or more runs.
+"""Figures (matplotlib) and the self-contained report (HTML or PDF) for one or more runs.
 
     from benchlog.report import build_report, write_report
     doc = build_report(["a.run", "b.run"], spec_path="part.toml")
@@ -26,7 +26,7 @@ __all__ = [
 
 
 def __getattr__(name: str):
-    """`build_report` (the analysis and the figures) and `plan_pages` / `write_pdf` (the PDF backend) load on
+    """`build_report` (the figures: matplotlib) and `plan_pages` / `write_pdf` (the PDF backend) load on
     first use, not with the package: `benchlog lot` reads runs through `report.lot_runs` and draws nothing,
     so even the document's dataclasses wait until asked for."""
     if name in _DOCUMENT_NAMES:

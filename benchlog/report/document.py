@@ -14,8 +14,6 @@ from typing import TYPE_CHECKING, Literal, Union
 if TYPE_CHECKING:  # the document's types only; drawing imports matplotlib where it draws
     from matplotlib.figure import Figure
 
-    from .chart import Chart
-
 ParagraphKind = Literal["text", "note", "warning", "safety"]
 
 
@@ -49,7 +47,7 @@ class FigureBlock:
     """A figure and its caption; `name` is a short file-friendly id ("vi", "loss", ...)."""
 
     name: str
-    figure: "Chart | Figure"  # a chart (report.chart) or a matplotlib figure
+    figure: Figure
     caption: str = ""
 
 

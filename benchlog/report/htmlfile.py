@@ -3,8 +3,7 @@
 Every piece of text is passed through `html.escape` (quotes included) because
 much of it comes from users and instruments: a serial number, an operator note
 or a *IDN? reply must show as text and never become markup. Figures are inlined
-as SVG (our writer, `svgchart`, and matplotlib both escape the text they write into
-SVG); the XML prolog, DOCTYPE
+as SVG (matplotlib escapes the text it writes into SVG); the XML prolog, DOCTYPE
 and namespace declarations are removed because HTML5 puts inline `<svg>` in the
 SVG namespace by itself, and ids are prefixed per figure so that several
 figures on one page never share an id.
@@ -61,7 +60,7 @@ _URL = re.compile(r"url\(#([^)]+)\)")
 
 
 def inline_svg(svg: bytes | str, prefix: str) -> str:
-    """An SVG figure made fit to sit inside HTML: no prolog, no namespace URLs, ids made unique."""
+    """matplotlib SVG made fit to sit inside HTML: no prolog, no namespace URLs, ids made unique."""
     text = svg.decode("utf-8") if isinstance(svg, bytes) else svg
     text = _PROLOG.sub("", text, count=1)
     text = _COMMENT.sub("", text)
