@@ -55,10 +55,7 @@ class Chart:
         self.figure_calls: list[Call] = []
         self._figure = None
 
-    def add_subplot(self, *position: int) -> ChartAxes:
-        """One axes filling the figure (`add_subplot()` or `add_subplot(1, 1, 1)`); a grid is matplotlib's job."""
-        if position not in ((), (1, 1, 1), (111,)):
-            self.figure_calls.append(("add_subplot", position, {}))
+    def add_subplot(self) -> ChartAxes:
         ax = ChartAxes()
         self.chart_axes.append(ax)
         return ax
@@ -80,11 +77,8 @@ class Chart:
 
             fig = Figure(figsize=self.figsize, dpi=self.dpi, layout="constrained")
             subplots = next((c for c in self.figure_calls if c[0] == "subplots"), None)
-            positions = [c[1] for c in self.figure_calls if c[0] == "add_subplot"]
             if subplots is not None:
                 axes = list(fig.subplots(*subplots[1]).flat)
-            elif positions:
-                axes = [fig.add_subplot(*pos) for pos in positions]
             else:
                 axes = [fig.add_subplot() for _ in self.chart_axes]
             for recorded, ax in zip(self.chart_axes, axes):
@@ -94,7 +88,7 @@ class Chart:
                     else:
                         getattr(ax, name)(*args, **kwargs)
             for name, args, kwargs in self.figure_calls:
-                if name not in ("subplots", "add_subplot"):
+                if name != "subplots":
                     getattr(fig, name)(*args, **kwargs)
             self._figure = fig
         return self._figure

@@ -154,9 +154,6 @@ def render_svg(chart: Chart) -> bytes | None:
     calls = chart.chart_axes[0].calls
     if any(name not in KNOWN for name, _, _ in calls):
         return None
-    # matplotlib's format strings ("o-", "s--") and fmt= are matplotlib's to read
-    if any(name in ("plot", "errorbar") and (len(args) != 2 or "fmt" in kw) for name, args, kw in calls):
-        return None
     try:
         return _render(chart, calls)
     except (KeyError, TypeError, ValueError):

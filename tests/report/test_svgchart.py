@@ -107,16 +107,3 @@ def test_the_plain_report_page_draws_without_matplotlib_and_png_with_it(tmp_path
     assert svg == render_svg(chart)
     png = figures.render(chart, "png")
     assert png[:8] == b"\x89PNG\r\n\x1a\n"
-
-
-def test_format_strings_and_log_axes_are_left_to_matplotlib():
-    chart = Chart((7.0, 4.4), 110)
-    ax = chart.add_subplot(1, 1, 1)
-    ax.plot([1, 2], [1, 2], "s--", label="spec")
-    assert render_svg(chart) is None
-    chart = Chart((7.0, 4.4), 110)
-    ax = chart.add_subplot(1, 1, 1)
-    ax.plot([1, 2], [1, 10], color="#000000")
-    ax.set_yscale("log")
-    assert render_svg(chart) is None
-    assert chart.to_figure().axes[0].get_yscale() == "log"  # replayed on matplotlib as called
