@@ -1,25 +1,22 @@
 """The report's figures, drawn with matplotlib's object API (no pyplot, no global state).
 
-Each function takes view values (`report.views`) and returns a `chart.Chart`:
-the Axes calls recorded, so that an HTML report writes them as SVG with our own
-writer (`svgchart`) without importing matplotlib, and anything else (PNG, PDF,
-a call that writer does not draw, any attribute asked of the figure) gets the
-matplotlib `Figure` the same calls make. `render(fig, "png" | "svg")` gives its
-bytes. Axes always name the quantity and its unit; series differ by marker and
-line style so the figure survives a grey-scale printer. PNG goes through the
-Agg renderer.
+Each function takes view values (`report.views`) and returns a `Figure`;
+`render(fig, "png" | "svg")` gives its bytes. Axes always name the quantity and
+its unit; series differ by marker and line style so the figure survives a
+grey-scale printer. PNG goes through the Agg renderer.
 """
 
 from __future__ import annotations
 
 import io
 from pathlib import Path
-from typing import TYPE_CHECKING, Sequence
+from typing import Sequence
 
 import numpy as np
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
 
 from . import style
-from .chart import Chart, as_figure
 from .style import plain
 from .views import (
     CandidateView,
@@ -31,9 +28,6 @@ from .views import (
     SpecCurve,
 )
 
-if TYPE_CHECKING:
-    from matplotlib.figure import Figure
-
 FIGSIZE = (7.0, 4.4)
 DPI = 110
 
@@ -42,8 +36,9 @@ DROP_LABEL = "Drop across the element V (V)"
 LOSS_LABEL = "Loss P = V·I (W)"
 
 
-def _new_figure(figsize=FIGSIZE) -> Chart:
-    return Chart(figsize, DPI)
+def _new_figure(figsize=FIGSIZE) -> Figure:
+    fig = Figure(figsize=figsize, dpi=DPI, layout="constrained")
+    return fig
 
 
 def _legend(ax) -> None:
@@ -88,7 +83,7 @@ def vi_figure(
     predicted: SpecCurve | None = None,
     *,
     title: str = "",
-) -> Chart:
+) -> Figure:
     """Drop against current: the measured points, the fit with its k·u band, and the spec's curves."""
     fig = _new_figure()
     ax = fig.add_subplot()
@@ -119,7 +114,7 @@ def loss_figure(
     operating: OperatingPoint | None = None,
     *,
     title: str = "",
-) -> Chart:
+) -> Figure:
     """Loss against current, measured (points and fit with band) against predicted, operating point marked."""
     fig = _new_figure()
     ax = fig.add_subplot()
@@ -163,7 +158,7 @@ def loss_figure(
     return fig
 
 
-def residuals_figure(residuals: Residuals, *, title: str = "") -> Chart:
+def residuals_figure(residuals: Residuals, *, title: str = "") -> Figure:
     """Residuals of the fit in mV against current, with the ±k·u lines of one reading when known."""
     fig = _new_figure((7.0, 3.4))
     ax = fig.add_subplot()
@@ -188,7 +183,7 @@ def residuals_figure(residuals: Residuals, *, title: str = "") -> Chart:
     return fig
 
 
-def lot_figure(lot: LotView, *, title: str = "") -> Chart:
+def lot_figure(lot: LotView, *, title: str = "") -> Figure:
     """Histogram of one parameter over a lot, the spec limits as vertical lines, Cpk in the title."""
     fig = _new_figure()
     ax = fig.add_subplot()
@@ -220,7 +215,7 @@ def lot_figure(lot: LotView, *, title: str = "") -> Chart:
     return fig
 
 
-def design_figure(candidates: Sequence[CandidateView], *, title: str = "") -> Chart:
+def design_figure(candidates: Sequence[CandidateView], *, title: str = "") -> Figure:
     """Candidates side by side: loss, junction temperature against Tj max, and margins to the ratings."""
     fig = _new_figure((9.0, 4.2))
     axes = fig.subplots(1, 3)
@@ -274,7 +269,7 @@ def overlay_figure(
     fits: Sequence[FitCurve | None] = (),
     *,
     title: str = "",
-) -> Chart:
+) -> Figure:
     """Several runs on one V–I axis; run i has its own marker and line style (its fit line, if any)."""
     fig = _new_figure()
     ax = fig.add_subplot()
@@ -286,8 +281,8 @@ def overlay_figure(
         if fit is not None:
             ax.plot(fit.current_a, fit.drop_v, linestyle=st.linestyle, color=st.color, linewidth=1.2)
         # one legend entry per run showing both its marker and its line style
-        ax.legend_entry(marker=st.marker, linestyle=st.linestyle if fit is not None else "none",
-                        color=st.color, markerfacecolor="none", label=plain(series.label))
+        ax.add_line(Line2D([], [], marker=st.marker, linestyle=st.linestyle if fit is not None else "none",
+                           color=st.color, markerfacecolor="none", label=plain(series.label)))
     ax.set_xlabel(CURRENT_LABEL)
     ax.set_ylabel(DROP_LABEL)
     ax.set_title(plain(title or f"Overlay of {len(runs)} runs"))
@@ -306,7 +301,7 @@ def band_figure(
     quantiles: tuple[float, float] = (0.10, 0.90),
     count: int = 0,
     title: str = "",
-) -> Chart:
+) -> Figure:
     """Many runs as their median fitted curve and a quantile band; the runs in `alone` (outliers) drawn one by one.
 
     A band with one median line stays readable at 20 or 200 parts where one trace per
@@ -343,22 +338,10 @@ _SVG_RC = {"svg.fonttype": "none", "svg.hashsalt": "benchlog"}
 _NO_METADATA_SVG = {"Date": None, "Creator": None, "Format": None, "Type": None}
 
 
-def render(fig: "Chart | Figure", fmt: str) -> bytes:
-    """The figure as PNG (Agg) or SVG bytes; SVG keeps text as text so it stays searchable.
-
-    A chart our own SVG writer can draw is written without matplotlib; the rest is drawn by it.
-    """
-    if fmt == "svg" and isinstance(fig, Chart):
-        from .svgchart import render_svg
-
-        svg = render_svg(fig)
-        if svg is not None:
-            return svg
-    if fmt not in ("png", "svg"):
-        raise ValueError(f"unknown figure format {fmt!r} (png or svg)")
+def render(fig: Figure, fmt: str) -> bytes:
+    """The figure as PNG (Agg) or SVG bytes; SVG keeps text as text so it stays searchable."""
     import matplotlib
 
-    fig = as_figure(fig)
     buf = io.BytesIO()
     if fmt == "png":
         fig.savefig(buf, format="png", metadata={"Software": None})
@@ -370,7 +353,7 @@ def render(fig: "Chart | Figure", fmt: str) -> bytes:
     return buf.getvalue()
 
 
-def save(fig: "Chart | Figure", path: str | Path) -> Path:
+def save(fig: Figure, path: str | Path) -> Path:
     """Write the figure to `path`; the suffix (.png or .svg) picks the format."""
     path = Path(path)
     fmt = path.suffix.lower().lstrip(".")

@@ -16,7 +16,6 @@ from pathlib import Path
 from matplotlib.backends.backend_pdf import PdfPages
 from matplotlib.figure import Figure
 
-from .chart import as_figure
 from .document import Block, Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
 
 #: A4 portrait, in inches.
@@ -129,7 +128,7 @@ def _draw_text_page(page: TextPage) -> Figure:
 
 def _save_figure_page(pdf: PdfPages, page: FigurePage) -> None:
     """Save a figure with its caption under it, leaving the figure as it was."""
-    fig = as_figure(page.block.figure)  # a chart is drawn by matplotlib for the PDF
+    fig = page.block.figure
     engine = fig.get_layout_engine()
     old_rect = engine.get().get("rect") if engine is not None else None
     if engine is not None and old_rect is not None:

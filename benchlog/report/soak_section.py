@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
-from typing import TYPE_CHECKING
+from matplotlib.figure import Figure
 
 from benchlog.analysis.thermal_response import SoakError, SoakResult, analyse_soak, has_soak
 
@@ -13,11 +13,8 @@ from .figures import _legend, _new_figure
 from .style import plain
 from .text import number, with_uncertainty
 
-if TYPE_CHECKING:
-    from .chart import Chart
 
-
-def soak_figure(r: SoakResult, *, title: str = "") -> "Chart":
+def soak_figure(r: SoakResult, *, title: str = "") -> Figure:
     """ΔTj from the drift against time since the current step, the fitted response, and the cooling."""
     fig = _new_figure((7.0, 3.6))
     ax = fig.add_subplot()
