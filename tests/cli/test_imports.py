@@ -100,3 +100,23 @@ def test_an_unknown_command_still_names_every_command(capsys):
     assert exc.value.code == 2
     err = capsys.readouterr().err
     assert all(repr(name) in err for name in COMMAND_MODULE)
+
+
+def test_check_of_a_plain_run_loads_no_soak_or_sweep_analysis():
+    modules = loaded("check", str(RUNS / "pmos-prototype.run"), "--spec", str(SPEC), "--json")
+    assert not modules & {"benchlog.analysis.thermal_response", "benchlog.analysis.input_sweep",
+                          "benchlog.analysis.leakage_sweep"}
+
+
+@pytest.mark.parametrize("run", sorted(p.relative_to(RUNS).as_posix() for p in RUNS.rglob("*.run")))
+def test_the_short_cut_gives_what_the_sweep_and_soak_analyses_give(run):
+    """A run whose plan has no input sweep, reverse step or soak skips those analyses: the answer is the same."""
+    from benchlog.analysis.thermal_response import has_soak
+    from benchlog.cli.soak_out import soak_block
+    from benchlog.cli.sweeps_out import sweeps_payload
+    from benchlog.report.sweeps_data import sweeps_payload as full_payload
+    from benchlog.runs import load_points
+
+    frame, meta = load_points(RUNS / run)
+    assert sweeps_payload(frame, meta) == full_payload(frame, meta)
+    assert (soak_block(frame, meta)[0] is None) == (not has_soak(frame))
