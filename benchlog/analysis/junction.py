@@ -38,7 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from benchlog.ambient import DEFAULT_AMBIENT_HALF_WIDTH_K
-from benchlog.quantity import with_standard
+from benchlog.quantity import p_value, with_standard
 
 TJ_SOURCES = ("measured", "inferred", "assumed")
 
@@ -245,15 +245,15 @@ def junction_temperature(
         u = math.hypot(ambient_u_c, heating.u_c)
         return JunctionTemperature(ambient_c + heating.rise_c, u, "inferred",
                                    f"ambient {ambient_c:g} °C plus the sweep's own heating "
-                                   f"{heating.rise_c:.3g} ± {heating.u_c:.2g} K seen in the drop "
-                                   f"(p = {heating.p_value:.2g}); {ambient_why}")
+                                   f"{with_standard(heating.rise_c, heating.u_c, 'K')} seen in the drop "
+                                   f"({p_value(heating.p_value)}); {ambient_why}")
     if heating is not None:
         # a bend of the other sign is not heating (the model fits less well there): only a rise counts
         unresolved = math.hypot(max(heating.rise_c, 0.0), heating.u_c)
         u = math.hypot(ambient_u_c, unresolved)
         return JunctionTemperature(ambient_c, u, "assumed",
                                    f"the ambient; the sweep's own heating is below resolution "
-                                   f"({heating.rise_c:+.2g} ± {heating.u_c:.2g} K, p = {heating.p_value:.2g}) "
+                                   f"({with_standard(heating.rise_c, heating.u_c, 'K')}, {p_value(heating.p_value)}) "
                                    f"and kept in u; {ambient_why}")
     if steady_rise_c is not None and steady_rise_c > 0:
         # untested: the steady-state rise P·RθJA bounds what any sweep can reach (rectangular, GUM 4.3.7)
