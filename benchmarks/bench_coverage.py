@@ -41,11 +41,28 @@ SPECS = {
     "rectifier": "demo-rect-3a.toml",
 }
 DEMO = _common.REPO / "benchlog" / "demo"
-DEFAULT_DIR = "/tmp/benchlog-coverage"
+DEFAULT_DIR = "/tmp/benchlog-coverage-{timing}"  # {timing}: real or instant, never mixed
 
 
-def record(kind: str, seeds: range, out: Path) -> None:
-    """One real sweep per seed; the run file and the simulator's final junction temperature are kept."""
+def record(kind: str, seeds: range, out: Path, jobs: int = 1, timing: str = "real") -> None:
+    """One real sweep per seed, in `jobs` processes at once; the run file and the sim's final Tj are kept.
+
+    Real-time sweeps mostly wait (settling, integration), so several at once fit in the time; each
+    process runs its own simulated bench on its own loopback ports.
+    """
+    seeds = list(seeds)
+    if jobs <= 1:
+        _record_seeds(kind, seeds, out, timing)
+        return
+    from concurrent.futures import ProcessPoolExecutor
+
+    with ProcessPoolExecutor(max_workers=jobs) as pool:
+        for done in pool.map(_record_seeds, [kind] * jobs, [seeds[i::jobs] for i in range(jobs)],
+                             [out] * jobs, [timing] * jobs):
+            pass
+
+
+def _record_seeds(kind: str, seeds: list[int], out: Path, timing: str) -> None:
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.session import run_sweep
     from benchlog.cli.simbench import builtin_bench, sim_wiring
@@ -59,8 +76,7 @@ def record(kind: str, seeds: range, out: Path) -> None:
         target.mkdir(exist_ok=True)
         for old in target.glob("*"):
             old.unlink()
-        # instant timing: the figures in RESULTS.md §8 were recorded so (see the note there on real timing)
-        setup, running = builtin_bench(plan.element, seed, wiring=sim_wiring(plan.element), timing="instant")
+        setup, running = builtin_bench(plan.element, seed, wiring=sim_wiring(plan.element), timing=timing)
         try:
             result = run_sweep(plan, setup, target)
             junction = running.bench.junction_c
@@ -148,6 +164,9 @@ def main() -> int:
     p.add_argument("--kinds", default="pmos,resistor,rectifier", help="elements, comma-separated")
     p.add_argument("--dir", default=DEFAULT_DIR, help="where the run files are kept")
     p.add_argument("--judge-only", action="store_true", help="judge the run files already recorded")
+    p.add_argument("--jobs", type=int, default=1, help="sweeps recorded at once (real-time sweeps mostly wait)")
+    p.add_argument("--sim-timing", choices=("real", "instant"), default="real",
+                   help="the simulator's timing (default real, the simulator's default)")
     args = p.parse_args()
     if args.quick:
         import tempfile
@@ -155,6 +174,7 @@ def main() -> int:
         args.sweeps = 3
         if args.dir == DEFAULT_DIR:  # never mix a quick check with kept full-size recordings
             args.dir = tempfile.mkdtemp(prefix="benchlog-coverage-quick-")
+    args.dir = args.dir.format(timing=args.sim_timing)
     kinds = [k for k in args.kinds.split(",") if k]
     for kind in kinds:
         if kind not in PLANS:
@@ -165,7 +185,7 @@ def main() -> int:
         out = Path(args.dir) / kind
         t0 = time.perf_counter()
         if not args.judge_only:
-            record(kind, range(args.sweeps), out)
+            record(kind, range(args.sweeps), out, jobs=args.jobs, timing=args.sim_timing)
         t1 = time.perf_counter()
         fig = judge(kind, out)
         fig["record_s"], fig["judge_s"] = t1 - t0, time.perf_counter() - t1

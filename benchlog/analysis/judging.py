@@ -52,7 +52,7 @@ from .verdict import (
     run_state,
 )
 from .columns import column
-from .tempco import TEMPERATURE_TERM, default_sensitivity  # noqa: F401 - one name for the budget term
+from .tempco import TEMPERATURE_SHAPE, TEMPERATURE_TERM, default_sensitivity  # noqa: F401 - one name for the budget term
 
 #: A test |Vgs| within 2 % of a datasheet point counts as that point (a gate supply's setting and
 #: the drop across the element move it by about that much; ours).
@@ -288,10 +288,10 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
     else:
         sens = abs(tc)
     comps = [c for c in base.components if c.name != TEMPERATURE_TERM]
-    comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c))
+    comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c, shape=TEMPERATURE_SHAPE))
     if not channel and fit.offset_removed:
         comps.append(Component(OFFSET_NOISE_TERM, "A", _reading_sd(fit), float(fit.dof)))
-    budget = combine(comps, fit.k)
+    budget = combine(comps)
 
     gate = None
     bars: list[str] = []
@@ -320,16 +320,18 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
                          f"|Vgs| {gate.spec_vgs_v:g} V")
     if not spec.has_max:
         notes.append("the spec gives no maximum: judged against the typical value")
-    decision = combine(decision_comps, fit.k)
-    k = float(fit.k)
+    decision = combine(decision_comps)
+    k = float(decision.k)  # the guard band U = k_p·u of the comparison's own distribution (ILAC-G8)
+    p = decision.coverage_probability
     if limit is None:
-        v = Verdict("conditional", rule_text("upper", k), quantity, value, decision.expanded_u, k, None, "upper",
-                    f"no limit at the conditions ({limit_at})")
+        v = Verdict("conditional", rule_text("upper", k, p), quantity, value, decision.expanded_u, k, None, "upper",
+                    f"no limit at the conditions ({limit_at})", coverage_probability=p)
     else:
-        v = decide(value, decision.expanded_u, limit, k=k, quantity=quantity, limit_source=limit_at)
+        v = decide(value, decision.expanded_u, limit, k=k, quantity=quantity, limit_source=limit_at,
+                   coverage_probability=p)
         if limit_min is not None:
             low = decide(value, decision.expanded_u, limit_min, side="lower", k=k, quantity=quantity,
-                         limit_source=limit_at)
+                         limit_source=limit_at, coverage_probability=p)
             v = _worse(v, low)
     ext = extrapolation(fit, i_op)
     v = _with_bars(_extrapolated(v, ext), bars)
@@ -427,7 +429,7 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
     s = j.scale()
     drop, u_drop = j.drop_v, j.std_u * s
     loss, u_loss = drop * i, u_drop * i
-    k = float(fit.k)
+    k = float(j.budget.k)  # the measurement's own k_p (the verdict's is the comparison's, j.decision_budget.k)
 
     def scaled(v: Verdict, factor: float, quantity: str) -> Verdict:
         return replace(v, quantity=quantity, measured=v.measured * factor, expanded_u=v.expanded_u * factor,
@@ -444,6 +446,7 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
         part=spec.name, run=str(meta.path), current_a=i,
         current_source=cond.current_source, ambient_c=cond.ambient_c, model=fit.model,
         measured_drop_v=drop, drop_std_u_v=u_drop, measured_loss_w=loss, loss_std_u_w=u_loss, k=k,
+        coverage_probability=j.budget.coverage_probability,
         predicted=heated, unheated=cold, verdict=scaled(j.verdict, s * i, "loss_w"),
         drop_verdict=scaled(j.verdict, s, "drop_v"),
         typical_comparison=typical_comparison(loss, k * u_loss, heated.typical, cold.typical),

@@ -59,6 +59,12 @@ def _check_args(args: argparse.Namespace) -> None:
         raise BadInput("argument", "--tempco", f"is {args.tempco!r}", "a finite, non-zero coefficient")
 
 
+def budget_entries(budget) -> list[dict[str, Any]]:
+    """A budget's terms for JSON: name, type A/B, u, ν and the distribution k_p models it by."""
+    return [{"name": c.name, "type": c.kind, "u": c.u, "dof": c.dof, "distribution": c.distribution}
+            for c in budget.components]
+
+
 def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
     """Fit the run and build the JSON-ready result (also what the human output prints from)."""
     from benchlog.analysis.fits import detect_self_heating, fit_knee, fit_run
@@ -71,16 +77,17 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         "model": fit.model,
         "params": dict(fit.params),
         "std_u": dict(fit.std_u),
+        # k: the headline parameter's coverage factor; every parameter's own k_p is in "k_p"
         "k": fit.k,
+        "coverage_probability": fit.coverage_probability,
+        "k_p": {key: b.k for key, b in fit.budgets.items()},
         "expanded_u": dict(fit.expanded_u),
-        "text": {key: measured(v, fit.expanded_u.get(key), _LABELS.get(key, (key, ""))[1], fit.k)
+        "text": {key: measured(v, fit.expanded_u.get(key), _LABELS.get(key, (key, ""))[1], fit.budgets[key].k,
+                               fit.budgets[key].coverage_probability)
                  for key, v in fit.params.items()},
         "dof_eff": {key: b.dof for key, b in fit.budgets.items()},
         "k_t": {key: b.k_t for key, b in fit.budgets.items()},
-        "budget": {
-            key: [{"name": c.name, "type": c.kind, "u": c.u, "dof": c.dof} for c in b.components]
-            for key, b in fit.budgets.items()
-        },
+        "budget": {key: budget_entries(b) for key, b in fit.budgets.items()},
         "reason": fit.reason,
         "criterion_aicc": dict(fit.criterion),
         "outliers": [int(x) for x in fit.point_index[fit.outliers]],
@@ -109,10 +116,11 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         budget = fit.drop_budget_at(current)
         value, _ = fit.drop_at(current)
         payload["drop_at"].append({"current_a": current, "drop_v": value, "std_u_v": budget.u,
-                                   "expanded_u_v": budget.expanded_u, "loss_w": value * current,
-                                   "budget": [{"name": c.name, "type": c.kind, "u": c.u, "dof": c.dof}
-                                              for c in budget.components],
-                                   "text": measured(value, budget.expanded_u, "V", fit.k)})
+                                   "expanded_u_v": budget.expanded_u, "k": budget.k,
+                                   "coverage_probability": budget.coverage_probability, "loss_w": value * current,
+                                   "budget": budget_entries(budget),
+                                   "text": measured(value, budget.expanded_u, "V", budget.k,
+                                                    budget.coverage_probability)})
     if fit.model == "diode":
         # the straight-line form for the operating range, beside the diode law (issue 4, item 1)
         knee = fit_knee(fit.current_a, fit.drop_v, fit.accuracy, offset_removed=fit.offset_removed,

@@ -36,6 +36,8 @@ from benchlog.sweep.plan import load_plan, parse_plan
 from benchlog.sweep.session import run_sweep
 from benchlog.cli.simbench import builtin_bench
 
+from .monte_carlo import monte_carlo_k
+
 DEMO = Path(benchlog.__file__).parent / "demo"
 PFET = DEMO / "specs" / "demo-pfet-10m.toml"
 
@@ -180,7 +182,13 @@ def test_a_lower_gate_drive_translates_the_limit_within_the_specs_points():
     # the translation's uncertainty is in the comparison's budget: half the correction, rectangular (GUM 4.3.7)
     t = j.decision_budget.component(TRANSLATION_TERM)
     assert t.u == pytest.approx(j.value * abs(factor - 1) / 2 / math.sqrt(3), rel=1e-9)
-    assert j.verdict.expanded_u == pytest.approx(2 * math.hypot(j.std_u, t.u), rel=1e-9)
+    # GUM 5.1.2: the comparison's u adds the translation in quadrature; U = k_p·u of that budget, k_p checked
+    # against a JCGM 101 Monte Carlo with numpy
+    u_dec = math.hypot(j.std_u, t.u)
+    assert j.decision_budget.u == pytest.approx(u_dec, rel=1e-9)
+    k_p = monte_carlo_k([(c.distribution, c.u, c.dof) for c in j.decision_budget.components])
+    assert j.verdict.k == j.decision_budget.k == pytest.approx(k_p, abs=4e-3)
+    assert j.verdict.expanded_u == pytest.approx(j.verdict.k * u_dec, rel=1e-9)
     assert j.outcome == decide(j.value, j.verdict.expanded_u, j.limit).outcome  # ILAC-G8 on those numbers
 
 
