@@ -188,6 +188,12 @@ class FitResult:
             comps.append(Component(TEMPERATURE_TERM, "B", sens * self.tj.u_c, shape=TEMPERATURE_SHAPE))
         return combine(comps)
 
+    def drop_expanded_at(self, current_a: float) -> tuple[float, float, float]:
+        """(drop_v, expanded U, k_p) of the element at `current_a`: U from the drop's own budget (GUM 6.3)."""
+        value = float(self.curve.value(np.array([float(current_a)]))[0])
+        b = self.drop_budget_at(current_a)
+        return value, b.expanded_u, b.k
+
     def drop_at(self, current_a: float) -> tuple[float, float]:
         """(drop_v, standard uncertainty) of the element at `current_a`."""
         value = float(self.curve.value(np.array([float(current_a)]))[0])

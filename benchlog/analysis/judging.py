@@ -356,7 +356,7 @@ def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> float |
     rise_all = np.zeros(t.size)
     rise_all[ok] = rise_at_points(t[ok], np.where(np.isfinite(i * v), i * v, 0.0)[ok],
                                   lambda lag: zth_at(th.zth_t_s, th.zth_k_per_w, th.rth_ja_k_per_w, lag),
-                                  float(off_s or 0.0))
+                                  float(off_s or 0.0), reading_lag_s(meta.header))
     index = column(data, "index")
     index = index.astype(np.int64) if index is not None else np.arange(t.size)
     pos = np.searchsorted(index, fit.point_index)  # a run's index increases strictly (runs/format.py)
@@ -367,6 +367,24 @@ def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> float |
         return projected_rise(fit, rise, lambda ii, vv: r_value * tempco * ii, np.array([0.0, 1.0]),
                               r_value * tempco)
     return projected_rise(fit, rise, lambda ii, vv: np.full_like(ii, tempco), grad, tempco)
+
+
+def reading_lag_s(header) -> float:
+    """How long before its time stamp a point's drop was read, on average: the recorded drop is the
+    mean of the settle rule's last `consecutive` readings, each `samples` integrations of NPLC/f_line
+    (NPLC: integration time in power-line cycles), so its centre lies half of those windows before
+    the last reading ended. 0 when the run does not say; the read-back query after the readings adds
+    a few ms more, left inside the Zth rise's u."""
+    m = header.meter
+    f = header.line_frequency_hz
+    if m is None or m.nplc is None or not f or not math.isfinite(m.nplc) or m.nplc <= 0:
+        return 0.0
+    plan = header.plan
+    rule = plan.table.get("settle") if plan is not None else None
+    consecutive = rule.get("consecutive") if hasattr(rule, "get") else None
+    consecutive = consecutive if isinstance(consecutive, int) and not isinstance(consecutive, bool) \
+        and consecutive >= 1 else 1
+    return 0.5 * consecutive * (m.samples or 1) * m.nplc / float(f)
 
 
 def _worse(upper: Verdict, lower: Verdict) -> Verdict:

@@ -297,10 +297,10 @@ def _lot(args) -> int:
     unit = {"ohm": "Ω", "v": "V"}.get(_unit(s.quantity), "")
     width = max(6, *(len(p.serial) for p in s.parts))
     print(f"{s.outcome.upper()}  lot of {s.n} × {s.part}: {s.quantity}")
-    print(f"  {'serial':<{width}}  {'value (k = 2)':<28}  verdict")
+    print(f"  {'serial':<{width}}  {'value ± U (95.45 % coverage)':<28}  verdict")
     for p in s.parts:
         flag = "  OUTLIER" if p.outlier else ""
-        value = measured(p.value, p.expanded_u, unit).removesuffix(" (k = 2)")
+        value = measured(p.value, p.expanded_u, unit, k=None)  # the heading states the coverage
         print(f"  {p.serial:<{width}}  {value:<28}  {p.outcome}{flag}")
     print(f"  mean {s.mean:.6g} {unit}, σ {_fmt(s.std, '.3g', unit)}, min {s.min:.6g}, max {s.max:.6g}")
     print(f"  limits: USL {_fmt(s.usl, '.6g', unit)}, LSL {_fmt(s.lsl, '.6g', unit)} ({s.limit_source})")

@@ -32,7 +32,8 @@ def register(sub) -> None:
             "Fit the drop-versus-current points of a run file: V = V0 + R·I (resistive), the Shockley "
             "law with series resistance (diode), or the straight line above the knee (knee). 'auto' "
             "picks resistive or diode by AICc and says why. Uncertainties follow the GUM: type A from "
-            "the fit, type B from the meters' accuracy in the run header; expanded with k = 2."
+            "the fit, type B from the meters' accuracy in the run header; expanded for 95.45 % coverage with "
+            "the coverage factor k_p of the budget's combined distribution (GUM 6.3)."
         ),
     )
     p.add_argument("run", metavar="RUN", help="run file (*.run)")

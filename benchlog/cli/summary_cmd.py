@@ -53,15 +53,16 @@ def summary_row(path: str, spec=None) -> dict[str, Any]:
     for key, value in fit.params.items():
         row[key] = value
         row[f"expanded_u_{key}"] = fit.expanded_u.get(key)
-        row[f"{key} (text)"] = measured(value, fit.expanded_u.get(key), unit_of(key), fit.k)
+        row[f"{key} (text)"] = measured(value, fit.expanded_u.get(key), unit_of(key), fit.budgets[key].k,
+                                        fit.budgets[key].coverage_probability)
     current = e.operating_a if e.operating_a is not None else float(fit.current_a.max())
     if e.operating_a is None:
         notes.append("no operating_a in the plan: loss at the largest measured current")
     elif current > float(fit.current_a.max()) * 1.0001:
         notes.append(f"loss extrapolated beyond the largest measured current {float(fit.current_a.max()):g} A")
-    drop, u_drop = fit.drop_at(current)
-    row.update({"operating_a": current, "loss_w": drop * current, "expanded_u_loss_w": fit.k * u_drop * current,
-                "loss": measured(drop * current, fit.k * u_drop * current, "W", fit.k)})
+    drop, big_u, k = fit.drop_expanded_at(current)
+    row.update({"operating_a": current, "loss_w": drop * current, "expanded_u_loss_w": big_u * current,
+                "loss": measured(drop * current, big_u * current, "W", k, fit.coverage_probability)})
     if spec is not None:
         from benchlog.analysis.judging import check_run
 

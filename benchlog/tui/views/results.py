@@ -69,8 +69,9 @@ def check_lines(check) -> list[str]:
     lines = [f" at {si(check.current_a, 'A')} ({check.current_source}), ambient {check.ambient_c:g} °C"]
     if is_extrapolated(check):
         lines.append(f"  ⚠ {check.extrapolation.text()}")
-    lines += [f"  drop {how}     {with_uncertainty(check.measured_drop_v, check.drop_std_u_v, 'V', k)}",
-              f"  loss {how}     {with_uncertainty(check.measured_loss_w, check.loss_std_u_w, 'W', k)}"]
+    p = check.coverage_probability
+    lines += [f"  drop {how}     {with_uncertainty(check.measured_drop_v, check.drop_std_u_v, 'V', k, p)}",
+              f"  loss {how}     {with_uncertainty(check.measured_loss_w, check.loss_std_u_w, 'W', k, p)}"]
     predicted = check.predicted
     for label, point in (("typ", predicted.typical), ("max", predicted.maximum)):
         if point is None or point.loss_w is None:
