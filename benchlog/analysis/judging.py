@@ -60,6 +60,7 @@ GATE_MATCH_FRACTION = 0.02
 
 TRANSLATION_TERM = "gate-drive translation of the limit"
 OFFSET_NOISE_TERM = "zero-offset reading noise"
+FIT_RESIDUALS_TERM = "fit residuals"
 
 
 def is_channel(spec: PartSpec, body_diode: bool) -> bool:
@@ -272,13 +273,16 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
     steady = None
     if spec.thermal.rth_ja_k_per_w is not None and fit.current_a.size:
         steady = float(np.max(np.abs(fit.current_a * fit.drop_v))) * spec.thermal.rth_ja_k_per_w
-    zth_rise = None
+    zth_rise = scatter_ratio = None
     if spec.thermal.zth_t_s is not None and measured is None:
-        zth_rise = _zth_rise(fit, data, meta, spec, value if channel else None, alpha if channel else tc,
-                             None if channel else grad)
+        found = _zth_rise(fit, data, meta, spec, value if channel else None, alpha if channel else tc,
+                          None if channel else grad)
+        if found is not None:
+            zth_rise, scatter_ratio = found
     tj = junction_temperature(cond.ambient_c, u_amb, amb_why, heating, measured, steady, zth_rise,
                               sensor_u_c=case.u_c if case is not None else None,
-                              sensor_why=case.describe() if case is not None else "")
+                              sensor_why=case.describe() if case is not None else "",
+                              zth_u_pct=spec.thermal.zth_u_pct)
     if tj.source == "inferred":
         notes.append(f"heating inside the sweep: the fitted value stands at Tj {tj.value_c:.2f} °C, "
                      f"{tj.value_c - cond.ambient_c:.3g} K above the ambient; the limit is taken there")
@@ -288,6 +292,12 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
     else:
         sens = abs(tc)
     comps = [c for c in base.components if c.name != TEMPERATURE_TERM]
+    if tj.source == "inferred" and zth_rise is not None and scatter_ratio is not None:
+        # the heating the judged value is corrected for is taken out of the type A scatter (GUM 3.2.3)
+        comps = [replace(c, u=c.u * scatter_ratio) if c.name == FIT_RESIDUALS_TERM else c for c in comps]
+        if abs(scatter_ratio - 1.0) > 0.05:
+            notes.append(f"the fit's residual scatter with the Zth heating taken out is {scatter_ratio:.2f} of its "
+                         "own; the type A term uses that")
     comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c, shape=TEMPERATURE_SHAPE))
     if not channel and fit.offset_removed:
         comps.append(Component(OFFSET_NOISE_TERM, "A", _reading_sd(fit), float(fit.dof)))
@@ -339,9 +349,10 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
                      limit_at, v, tuple(bars), ext, tuple(notes))
 
 
-def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> float | None:
-    """The rise the fitted value stands at, from every recorded point's power through the spec's Zth."""
-    from .junction import projected_rise, rise_at_points, zth_at
+def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> tuple[float, float | None] | None:
+    """The rise the fitted value stands at, from every recorded point's power through the spec's Zth, and
+    the residual scatter's ratio once that heating is taken out (`junction.scatter_without_heating`)."""
+    from .junction import projected_rise, rise_at_points, scatter_without_heating, zth_at
 
     t, i, v = column(data, "t_s"), column(data, "current_a"), column(data, "drop_v")
     if t is None or i is None or v is None:
@@ -364,9 +375,10 @@ def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> float |
         return None
     rise = rise_all[pos]
     if r_value is not None:  # a resistance: s_i = R·α·I_i, Q = R
-        return projected_rise(fit, rise, lambda ii, vv: r_value * tempco * ii, np.array([0.0, 1.0]),
-                              r_value * tempco)
-    return projected_rise(fit, rise, lambda ii, vv: np.full_like(ii, tempco), grad, tempco)
+        sens, q_grad, dq_dt = (lambda ii, vv: r_value * tempco * ii), np.array([0.0, 1.0]), r_value * tempco
+    else:
+        sens, q_grad, dq_dt = (lambda ii, vv: np.full_like(ii, tempco)), grad, tempco
+    return projected_rise(fit, rise, sens, q_grad, dq_dt), scatter_without_heating(fit, rise, sens)
 
 
 def reading_lag_s(header) -> float:

@@ -11,8 +11,9 @@ Three sources, in order of preference:
     pulses, ΔT(t_k) = Σ_j P_j·(Zth(t_k − s_j) − Zth(t_k − e_j)) (the superposition
     of step responses, common practice for pulse trains; e.g. JESD51-14's use of
     the thermal step response, from memory), and the rise the fitted value stands
-    at by projecting s_i·ΔT_i on the model as below; u is 20 % of that rise
-    (a datasheet's Zth curve is typical, parts differ by about that much, from memory);
+    at by projecting s_i·ΔT_i on the model as below; u is the spec's `zth_u_pct`
+    of that rise, else 20 % (a datasheet's Zth curve is typical, parts differ by
+    about that much, from memory);
   - `inferred` from the sweep's own heating seen in the drop — the residuals of the
     fit regressed on the heating shape s(I)·P (s the drop's temperature
     sensitivity at each point, P = I·V; ΔT = θ·P in the steady state), after
@@ -136,6 +137,34 @@ def projected_rise(fit, rows_rise: np.ndarray, sensitivity, quantity_gradient, d
     return float(np.asarray(quantity_gradient, dtype=float) @ coef) / dq_dt
 
 
+def scatter_without_heating(fit, rows_rise: np.ndarray, sensitivity) -> float | None:
+    """s'/s: the fit's residual scatter once the known heating is taken out of the residuals, over its own.
+
+    Heating inside a sweep bends the drop by s_i·ΔT_i; the part of that bend the model cannot follow
+    (its component orthogonal to the model's directions, as in `projected_rise`) stays in the
+    residuals and would be counted again in the type A term, although the judged value already stands
+    at the Tj that heating reached (GUM 3.2.3: a known systematic effect is corrected, not counted as
+    scatter). The type A term scales with s (GUM H.3: the covariance is s²·(XᵀWX)⁻¹), so it is
+    multiplied by this ratio. None when there is nothing to compare.
+    """
+    keep = ~fit.outliers
+    if fit.excluded is not None:
+        keep = keep & ~fit.excluded
+    i, v = fit.current_a[keep], fit.drop_v[keep]
+    e = np.asarray(fit.residuals_v, dtype=float)[keep]
+    z = np.asarray(sensitivity(i, v), dtype=float) * rows_rise[keep]
+    basis = fit.curve.gradient(i)
+    if fit.weights is not None:
+        sw = np.sqrt(fit.weights[keep])
+        z, basis, e = z * sw, basis * sw[:, None], e * sw
+    coef, *_ = np.linalg.lstsq(basis, z, rcond=None)
+    z_perp = z - basis @ coef
+    sse = float(e @ e)
+    if not sse > 0 or e.size <= basis.shape[1]:
+        return None
+    return math.sqrt(float((e - z_perp) @ (e - z_perp)) / sse)
+
+
 def ambient_u(value: float | None, simulated: bool) -> tuple[float, str]:
     """Standard uncertainty of the recorded ambient (the plan's `ambient_u_c`, None: not stated), and why."""
     if value is not None and math.isfinite(value) and value >= 0:
@@ -202,6 +231,7 @@ def junction_temperature(
     *,
     sensor_u_c: float | None = None,
     sensor_why: str = "",
+    zth_u_pct: float | None = None,
 ) -> JunctionTemperature:
     """Choose Tj: measured temperatures when recorded, else inferred from the drop, else assumed (module docstring)."""
     if measured_c is not None:
@@ -220,11 +250,14 @@ def junction_temperature(
                                        f"and the sensor's {sensor:.2g} K ({stated}); the case is taken as "
                                        f"the junction (no junction-to-case rise added)")
     if zth_rise_c is not None:
-        u_rise = ZTH_RELATIVE_U * abs(zth_rise_c)
+        stated = zth_u_pct is not None and math.isfinite(zth_u_pct)
+        rel = zth_u_pct / 100.0 if stated else ZTH_RELATIVE_U
+        u_rise = rel * abs(zth_rise_c)
         u = math.hypot(ambient_u_c, u_rise)
+        whence = "the spec's zth_u_pct" if stated else "a datasheet's typical curve, the default"
         return JunctionTemperature(ambient_c + zth_rise_c, u, "inferred",
                                    f"ambient {ambient_c:g} °C plus the sweep's own heating {zth_rise_c:.3g} K "
-                                   f"(± {ZTH_RELATIVE_U * 100:g} %) from the recorded power and the spec's "
+                                   f"(u {rel * 100:g} %, {whence}) from the recorded power and the spec's "
                                    f"transient thermal impedance; {ambient_why}")
     if heating is not None and heating.significant:
         u = math.hypot(ambient_u_c, heating.u_c)
