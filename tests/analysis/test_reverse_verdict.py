@@ -143,3 +143,28 @@ def test_report_headline_names_the_reverse_result(tmp_path):
 
     verdict = next(b for b in blocks(doc.sections) if isinstance(b, VerdictBlock))
     assert verdict.outcome == "conditional" and "reverse CONDITIONAL" in verdict.headline
+
+
+def test_a_lot_part_whose_reverse_leakage_fails_fails_the_lot(tmp_path):
+    # One judging path: a part's verdict in `lot` is the worse of forward and reverse, as `check` gives it.
+    # The sample's reverse reading, raised to 1 mA at 12 V: 200× the spec's 5 µA at 25 °C (the plan's own
+    # limit of 0.1 mA is exceeded too), so the reverse verdict fails whatever the guard band.
+    text = SAMPLE.read_text(encoding="utf-8")
+    line = next(s for s in text.splitlines() if s.startswith('{"record":"reverse"'))
+    leaky = json.loads(line)
+    leaky.update(current_a=1e-3, passed=False)
+    bad = tmp_path / "rectifier-leaky.run"
+    bad.write_text(text.replace(line, json.dumps(leaky, separators=(",", ":"))), encoding="utf-8")
+    good = SAMPLE.parent / "rectifier-prototype.run"
+    code, out, _ = cli("check", bad, "--spec", RECT, "--json")
+    c = json.loads(out)
+    assert c["forward_verdict"] == "pass" and c["reverse"]["verdict"] == "fail" and c["verdict"] == "fail"
+    code, out, _ = cli("lot", good, SAMPLE, bad, "--spec", RECT, "--json")
+    lot = json.loads(out)
+    by_run = {Path(p["run"]).name: p["verdict"] for p in lot["parts"]}
+    # the same verdict as check gives each run: the leaky part fails, the sample's conditional reverse stays
+    assert by_run == {good.name: "pass", SAMPLE.name: "conditional", bad.name: "fail"}
+    assert lot["verdict"] == "fail" and code != 0
+    assert any("worse of forward and reverse" in n and "reverse not passed" in n for n in lot["notes"])
+    code, text_out, _ = cli("lot", good, bad, "--spec", RECT)
+    assert text_out.startswith("FAIL")
