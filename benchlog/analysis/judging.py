@@ -273,16 +273,16 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
     steady = None
     if spec.thermal.rth_ja_k_per_w is not None and fit.current_a.size:
         steady = float(np.max(np.abs(fit.current_a * fit.drop_v))) * spec.thermal.rth_ja_k_per_w
-    zth_rise = scatter_ratio = None
+    zth_rise = zth_timing_u = scatter_ratio = None
     if spec.thermal.zth_t_s is not None and measured is None:
         found = _zth_rise(fit, data, meta, spec, value if channel else None, alpha if channel else tc,
                           None if channel else grad)
         if found is not None:
-            zth_rise, scatter_ratio = found
+            zth_rise, zth_timing_u, scatter_ratio = found
     tj = junction_temperature(cond.ambient_c, u_amb, amb_why, heating, measured, steady, zth_rise,
                               sensor_u_c=case.u_c if case is not None else None,
                               sensor_why=case.describe() if case is not None else "",
-                              zth_u_pct=spec.thermal.zth_u_pct)
+                              zth_u_pct=spec.thermal.zth_u_pct, zth_timing_u_c=zth_timing_u)
     if tj.source == "inferred":
         notes.append(f"heating inside the sweep: the fitted value stands at Tj {tj.value_c:.2f} °C, "
                      f"{tj.value_c - cond.ambient_c:.3g} K above the ambient; the limit is taken there")
@@ -349,9 +349,17 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
                      limit_at, v, tuple(bars), ext, tuple(notes))
 
 
-def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> tuple[float, float | None] | None:
-    """The rise the fitted value stands at, from every recorded point's power through the spec's Zth, and
-    the residual scatter's ratio once that heating is taken out (`junction.scatter_without_heating`)."""
+def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> tuple[float, float, float | None] | None:
+    """The rise the fitted value stands at, from every recorded point's power through the spec's Zth, its
+    standard uncertainty from the pulses' unknown on-times, and the residual scatter's ratio once that
+    heating is taken out (`junction.scatter_without_heating`).
+
+    A run file knows each point's time stamp, not when the current came on. Each pulse lasted at most
+    from the previous stamp plus the cool-down (`off_s`) to its own stamp, at least the settle dwell
+    plus the readings (the current must be on for those); the command round trips in between fall
+    somewhere. The rise is taken as the mean of the two ends, with the rectangular u of half their
+    difference (GUM 4.3.7; the full range over √12).
+    """
     from .junction import projected_rise, rise_at_points, scatter_without_heating, zth_at
 
     t, i, v = column(data, "t_s"), column(data, "current_a"), column(data, "drop_v")
@@ -364,21 +372,29 @@ def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> tuple[f
     plan = meta.header.plan
     cool = plan.table.get("cooldown") if plan is not None else None
     off_s = cool.get("off_s") if hasattr(cool, "get") and isinstance(cool.get("off_s"), (int, float)) else 0.0
-    rise_all = np.zeros(t.size)
-    rise_all[ok] = rise_at_points(t[ok], np.where(np.isfinite(i * v), i * v, 0.0)[ok],
-                                  lambda lag: zth_at(th.zth_t_s, th.zth_k_per_w, th.rth_ja_k_per_w, lag),
-                                  float(off_s or 0.0), reading_lag_s(meta.header))
+    settle_rule = plan.table.get("settle") if plan is not None else None
+    dwell = settle_rule.get("dwell_s") if hasattr(settle_rule, "get") else None
+    dwell = float(dwell) if isinstance(dwell, (int, float)) and not isinstance(dwell, bool) else 0.0
+    lag = reading_lag_s(meta.header)
+    power = np.where(np.isfinite(i * v), i * v, 0.0)[ok]
+    zth = lambda s: zth_at(th.zth_t_s, th.zth_k_per_w, th.rth_ja_k_per_w, s)  # noqa: E731
+    longest = np.zeros(t.size)
+    longest[ok] = rise_at_points(t[ok], power, zth, float(off_s or 0.0), lag)
+    shortest = np.zeros(t.size)
+    shortest[ok] = rise_at_points(t[ok], power, zth, float(off_s or 0.0), lag, on_s=dwell + 2.0 * lag)
     index = column(data, "index")
     index = index.astype(np.int64) if index is not None else np.arange(t.size)
     pos = np.searchsorted(index, fit.point_index)  # a run's index increases strictly (runs/format.py)
     if pos.size == 0 or pos.max() >= index.size or not np.array_equal(index[pos], fit.point_index):
         return None
-    rise = rise_all[pos]
     if r_value is not None:  # a resistance: s_i = R·α·I_i, Q = R
         sens, q_grad, dq_dt = (lambda ii, vv: r_value * tempco * ii), np.array([0.0, 1.0]), r_value * tempco
     else:
         sens, q_grad, dq_dt = (lambda ii, vv: np.full_like(ii, tempco)), grad, tempco
-    return projected_rise(fit, rise, sens, q_grad, dq_dt), scatter_without_heating(fit, rise, sens)
+    hi = projected_rise(fit, longest[pos], sens, q_grad, dq_dt)
+    lo = projected_rise(fit, shortest[pos], sens, q_grad, dq_dt)
+    rise = 0.5 * (longest[pos] + shortest[pos])
+    return 0.5 * (hi + lo), abs(hi - lo) / math.sqrt(12.0), scatter_without_heating(fit, rise, sens)
 
 
 def reading_lag_s(header) -> float:

@@ -95,7 +95,7 @@ def zth_at(zth_t_s, zth_k_per_w, rth_ja_k_per_w, t_s: np.ndarray) -> np.ndarray:
     return out
 
 
-def rise_at_points(t_s, power_w, zth, off_s: float = 0.0, lag_s: float = 0.0) -> np.ndarray:
+def rise_at_points(t_s, power_w, zth, off_s: float = 0.0, lag_s: float = 0.0, on_s: float | None = None) -> np.ndarray:
     """ΔT at each point's drop reading by superposing its power pulses through Zth (module docstring).
 
     Point k's power is on from the previous point's time stamp plus the plan's cool-down `off_s` (the
@@ -105,6 +105,7 @@ def rise_at_points(t_s, power_w, zth, off_s: float = 0.0, lag_s: float = 0.0) ->
     window: the point is stamped after the drop reading and the current read-back), so each rise
     is taken at t_k − lag_s. Early in a short pulse the rise grows about in proportion to the time
     on, so reading it at the stamp instead overstates it (by 20 % for a 60 ms pulse read 10 ms early).
+    `on_s`, when given, is each pulse's length instead (the current on that long before its stamp).
     """
     t = np.asarray(t_s, dtype=float)
     p = np.nan_to_num(np.asarray(power_w, dtype=float), nan=0.0)
@@ -113,6 +114,8 @@ def rise_at_points(t_s, power_w, zth, off_s: float = 0.0, lag_s: float = 0.0) ->
     starts = np.empty_like(t)
     starts[1:] = t[:-1] + off_s
     starts[0] = t[0] - (t[1] - t[0] if t.size > 1 else 0.0) + off_s
+    if on_s is not None:
+        starts = np.maximum(starts, t - on_s)
     starts = np.minimum(starts, t)
     read = t - min(max(lag_s, 0.0), float(np.min(t - starts)) if t.size else 0.0)  # never before its pulse
     on = np.arange(t.size)[None, :] <= np.arange(t.size)[:, None]  # pulses up to the reading
@@ -232,6 +235,7 @@ def junction_temperature(
     sensor_u_c: float | None = None,
     sensor_why: str = "",
     zth_u_pct: float | None = None,
+    zth_timing_u_c: float | None = None,
 ) -> JunctionTemperature:
     """Choose Tj: measured temperatures when recorded, else inferred from the drop, else assumed (module docstring)."""
     if measured_c is not None:
@@ -253,12 +257,14 @@ def junction_temperature(
         stated = zth_u_pct is not None and math.isfinite(zth_u_pct)
         rel = zth_u_pct / 100.0 if stated else ZTH_RELATIVE_U
         u_rise = rel * abs(zth_rise_c)
-        u = math.hypot(ambient_u_c, u_rise)
+        timing = zth_timing_u_c if zth_timing_u_c is not None and math.isfinite(zth_timing_u_c) else 0.0
+        u = math.sqrt(ambient_u_c ** 2 + u_rise ** 2 + timing ** 2)
         whence = "the spec's zth_u_pct" if stated else "a datasheet's typical curve, the default"
+        on_times = f", ± {timing:.2g} K for the pulses' on-times" if timing > 0 else ""
         return JunctionTemperature(ambient_c + zth_rise_c, u, "inferred",
                                    f"ambient {ambient_c:g} °C plus the sweep's own heating {zth_rise_c:.3g} K "
-                                   f"(u {rel * 100:g} %, {whence}) from the recorded power and the spec's "
-                                   f"transient thermal impedance; {ambient_why}")
+                                   f"(u {rel * 100:g} % for the curve, {whence}{on_times}) from the recorded power "
+                                   f"and the spec's transient thermal impedance; {ambient_why}")
     if heating is not None and heating.significant:
         u = math.hypot(ambient_u_c, heating.u_c)
         return JunctionTemperature(ambient_c + heating.rise_c, u, "inferred",
