@@ -127,7 +127,8 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         knee = fit_knee(fit.current_a, fit.drop_v, fit.accuracy, offset_removed=fit.offset_removed,
                         point_index=fit.point_index)
         payload["knee"] = {"params": dict(knee.params), "std_u": dict(knee.std_u),
-                           "expanded_u": dict(knee.expanded_u), "points": knee.points,
+                           "expanded_u": dict(knee.expanded_u), "k_p": {k: b.k for k, b in knee.budgets.items()},
+                           "points": knee.points,
                            "points_used": knee.points_used,
                            "unresolved": [int(x) for x in knee.unresolved_index],
                            "above_a": float(knee.current_a.min())}
@@ -145,9 +146,9 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
     return payload
 
 
-def _value(key: str, value: float, u: float | None = None, expanded: float | None = None) -> str:
+def _value(key: str, value: float, expanded: float | None, k: float, coverage: float) -> str:
     label, unit = _LABELS.get(key, (key, ""))
-    return f"{label:<7}= {measured(value, expanded, unit)}"
+    return f"{label:<7}= {measured(value, expanded, unit, k, coverage)}"
 
 
 def _in_print_order(params: dict[str, float], first: tuple[str, ...]) -> list[str]:
@@ -167,7 +168,7 @@ def print_human(payload: dict[str, Any]) -> None:
     of = f"{payload['points']} points" + ("" if used == payload["points"] else f" ({used} with weight)")
     print(f"{payload['run']}: {payload['model']} fit of {of}")
     for key, value in payload["params"].items():
-        print("  " + _value(key, value, payload["std_u"][key], payload["expanded_u"][key]))
+        print("  " + _value(key, value, payload["expanded_u"][key], payload["k_p"][key], payload["coverage_probability"]))
     print(f"  model: {payload['reason']}")
     outliers = payload["outliers"]
     print(f"  outliers: {', '.join(map(str, outliers)) if outliers else 'none'} ({payload['outlier_rule']})")
@@ -176,13 +177,15 @@ def print_human(payload: dict[str, Any]) -> None:
     heating = payload["self_heating"]
     print(f"  self-heating: {'yes' if heating['detected'] else 'no'} - {heating['reason']}")
     for row in payload["drop_at"]:
-        print(f"  at {engineering(row['current_a'], 'A')}: drop {measured(row['drop_v'], row['expanded_u_v'], 'V')}, "
-              f"loss {measured(row['loss_w'], row['expanded_u_v'] * row['current_a'], 'W')}")
+        k, p = row["k"], row["coverage_probability"]
+        print(f"  at {engineering(row['current_a'], 'A')}: drop {measured(row['drop_v'], row['expanded_u_v'], 'V', k, p)}, "
+              f"loss {measured(row['loss_w'], row['expanded_u_v'] * row['current_a'], 'W', k, p)}")
     if "knee" in payload:
         knee = payload["knee"]
         print(f"  knee line above {knee['above_a']:.4g} A:")
         for key in _in_print_order(knee["params"], ("v_knee_v", "r_d_ohm")):
-            print("    " + _value(key, knee["params"][key], knee["std_u"][key], knee["expanded_u"][key]))
+            print("    " + _value(key, knee["params"][key], knee["expanded_u"][key], knee["k_p"][key],
+                               payload["coverage_probability"]))
     rev = payload.get("reverse")
     if rev is not None:
         u = f" ± {rev['expanded_u_a']:.2g}" if rev.get("expanded_u_a") else ""

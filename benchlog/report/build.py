@@ -301,7 +301,7 @@ def _figures(ra: RunAnalysis, spec: PartSpec | None) -> list:
         spec_v, spec_w = fa.spec_curves(spec, grid, ambient, cond.vin_v, cond.zener_v)
     corrected = " (zero-current offset subtracted)" if fit is not None and fit.offset_removed else ""
     blocks = [FigureBlock("vi", figures.vi_figure(series, curve, spec_v, title=f"Drop against current: {ra.label}"),
-                          caption=f"Measured drop{corrected} with the fit and its k = 2 band"
+                          caption=f"Measured drop{corrected} with the fit and its 95.45 % coverage band"
                           + (f"; the spec's typical and maximum at ambient {ambient:g} °C with self-heating."
                              if spec is not None else "."))]
     if fit is not None or spec is not None:

@@ -28,7 +28,7 @@ def current_grid(max_current_a: float, points: int = GRID_POINTS) -> np.ndarray:
 
 
 def fit_label(fit: FitResult) -> str:
-    """The headline parameter of a fit, e.g. "resistive, r_on_ohm = 0.02612 ± 0.00026 Ω (k = 2)"."""
+    """The headline parameter of a fit, e.g. "resistive, r_on_ohm = 26.12 ± 0.26 mΩ (k = 1.73, 95.45 % coverage)"."""
     key = {"resistive": "r_on_ohm", "knee": "r_d_ohm", "diode": "ideality"}.get(fit.model)
     if key is None or key not in fit.params:
         return fit.model

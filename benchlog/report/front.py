@@ -121,7 +121,7 @@ def answer_blocks(runs, lot_verdicts: Sequence[VerdictBlock], spec, detail_up_to
                      loss, _reverse_text(ra.meta) or "not tested",
                      "complete" if ra.meta.complete else "INCOMPLETE"))
     rule = next((ra.check.verdict.rule for ra in runs if ra.check is not None), "")
-    blocks.append(Table(("serial", "run", "verdict", "measured (k = 2) vs limit", "reverse test", "run"),
+    blocks.append(Table(("serial", "run", "verdict", "measured ± U vs limit", "reverse test", "run"),
                         tuple(rows), caption="Verdict of each part" + (f". Rule: {rule}" if rule else "")))
     return blocks
 

@@ -1,6 +1,6 @@
 """Numbers for people: SI prefixes, values with their uncertainty, short durations.
 
-The uncertainty is shown as `value ± U (k=2)` with U rounded to two significant
+The uncertainty is shown as `value ± U (k = 1.73, 95.45 % coverage)` with U rounded to two significant
 digits and the value to the same decimal place, as JCGM 100:2008 (GUM) 7.2.6 advises
 ("the numerical values ... should not be given with an excessive number of digits").
 """

@@ -117,13 +117,38 @@ def test_pulse_heating_through_zth_matches_the_first_order_thermal_model_solved_
                     t_eval=t, max_step=0.002, rtol=1e-9, atol=1e-12)
     ours = rise_at_points(t, power, lambda lag: r_th * (1.0 - np.exp(-lag / tau)), off)
     assert ours == pytest.approx(sol.y[0], rel=2e-3, abs=1e-6)
+    # shorter pulses (on 15 ms before each stamp) and the rise taken 5 ms before the stamp: the same ODE
+    on, lag = 0.015, 0.005
+    starts = t - on
+
+    def p_short(time):
+        k = np.searchsorted(t, time)
+        return power[k] if k < t.size and time >= starts[k] else 0.0
+
+    sol = solve_ivp(lambda time, y: [(p_short(time) * r_th - y[0]) / tau], (starts[0], t[-1]), [0.0],
+                    t_eval=t - lag, max_step=0.001, rtol=1e-9, atol=1e-12)
+    ours = rise_at_points(t, power, lambda s: r_th * (1.0 - np.exp(-s / tau)), off, lag_s=lag, on_s=on)
+    assert ours == pytest.approx(sol.y[0], rel=2e-3, abs=1e-6)
 
 
 def test_zth_from_the_spec_makes_tj_inferred_with_its_stated_u():
     i, v = line(0.010)
     j = judge_run(*frame_and_meta(i, v, ambient_u_c=0.0), load_spec(PFET))  # the demo spec has a Zth curve
     assert j.tj.source == "inferred" and j.tj.value_c > 25.0
-    assert j.tj.u_c == pytest.approx(0.20 * (j.tj.value_c - 25.0), rel=1e-9)  # ZTH_RELATIVE_U, from memory
+    rise = j.tj.value_c - 25.0
+    # u² = (zth_u_pct·rise)² + u(on-times)² (GUM 5.1.2); the demo spec states 3 %; without the key 20 %
+    # (ZTH_RELATIVE_U, from memory). The on-time term is the same for both: it depends on the run alone.
+    from dataclasses import replace
+
+    spec = load_spec(PFET)
+    assert spec.thermal.zth_u_pct == 3.0
+    default = replace(spec, thermal=replace(spec.thermal, zth_u_pct=None))
+    j20 = judge_run(*frame_and_meta(i, v, ambient_u_c=0.0), default)
+    assert j20.tj.value_c == j.tj.value_c
+    timing2 = j.tj.u_c ** 2 - (0.03 * rise) ** 2
+    assert timing2 >= 0.0
+    assert j20.tj.u_c ** 2 - (0.20 * rise) ** 2 == pytest.approx(timing2, rel=1e-6, abs=1e-15)
+    assert "the spec's zth_u_pct" in j.tj.why and "default" in j20.tj.why
 
 
 def test_tj_sources_and_their_uncertainty():

@@ -180,11 +180,12 @@ class ResultsView(View):
         fit = f.fit
         chosen = "CHOSEN with m; a new run starts on auto" if f.model != "auto" else "automatic choice"
         lines = [f" fit: {fit.model} ({chosen}), {fit.points} points", f"  why: {fit.reason}"]
-        k = getattr(fit, "k", 2.0)
         for key, value in fit.params.items():
             name, unit = PARAM_NAMES.get(key, (key, ""))
             u = fit.std_u.get(key)
-            shown = with_uncertainty(value, u, unit, k) if u is not None else si(value, unit)
+            b = fit.budgets.get(key)  # each parameter's own k_p (GUM 6.3)
+            shown = (with_uncertainty(value, u, unit, b.k, b.coverage_probability) if u is not None and b is not None
+                     else si(value, unit))
             lines.append(f"  {name:<7}{shown}")
         outliers = int(np.count_nonzero(fit.outliers)) if fit.outliers is not None else 0
         lines.append(f"  outliers: {outliers} flagged (kept in the file)")
