@@ -211,7 +211,8 @@ def summarize(
         usl=usl, lsl=lsl, limit_source=limit_source, capability_name=name, capability=cap,
         capability_lower=capable.lower, capability_confidence=capable.confidence, capability_method=capable.method,
         outlier_rule=outlier_rule_text(r), outliers=int(outliers.sum()), counts=counts, outcome=lot,
-        rule=LOT_RULE, part_rule=rule_text(side, k, coverage_probability), parts=parts, notes=tuple(more),
+        rule=LOT_RULE, part_rule=rule_text(side, None if coverage_probability is not None else k, coverage_probability),
+        parts=parts, notes=tuple(more),
     )
 
 

@@ -54,12 +54,17 @@ OUTCOMES = ("pass", "fail", "conditional")
 EXTRAPOLATION_MARGIN = 0.10
 
 
-def rule_text(side: str, k: float, coverage: float | None = None) -> str:
+def rule_text(side: str, k: float | None, coverage: float | None = None) -> str:
+    """The guard-band rule in words; `k` None: each value's own k_p (a lot of parts, one budget each)."""
     if side == "upper":
         test = "pass if x + U ≤ limit, fail if x − U > limit, otherwise conditional"
     else:
         test = "pass if x − U ≥ limit, fail if x + U < limit, otherwise conditional"
-    return f"ILAC-G8:09/2019 guard band w = U (U = k·u, {coverage_text(k, coverage)}): {test}"
+    if k is None:
+        factor = "U = k_p·u of each part's own budget" + (f", {coverage * 100:g} % coverage" if coverage else "")
+    else:
+        factor = f"U = k·u, {coverage_text(k, coverage)}"
+    return f"ILAC-G8:09/2019 guard band w = U ({factor}): {test}"
 
 
 @dataclass(frozen=True)
