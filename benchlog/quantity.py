@@ -170,3 +170,15 @@ def margin(amount: float | None, unit: str, reference: str, *, digits: int = 1,
     amount = float(amount)
     word = under if amount >= 0.0 else over
     return f"{abs(amount):.{digits}f} {unit} {word} {reference}"
+
+
+#: The symbol a fitted or judged quantity is written with, by its JSON key (one table for CLI, UI and report).
+LABELS = {
+    "r_on_ohm": "R_on", "v0_v": "V0", "ideality": "n", "i_s_a": "Is", "r_s_ohm": "Rs", "v_knee_v": "V_knee",
+    "r_d_ohm": "r_d", "drop_v": "Vf", "loss_w": "loss",
+}
+
+
+def label_of(key: str) -> str:
+    """The symbol for a quantity's JSON key (`r_on_ohm` -> `R_on`); the key itself when none is known."""
+    return LABELS.get(key, key)

@@ -26,6 +26,37 @@ if str(REPO) not in sys.path:
     sys.path.insert(0, str(REPO))  # run from a clone without installing
 
 
+def effective_timing(asked: str) -> str:
+    """The timing the simulator will really have: one without the setting answers at once."""
+    import dataclasses
+
+    from benchlog.sim.config import SimConfig
+
+    if "timing" in {f.name for f in dataclasses.fields(SimConfig)}:
+        return asked
+    return "instant (this simulator has no timing setting)"
+
+
+def builtin_bench_starter() -> Callable[..., Any]:
+    """The simulated bench starter; `timing` is passed on only to a simulator that has the setting."""
+    import dataclasses
+
+    try:
+        from benchlog.cli.simbench import builtin_bench
+    except ImportError:  # before the simulated bench moved to cli/
+        from benchlog.sweep.simbench import builtin_bench  # type: ignore[no-redef]
+    from benchlog.sim.config import SimConfig
+
+    has_timing = "timing" in {f.name for f in dataclasses.fields(SimConfig)}
+
+    def start(element, seed=1, **options):
+        if not has_timing:
+            options.pop("timing", None)
+        return builtin_bench(element, seed=seed, **options)
+
+    return start
+
+
 def machine_facts() -> dict[str, Any]:
     """nproc, CPU, Python and the versions of the libraries the figures depend on."""
     import numpy

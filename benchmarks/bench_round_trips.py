@@ -36,37 +36,6 @@ from pathlib import Path
 
 import _common
 
-
-def _effective_timing(asked: str) -> str:
-    """The timing the simulator will really have: one without the setting answers at once."""
-    import dataclasses
-
-    from benchlog.sim.config import SimConfig
-
-    if "timing" in {f.name for f in dataclasses.fields(SimConfig)}:
-        return asked
-    return "instant (this simulator has no timing setting)"
-
-
-def _builtin_bench():
-    """The simulated bench starter; `timing` is passed on only to a simulator that has the setting."""
-    import dataclasses
-
-    try:
-        from benchlog.cli.simbench import builtin_bench
-    except ImportError:  # before the simulated bench moved to cli/
-        from benchlog.sweep.simbench import builtin_bench
-    from benchlog.sim.config import SimConfig
-
-    has_timing = "timing" in {f.name for f in dataclasses.fields(SimConfig)}
-
-    def start(element, seed=1, **options):
-        if not has_timing:
-            options.pop("timing", None)
-        return builtin_bench(element, seed=seed, **options)
-
-    return start
-
 PLAN = _common.REPO / "benchlog" / "demo" / "plans" / "pmos-prototype.toml"
 
 
@@ -189,7 +158,7 @@ def one_pair(latency_s: float, points: int, tmp: Path, k: int, timing: str) -> d
     from benchlog.runs.events import Point
     from benchlog.sweep.plan import load_plan
     from benchlog.sweep.session import run_sweep
-    builtin_bench = _builtin_bench()
+    builtin_bench = _common.builtin_bench_starter()
 
     plan_path = tmp / f"plan-{points}.toml"
     if not plan_path.exists():
@@ -232,7 +201,7 @@ def main() -> int:
     p.add_argument("--pairs", type=int, default=3)
     p.add_argument("--sim-timing", choices=("real", "instant"), default="real")
     args = p.parse_args()
-    args.sim_timing = _effective_timing(args.sim_timing)
+    args.sim_timing = _common.effective_timing(args.sim_timing)
     points, pairs = (5, 1) if args.quick else (args.points, args.pairs)
     import tempfile
 

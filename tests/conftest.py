@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 import tempfile
+import threading
 import time
 
 import pytest
@@ -40,6 +41,41 @@ def sim_bench():
     yield start
     for running in started:
         running.stop()
+
+
+class BenchClock:
+    """A clock that moves only when someone sleeps on it (a test, the runner or a simulated instrument).
+
+    Shared by the runner and the simulator, it makes timing exact and instant: what a message,
+    a dwell or an integration took is read on this clock, never on the wall.
+    """
+
+    def __init__(self, start_s: float = 0.0) -> None:
+        self.now_s = start_s
+        self._lock = threading.Lock()
+
+    def __call__(self) -> float:
+        return self.now_s
+
+    def sleep(self, seconds: float) -> None:
+        with self._lock:
+            self.now_s += max(0.0, seconds)
+
+
+@pytest.fixture
+def clocked_sim_bench(sim_bench):
+    """Factory: ``clocked_sim_bench(element, seed, start_s=0.0, **SimConfig overrides) -> (BenchClock, RunningBench)``.
+
+    The simulated bench on a BenchClock of its own (injected clock and sleep), with real timing
+    unless ``timing=`` says otherwise.
+    """
+
+    def start(element: str = "resistor", seed: int = 1, *, start_s: float = 0.0, **overrides):
+        clock = BenchClock(start_s)
+        overrides.setdefault("timing", "real")
+        return clock, sim_bench(element, seed, clock=clock, sleep=clock.sleep, **overrides)
+
+    return start
 
 
 def pytest_collection_modifyitems(config, items):

@@ -14,7 +14,13 @@ Circuit equations of the gate clamp (zener from gate to source, resistor from th
 tied to: ground for a P-MOSFET, the input for an N-MOSFET in the return; the gate draws no DC current),
 at the input voltage Vin (the same loop for both):
     I = (Vin − Vz)/R,  P_zener = Vz·I,  P_resistor = (Vin − Vz)·I = I²·R
-(Ohm's and Kirchhoff's laws). R is picked from the IEC 60063 series.
+(Ohm's and Kirchhoff's laws). R is picked from the IEC 60063 series. The clamp draws I continuously
+whenever the input is above Vz, so at the nominal input it is a quiescent drain (a battery's standing load).
+
+A MOSFET with its gate tied to the opposite rail is enhanced whenever the input is up, and an enhanced
+channel conducts both ways: it is not an ideal diode (REVERSE_CONDUCTION). At the low end of the input the
+body diode takes over (`low_input.takeover_input_v`), and no R_DS(on) is leaned on below the lowest |Vgs|
+the spec states one at (`low_input.guaranteed_vgs_v`).
 """
 
 from __future__ import annotations
@@ -26,6 +32,7 @@ from .predict import Prediction, predict, reverse_leakage
 from benchlog.kinds import kind as element_kind
 from benchlog.quantity import margin as quantity_margin
 
+from .low_input import Takeover, guaranteed_vgs_v, takeover_input_v
 from .spec import PartSpec
 from .thermal import solve_junction
 
@@ -48,6 +55,13 @@ SWITCHED_GROUND = (
     "{label}: an element in the return switches the board's ground, which then sits the drop above the "
     "supply's return; any other path to ground (a shield or chassis bond, a grounded probe or interface) "
     "bypasses the protection, so every return must pass through the element"
+)
+REVERSE_CONDUCTION = (
+    "{label}: with its gate tied to {rail} the channel stays enhanced while the input is up, and an enhanced "
+    "channel conducts in both directions: when the input dips, is shorted or swings negative the output "
+    "capacitance discharges backwards into the input until |Vgs| falls below the threshold, so this is not an "
+    "ideal diode; a board that must hold up its output through a dip needs a controller that turns the gate off "
+    "on reverse current"
 )
 GENERAL_CAUTION = (
     "predictions come from datasheet values and simple models; confirm on the real board with a "
@@ -115,6 +129,9 @@ class ClampSizing:
     zener_power_rating_w: float | None
     zener_ok: bool | None  # within the derated zener rating (None: no rating given)
     note: str
+    nominal_v: float | None = None  # the nominal input the quiescent drain is given at
+    quiescent_a: float | None = None  # the clamp's continuous current at the nominal input
+    quiescent_w: float | None = None  # zener plus resistor power at the nominal input
 
 
 def clamp_currents(vin_v: float, zener_v: float, resistor_ohm: float) -> tuple[float, float, float]:
@@ -125,7 +142,8 @@ def clamp_currents(vin_v: float, zener_v: float, resistor_ohm: float) -> tuple[f
     return i, zener_v * i, (vin_v - zener_v) * i
 
 
-def size_clamp(clamp: ClampDesign, vin_max_v: float, power_derating: float = 0.5) -> ClampSizing:
+def size_clamp(clamp: ClampDesign, vin_max_v: float, power_derating: float = 0.5,
+               vin_nominal_v: float | None = None) -> ClampSizing:
     """Pick (or check) the series resistor so the zener current at the highest input stays at the target."""
     target = clamp.target_current_a
     notes = []
@@ -146,8 +164,21 @@ def size_clamp(clamp: ClampDesign, vin_max_v: float, power_derating: float = 0.5
         notes.append(f"the zener does not conduct below {clamp.zener_v:g} V: the clamp is idle up to the maximum input")
     rating = next((r for r in RESISTOR_RATINGS_W if pr <= power_derating * r), RESISTOR_RATINGS_W[-1])
     zener_ok = None if clamp.zener_power_w is None else pz <= power_derating * clamp.zener_power_w
+    qi = qw = None
+    if vin_nominal_v is not None:
+        qi, qz, qr = clamp_currents(vin_nominal_v, clamp.zener_v, resistor)
+        qw = qz + qr
     return ClampSizing(clamp.zener_v, resistor, clamp.series, picked, vin_max_v, i > 0, i, pz, pr, rating,
-                       clamp.zener_power_w, zener_ok, "; ".join(notes))
+                       clamp.zener_power_w, zener_ok, "; ".join(notes), vin_nominal_v, qi, qw)
+
+
+def clamp_drain_text(clamp: ClampSizing) -> str:
+    """The clamp's standing current at the nominal input, in words."""
+    if not clamp.quiescent_a:
+        return (f"gate clamp: idle at the nominal {clamp.nominal_v:g} V input (at or below the {clamp.zener_v:g} V "
+                f"zener); it draws current only above {clamp.zener_v:g} V")
+    return (f"gate clamp: {clamp.quiescent_a * 1e3:.3g} mA ({clamp.quiescent_w * 1e3:.3g} mW) flows continuously at "
+            f"the nominal {clamp.nominal_v:g} V input while the board is powered — a standing drain on a battery")
 
 
 def suggest_zener_v(vgs_max_v: float, fraction: float = 0.6) -> float:
@@ -194,6 +225,12 @@ class CandidateReview:
     nominal: Prediction
     worst: Prediction
     checks: tuple[DesignCheck, ...]
+    takeover: Takeover | None = None  # MOSFETs: where the body diode takes over at the maximum load
+    guaranteed_vgs_v: float | None = None  # MOSFETs: the lowest |Vgs| the spec states an R_DS(on) at
+
+    @property
+    def takeover_v(self) -> float | None:
+        return None if self.takeover is None else self.takeover.input_v
 
     @property
     def acceptable(self) -> bool:
@@ -252,6 +289,8 @@ def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None)
 
     # Gate: rating with and without the clamp, and the drive left at the lowest input.
     vgs_un = vgs_cl = vgs_max = thr_margin = None
+    takeover: Takeover | None = None
+    guaranteed: float | None = None
     min_mode = worst.conduction if has_gate else None
     if has_gate:
         mos = spec.part
@@ -274,15 +313,30 @@ def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None)
                     text += f"; needs a gate clamp, e.g. a {suggest_zener_v(vgs_max):g} V zener"
             checks.append(DesignCheck("gate voltage", ok, text))
         vth = mos.vgs_th_max_v or mos.vgs_th_v
+        guaranteed = guaranteed_vgs_v(spec)
         if vth is None or worst.limit.vgs_v is None:
             checks.append(DesignCheck("threshold margin", None, "the spec gives no vgs_th_v"))
         else:
             thr_margin = worst.limit.vgs_v - vth
+            # The margin over Vgs(th) says the channel is on; only a |Vgs| the spec states R_DS(on) at says
+            # how well: below it the predicted loss leans on an extrapolation nothing guarantees.
+            backed = guaranteed is None or worst.limit.vgs_v >= guaranteed
+            text = (f"|Vgs| {worst.limit.vgs_v:.3g} V at the lowest input {design.vin_min_v:g} V, "
+                    f"{thr_margin:.2f} V above Vgs(th) {vth:g} V (wanted ≥ {m.threshold_margin_v:g} V); "
+                    f"conduction: {worst.limit.conduction}")
+            if guaranteed is not None:
+                text += (f"; the spec states R_DS(on) down to |Vgs| {guaranteed:g} V"
+                         + ("" if backed else ": below it the predicted loss is not guaranteed"))
             checks.append(DesignCheck(
-                "threshold margin", thr_margin >= m.threshold_margin_v and worst.limit.conduction == "channel",
-                f"|Vgs| {worst.limit.vgs_v:.3g} V at the lowest input {design.vin_min_v:g} V, "
-                f"{thr_margin:.2f} V above Vgs(th) {vth:g} V (wanted ≥ {m.threshold_margin_v:g} V); "
-                f"conduction: {worst.limit.conduction}"))
+                "threshold margin",
+                thr_margin >= m.threshold_margin_v and worst.limit.conduction == "channel" and backed, text))
+        takeover = takeover_input_v(spec, design.load_max_a, ta, zener_v=zener)
+        if takeover.input_v is None:
+            checks.append(DesignCheck("body-diode takeover", None, takeover.note))
+        else:
+            checks.append(DesignCheck(
+                "body-diode takeover", takeover.input_v < design.vin_min_v,
+                f"{takeover.note}; the lowest input is {design.vin_min_v:g} V"))
         if clamp is not None:
             checks.append(DesignCheck(
                 "gate clamp power", clamp.zener_ok,
@@ -319,7 +373,7 @@ def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None)
         blocking_rating_v=rating, blocking_needed_v=needed, blocking_headroom_v=headroom,
         vgs_unclamped_v=vgs_un, vgs_clamped_v=vgs_cl, vgs_max_v=vgs_max, threshold_margin_v=thr_margin,
         min_input_conduction=min_mode, leakage_a=leak_a, reverse_tj_c=rev_tj,
-        nominal=nominal, worst=worst, checks=tuple(checks),
+        nominal=nominal, worst=worst, checks=tuple(checks), takeover=takeover, guaranteed_vgs_v=guaranteed,
     )
 
 
@@ -338,7 +392,8 @@ class DesignReview:
 
 def review(design: Design) -> DesignReview:
     """Review every candidate and recommend the lowest-loss one that meets every check."""
-    clamp = size_clamp(design.clamp, design.vin_max_v, design.margins.power_derating) if design.clamp else None
+    clamp = (size_clamp(design.clamp, design.vin_max_v, design.margins.power_derating, design.vin_nominal_v)
+             if design.clamp else None)
     rows = tuple(review_candidate(design, c, clamp) for c in design.candidates)
     ok = [r for r in rows if r.acceptable and r.worst_loss_w is not None]
     reasons: list[str] = []
@@ -367,8 +422,13 @@ def review(design: Design) -> DesignReview:
             reasons.append(f"{r.label}: " + ("; ".join(f"{c.name} ({c.detail})" for c in r.failed) or "no loss result"))
     reminders = [REMINDERS[design.application]] if design.application in REMINDERS else []
     for r in rows:
-        if element_kind(r.kind).switches_ground:
+        k = element_kind(r.kind)
+        if k.switches_ground:
             reminders.append(SWITCHED_GROUND.format(label=r.label))
+        if k.has_gate and k.passive_gate:
+            reminders.append(REVERSE_CONDUCTION.format(label=r.label, rail=k.gate_to))
+    if clamp is not None and clamp.quiescent_a is not None and any(element_kind(r.kind).has_gate for r in rows):
+        reminders.append(clamp_drain_text(clamp))
     reminders.append(GENERAL_CAUTION)
     m = design.margins
     margins_note = (f"margins: voltage ratings used to {m.voltage_derating * 100:g} %, Tj ≥ {m.tj_margin_k:g} K below "

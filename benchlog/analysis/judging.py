@@ -32,6 +32,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from benchlog.quantity import engineering
+
 from .case_temperature import measured_case_temperature
 from .junction import JunctionTemperature, ambient_u, junction_temperature, sweep_heating
 from .predict import OperatingPoint, channel_model, predict
@@ -512,6 +514,6 @@ def typical_comparison(loss_w: float, expanded_u_w: float, heated: OperatingPoin
         t = point.loss_w
         rel = (loss_w - t) / t * 100.0
         agree = "within" if abs(loss_w - t) <= expanded_u_w else "outside"
-        parts.append(f"{abs(rel):.1f} % {'above' if rel >= 0 else 'below'} the {label} typical {t:.4g} W "
+        parts.append(f"{abs(rel):.1f} % {'above' if rel >= 0 else 'below'} the {label} typical {engineering(t, 'W')} "
                      f"({agree} ±U)")
-    return f"measured {loss_w:.4g} W: " + "; ".join(parts)
+    return f"measured {engineering(loss_w, 'W')}: " + "; ".join(parts)

@@ -39,6 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from benchlog.ambient import DEFAULT_AMBIENT_HALF_WIDTH_K
+from benchlog.quantity import with_standard
 
 TJ_SOURCES = ("measured", "inferred", "assumed")
 
@@ -65,7 +66,7 @@ class JunctionTemperature:
             raise ValueError(f"source must be one of {TJ_SOURCES}, got {self.source!r}")
 
     def text(self) -> str:
-        return f"Tj {self.value_c:.2f} ± {self.u_c:.2g} °C (standard u), {self.source}: {self.why}"
+        return f"Tj {with_standard(self.value_c, self.u_c, '°C')}, {self.source}: {self.why}"
 
 
 @dataclass(frozen=True)

@@ -14,7 +14,7 @@ import math
 from typing import Any
 
 from benchlog.ambient import DEFAULT_AMBIENT_C
-from benchlog.quantity import coverage_text, measured
+from benchlog.quantity import coverage_text, engineering, label_of, measured, unit_of
 
 from .output import print_json
 
@@ -215,15 +215,21 @@ def _check(args) -> int:
 
     _argument("--at", args.at, positive=True)
     spec = load_spec(args.spec)
-    frame, meta = load_points(args.run)
-    c = check_run(frame, meta, spec, at_a=args.at)
     from .soak_out import soak_block
+    from .sweeps_out import focus_frame, print_sweeps, sweeps_payload
 
-    soak, soak_lines = soak_block(frame, meta, spec)
+    whole, meta = load_points(args.run)
+    frame, focus = focus_frame(whole, meta)
+    c = check_run(frame, meta, spec, at_a=args.at)
+    soak, soak_lines = soak_block(whole, meta, spec)
+    sweeps = sweeps_payload(whole, meta, spec=spec, operating_a=c.current_a)
     if args.json:
         entry = check_entry(c)
+        if focus:
+            entry["notes"].insert(0, focus)
         if soak is not None:
             entry["soak"] = soak
+        entry.update(sweeps)
         print_json(entry)
     else:
         print(f"{c.outcome.upper()}  {c.part}, run {c.run}")
@@ -233,9 +239,9 @@ def _check(args) -> int:
             print(f"  judged at {j.tj.text()}")
             if j.gate is not None:
                 print(f"  gate drive: {j.gate.text()}")
-            print(f"  {j.quantity} = {j.value:.6g} ± {j.expanded_u:.2g} ({coverage_text(c.k, c.coverage_probability)})"
-                  f" against {_fmt(j.limit, '.6g')}"
-                  f" [{j.limit_at}]")
+            unit = unit_of(j.quantity)
+            print(f"  {label_of(j.quantity)} = {measured(j.value, j.expanded_u, unit, c.k, c.coverage_probability)}"
+                  f" against {engineering(j.limit, unit, 5)} [{j.limit_at}]")
         flagged = [n for n in c.notes if n.startswith(("extrapolated:", "the run is incomplete", "the run ended"))]
         flagged += [n for n in c.notes if c.judgement is not None and n in c.judgement.bars + c.judgement.notes
                     and n not in flagged]
@@ -244,20 +250,25 @@ def _check(args) -> int:
         p = c.coverage_probability
         print(f"  measured drop {measured(c.measured_drop_v, c.k * c.drop_std_u_v, 'V', c.k, p)}, "
               f"loss {measured(c.measured_loss_w, c.k * c.loss_std_u_w, 'W', c.k, p)}")
-        print(f"  limit {_fmt(c.verdict.limit, '.6g', 'W')}: {c.verdict.limit_source}")
-        print(f"  predicted in service (typical, self-heated): {_fmt(c.predicted.loss_w, '.4g', 'W')} "
+        print(f"  limit {engineering(c.verdict.limit, 'W', 5)}: {c.verdict.limit_source}")
+        print(f"  predicted in service (typical, self-heated): {engineering(c.predicted.loss_w, 'W')} "
               f"at Tj {_fmt(c.predicted.tj_c, '.1f', '°C')}")
         print(f"  {c.typical_comparison}")
         print(f"  rule: {c.verdict.rule}")
         if c.reverse is not None:
             print(f"  {c.reverse.text()}")
             print(f"  verdict: the worse of forward ({c.verdict.outcome}) and reverse ({c.reverse.outcome})")
+        print_sweeps(sweeps)
+        if focus:
+            print(f"  note: {focus}")
         for note in c.notes:
             if note not in flagged:
                 print(f"  note: {note}")
         for line in soak_lines:
             print(f"  {line}")
-    return EXIT_CODES[c.outcome]
+    leak = sweeps.get("leakage_sweep")
+    # a leakage sweep that fails fails the check, whatever the forward verdict says
+    return EXIT_CODES["fail" if leak and leak["outcome"] == "fail" else c.outcome]
 
 
 # --------------------------------------------------------------------------- lot
@@ -294,16 +305,17 @@ def _lot(args) -> int:
     if args.json:
         print_json(lot_entry(s))
         return EXIT_CODES[s.outcome]
-    unit = {"ohm": "Ω", "v": "V"}.get(_unit(s.quantity), "")
+    unit = unit_of(s.quantity)
     width = max(6, *(len(p.serial) for p in s.parts))
-    print(f"{s.outcome.upper()}  lot of {s.n} × {s.part}: {s.quantity}")
+    print(f"{s.outcome.upper()}  lot of {s.n} × {s.part}: {label_of(s.quantity)} ({s.quantity})")
     print(f"  {'serial':<{width}}  {'value ± U (95.45 % coverage)':<28}  verdict")
     for p in s.parts:
         flag = "  OUTLIER" if p.outlier else ""
         value = measured(p.value, p.expanded_u, unit, k=None)  # the heading states the coverage
         print(f"  {p.serial:<{width}}  {value:<28}  {p.outcome}{flag}")
-    print(f"  mean {s.mean:.6g} {unit}, σ {_fmt(s.std, '.3g', unit)}, min {s.min:.6g}, max {s.max:.6g}")
-    print(f"  limits: USL {_fmt(s.usl, '.6g', unit)}, LSL {_fmt(s.lsl, '.6g', unit)} ({s.limit_source})")
+    print(f"  mean {engineering(s.mean, unit, 5)}, σ {engineering(s.std, unit, 3)}, "
+          f"min {engineering(s.min, unit, 5)}, max {engineering(s.max, unit, 5)}")
+    print(f"  limits: USL {engineering(s.usl, unit, 5)}, LSL {engineering(s.lsl, unit, 5)} ({s.limit_source})")
     print(f"  {s.capability_name} = {_fmt(s.capability, '.3g')}, {s.capability_confidence:.0%} lower bound "
           f"{_fmt(s.capability_lower, '.3g')} ({s.capability_method})")
     print(f"  outliers: {s.outliers} ({s.outlier_rule})")
@@ -315,6 +327,14 @@ def _lot(args) -> int:
 
 
 # --------------------------------------------------------------------------- design
+def takeover_entry(t) -> dict[str, Any] | None:
+    """Where the body diode takes over (None for an element without a channel)."""
+    if t is None:
+        return None
+    return {"takeover_v": t.input_v, "full_v": t.full_v, "current_a": t.current_a, "ambient_c": t.ambient_c,
+            "variant": t.variant, "body_loss_w": t.body_loss_w, "body_tj_c": t.body_tj_c, "note": t.note}
+
+
 def design_entry(r) -> dict[str, Any]:
     d = r.design
     clamp = None
@@ -324,7 +344,8 @@ def design_entry(r) -> dict[str, Any]:
                  "at_vin_v": c.at_vin_v, "active": c.active, "zener_current_a": c.zener_current_a,
                  "zener_power_w": c.zener_power_w, "resistor_power_w": c.resistor_power_w,
                  "resistor_rating_w": c.resistor_rating_w, "zener_power_rating_w": c.zener_power_rating_w,
-                 "zener_ok": c.zener_ok, "note": c.note}
+                 "zener_ok": c.zener_ok, "note": c.note, "nominal_v": c.nominal_v,
+                 "quiescent_a": c.quiescent_a, "quiescent_w": c.quiescent_w}
     return {
         "design": d.name, "file": d.path, "application": d.application,
         "input": {"nominal_v": d.vin_nominal_v, "min_v": d.vin_min_v, "max_v": d.vin_max_v, "reverse_v": d.reverse_v},
@@ -340,6 +361,7 @@ def design_entry(r) -> dict[str, Any]:
              "vgs_clamped_v": c.vgs_clamped_v, "vgs_max_v": c.vgs_max_v,
              "threshold_margin_v": c.threshold_margin_v, "min_input_conduction": c.min_input_conduction,
              "leakage_a": c.leakage_a, "reverse_tj_c": c.reverse_tj_c, "thermal_fault": c.thermal_fault,
+             "guaranteed_vgs_v": c.guaranteed_vgs_v, "takeover": takeover_entry(c.takeover),
              "checks": [{"name": k.name, "ok": k.ok, "detail": k.detail} for k in c.checks]}
             for c in r.candidates
         ],
@@ -370,6 +392,9 @@ def _design(args) -> int:
         ("|Vgs| unclamped", lambda c: _fmt(c.vgs_unclamped_v, ".3g", "V")),
         ("|Vgs| clamped", lambda c: _fmt(c.vgs_clamped_v, ".3g", "V")),
         ("threshold margin", lambda c: _fmt(c.threshold_margin_v, ".2f", "V")),
+        ("R_DS(on) down to", lambda c: _fmt(c.guaranteed_vgs_v, ".3g", "V")),
+        ("takeover below", lambda c: _fmt(c.takeover_v, ".3g", "V")),
+        ("loss below it", lambda c: _fmt(None if c.takeover is None else c.takeover.body_loss_w, ".3g", "W")),
         ("reverse leakage", lambda c: _fmt(None if c.leakage_a is None else c.leakage_a * 1e6, ".3g", "µA")),
         ("meets every check", lambda c: "yes" if c.acceptable else "no"),
     ]

@@ -3,7 +3,9 @@
 Exit codes: 0 the instrument accepted every operation; 1 it refused one or
 did not answer (each is printed with the instrument's error code and text);
 2 bad input (unknown profile, an instrument that does not match the profile,
-a nonsense reply to the error query).
+a nonsense reply to the error query); 75 the resource is in use by another
+session (its instrument lock is taken before the first command, `*IDN?`
+included, as a sweep takes it; nothing is sent then).
 """
 
 from __future__ import annotations
@@ -30,17 +32,44 @@ def _pick_profile(args):
     return found.matches[0]  # specific profiles come before generic ones
 
 
+def _note(text: str) -> None:
+    sys.stderr.write(f"benchlog: note: {text}\n")
+
+
+def _notice(text: str) -> None:
+    """An output found on at connect: said at once, before it is switched off (also with --json)."""
+    sys.stderr.write(f"benchlog: {text}\n")
+    sys.stderr.flush()
+
+
+def _at_connect(result) -> str:
+    """What the state query said when the link opened, and after the first off command."""
+    role = result.profile.role
+    if role == "meter":
+        return ""
+    what = "input" if role == "load" else "output"
+    if result.found_on is None:
+        return f"{what} not read at connect (the profile has no state query)"
+    if not result.found_on:
+        return f"{what} off at connect"
+    if result.on_after_off is False:
+        return f"{what} ON at connect; switched off (read back)"
+    return f"{what} ON at connect; NOT confirmed off -- switch it off by hand now"
+
+
 def exercise_resource(args) -> int:
+    from benchlog.instruments.benchlock import BenchLock
     from benchlog.instruments.errors import TransportError
     from benchlog.instruments.exercise import exercise
     from benchlog.instruments.transport import VisaTransport
 
     try:
-        profile = _pick_profile(args)
-        with VisaTransport(args.resource, read_termination=profile.read_termination,
-                           write_termination=profile.write_termination,
-                           timeout_s=args.timeout or profile.timeout_s, backend=args.backend) as transport:
-            result = exercise(transport, profile)
+        with BenchLock([args.resource], on_note=_note):  # BenchInUse -> exit 75 before anything is sent
+            profile = _pick_profile(args)
+            with VisaTransport(args.resource, read_termination=profile.read_termination,
+                               write_termination=profile.write_termination,
+                               timeout_s=args.timeout or profile.timeout_s, backend=args.backend) as transport:
+                result = exercise(transport, profile, on_notice=_notice)
     except TransportError as exc:
         sys.stderr.write(f"benchlog: {exc} (is the instrument on, and is the address right?)\n")
         return EXIT_FAILED
@@ -50,6 +79,8 @@ def exercise_resource(args) -> int:
             "resource": result.resource,
             "profile": {"name": profile.name, "role": profile.role, "file": str(profile.path or "")},
             "idn": result.idn_text,
+            "found_on_at_connect": result.found_on,
+            "confirmed_off_after_connect": None if result.on_after_off is None else not result.on_after_off,
             "earlier_errors": [{"code": e.code, "text": e.text} for e in result.earlier_errors],
             "operations": [{"operation": t.operation, "command": t.command, "outcome": t.outcome,
                             "reply": t.reply, "note": t.note,
@@ -61,6 +92,9 @@ def exercise_resource(args) -> int:
     print(f"resource  {result.resource}")
     print(f"profile   {profile.name} ({profile.role}){' ' + str(profile.path) if profile.path else ''}")
     print(f"idn       {result.idn_text}")
+    state = _at_connect(result)
+    if state:
+        print(f"state     {state}")
     if result.earlier_errors:
         listed = "; ".join(f"{e.code},\"{e.text}\"" for e in result.earlier_errors)
         print(f"earlier   queued before we connected (not ours): {listed}")

@@ -71,6 +71,10 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
     from benchlog.analysis.fits import detect_self_heating, fit_knee, fit_run
     from benchlog.analysis.reverse import judge_reverse, reverse_entry
 
+    from .sweeps_out import focus_frame, sweeps_payload
+
+    whole = frame
+    frame, focus = focus_frame(frame, meta)
     fit = fit_run(frame, meta, args.model, exclude_outliers=args.exclude_outliers)
     heating = detect_self_heating(frame, fit, args.tempco)
     payload: dict[str, Any] = {
@@ -108,11 +112,12 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         "tj_c": fit.tj.value_c if fit.tj is not None else None,
         "tj_u_c": fit.tj.u_c if fit.tj is not None else None,
         "tj_source": fit.tj.source if fit.tj is not None else None,
-        "notes": list(fit.notes),
+        "notes": ([focus] if focus else []) + list(fit.notes),
         "drop_at": [],
         # without a spec the reverse step is judged against the plan's own limit
         "reverse": reverse_entry(judge_reverse(meta.reverse, None, frame, meta)),
     }
+    payload.update(sweeps_payload(whole, meta))
     for current in args.at:
         budget = fit.drop_budget_at(current)
         value, _ = fit.drop_at(current)
@@ -191,6 +196,9 @@ def print_human(payload: dict[str, Any]) -> None:
         u = f" ± {rev['expanded_u_a']:.2g}" if rev.get("expanded_u_a") else ""
         print(f"  reverse {rev['verdict'].upper()}: {rev['current_a']:.3g}{u} A at {rev['voltage_v']:g} V reversed "
               f"for {rev['duration_s']:g} s against {rev['limit_a']:.3g} A ({rev['limit_at']}); {rev['reason']}")
+    from .sweeps_out import print_sweeps
+
+    print_sweeps(payload)
     for note in payload["notes"]:
         print(f"  note: {note}")
     for line in payload.get("soak_text", ()):

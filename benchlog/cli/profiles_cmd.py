@@ -7,7 +7,16 @@ reached or did not answer in time, 2 for a malformed resource string or a reply
 that is not a four-field `*IDN?`. `probe --exercise` 0 when the instrument
 accepted every operation, 1 when it refused one (or did not answer), 2 for bad
 input (no such profile, an instrument that does not match it). `scan` 0 when
-every resource found answered `*IDN?`, 1 when one did not or none was found.
+every resource found answered `*IDN?` or is in use by another session, 1 when
+one did not answer or none was found.
+
+One sweep per bench holds here too: `probe` (with or without `--exercise`) takes
+the resource's instrument lock (`instruments.benchlock`, the one sweeps and the UI
+take) before its first command, and a resource in use is refused at once naming
+the holder, exit 75. Even a read-only `*IDN?` is not sent to an instrument a sweep
+holds: its reply would interleave with the sweep's on the same instrument. `scan`
+takes each resource's lock for its probe, and lists a locked one as "in use by PID
+... on HOST since ..." without sending it anything.
 """
 
 from __future__ import annotations
@@ -114,7 +123,8 @@ def _probe(args) -> int:
 
         return exercise_resource(args)
     try:
-        result = probe(args.resource, backend=args.backend, timeout_s=args.timeout or 2.0)
+        with resource_lock(args.resource):  # BenchInUse -> exit 75, nothing sent
+            result = probe(args.resource, backend=args.backend, timeout_s=args.timeout or 2.0)
     except TransportError as exc:
         sys.stderr.write(f"benchlog: {exc} (is the instrument on, and is the address right?)\n")
         return EXIT_FAILED
@@ -146,7 +156,7 @@ def _probe(args) -> int:
 def _scan(args) -> int:
     from benchlog.instruments.connect import probe
     from benchlog.instruments.discovery import list_resources, missing_extras
-    from benchlog.instruments.errors import BenchError
+    from benchlog.instruments.errors import BenchError, BenchInUse
 
     if not 0.05 <= args.timeout <= 60:
         raise BadInput("argument", "--timeout", f"is {args.timeout:g}", "seconds between 0.05 and 60")
@@ -163,9 +173,17 @@ def _scan(args) -> int:
     resources = list(dict.fromkeys([*listed, *args.resource]))
     found = []
     for resource in resources:
-        entry = {"resource": resource, "listed": resource in listed}
+        entry = {"resource": resource, "listed": resource in listed, "in_use": False}
         try:
-            result = probe(resource, backend=args.backend, timeout_s=args.timeout)
+            with resource_lock(resource):
+                result = probe(resource, backend=args.backend, timeout_s=args.timeout)
+        except BenchInUse as exc:  # another session drives it: not asked anything, its holder named
+            holder = exc.holder
+            entry.update(answered=False, problem=holder.in_use() if holder is not None else exc.message,
+                         in_use=exc.message.startswith("in use"))  # not a lock folder that cannot be written
+            if holder is not None:
+                entry["holder"] = {"pid": holder.pid, "host": holder.host, "command": holder.command,
+                                   "started_utc": holder.started_utc}
         except BenchError as exc:  # unreachable, no answer in time, or not an *IDN? reply
             entry.update(answered=False, problem=str(exc))
         else:
@@ -184,9 +202,22 @@ def _scan(args) -> int:
             if e["answered"]:
                 names = ", ".join(f"{m['name']} ({m['role']})" for m in e["matches"]) or "no profile matches"
                 print(f"{e['resource']:<{width}}  {e['idn']}  -> {names}")
+            elif e["in_use"]:
+                print(f"{e['resource']:<{width}}  {e['problem']}; not probed")
             else:
                 print(f"{e['resource']:<{width}}  no answer: {e['problem']}")
-    return EXIT_OK if found and all(e["answered"] for e in found) else EXIT_FAILED
+    unanswered = [e for e in found if not e["answered"] and not e["in_use"]]
+    return EXIT_OK if found and not unanswered else EXIT_FAILED
+
+
+def resource_lock(resource: str):
+    """The resource's instrument lock, as a sweep takes it; a lock left by a dead process is taken over with a note.
+
+    Raises BenchInUse (exit 75) when another session holds it: nothing is sent then.
+    """
+    from benchlog.instruments.benchlock import BenchLock
+
+    return BenchLock([resource], on_note=lambda note: sys.stderr.write(f"benchlog: note: {note}\n"))
 
 
 def _check_resource(resource: str) -> None:

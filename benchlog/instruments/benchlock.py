@@ -71,6 +71,10 @@ class Holder:
     def describe(self) -> str:
         return f"PID {self.pid} on {self.host} ({self.command!r}, since {self.started_utc})"
 
+    def in_use(self) -> str:
+        """What a scan says of a resource this holder has: "in use by PID … on HOST since …"."""
+        return f"in use by PID {self.pid} on {self.host} since {self.started_utc} ({self.command!r})"
+
 
 def _me() -> Holder:
     now = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
@@ -94,10 +98,11 @@ class BenchLock:
             ...          # connect and sweep
     """
 
-    def __init__(self, resources, *, directory: Path | None = None) -> None:
+    def __init__(self, resources, *, directory: Path | None = None, on_note=None) -> None:
         self.resources = list(dict.fromkeys(str(r) for r in resources))
         self.directory = Path(directory) if directory is not None else lock_dir()
         self.notes: list[str] = []
+        self.on_note = on_note  # told of each lock taken over, as it is taken
         self._held: list[tuple[object, Path]] = []
 
     def acquire(self) -> "BenchLock":
@@ -130,6 +135,8 @@ class BenchLock:
                 if left is not None and left.pid != me.pid:
                     self.notes.append(f"{resource}: took over the lock left by {left.describe()}, "
                                       "which no longer holds it (ended without releasing it)")
+                    if self.on_note is not None:
+                        self.on_note(self.notes[-1])
                 holder_path.write_text(json.dumps(me.__dict__) + "\n", encoding="utf-8")
         except BaseException:
             self.release()

@@ -8,7 +8,8 @@ the output (supply) or input (load) switched off first, and the error queue
 every command is the instrument's own: accepted, or its error code and text.
 
 What is never sent: `output_on`, `input_on` (power) and `polarity_reversed`
-(a reversed board). Setpoints are sent as 0 V and 0 A. An operation this module
+(a reversed board). Setpoints are sent as 0 V and 0 A; protection levels at the
+profile's own maxima (nothing flows, and nothing is left to trip early). An operation this module
 does not know is sent only when it is a fixed query (a query changes no
 setting); otherwise it is listed as not sent. The output is switched off again
 at the end.
@@ -17,11 +18,11 @@ at the end.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Iterator
+from typing import Callable, Iterator
 
 from benchlog.scpi.errors import ScpiReplyError
 from benchlog.scpi.numbers import fill_template
-from benchlog.scpi.replies import ErrorEntry, parse_error_entry, parse_numbers
+from benchlog.scpi.replies import ErrorEntry, parse_bool, parse_error_entry, parse_numbers
 
 from .errors import InstrumentTimeout, NonsenseReply, TransportError, WrongInstrument
 from .profile import Profile
@@ -32,6 +33,8 @@ NEVER_SENT = {"output_on": "switches the output on", "input_on": "switches the i
               "polarity_reversed": "reverses the polarity"}
 #: The off command of each role, sent first and last.
 OFF_OPERATION = {"supply": "output_off", "load": "input_off"}
+#: The state query of each power role, asked before the first off command: an output found on is reported.
+STATE_OPERATION = {"supply": ("output_state", "output"), "load": ("input_state", "input")}
 #: Setpoints for the setting operations: nothing flows with the output off, and 0 is the safest value.
 ZERO_SETPOINTS = {"voltage_v": 0.0, "current_a": 0.0}
 # How many error-queue entries are read at most after one command (a queue that never empties is a fault).
@@ -68,6 +71,10 @@ class ExerciseResult:
     idn_text: str
     earlier_errors: tuple[ErrorEntry, ...]
     trials: tuple[Trial, ...]
+    #: what the state query said at connect, before anything was switched: True (on), False, None (not asked)
+    found_on: bool | None = None
+    #: the state read back right after the first off command, when it was found on
+    on_after_off: bool | None = None
 
     @property
     def refused(self) -> tuple[Trial, ...]:
@@ -140,6 +147,21 @@ def _nplc_values(profile: Profile) -> tuple[float | None, ...]:
     return tuple(v for v in values if v is not None)
 
 
+def _protection_tops(profile: Profile) -> Iterator[tuple[str, str, float]]:
+    """(operation, placeholder, level) for each protection level the profile has, at the profile's own maximum.
+
+    The top of the range is the harmless value: with the output off nothing flows, and a level
+    left there cannot trip a later session early (the sweep programs its own levels anyway).
+    A level whose maximum the profile does not state is not sent.
+    """
+    most_v, most_a = profile.limits.max_voltage_v, profile.limits.max_current_a
+    tops = {"over_voltage_protection": ("voltage_v", most_v), "over_current_protection": ("current_a", most_a),
+            "over_power_protection": ("power_w", most_v * most_a if most_v and most_a else None)}
+    for operation, (key, value) in tops.items():
+        if operation in profile.commands and value:
+            yield operation, key, value
+
+
 def _label(operation: str, **values: float | None) -> str:
     shown = " ".join(f"{k} {v:g}" for k, v in values.items() if v is not None)
     return f"{operation} {shown}".strip()
@@ -198,6 +220,9 @@ def _plan(profile: Profile) -> Iterator[tuple[str, str, int | None] | Trial]:
                 yield _label(operation, **{k: v for k, v in ZERO_SETPOINTS.items()
                                            if "{" + k + "}" in commands[operation]}), \
                     fill_template(commands[operation], **ZERO_SETPOINTS), None
+        for operation, key, value in _protection_tops(profile):
+            handled.add(operation)
+            yield _label(operation, **{key: value}), fill_template(commands[operation], **{key: value}), None
         for operation in ("measure_voltage", "measure_current"):
             if operation in commands:
                 handled.add(operation)
@@ -216,8 +241,26 @@ def _plan(profile: Profile) -> Iterator[tuple[str, str, int | None] | Trial]:
             yield Trial(operation, template, "not sent", note="not sent: no harmless value is known for it")
 
 
-def exercise(transport: Transport, profile: Profile, *, check_idn: bool = True) -> ExerciseResult:
-    """Send every operation of `profile` over `transport` with the output off; the link stays open."""
+def _state(session: _Session, profile: Profile) -> bool | None:
+    """The output/input state by the profile's own query (None: no query, or no usable reply)."""
+    operation, _ = STATE_OPERATION.get(profile.role, ("", ""))
+    if not profile.has(operation):
+        return None
+    try:
+        reply = session.transport.query(fill_template(profile.commands[operation]))
+        session.drain()
+        return parse_bool(reply)
+    except (InstrumentTimeout, ScpiReplyError):
+        return None  # the exercise itself then reports the state query's trouble
+
+
+def exercise(transport: Transport, profile: Profile, *, check_idn: bool = True,
+             on_notice: Callable[[str], None] | None = None) -> ExerciseResult:
+    """Send every operation of `profile` over `transport` with the output off; the link stays open.
+
+    An output (input) found ON when the link opens is told to `on_notice` at once, in one
+    line naming role and resource, before the off command goes out; then read back.
+    """
     session = _Session(transport, profile)
     idn_text = transport.query("*IDN?").strip()
     if check_idn and not profile.matches_idn(idn_text):
@@ -225,13 +268,22 @@ def exercise(transport: Transport, profile: Profile, *, check_idn: bool = True) 
     earlier = session.drain()  # queued before we came: not blamed on any command of ours
     trials: list[Trial] = []
     off = OFF_OPERATION.get(profile.role)
+    found_on = _state(session, profile) if off is not None else None
+    on_after_off: bool | None = None
+    if found_on and on_notice is not None:
+        what = STATE_OPERATION[profile.role][1]
+        on_notice(f"{profile.role} {transport.resource}: {what} found ON at connect; "
+                  "switching it off and reading it back")
     if off is not None:
         first = session.send(off, fill_template(profile.commands[off]))
         trials.append(first)
+        if found_on:
+            on_after_off = _state(session, profile)
         if first.outcome != "accepted":
             # Without a working off command nothing else is sent: the output could be on.
             trials.append(Trial("(the rest)", "", "not sent", note=f"not sent: {off} was not accepted"))
-            return ExerciseResult(transport.resource, profile, idn_text, earlier, tuple(trials))
+            return ExerciseResult(transport.resource, profile, idn_text, earlier, tuple(trials), found_on,
+                                  on_after_off)
     try:
         for step in _plan(profile):
             if isinstance(step, Trial):
@@ -245,4 +297,4 @@ def exercise(transport: Transport, profile: Profile, *, check_idn: bool = True) 
                 trials.append(session.send(f"{off} (again, at the end)", fill_template(profile.commands[off])))
             except TransportError:
                 pass  # the link is gone; the caller reports the transport error
-    return ExerciseResult(transport.resource, profile, idn_text, earlier, tuple(trials))
+    return ExerciseResult(transport.resource, profile, idn_text, earlier, tuple(trials), found_on, on_after_off)

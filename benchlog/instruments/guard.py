@@ -19,7 +19,8 @@ or `OUTPUTS MAY BE ON` naming each role and resource that did not confirm.
 "unknown" means the off command was sent without error but the profile has no
 state query to read it back. Roles added with `add()` (right after each
 connects) are switched off and read back at once; an output found on then is
-reported. While the guard cleans up, a second Ctrl-C or SIGTERM is held back
+told at once to `on_notice` (one line naming role and resource, before the off
+command goes out) and noted with what the read-back said. While the guard cleans up, a second Ctrl-C or SIGTERM is held back
 until the bench is safe.
 
 SIGTERM: while the guard is active in the main thread, a handler turns SIGTERM
@@ -167,6 +168,11 @@ def _label(role: Any) -> str:
     return getattr(role, "label", None) or repr(role)
 
 
+def _power_word(role: Any) -> str:
+    """'input' for a load (it sinks power through its input), 'output' for a supply."""
+    return "input" if getattr(role, "role_name", "") == "load" else "output"
+
+
 def _report_unless_verified(report: SafeStateReport) -> None:
     if report.roles and not report.verified:
         _report_to_stderr(report.statement())
@@ -182,9 +188,10 @@ class safe_state_guard:  # noqa: N801 - used like a function: `with safe_state_g
     """
 
     def __init__(self, *roles: Any, report: Callable[[SafeStateReport], None] | None = _report_unless_verified,
-                 raise_unverified: bool = True) -> None:
+                 raise_unverified: bool = True, on_notice: Callable[[str], None] | None = _report_to_stderr) -> None:
         self.roles = tuple(r for r in roles if r is not None)
         self.report = report
+        self.on_notice = on_notice
         self.raise_unverified = raise_unverified
         self.outcome: SafeStateReport | None = None
         self.connect_notes: list[str] = []
@@ -200,8 +207,9 @@ class safe_state_guard:  # noqa: N801 - used like a function: `with safe_state_g
     def add(self, role: Any) -> None:
         """Take a role just connected into the guard: switch it off now and read it back.
 
-        An output found on is noted in `connect_notes`; one that does not read back off
-        raises SafeStateFailed at once (the block then unwinds through this guard).
+        An output found on is told to `on_notice` at once (before it is switched off) and
+        noted in `connect_notes` with what the read-back said; one that does not read back
+        off raises SafeStateFailed at once (the block then unwinds through this guard).
         """
         if role is None:
             return
@@ -214,11 +222,14 @@ class safe_state_guard:  # noqa: N801 - used like a function: `with safe_state_g
                 was_on = role.power_is_on()
             except Exception:  # noqa: BLE001 -- the off command and its read-back still follow
                 was_on = None
+        if was_on and self.on_notice is not None:
+            self.on_notice(f"{_label(role)}: {_power_word(role)} found ON at connect; "
+                           "switching it off and reading it back")
         report = reach_safe_state(role)
         entry = report.roles[0] if report.roles else RoleSafety(_label(role), "unknown", "")
         if was_on:
             found = "switched off (read back)" if entry.state == "verified" else "NOT confirmed off"
-            self.connect_notes.append(f"{entry.label}: output was ON when benchlog connected; {found}")
+            self.connect_notes.append(f"{entry.label}: {_power_word(role)} was ON when benchlog connected; {found}")
         for text in report.earlier_errors:
             self.connect_notes.append(text)
         if entry.state == "unverified":

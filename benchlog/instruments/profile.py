@@ -81,6 +81,12 @@ OPERATIONS: Mapping[str, Mapping[str, tuple[Operation, bool]]] = MappingProxyTyp
                 "input_on": (_op(False), True),
                 "input_off": (_op(False), True),
                 "input_state": (_op(True), False),
+                # the load's own protection on its input, a second line of defence (programmed from the plan)
+                "over_current_protection": (_op(False, ("current_a",)), False),
+                "over_power_protection": (_op(False, ("power_w",)), False),
+                "over_voltage_protection": (_op(False, ("voltage_v",)), False),
+                "protection_tripped": (_op(True), False),
+                "protection_clear": (_op(False), False),
                 "measure_voltage": (_op(True), True),
                 "measure_current": (_op(True), True),
                 "error_query": (_op(True), False),
@@ -123,7 +129,7 @@ ACCURACY_FUNCTIONS: Mapping[str, tuple[str, ...]] = MappingProxyType(
 
 # Sample values used to dry-run every template through fill_template at load time.
 _SAMPLE_VALUES = {"voltage_v": 1.5, "current_a": 0.25, "range_v": 10.0, "range_a": 1.0, "nplc": 1.0, "count": 4,
-                  "duration_s": 60.0}
+                  "duration_s": 60.0, "power_w": 20.0}
 
 #: Program headers a connect command must not carry: they switch power on or program a setpoint
 #: (SCPI-99 vol. 2 SOURce, OUTPut and INPut subsystems; APPLy sets voltage and current at once).
@@ -527,6 +533,7 @@ def _example(op_name: str) -> str:
         "set_samples": "SAMP:COUN {count}",
         "over_voltage_protection": "VOLT:PROT {voltage_v}",
         "over_current_protection": "CURR:PROT {current_a}",
+        "over_power_protection": "POW:PROT {power_w}",
         "output_timer": "OUTP:PROT:TIM {duration_s}",
         "measure_temperature": "MEAS:TEMP?",
     }.get(op_name, "")

@@ -380,6 +380,53 @@ class Role:
         if failures:
             raise SafeStateFailed(failures)
 
+    # -- the instrument's own protection (supply output, load input) ---------------------
+    @property
+    def can_detect_trip(self) -> bool:
+        return self.profile.has("protection_tripped")
+
+    def tripped(self) -> bool:
+        """True when the instrument's protection has switched its output/input off (False if the profile cannot tell)."""
+        if not self.can_detect_trip:
+            return False
+        command = self._command("protection_tripped")
+        reply = self._query(command)
+        try:
+            return parse_bool(reply)
+        except ScpiReplyError:
+            value = None
+            try:
+                value = parse_number(reply)
+            except ScpiReplyError:
+                pass
+            if value in (0.0, 1.0):
+                return bool(value)
+            raise NonsenseReply(command, reply, "0 or 1", resource=self.resource) from None
+
+    def clear_protection(self) -> None:
+        self._write(self._command("protection_clear"))
+        self.check_errors()
+
+    def _program_levels(self, levels: list[tuple[str, str, float | None, str, str]]) -> list[str]:
+        """Send (operation, placeholder, value, unit, name) for each level given whose operation the profile has.
+
+        All are sent, then the error queue is read once: a level the instrument refused raises
+        InstrumentError and must not pass as a protection it does not have. Returns what was set.
+        """
+        done: list[str] = []
+        sent: list[str] = []
+        for operation, placeholder, value, unit, name in levels:
+            if value is None or not self.profile.has(operation):
+                continue
+            checked = self._setpoint(placeholder, value, None, unit, "")
+            sent.append(self._command(operation, **{placeholder: checked}))
+            done.append(f"{name} {checked:g} {unit}")
+        for command in sent:
+            self._write(command)
+        if sent:
+            self.check_errors(after=" ; ".join(sent))
+        return done
+
     # -- life cycle -------------------------------------------------------------------
     def close(self) -> None:
         self.transport.close()
@@ -484,32 +531,6 @@ class Supply(Role):
         raise NonsenseReply(decoding.query, reply, expected, resource=self.resource)
 
     @property
-    def can_detect_trip(self) -> bool:
-        return self.profile.has("protection_tripped")
-
-    def tripped(self) -> bool:
-        """True when the supply's protection has switched the output off (False if the profile cannot tell)."""
-        if not self.can_detect_trip:
-            return False
-        command = self._command("protection_tripped")
-        reply = self._query(command)
-        try:
-            return parse_bool(reply)
-        except ScpiReplyError:
-            value = None
-            try:
-                value = parse_number(reply)
-            except ScpiReplyError:
-                pass
-            if value in (0.0, 1.0):
-                return bool(value)
-            raise NonsenseReply(command, reply, "0 or 1", resource=self.resource) from None
-
-    def clear_protection(self) -> None:
-        self._write(self._command("protection_clear"))
-        self.check_errors()
-
-    @property
     def can_reverse(self) -> bool:
         return self.profile.has("polarity_reversed")
 
@@ -537,25 +558,11 @@ class Supply(Role):
         Sent with the output off, before the first output-on, and checked through the error
         queue: a level the instrument refused must not pass as a protection it does not have.
         """
-        done: list[str] = []
-        sent: list[str] = []
-        if over_voltage_v is not None and self.profile.has("over_voltage_protection"):
-            v = self._setpoint("over_voltage_v", over_voltage_v, None, "V", "")
-            sent.append(self._command("over_voltage_protection", voltage_v=v))
-            done.append(f"over-voltage {v:g} V")
-        if over_current_a is not None and self.profile.has("over_current_protection"):
-            a = self._setpoint("over_current_a", over_current_a, None, "A", "")
-            sent.append(self._command("over_current_protection", current_a=a))
-            done.append(f"over-current {a:g} A")
-        if timer_s is not None and self.profile.has("output_timer"):
-            t = self._setpoint("timer_s", timer_s, None, "s", "")
-            sent.append(self._command("output_timer", duration_s=t))
-            done.append(f"output timer {t:g} s")
-        for command in sent:
-            self._write(command)
-        if sent:
-            self.check_errors(after=" ; ".join(sent))
-        return done
+        return self._program_levels([
+            ("over_voltage_protection", "voltage_v", over_voltage_v, "V", "over-voltage"),
+            ("over_current_protection", "current_a", over_current_a, "A", "over-current"),
+            ("output_timer", "duration_s", timer_s, "s", "output timer"),
+        ])
 
     def _safe_steps_off(self):
         def off() -> None:
@@ -569,6 +576,10 @@ class Supply(Role):
             ("voltage to 0", lambda: self._write(self._command("set_voltage", voltage_v=0.0))),
             ("current limit to 0", lambda: self._write(self._command("set_current_limit", current_a=0.0))),
         ]
+
+
+#: The load's own protection on its input, in the order it is programmed.
+LOAD_PROTECTION_OPERATIONS = ("over_current_protection", "over_power_protection", "over_voltage_protection")
 
 
 class Load(Role):
@@ -607,6 +618,23 @@ class Load(Role):
 
     _state_operation = "input_state"
     _off_operation = "input_off"
+
+    @property
+    def protection_operations(self) -> tuple[str, ...]:
+        """The load's own input protection this profile can program (a second line of defence)."""
+        return tuple(op for op in LOAD_PROTECTION_OPERATIONS if self.profile.has(op))
+
+    def program_protection(self, *, over_current_a: float | None, over_power_w: float | None,
+                           over_voltage_v: float | None) -> list[str]:
+        """Program the load's input protection the profile has operations for; returns what was set, as text.
+
+        Sent with the input off, before the first input-on, and checked through the error queue.
+        """
+        return self._program_levels([
+            ("over_current_protection", "current_a", over_current_a, "A", "over-current"),
+            ("over_power_protection", "power_w", over_power_w, "W", "over-power"),
+            ("over_voltage_protection", "voltage_v", over_voltage_v, "V", "over-voltage"),
+        ])
 
     def _safe_steps_off(self):
         def off() -> None:

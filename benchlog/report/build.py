@@ -111,8 +111,11 @@ def analyse_run(path: str | Path, spec: PartSpec | None = None, *, model: str = 
     With a spec, the verdict comes from `check_run` and the fit shown is the one
     the verdict used (same model), so every number in the report agrees.
     """
+    from benchlog.runs.series import focus_frame
+
     path = Path(path)
     frame, meta = load_points(path)
+    frame, _focus = focus_frame(frame, meta)  # an input sweep: the single fit takes the highest input's series
     fit = heating = check = prediction = None
     fit_problem = check_problem = ""
     cond = Conditions(None, DEFAULT_AMBIENT_C)
@@ -348,6 +351,7 @@ def run_section(ra: RunAnalysis, spec: PartSpec | None) -> Section:
         status="" if complete else "incomplete",
         blocks=tuple(blocks),
         subsections=(Section("Fit and prediction", tuple(analysis)),) + ((soak,) if soak is not None else ())
+        + tuple(_sweep_sections(ra, spec))
         + (Section("Events and limit hits", tuple(_event_blocks(ra))), Section("Traceability", tuple(trace))),
     )
 
@@ -355,6 +359,17 @@ def run_section(ra: RunAnalysis, spec: PartSpec | None) -> Section:
 def _readable_table(data: Any, caption: str) -> Table | None:
     rows = readable_rows(data) if data else ()
     return Table(("setting", "value"), rows, caption=caption) if rows else None
+
+
+def _sweep_sections(ra: RunAnalysis, spec: PartSpec | None) -> list[Section]:
+    """The input-voltage and leakage sweeps of the run, when it holds them (`report.sweeps_section`)."""
+    from benchlog.report.sweeps_data import sweeps_payload
+    from benchlog.runs import load_points
+
+    from .sweeps_section import sweep_sections
+
+    whole, meta = load_points(ra.path)  # every series, not only the one the single fit took
+    return sweep_sections(sweeps_payload(whole, meta, spec=spec, operating_a=ra.operating_current_a))
 
 
 # ----------------------------------------------------------------------------- several runs

@@ -51,12 +51,15 @@ def design_section(r: DesignReview) -> Section:
     side = Table(
         ("candidate", "part", "kind", "drop (nominal)", "loss (nominal)", "efficiency", "loss (worst)",
          "Tj (worst)", "Tj margin", "blocking headroom", "|Vgs| unclamped / clamped / max", "threshold margin",
-         "reverse leakage"),
+         "R_DS(on) stated down to |Vgs|", "body diode takes over below", "reverse leakage"),
         tuple((c.label, c.part, c.kind, number(c.drop_v, "V", 4), number(c.loss_w, "W", 4),
                "—" if c.efficiency is None else f"{c.efficiency * 100:.2f} %", number(c.worst_loss_w, "W", 4),
                number(c.tj_c, "°C", 4), number(c.tj_margin_k, "K", 3), number(c.blocking_headroom_v, "V", 4),
                f"{number(c.vgs_unclamped_v, 'V', 4)} / {number(c.vgs_clamped_v, 'V', 4)} / {number(c.vgs_max_v, 'V')}",
-               number(c.threshold_margin_v, "V", 3), number(c.leakage_a, "A", 3))
+               number(c.threshold_margin_v, "V", 3), number(c.guaranteed_vgs_v, "V", 3),
+               "—" if c.takeover_v is None else f"{number(c.takeover_v, 'V', 3)} ({number(c.takeover.body_loss_w, 'W', 3)}, "
+               f"Tj {number(c.takeover.body_tj_c, '°C', 3)})",
+               number(c.leakage_a, "A", 3))
               for c in r.candidates),
         caption="Candidates side by side (worst case: maximum load and ambient, minimum input, maximum datasheet values)")
     checks = Table(("candidate", "check", "result", "detail"), tuple(
@@ -79,6 +82,8 @@ def design_section(r: DesignReview) -> Section:
             ("at input", number(c.at_vin_v, "V")), ("zener conducts", "yes" if c.active else "no"),
             ("zener current", number(c.zener_current_a, "A", 3)), ("zener power", number(c.zener_power_w, "W", 3)),
             ("resistor power", f"{number(c.resistor_power_w, 'W', 3)} (use a {number(c.resistor_rating_w, 'W')} part)"),
+            ("at the nominal input", "—" if c.quiescent_a is None else
+             f"{number(c.quiescent_a, 'A', 3)} continuous, {number(c.quiescent_w, 'W', 3)} at {number(c.nominal_v, 'V')}"),
             ("note", c.note or "—"),
         ), caption="Gate clamp sizing"))
     blocks.append(Paragraph(r.margins_note[0].upper() + r.margins_note[1:] + ".", "note"))

@@ -6,6 +6,7 @@ import numpy as np
 
 from benchlog.analysis.lot import LotSummary
 from benchlog.analysis.spec import PartSpec
+from benchlog.quantity import label_of
 
 from . import figures
 from .lot_runs import lot_from_runs
@@ -13,14 +14,13 @@ from .document import FigureBlock, Paragraph, Section, Table, VerdictBlock
 from .text import number, unit_of, with_uncertainty
 from .views import LotView
 
-_NAMES = {"r_on_ohm": "R_on", "drop_v": "Vf"}
 
 
 def lot_view(summary: LotSummary) -> LotView:
     unit = unit_of(summary.quantity)
     scale, scaled = (1e3, "m" + unit) if summary.quantity == "r_on_ohm" else (1.0, unit)
     return LotView(
-        quantity=_NAMES.get(summary.quantity, summary.quantity), unit=unit,
+        quantity=label_of(summary.quantity), unit=unit,
         values=np.array([p.value for p in summary.parts]),
         lower_limit=summary.lsl, upper_limit=summary.usl,
         capability=summary.capability, capability_name=summary.capability_name,
@@ -33,7 +33,7 @@ def summary_section(lot: str, summary: LotSummary) -> Section:
     unit = unit_of(summary.quantity)
     cap = "—" if summary.capability is None else f"{summary.capability:.3g}"
     stats = Table(("statistic", "value"), (
-        ("part", summary.part), ("quantity", f"{_NAMES.get(summary.quantity, summary.quantity)} ({summary.quantity})"),
+        ("part", summary.part), ("quantity", f"{label_of(summary.quantity)} ({summary.quantity})"),
         ("parts", str(summary.n)), ("mean", number(summary.mean, unit)), ("σ (sample)", number(summary.std, unit)),
         ("min", number(summary.min, unit)), ("max", number(summary.max, unit)),
         ("upper spec limit", number(summary.usl, unit)), ("lower spec limit", number(summary.lsl, unit)),
@@ -45,8 +45,8 @@ def summary_section(lot: str, summary: LotSummary) -> Section:
         ("parts pass / conditional / fail",
          f"{summary.counts.get('pass', 0)} / {summary.counts.get('conditional', 0)} / {summary.counts.get('fail', 0)}"),
     ), caption=f"Lot {lot}")
-    parts = Table(("serial", "run", "value (expanded U)", "verdict", "outlier"), tuple(
-        (p.serial, p.run, with_uncertainty(p.value, p.expanded_u, unit), p.outcome, "OUTLIER" if p.outlier else "")
+    parts = Table(("serial", "run", "value ± U (95.45 % coverage)", "verdict", "outlier"), tuple(
+        (p.serial, p.run, with_uncertainty(p.value, p.expanded_u, unit, None), p.outcome, "OUTLIER" if p.outlier else "")
         for p in summary.parts), caption="Parts of the lot")
     blocks: list = [
         VerdictBlock(summary.outcome, f"lot {lot}: {summary.n} parts of {summary.part}, "
@@ -54,7 +54,7 @@ def summary_section(lot: str, summary: LotSummary) -> Section:
                      (f"Each part: {summary.part_rule}",)),
         stats,
         FigureBlock("lot", figures.lot_figure(lot_view(summary), title=f"Lot {lot}: "
-                    f"{_NAMES.get(summary.quantity, summary.quantity)} over {summary.n} parts, "
+                    f"{label_of(summary.quantity)} over {summary.n} parts, "
                     f"{summary.capability_name} = {cap}"),
                     caption="Histogram of the lot with the spec limits and the mean; outliers are marked."),
         parts,

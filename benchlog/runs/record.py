@@ -203,8 +203,15 @@ class PlanRecord:
         except (KeyError, TypeError, ValueError, ZeroDivisionError):
             return 0
 
+    @property
+    def input_voltages_v(self) -> tuple[float, ...]:
+        """The input voltages of an input-voltage sweep, series by series (`series`); empty for any other plan."""
+        from .series import series_inputs_v
+
+        return series_inputs_v(self.source)
+
     def planned_points(self) -> int | None:
-        """How many points the steps (and a heat-soak) ask for; None for adaptive steps (they stop on a target)."""
+        """How many points the steps (once per input voltage) and a heat-soak ask for; None for adaptive steps (they stop on a target)."""
         steps = self.steps
         mode = steps.get("mode")
         if mode == "list":
@@ -214,7 +221,10 @@ class PlanRecord:
             if isinstance(count, bool) or not isinstance(count, int) or count <= 0:
                 return None
             sweep = {"linear": count, "log": count, "updown": 2 * count - 1}.get(mode)
-        return None if sweep is None else sweep + self.soak_readings()
+        if sweep is None:
+            return None
+        series = len(self.input_voltages_v) or 1  # an input sweep runs the steps once per input voltage
+        return sweep * series + self.soak_readings()
 
 
 @dataclass(frozen=True)

@@ -98,18 +98,34 @@ def gate_source_v(input_v: float, drop_v: float, zener_v: float | None, channel:
 
 @dataclass(frozen=True)
 class Leakage:
-    """Reverse current: I_R = I_R25·2^((Tj-25)/doubling)·(1 - exp(-Vr/nVt))·(1 + Vr/v_scale)."""
+    """Reverse current: I_R = I_R25·2^((Tj-25)/doubling)·(1 - exp(-Vr/Vt))·(1 + Vr/v_scale)·M(Vr).
+
+    (1 - exp(-Vr/Vt)) is Shockley's reverse branch, I = I_S·(exp(-V/Vt) - 1): the current
+    saturates at I_S once Vr is a few Vt (Sze, ch. 2). (1 + Vr/v_scale) is the slow rise real
+    junctions show above saturation (generation in the widening depletion layer, barrier
+    lowering: common practice). M(Vr) = 1/(1 - (Vr/BV)^m) is Miller's empirical avalanche
+    multiplication (S. L. Miller, Phys. Rev. 99, 1234, 1955), the soft knee below breakdown;
+    above 0.999·BV it is held at its value there (the sim's supply limit does the rest).
+    """
 
     leak_a: float
     doubling_k: float = 10.0
     v_scale_v: float = 20.0
+    breakdown_v: float | None = None
+    breakdown_m: float = 4.0
+
+    def multiplication(self, reverse_v: float) -> float:
+        if self.breakdown_v is None:
+            return 1.0
+        x = min(reverse_v / self.breakdown_v, 0.999)
+        return 1.0 / (1.0 - x ** self.breakdown_m)
 
     def current_a(self, reverse_v: float, temperature_c: float) -> float:
         if reverse_v <= 0:
             return 0.0
         saturation = -math.expm1(-reverse_v / thermal_voltage_v(temperature_c))
         scale = self.leak_a * 2.0 ** ((temperature_c - T0_C) / self.doubling_k)
-        return scale * saturation * (1.0 + reverse_v / self.v_scale_v)
+        return scale * saturation * (1.0 + reverse_v / self.v_scale_v) * self.multiplication(reverse_v)
 
 
 @dataclass(frozen=True)
@@ -186,6 +202,7 @@ class DiodeParams:
     cth_j_per_k: float
     rth_jc_k_per_w: float = 0.0  # junction to case; the rest of RθJA is case to ambient
     cth_case_j_per_k: float = 0.0  # the case node's heat capacity; 0: the single-pole model
+    breakdown_v: float | None = None  # soft reverse breakdown (Leakage.multiplication); None: none modelled
 
 
 class Diode(Element):
@@ -193,7 +210,7 @@ class Diode(Element):
         self.kind = kind
         self.params = params
         self.law = DiodeLaw(params.ideality, params.i_s_a, params.r_s_ohm, params.tempco_v_per_k)
-        self.leakage = Leakage(params.leak_a, params.leak_doubling_k)
+        self.leakage = Leakage(params.leak_a, params.leak_doubling_k, breakdown_v=params.breakdown_v)
         self.thermal = thermal_of(params)
 
     def forward_drop_v(self, current_a, temperature_c, *, input_v=None, source_v=None):
@@ -208,7 +225,8 @@ class Diode(Element):
             "kind": self.kind, "ideality": p.ideality, "i_s_a": p.i_s_a, "r_s_ohm": p.r_s_ohm,
             "tempco_v_per_k": p.tempco_v_per_k, "tempco_ref_a": self.law.tempco_ref_a,
             "vf_at_1a_v": self.law.drop_v(1.0, T0_C), "reverse_leak_a": p.leak_a,
-            "reverse_leak_doubling_k": p.leak_doubling_k,
+            "reverse_leak_doubling_k": p.leak_doubling_k, "reverse_v_scale_v": self.leakage.v_scale_v,
+            "reverse_breakdown_v": p.breakdown_v, "reverse_breakdown_m": self.leakage.breakdown_m,
             **thermal_truth(self.thermal),
         }
 
@@ -367,7 +385,8 @@ NOMINAL: dict[str, object] = {
                              rth_jc_k_per_w=15.0, cth_case_j_per_k=0.2),
     "schottky": DiodeParams(ideality=1.05, i_s_a=5e-8, r_s_ohm=0.040, tempco_v_per_k=-1.5e-3,
                             leak_a=20e-6, leak_doubling_k=10.0, rth_ja_k_per_w=50.0, cth_j_per_k=0.4,
-                            rth_jc_k_per_w=15.0, cth_case_j_per_k=0.2),
+                            rth_jc_k_per_w=15.0, cth_case_j_per_k=0.2,
+                            breakdown_v=55.0),  # a 40 V part breaks down a little above its rating (invented)
     "pmos": MosfetParams(r_on_ohm=0.010, vgs_th_v=2.0, vgs_full_v=10.0, channel_fraction=0.3, tempco_per_k=0.005,
                        zener_v=None, gate_resistor_ohm=100e3, body_ideality=1.3, body_i_s_a=1e-10,
                        body_r_s_ohm=0.010, body_tempco_v_per_k=-2.0e-3, leak_a=0.1e-6, leak_doubling_k=10.0,

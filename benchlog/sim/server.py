@@ -170,8 +170,10 @@ class _InstrumentServer:
                 reply = None
             else:
                 bench.supply.check_protection()
+                bench.load.check_protection()
                 reply = self.device.execute(text)
                 bench.supply.check_protection()
+                bench.load.check_protection()
             instrument_s = self.device.reply_delay_s if reply is not None else 0.0
         if reply is None or "hang" in fired:
             return True
@@ -253,6 +255,10 @@ class RunningBench:
 
     def truth(self) -> dict:
         return self.bench.truth()
+
+    def messages(self, role: str) -> int:
+        """How many program messages `role` has received so far (a witness that nothing was sent)."""
+        return next(s.faults.count for s in self._servers if s.role == role)
 
     def __enter__(self) -> "RunningBench":
         return self

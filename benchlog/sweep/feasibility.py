@@ -35,6 +35,9 @@ def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
             "force = 'load' with input_v above the gate threshold, [element].gate = 'driven', or "
             "[element].measure = 'body_diode' to measure the body diode on purpose",
         )
+    if plan.input is not None and w.force != "load":
+        raise BadInput(bench.source, "[wiring].force", "is 'supply', but the plan sweeps the input voltage ([input])",
+                       "force = 'load': the supply holds each input voltage while the load sets the current")
     if w.force == "supply":
         if lim.compliance_v is None:
             raise BadInput(plan.source, "[limits].compliance_v", "is missing",
@@ -44,6 +47,8 @@ def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
                            f"is {lim.compliance_v:g} V, below the {floor:g} V a {e.kind} needs before any "
                            "forward current flows: the supply would leave CC at once",
                            f"a compliance above {floor:g} V and above the expected drop")
+    elif plan.input is not None:
+        _check_input_sweep(plan, bench, floor, gate_on_supply, warnings)
     else:
         if lim.compliance_v is not None and w.input_v > lim.compliance_v:
             raise BadInput(bench.source, "[wiring].input_v",
@@ -66,6 +71,28 @@ def check_plan_on_bench(plan: Plan, bench: BenchSetup) -> list[str]:
         warnings.append("reverse step: the load's input is off during the reverse step; the reverse "
                         "current is read from the supply")
     return warnings
+
+
+def _check_input_sweep(plan: Plan, bench: BenchSetup, floor: float, gate_on_supply: bool,
+                       warnings: list[str]) -> None:
+    """An input-voltage sweep: the load wiring only (the supply holds each input), each input within the limits."""
+    w, lim, e = bench.wiring, plan.limits, plan.element
+    for i, v in enumerate(plan.input.voltages_v):
+        if lim.compliance_v is not None and v > lim.compliance_v:
+            raise BadInput(plan.source, f"[input].voltages_v[{i}]",
+                           f"is {v:g} V, above the plan's compliance_v {lim.compliance_v:g} V",
+                           "input voltages within [limits].compliance_v")
+        if v <= floor:
+            raise BadInput(plan.source, f"[input].voltages_v[{i}]",
+                           f"is {v:g} V, not enough to drive current through a {e.kind}",
+                           f"input voltages well above {floor:g} V")
+    if gate_on_supply and min(plan.input.voltages_v) < MIN_ENHANCE_V:
+        warnings.append(f"input sweep: below about {MIN_ENHANCE_V:g} V input the channel may not enhance and the "
+                        "body diode carries the current, at a far higher loss: keep max_power_w and max_drop_v "
+                        "set for the body diode")
+    if w.input_v not in plan.input.voltages_v:
+        warnings.append(f"input sweep: the bench file's input_v {w.input_v:g} V is not used; the supply holds "
+                        "each of [input].voltages_v in turn")
 
 
 def check_plan_on_rig(plan: Plan, rig: Rig) -> list[str]:

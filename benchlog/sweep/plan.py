@@ -18,9 +18,12 @@ the nearest valid name, because a typo in a limit must not silently disable it.
     [limits]    max_current_a, compliance_v, max_drop_v, max_power_w, max_time_s
     [cooldown]  off_s
     [offset]    enabled (zero-current reading of the drop before power is applied)
-    [reverse]   voltage_v, duration_s, max_current_a
+    [reverse]   voltage_v | voltages_v (list) | start_v, stop_v, count; duration_s, max_current_a
+                (several voltages: a leakage sweep, one reading per voltage, highest last)
     [soak]      current_a, duration_s, interval_s, cool_s, sense_a, rest_s,
                 calibration_c + calibration_v (the drop at sense_a at known temperatures)
+    [input]     voltages_v (list): a current sweep at each input voltage (load wiring only),
+                one series per input in the same run (`benchlog.runs.series`)
     [inspection] stop_when_decided, max_drop_v (acceptance limit of the drop at operating_a),
                 first_look (points before the first look): stop a part once its verdict is decided
                 (benchlog.sweep.sequential)
@@ -42,9 +45,11 @@ from benchlog.tomlcheck import Table, load_toml, parse_toml
 STEP_MODES = ("linear", "log", "list", "updown", "adaptive")
 
 _TABLES = ("element", "steps", "settle", "meter", "record", "limits", "cooldown", "offset", "reverse", "soak",
-           "inspection", "lab")
+           "input", "inspection", "lab")
 #: A heat-soak records at most this many points per phase (heating, cooling).
 SOAK_MAX_POINTS = 100_000
+#: At most this many input voltages or reverse voltages in one plan (each is a full step).
+MAX_SERIES = 100
 
 
 @dataclass(frozen=True)
@@ -141,9 +146,23 @@ class Inspection:
 
 @dataclass(frozen=True)
 class Reverse:
+    """The reverse step: `voltage_v` is the highest reverse voltage; `voltages_v` every one, in the order applied."""
+
     voltage_v: float
     duration_s: float
     max_current_a: float
+    voltages_v: tuple[float, ...] = ()
+
+    @property
+    def steps_v(self) -> tuple[float, ...]:
+        return self.voltages_v or (self.voltage_v,)
+
+
+@dataclass(frozen=True)
+class InputSweep:
+    """The input voltages of an input-voltage sweep, in the order the series are run."""
+
+    voltages_v: tuple[float, ...]
 
 
 @dataclass(frozen=True)
@@ -193,6 +212,7 @@ class Plan:
     reverse: Reverse | None
     source: str = "plan"
     soak: Soak | None = None
+    input: InputSweep | None = None
     inspection: Inspection | None = None
     lab: Lab | None = None  # optional [lab] table
     spec: str = ""  # the part spec as written in the plan (relative to the plan file, so a run header stays
@@ -209,6 +229,11 @@ class Plan:
                 data["element"].pop(key, None)
         if data["soak"] is None:
             data.pop("soak")  # plans without a soak keep the header they always had
+        # A plan without the input or leakage sweep records exactly what it did before they existed.
+        if data["input"] is None:
+            data.pop("input")
+        if data["reverse"] is not None and not data["reverse"]["voltages_v"]:
+            data["reverse"].pop("voltages_v")
         if data.get("inspection") is None:
             data.pop("inspection", None)  # a plan without the table records exactly what it did before
         return _jsonable(data)
@@ -256,10 +281,18 @@ def plan_from_table(root: Table) -> Plan:
         reverse=_reverse(root.table("reverse", required=False), limits),
         source=root.source,
         soak=_soak(root.table("soak", required=False), limits),
+        input=_input(root.table("input", required=False)),
         inspection=_inspection(root.table("inspection", required=False), element, steps),
         lab=_lab(root.table("lab", required=False)),
         spec=str(spec or ""),
     )
+    if plan.input is not None:
+        for other in ("soak", "inspection"):
+            if getattr(plan, other) is not None:
+                # a heat-soak or a stop-when-decided inspection holds one input voltage; a series per input
+                # would leave it unclear which one it was run at
+                raise root.fail("input", f"is given together with [{other}]",
+                                f"[input] or [{other}] in one plan (make a plan for each)")
     return plan
 
 
@@ -441,11 +474,36 @@ def _offset(t: Table | None) -> OffsetReading:
 def _reverse(t: Table | None, limits: Limits) -> Reverse | None:
     if t is None:
         return None
-    t.only(("voltage_v", "duration_s", "max_current_a"))
+    t.only(("voltage_v", "voltages_v", "start_v", "stop_v", "count", "duration_s", "max_current_a"))
+    given = [k for k in ("voltage_v", "voltages_v", "start_v") if t.has(k)]
+    if len(given) != 1:
+        raise t.fail(None if not given else given[-1],
+                     "needs exactly one of voltage_v, voltages_v or start_v/stop_v/count" if given else
+                     "gives no reverse voltage", "voltage_v = 12.0, or voltages_v = [...], or start_v, stop_v, count")
+    for key in ("stop_v", "count"):
+        if t.has(key) and not t.has("start_v"):
+            raise t.fail(key, "is only used with start_v", "start_v, stop_v and count together")
+    voltages: tuple[float, ...] = ()
+    if t.has("voltages_v"):
+        voltages = t.numbers("voltages_v", unit="V")
+        if not 1 <= len(voltages) <= MAX_SERIES:
+            raise t.fail("voltages_v", f"has {len(voltages)} voltages", f"1 to {MAX_SERIES} voltages")
+        for i, v in enumerate(voltages):
+            if not v > 0:
+                raise t.fail(f"voltages_v[{i}]", f"is {v:g} V", "a reverse voltage > 0 V")
+    elif t.has("start_v"):
+        start = t.number("start_v", positive=True, unit="V")
+        stop = t.number("stop_v", positive=True, unit="V")
+        if stop <= start:
+            raise t.fail("stop_v", f"is {stop:g} V, not above start_v {start:g} V", "stop_v > start_v")
+        count = t.integer("count", min=2, max=MAX_SERIES)
+        voltages = tuple(start + (stop - start) * i / (count - 1) for i in range(count))
+    highest = max(voltages) if voltages else t.number("voltage_v", positive=True, unit="V")
     reverse = Reverse(
-        voltage_v=t.number("voltage_v", positive=True, unit="V"),
+        voltage_v=highest,
         duration_s=t.number("duration_s", positive=True, max=3600.0, unit="s"),
         max_current_a=t.number("max_current_a", positive=True, unit="A"),
+        voltages_v=voltages,
     )
     if reverse.max_current_a > limits.max_current_a:
         raise t.fail("max_current_a", f"is {reverse.max_current_a:g} A, above [limits].max_current_a "
@@ -495,6 +553,20 @@ def _soak(t: Table | None, limits: Limits) -> Soak | None:
         raise t.fail("duration_s", f"rest_s + duration_s + cool_s is {soak.total_s:g} s, above "
                      f"[limits].max_time_s {limits.max_time_s:g} s", "a soak the time limit allows")
     return soak
+
+def _input(t: Table | None) -> InputSweep | None:
+    if t is None:
+        return None
+    t.only(("voltages_v",))
+    voltages = t.numbers("voltages_v", unit="V")
+    if not 2 <= len(voltages) <= MAX_SERIES:
+        raise t.fail("voltages_v", f"has {len(voltages)} voltage(s)", f"2 to {MAX_SERIES} input voltages")
+    for i, v in enumerate(voltages):
+        if not v > 0:
+            raise t.fail(f"voltages_v[{i}]", f"is {v:g} V", "an input voltage > 0 V")
+    if len(set(voltages)) != len(voltages):
+        raise t.fail("voltages_v", "repeats a voltage", "each input voltage once")
+    return InputSweep(voltages_v=voltages)
 
 
 def plan_spec_path(plan: Plan, plan_file: str | Path | None) -> Path | None:

@@ -18,6 +18,7 @@ current read-back, the supply mode (the only way to see compliance) and, if
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import socket
 import threading
@@ -60,6 +61,7 @@ from .protection import program_protection
 from .rig import Rig, drop_range_v, measurement_accuracy, reverse_limit_a
 from .settle import Interrupted, Overload, Settled, mean_of, settle
 from .steps import FixedSteps, Step, StepSource, schedule
+from benchlog.runs.series import SERIES_STARTED, series_flag
 
 #: The reverse step counts only if the supply really held this fraction of its voltage.
 REVERSE_APPLIED_FRACTION = 0.9
@@ -69,6 +71,9 @@ CHECKPOINT_S = 5.0
 #: limit hit: the read-back's own accuracy (a few 0.1 % plus counts) must not stop a
 #: sweep whose setpoints are all within the limit.
 CURRENT_READBACK_MARGIN = 0.02
+#: In the load wiring a current read below this fraction of the setpoint makes the runner ask the
+#: load whether its own protection switched its input off.
+LOAD_TRIP_FRACTION = 0.5
 
 
 def step_source(plan: Plan) -> StepSource:
@@ -152,10 +157,11 @@ class SweepRunner:
     # -- public --------------------------------------------------------------
     @property
     def planned(self) -> int:
-        """Points to expect (an upper bound for adaptive stepping), the heat-soak's readings included."""
+        """Points to expect (an upper bound for adaptive stepping): the steps of each series, and the heat-soak's readings."""
+        series = len(self.plan.input.voltages_v) if self.plan.input is not None else 1
         soak = self.plan.soak
         extra = 0 if soak is None else int((soak.duration_s + soak.cool_s) / soak.interval_s + 1e-9)
-        return self.steps.planned + extra
+        return self.steps.planned * series + extra
 
     def cancel(self) -> None:
         """Ask the sweep to stop; safe from any thread. The safe state follows within one step."""
@@ -264,31 +270,26 @@ class SweepRunner:
         for text in program_protection(rig, plan):
             yield self._emit(Note(self._t(), "info", text))
         self._check_cancel()
-        rig.power_on()
-        self.power_applied = True
-        step = first
+        inputs: tuple[float | None, ...] = plan.input.voltages_v if plan.input is not None else (None,)
         index = 0
-        while step is not None:
-            if index > 0:
-                self._check_cancel()
-                self._check_time()
-                rig.set_current(step.setpoint_a)
-                if plan.cooldown.off_s > 0:
-                    rig.element_on()
-            self._pause(plan.settle.dwell_s)
-            self._check_cancel()
-            point, stop = self._read_point(index, step)
-            if point is not None:
-                self.points.append(point)
-                yield self._emit(point)
-            if stop is not None:
-                raise stop
-            self._checkpoint()
-            index += 1
-            step = self.steps.next_step(self.points)
-            if plan.cooldown.off_s > 0:
-                rig.element_off()
-                self._pause(plan.cooldown.off_s)
+        for k, input_v in enumerate(inputs):
+            if input_v is not None:
+                if k > 0:  # a new series: current off while the supply moves to the next input
+                    self._check_cancel()
+                    rig.element_off()
+                    self.steps = step_source(plan)
+                    first = self.steps.next_step([])
+                    if first is None:
+                        break
+                    rig.set_current(first.setpoint_a)
+                rig.supply.set_voltage(input_v)
+                yield self._emit(Note(self._t(), "info", f"{SERIES_STARTED} {k}: input {input_v:g} V"))
+            if k == 0:
+                rig.power_on()
+                self.power_applied = True
+            else:
+                rig.element_on()
+            index = yield from self._series(first, index, series_flag(k) if input_v is not None else None)
         state = getattr(self.steps, "state", None)
         if state is not None:
             label = getattr(self.steps, "label", "adaptive stepping")
@@ -300,6 +301,38 @@ class SweepRunner:
         if plan.reverse is not None:
             yield from self._reverse()
             rig.check_errors("reverse step")
+
+    def _series(self, first, index: int, flag: str | None) -> Iterator[Event]:
+        """Step the current through one series (the whole sweep, or one input voltage of an input sweep)."""
+        plan, rig = self.plan, self.rig
+        series: list[Point] = []
+        step = first
+        start = index
+        while step is not None:
+            if index > start:
+                self._check_cancel()
+                self._check_time()
+                rig.set_current(step.setpoint_a)
+                if plan.cooldown.off_s > 0:
+                    rig.element_on()
+            self._pause(plan.settle.dwell_s)
+            self._check_cancel()
+            point, stop = self._read_point(index, step)
+            if point is not None:
+                if flag is not None:
+                    point = dataclasses.replace(point, flags=point.flags + (flag,))
+                self.points.append(point)
+                series.append(point)
+                yield self._emit(point)
+            if stop is not None:
+                raise stop
+            self._checkpoint()
+            index += 1
+            step = self.steps.next_step(series if flag is not None else self.points)
+            if plan.cooldown.off_s > 0:
+                rig.element_off()
+                self._pause(plan.cooldown.off_s)
+        return index
 
     def _offset(self) -> Iterator[Event]:
         try:
@@ -375,6 +408,8 @@ class SweepRunner:
                 reading = settle(rig.read_drop, plan.settle, self._clock, self._cancel.is_set)
         except Overload:
             rig.element_off()
+            if self._load_tripped(step.setpoint_a, None):  # an open load leaves the drop undefined: say why
+                return None, _load_trip_stop(step.setpoint_a)
             rng = rig.ranges.get("meter", 0.0)
             return None, _Stop("limit", "limit", f"meter overload at {step.setpoint_a:g} A: the drop is beyond "
                                f"the {rng:g} V range (no reading)")
@@ -392,6 +427,9 @@ class SweepRunner:
             cause = "its protection tripped" if tripped else f"status {mode}: neither CV nor CC"
             return None, _Stop("fault", "fault", f"supply output went off during the sweep ({cause}) at "
                                f"{step.setpoint_a:g} A; point not recorded")
+        if self._load_tripped(step.setpoint_a, current):
+            rig.element_off()
+            return None, _load_trip_stop(step.setpoint_a)
         stop: _Stop | None = None
         expected = rig.expected_mode()
         if mode in ("CV", "CC") and mode != expected:
@@ -434,8 +472,25 @@ class SweepRunner:
         )
         return point, stop
 
+    def _load_tripped(self, setpoint_a: float, current_a: float | None) -> bool:
+        """In the load wiring, a current far below the setpoint may be the load's protection: ask it then.
+
+        Asked only on such a reading, so a sweep that runs as planned sends no extra query.
+        """
+        load = getattr(self.rig, "load", None)
+        if self.rig.wiring.force != "load" or load is None or not getattr(load, "can_detect_trip", False):
+            return False
+        if current_a is not None and math.isfinite(current_a) and current_a >= LOAD_TRIP_FRACTION * setpoint_a:
+            return False
+        return bool(_safe_call(load.tripped))
+
     def _reverse(self) -> Iterator[Event]:
-        """Reverse the supply across the element at voltage_v for duration_s and read the reverse current."""
+        """Reverse the supply across the element at each reverse voltage for duration_s and read the reverse current.
+
+        One voltage is the reverse-polarity step; several are a leakage sweep, one ReverseResult each, in the
+        plan's order. The sweep stops at the first voltage the supply could not hold (the element conducts) or
+        whose current is above the pass limit: a higher voltage would only drive more current.
+        """
         rev, rig, supply = self.plan.reverse, self.rig, self.rig.supply
         rig.element_off()
         if rig.wiring.force == "load":
@@ -444,28 +499,37 @@ class SweepRunner:
         read_reverse = rig.reverse_current_reader(limit_a)
         supply.set_voltage(0.0)
         supply.set_reversed(True)
+        readings: list[tuple[float, float, float, float]] = []  # (t_s, voltage_v, current_a, applied_v)
         try:
             supply.set_current_limit(limit_a)
-            supply.set_voltage(rev.voltage_v)
-            supply.set_output(True)
-            self._pause(rev.duration_s)
-            self._check_cancel()
-            current = read_reverse()
-            applied_v = abs(supply.measure_voltage())
+            for voltage_v in rev.steps_v:
+                supply.set_voltage(voltage_v)
+                supply.set_output(True)
+                self._pause(rev.duration_s)
+                self._check_cancel()
+                current = read_reverse()
+                applied_v = abs(supply.measure_voltage())
+                readings.append((self._t(), voltage_v, current, applied_v))
+                if current > rev.max_current_a or applied_v < REVERSE_APPLIED_FRACTION * voltage_v:
+                    break
             supply.set_output(False)
         finally:
             _safe_call(lambda: supply.set_output(False))
             _safe_call(lambda: supply.set_voltage(0.0))
             _safe_call(lambda: supply.set_reversed(False))
-        # A supply held at its current limit cannot hold the reverse voltage: the element conducts
-        # in reverse (or the limit is too low to drive the leads); either way the test did not pass.
-        applied = applied_v >= REVERSE_APPLIED_FRACTION * rev.voltage_v
-        passed = current <= rev.max_current_a and applied
-        if not applied:
-            yield self._emit(Note(self._t(), "warning", f"reverse step: only {applied_v:.4g} V of the "
-                                  f"{rev.voltage_v:g} V reached the element (supply current limit "
-                                  f"{limit_a:g} A): the element conducts in reverse"))
-        yield self._emit(ReverseResult(self._t(), rev.voltage_v, rev.duration_s, current, rev.max_current_a, passed))
+        for t_s, voltage_v, current, applied_v in readings:
+            # A supply held at its current limit cannot hold the reverse voltage: the element conducts
+            # in reverse (or the limit is too low to drive the leads); either way the test did not pass.
+            applied = applied_v >= REVERSE_APPLIED_FRACTION * voltage_v
+            passed = current <= rev.max_current_a and applied
+            if not applied:
+                yield self._emit(Note(self._t(), "warning", f"reverse step: only {applied_v:.4g} V of the "
+                                      f"{voltage_v:g} V reached the element (supply current limit "
+                                      f"{limit_a:g} A): the element conducts in reverse"))
+            yield self._emit(ReverseResult(t_s, voltage_v, rev.duration_s, current, rev.max_current_a, passed))
+        if len(readings) < len(rev.steps_v):
+            yield self._emit(Note(self._t(), "info", f"leakage sweep stopped after {len(readings)} of "
+                                  f"{len(rev.steps_v)} voltages: the last one did not pass"))
 
     # -- helpers -------------------------------------------------------------
     def _take_safe_state(self, guarding: Any) -> Any:
@@ -598,6 +662,11 @@ def _safety_limit_type() -> type:
     except ImportError:  # pragma: no cover
         return type("NoSafetyLimit", (Exception,), {})
     return SafetyLimit
+
+
+def _load_trip_stop(setpoint_a: float) -> "_Stop":
+    return _Stop("fault", "fault", f"load input went off during the sweep (its protection tripped) "
+                 f"at {setpoint_a:g} A; point not recorded")
 
 
 def _safe_call(fn: Callable[[], Any] | None) -> Any:

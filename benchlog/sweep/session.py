@@ -51,19 +51,25 @@ def run_sweep(
     before_power_on: Callable[[], bool | None] | None = None,
     on_runner: Callable[[SweepRunner], None] | None = None,
     on_safe_state: Callable[[Any], None] | None = None,
+    on_notice: Callable[[str], None] | None = None,
     lock_dir: str | Path | None = None,
 ) -> SweepResult:
     """Run `plan` on `bench` and record it under `out_dir` (a simulated bench is started by the caller).
 
     `on_safe_state` gets the guard's SafeStateReport on every way out after the first
     connection (without it, a statement other than "verified" is printed to stderr).
+    `on_notice` is told at once, in one line naming role and resource, of an output found
+    ON when its instrument connects, before it is switched off (without it: stderr); the
+    run file then records what the read-back said, as a warning after its header.
     Raises BenchInUse when another session holds one of the bench's resources.
     """
     from benchlog.instruments.benchlock import BenchLock
     from benchlog.instruments.guard import safe_state_guard
     from benchlog.runs.writer import RunWriter, new_run_path
 
-    guard_kwargs = {} if on_safe_state is None else {"report": on_safe_state}
+    guard_kwargs: dict[str, Any] = {} if on_safe_state is None else {"report": on_safe_state}
+    if on_notice is not None:
+        guard_kwargs["on_notice"] = on_notice
     guard = safe_state_guard(raise_unverified=False, **guard_kwargs)
     warnings = check_plan_on_bench(plan, bench)
     resources = [spec.resource for spec in bench.roles.values()]
@@ -109,7 +115,7 @@ class ProbedRole:
 
     idn: str
     profile: str
-    message: str = ""  # empty when the output was read back off
+    message: str = ""  # empty when the output was read back off and was not found on
 
 
 def probe_role(bench: BenchSetup, name: str, *, lock_dir: str | Path | None = None) -> ProbedRole:
@@ -124,11 +130,13 @@ def probe_role(bench: BenchSetup, name: str, *, lock_dir: str | Path | None = No
     with BenchLock([spec.resource], directory=Path(lock_dir) if lock_dir is not None else None):
         role = open_role(profile_role(name), spec.resource, spec.profile, backend=spec.backend)
         try:
-            guard = safe_state_guard(report=None, raise_unverified=False)
+            guard = safe_state_guard(report=None, raise_unverified=False, on_notice=None)
             with guard:
                 guard.add(role)  # switched off and read back, like every connection
             report = guard.outcome
-            message = "" if report is None or report.verified or not report.roles else report.statement()
-            return ProbedRole(idn_text(role.idn), role.profile.name, message)
+            said = [n for n in guard.connect_notes if "was ON when benchlog connected" in n]
+            if report is not None and report.roles and not report.verified:
+                said.append(report.statement())
+            return ProbedRole(idn_text(role.idn), role.profile.name, "; ".join(said))
         finally:
             close_roles([role])

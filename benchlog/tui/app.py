@@ -149,6 +149,8 @@ class BenchApp(App):
             self.pair_spec()
         if session is not None:
             self.state.roles = session.roles()
+            if hasattr(session, "on_notice"):  # an output found ON at connect, told from the sweep's worker
+                session.on_notice = self._notice_from_worker
         self._start_view = start_view
         self._replay_at_start = Path(replay) if replay else None
         self._probe_on_start = probe_on_start and session is not None
@@ -189,6 +191,9 @@ class BenchApp(App):
             self.notify(text, severity=severity, timeout=8)
         self.redraw()
 
+    def _notice_from_worker(self, text: str) -> None:
+        self.call_from_thread(self.say, text, severity="warning")
+
     # -- the event pump (UI thread) -------------------------------------------
     def _pump(self) -> None:
         events = self.feed.drain()
@@ -222,6 +227,8 @@ class BenchApp(App):
         self.state.roles = roles
         if message.status.state != "connected":
             self.say(f"{message.status.role}: {message.status.message or message.status.state}", severity="warning")
+        elif message.status.message:  # connected, but an output was found ON (or did not read back off)
+            self.say(message.status.message, severity="warning")
         self.redraw()
 
     # -- sweeps ------------------------------------------------------------------

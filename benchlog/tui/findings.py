@@ -29,6 +29,7 @@ class RunFindings:
     notes: tuple[str, ...] = field(default=())
     soak: Any = None  # benchlog.analysis.thermal_response.SoakResult of a heat-soak run
     soak_error: str = ""
+    sweeps: Any = None  # benchlog.report.sweeps_data.sweeps_payload: input and leakage sweeps, when the run has them
 
     @property
     def verdict(self) -> str | None:
@@ -40,7 +41,10 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
     """Load `path`, fit it with `model`, and judge it against the spec when one is given."""
     from benchlog.runs import load
 
-    frame, meta = load(path)
+    from benchlog.runs.series import focus_frame
+
+    whole, meta = load(path)
+    frame, focus = focus_frame(whole, meta)  # an input sweep: the single fit takes the highest input's series
     fit = None
     fit_error = ""
     self_heating = None
@@ -74,12 +78,19 @@ def study_run(path: Path, spec_path: Path | None = None, model: str = "auto") ->
     try:
         from benchlog.analysis.thermal_response import analyse_soak, has_soak
 
-        if has_soak(frame):
-            soak = analyse_soak(frame, meta, spec)
+        if has_soak(whole):
+            soak = analyse_soak(whole, meta, spec)
     except Exception as exc:
         soak_error = _sentence(exc)
+    sweeps = None
+    try:
+        from benchlog.report.sweeps_data import sweeps_payload
+
+        sweeps = sweeps_payload(whole, meta, spec=spec)
+    except Exception as exc:  # the sweeps are an addition: their failure must not hide the fit
+        check_error = check_error or _sentence(exc)
     return RunFindings(path, frame, meta, model, fit, fit_error, spec, spec_path, check, check_error, self_heating,
-                       soak=soak, soak_error=soak_error)
+                       notes=(focus,) if focus else (), soak=soak, soak_error=soak_error, sweeps=sweeps)
 
 
 def _short_paths(text: str, path: Path) -> str:

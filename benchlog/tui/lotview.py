@@ -5,6 +5,8 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any, Sequence
 
+from benchlog.quantity import label_of, unit_of
+
 from .findings import study_run
 
 
@@ -14,7 +16,7 @@ def part_quantity(findings) -> tuple[str, str, float | None, float | None]:
     if fit is None:
         return ("value", "", None, None)
     if "r_on_ohm" in fit.params:
-        return ("R_on", "Ω", fit.params["r_on_ohm"], fit.std_u.get("r_on_ohm"))
+        return (label_of("r_on_ohm"), "Ω", fit.params["r_on_ohm"], fit.std_u.get("r_on_ohm"))
     from .views.results import operating_current
 
     at = operating_current(findings)
@@ -41,7 +43,7 @@ def judge_part(entry: Any, spec_path: Path | None) -> None:
         entry.message = findings.fit_error
 
 
-QUANTITY_NAMES = {"r_on_ohm": ("R_on", "Ω"), "drop_v": ("Vf", "V")}
+QUANTITY_NAMES = {key: (label_of(key), unit_of(key)) for key in ("r_on_ohm", "drop_v")}
 
 
 def summarise(run_paths: Sequence[Path], spec_path: Path | None):

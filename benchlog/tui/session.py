@@ -63,6 +63,8 @@ class BenchSession:
         self._lock = threading.Lock()
         self._cancelled = False
         self.last_safe_report: Any = None  # the guard's read-back after the last sweep (None: never connected)
+        #: told at once, from the sweep's worker thread, of an output found ON when its instrument connects
+        self.on_notice: Callable[[str], None] | None = None
 
     @classmethod
     def simulated(cls, element: Any, start_sim: StartSim, *, runs_dir: Path, seed: int = 1,
@@ -127,12 +129,16 @@ class BenchSession:
         self._bench_for(plan)
         try:
             result = run_sweep(plan, self.setup, self.runs_dir, on_event=on_event, on_runner=self._hold_runner,
-                               on_safe_state=self._hold_safe_state)
+                               on_safe_state=self._hold_safe_state, on_notice=self._notice)
         finally:
             with self._lock:
                 self._runner = None
         return SweepOutcome(result.outcome, result.run_file, result.points, result.message,
                             result.safe_state, result.safe_statement)
+
+    def _notice(self, text: str) -> None:
+        if self.on_notice is not None:
+            self.on_notice(text)
 
     def _hold_safe_state(self, report: Any) -> None:
         self.last_safe_report = report

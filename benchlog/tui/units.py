@@ -9,13 +9,13 @@ from __future__ import annotations
 
 import math
 
-from benchlog.quantity import measured
+from benchlog.quantity import engineering, measured
 
 _PREFIXES = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "µ"), (1e-9, "n"), (1e-12, "p"))
 
 
 def prefix_for(magnitude: float) -> tuple[float, str]:
-    """The SI prefix (scale, symbol) that puts `magnitude` in [1, 1000)."""
+    """The SI prefix (scale, symbol) that puts `magnitude` in [1, 1000): one prefix for a plot's whole axis."""
     magnitude = abs(magnitude)
     if not math.isfinite(magnitude) or magnitude == 0.0:
         return 1.0, ""
@@ -26,13 +26,8 @@ def prefix_for(magnitude: float) -> tuple[float, str]:
 
 
 def si(value: float | None, unit: str, digits: int = 4) -> str:
-    """`0.02612` Ω -> `26.12 mΩ`; None or non-finite -> `—`."""
-    if value is None or not math.isfinite(value):
-        return "—"
-    scale, symbol = prefix_for(value)
-    scaled = value / scale
-    decimals = max(0, digits - 1 - int(math.floor(math.log10(abs(scaled))))) if scaled else digits - 1
-    return f"{scaled:.{decimals}f} {symbol}{unit}"
+    """`0.02612` Ω -> `26.12 mΩ`; None or non-finite -> `—` (`benchlog.quantity.engineering`, the one writer)."""
+    return engineering(value, unit, digits)
 
 
 def with_uncertainty(value: float, std_u: float, unit: str, k: float = 2.0, coverage: float | None = None) -> str:

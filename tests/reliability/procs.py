@@ -141,3 +141,20 @@ def messages(stderr: str) -> list[str]:
     """The stderr lines that are neither the power caution nor progress: what the user is told."""
     return [line for line in stderr_lines(stderr)
             if not line.startswith(CAUTION_START) and not line.startswith(PROGRESS_START)]
+
+
+def send(resource: str, *commands: str) -> list[str]:
+    """Send commands to one sim instrument over a fresh pyvisa-py connection, as any other client would.
+
+    A command ending in '?' is a query; its reply is returned, in order.
+    """
+    with _VISA_LOCK:
+        rm = pyvisa.ResourceManager("@py")
+        try:
+            link = rm.open_resource(resource, read_termination="\n", write_termination="\n", timeout=3000)
+            try:
+                return [link.query(c).strip() if c.endswith("?") else (link.write(c), "")[1] for c in commands]
+            finally:
+                link.close()
+        finally:
+            rm.close()

@@ -53,6 +53,7 @@ FILES = [
     ("plan/duplicate-key.toml", SWEEP, ["not valid TOML", "line 14"]),
     ("plan/unknown-key.toml", SWEEP, ["[limits].max_curent_a", "unknown key", "max_current_a"]),
     ("plan/unknown-table.toml", SWEEP, ["limit", "unknown key", "limits"]),
+    ("plan/input-with-soak.toml", SWEEP, ["input", "[input] or [soak] in one plan"]),
     ("plan/count-as-text.toml", SWEEP, ["[steps].count", "'forty'"]),
     ("plan/count-fraction.toml", SWEEP, ["[steps].count", "whole number"]),
     ("plan/count-huge.toml", SWEEP, ["[steps].count", "1000000000000"]),

@@ -212,6 +212,7 @@ def test_reconnect_keeps_instrument_state(sim_bench, clients):
     running = sim_bench("resistor")
     first = clients.open(running.resources["supply"])
     first.write("VOLT 3.5")
+    first.query("*OPC?")  # applied before the link closes: writes on separate links are not ordered
     first.close()
     second = clients.open(running.resources["supply"])
     assert parse_number(second.query("VOLT?")) == 3.5

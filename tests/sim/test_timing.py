@@ -9,7 +9,6 @@ cannot come back faster than its integration.
 from __future__ import annotations
 
 import math
-import threading
 import time
 
 import pytest
@@ -19,33 +18,16 @@ from benchlog.sim import specs
 from benchlog.sim.timing import FirstOrder, integration_time_s
 
 
-class BenchClock:
-    """A clock that moves only when someone sleeps on it (the test or a simulated instrument)."""
-
-    def __init__(self) -> None:
-        self.now_s = 100.0
-        self._lock = threading.Lock()
-
-    def __call__(self) -> float:
-        return self.now_s
-
-    def sleep(self, seconds: float) -> None:
-        with self._lock:
-            self.now_s += max(0.0, seconds)
-
-
-def _timed(clock: BenchClock, ask):
+def _timed(clock, ask):
     before = clock()
     answer = ask()
     return answer, clock() - before
 
 
 @pytest.fixture
-def timed_bench(sim_bench, clients):
+def timed_bench(clocked_sim_bench, clients):
     def start(element="resistor", **overrides):
-        clock = BenchClock()
-        overrides.setdefault("timing", "real")
-        running = sim_bench(element, seed=4, clock=clock, sleep=clock.sleep, **overrides)
+        clock, running = clocked_sim_bench(element, 4, start_s=100.0, **overrides)
         meter = clients.open(running.resources["meter"])
         supply = clients.open(running.resources["supply"])
         return clock, running, supply, meter

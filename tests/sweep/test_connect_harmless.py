@@ -129,3 +129,39 @@ def test_an_output_found_on_at_connect_is_reported_in_the_run(sim_bench, tmp_pat
     assert any(w.startswith("load ") and "was ON when benchlog connected" in w for w in warnings), warnings
     assert result.outcome == "complete", result.message
     assert result.safe_state == "verified"
+
+
+def test_an_output_found_on_is_told_at_connect_before_it_is_switched_off(sim_bench, tmp_path):
+    # The one line comes as the instrument connects, before the off command: the sim's own
+    # state at the moment of the call is the witness. The run file records the read-back.
+    running = sim_bench()
+    _left_on(running)
+    plan = parse_plan(PLAN.format(max_a=1.0), "plan.toml")
+    told = []
+    events = []
+
+    def notice(text):
+        told.append((text, running.bench.supply.output_on, running.bench.load.input_on, len(events)))
+
+    result = run_sweep(plan, _bench(tmp_path, running.resources), tmp_path / "runs", on_event=events.append,
+                       on_safe_state=lambda report: None, on_notice=notice)
+    supply, load = running.resources["supply"], running.resources["load"]
+    assert [t[0] for t in told] == [
+        f"supply {supply}: output found ON at connect; switching it off and reading it back",
+        f"load {load}: input found ON at connect; switching it off and reading it back"]
+    assert told[0][1:] == (True, True, 0)  # supply still on, and no run event yet: said at connect
+    assert told[1][1:] == (False, True, 0)  # the supply was off by then, the load not yet
+    text = result.run_file.read_text()
+    assert f"supply {supply}: output was ON when benchlog connected; switched off (read back)" in text
+    assert f"load {load}: input was ON when benchlog connected; switched off (read back)" in text
+
+
+def test_without_a_listener_the_connect_notice_goes_to_stderr_in_one_line(sim_bench, tmp_path, capsys):
+    running = sim_bench()
+    with running.bench.lock:
+        running.bench.supply.output_on = True
+    plan = parse_plan(PLAN.format(max_a=1.0), "plan.toml")
+    run_sweep(plan, _bench(tmp_path, running.resources), tmp_path / "runs", on_safe_state=lambda report: None)
+    lines = [x for x in capsys.readouterr().err.splitlines() if "found ON" in x]
+    assert lines == [f"benchlog: supply {running.resources['supply']}: output found ON at connect; "
+                     "switching it off and reading it back"]

@@ -116,6 +116,8 @@ BROKEN = [
      "[steps].currents_a[1]", "within the plan's limit"),
     ("[element]\nid='x'\nkind='pmos'\n[steps]\nmode='list'\ncurrents_a=[0.5]\n", "[limits]", "a [limits] table"),
     ("[element\nid='x'", "", "TOML syntax"),
+    (GOOD + "\n[input]\nvoltages_v = [6.0, 12.0]\n[soak]\ncurrent_a = 1.0\nduration_s = 20\ninterval_s = 1\n",
+     "input", "[input] or [soak] in one plan"),
 ]
 
 

@@ -17,10 +17,11 @@ from benchlog.cli.simbench import builtin_bench, sweep_on_builtin_bench
 from benchlog.instruments import open_role
 from benchlog.instruments.profile import load_profile
 from benchlog.instruments.roles import Supply
-from benchlog.runs.events import Note
-from benchlog.sweep.bench_file import Wiring
+from benchlog.runs.events import Note, Point
+from benchlog.sweep.bench_file import Wiring, load_bench
 from benchlog.sweep.plan import parse_plan
-from benchlog.sweep.protection import protection_levels, protection_warning
+from benchlog.sweep.protection import load_protection_levels, protection_levels, protection_warning
+from benchlog.sweep.session import run_sweep
 
 from ..instruments.scripted import ScriptedTransport
 
@@ -140,3 +141,120 @@ def test_the_plan_check_says_when_the_profile_cannot_program_protection():
         "over_current_protection" in warning
     sim = SimpleNamespace(supply=Supply(ScriptedTransport("BENCHLOG,SIM-SUPPLY,1,1"), load_profile("sim-supply")))
     assert protection_warning(sim) is None
+
+
+# -- the electronic load's own input protection -------------------------------------------------
+
+LOAD_PLAN = """
+[element]
+id = "Q1"
+kind = "pmos"
+serial = "LOADPROT-1"
+[steps]
+mode = "linear"
+start_a = 0.2
+stop_a = 2.0
+count = 6
+[settle]
+dwell_s = 0.0
+tolerance_v = 0.001
+[limits]
+max_current_a = 2.0
+compliance_v = 14.0
+"""
+
+
+def _load_rig(input_v, load_profile_name="sim-load"):
+    load = SimpleNamespace(profile=load_profile(load_profile_name))
+    return SimpleNamespace(wiring=Wiring(force="load", current_from="load", input_v=input_v),
+                           supply=SimpleNamespace(profile=load_profile("sim-supply")), load=load)
+
+
+def test_load_levels_sit_ten_percent_above_what_the_load_can_carry_and_stop_at_its_profile():
+    # common practice: a protection level a margin (about 10 %) above the working level
+    plan = parse_plan(LOAD_PLAN, "plan.toml")
+    levels = load_protection_levels(plan, _load_rig(12.0))
+    assert math.isclose(levels.over_current_a, 2.0 * 1.1)  # max_current_a + 10 %
+    assert math.isclose(levels.over_voltage_v, 12.0 * 1.1)  # the input voltage + 10 %
+    assert math.isclose(levels.over_power_w, 12.0 * 2.0 * 1.1)  # P = V I, the most the sweep puts in
+    capped = load_protection_levels(plan, _load_rig(58.0))
+    assert capped.over_voltage_v == 60.0  # 63.8 V wanted; the sim-load profile's maximum is 60 V
+    assert math.isclose(capped.over_power_w, 58.0 * 2.0 * 1.1)  # below 60 V x 30 A, not capped
+
+
+def test_an_input_voltage_sweep_sets_the_load_levels_from_its_highest_input():
+    # the load's input sees the supply's input voltage: an input sweep's highest, not the bench file's
+    plan = parse_plan(LOAD_PLAN + "[input]\nvoltages_v = [12.0, 24.0, 6.0]\n", "plan.toml")
+    levels = load_protection_levels(plan, _load_rig(12.0))
+    assert math.isclose(levels.over_voltage_v, 24.0 * 1.1)
+    assert math.isclose(levels.over_power_w, 24.0 * 2.0 * 1.1)
+    assert math.isclose(protection_levels(plan, _load_rig(12.0)).over_voltage_v, 24.0 * 1.1)  # as the supply's
+
+
+def _load_bench(tmp_path, running):
+    text = "".join(f'[{r}]\nresource = "{running.resources[r]}"\nprofile = "sim-{r}"\n\n'
+                   for r in ("supply", "load", "meter"))
+    path = tmp_path / "bench.toml"
+    path.write_text(text + '[wiring]\nforce = "load"\ncurrent_from = "load"\ninput_v = 12.0\n')
+    return load_bench(path)
+
+
+def test_a_load_wired_sweep_programs_the_load_protection_before_its_input_goes_on(sim_bench, tmp_path):
+    running = sim_bench("pmos")
+    plan = parse_plan(LOAD_PLAN, "plan.toml")
+    seen = []
+
+    def on_event(event):
+        if isinstance(event, Point) and not seen:  # the first point: the input has just gone on
+            sim = running.bench.load
+            seen.append((sim.input_on, sim.ocp_a, sim.opp_w, sim.ovp_v))
+
+    events = []
+    result = run_sweep(plan, _load_bench(tmp_path, running), tmp_path / "runs",
+                       on_event=lambda e: (events.append(e), on_event(e)), on_safe_state=lambda report: None)
+    assert result.outcome == "complete" and result.safe_state == "verified"
+    on, ocp, opp, ovp = seen[0]
+    assert on and math.isclose(ocp, 2.2) and math.isclose(opp, 26.4) and math.isclose(ovp, 13.2)
+    said = [i for i, e in enumerate(events) if isinstance(e, Note) and e.message.startswith("load protection")]
+    first_point = next(i for i, e in enumerate(events) if isinstance(e, Point))
+    assert len(said) == 1 and said[0] < first_point
+    assert events[said[0]].message == ("load protection set before input-on: over-current 2.2 A, "
+                                       "over-power 26.4 W, over-voltage 13.2 V")
+    assert not running.bench.load.tripped  # the levels sit above everything the sweep did
+
+
+def test_a_load_trip_mid_sweep_stops_it_as_a_fault_with_outputs_off(sim_bench, tmp_path):
+    running = sim_bench("pmos")
+    plan = parse_plan(LOAD_PLAN, "plan.toml")
+    points = []
+
+    def on_event(event):
+        if isinstance(event, Point):
+            points.append(event)
+            if len(points) == 2:  # something in the load goes wrong: its level now sits below the current
+                with running.bench.lock:
+                    running.bench.load.ocp_a = 0.05
+
+    result = run_sweep(plan, _load_bench(tmp_path, running), tmp_path / "runs", on_event=on_event,
+                       on_safe_state=lambda report: None)
+    assert result.outcome == "fault" and result.points == 2
+    assert "load input went off during the sweep (its protection tripped)" in result.message
+    assert running.bench.load.tripped and not running.bench.load.input_on
+    assert not running.bench.supply.output_on and result.safe_state == "verified"
+
+
+def test_the_plan_check_says_when_the_load_profile_cannot_program_protection():
+    from benchlog.instruments.roles import Load
+
+    sim_supply = Supply(ScriptedTransport("BENCHLOG,SIM-SUPPLY,1,1"), load_profile("sim-supply"))
+    generic = Load(ScriptedTransport("ACME,LOAD,1,1"), load_profile("generic-electronic-load"))
+    rig = SimpleNamespace(supply=sim_supply, load=generic,
+                          wiring=Wiring(force="load", current_from="load", input_v=12.0))
+    warning = protection_warning(rig)
+    assert warning is not None and "load profile 'generic-electronic-load' has no over_current_protection, " \
+        "over_power_protection or over_voltage_protection operation" in warning
+    assert "supply profile" not in warning
+    rig.load = Load(ScriptedTransport("BENCHLOG,SIM-LOAD,1,1"), load_profile("sim-load"))
+    assert protection_warning(rig) is None
+    rig.load, rig.wiring = generic, Wiring(force="supply", current_from="supply")  # the load carries nothing
+    assert protection_warning(rig) is None

@@ -7,8 +7,6 @@ tests check bench-clock times exactly and take no wall time for them.
 
 from __future__ import annotations
 
-import threading
-
 import pytest
 
 from benchlog.runs.events import Point
@@ -23,23 +21,8 @@ NPLC = 1.0
 SAMPLES = 1
 
 
-class BenchClock:
-    def __init__(self) -> None:
-        self.now_s = 0.0
-        self._lock = threading.Lock()
-
-    def __call__(self) -> float:
-        return self.now_s
-
-    def sleep(self, seconds: float) -> None:
-        with self._lock:
-            self.now_s += max(0.0, seconds)
-
-
-def _sweep(sim_bench, timing: str) -> list[Point]:
-    clock = BenchClock()
-    running = sim_bench("resistor", seed=5, clock=clock, sleep=clock.sleep, timing=timing,
-                        element_params={"r_on_ohm": 0.05})
+def _sweep(clocked_sim_bench, timing: str) -> list[Point]:
+    clock, running = clocked_sim_bench("resistor", 5, timing=timing, element_params={"r_on_ohm": 0.05})
     # steps of 0.2 A through 50 mΩ: 10 mV each; the supply's τ = 2 ms leaves e^-5 ≈ 0.7 % (67 µV) at the
     # middle of the first 20 ms reading, more than the 50 µV tolerance
     plan = parse(plan_text("resistor", steps="mode = 'linear'\nstart_a = 0.2\nstop_a = 2.0\ncount = 10",
@@ -59,19 +42,19 @@ def _sweep(sim_bench, timing: str) -> list[Point]:
     return [e for e in events if isinstance(e, Point)]
 
 
-def test_settle_rule_sees_the_supply_settling_with_real_timing(sim_bench):
-    real = _sweep(sim_bench, "real")
-    instant = _sweep(sim_bench, "instant")
+def test_settle_rule_sees_the_supply_settling_with_real_timing(clocked_sim_bench):
+    real = _sweep(clocked_sim_bench, "real")
+    instant = _sweep(clocked_sim_bench, "instant")
     assert len(real) == len(instant) == 10
     # instant: the first two readings already agree; real: the first one still carries the step's tail
     assert all(p.settle_reads == 2 for p in instant)
     assert all(p.settle_reads >= 3 for p in real[1:])
 
 
-def test_no_point_is_faster_than_its_integration_time(sim_bench):
-    points = _sweep(sim_bench, "real")
+def test_no_point_is_faster_than_its_integration_time(clocked_sim_bench):
+    points = _sweep(clocked_sim_bench, "real")
     reading_s = SAMPLES * NPLC / LINE_HZ  # t = N·NPLC/f_line (definition of NPLC, common practice)
     for before, after in zip(points, points[1:]):
         assert after.t_s - before.t_s >= after.settle_reads * reading_s - 1e-9
-    instant = _sweep(sim_bench, "instant")
+    instant = _sweep(clocked_sim_bench, "instant")
     assert instant[-1].t_s - instant[0].t_s == pytest.approx(0.0, abs=1e-9)

@@ -12,6 +12,8 @@ from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Static
 
+from benchlog.quantity import label_of, unit_of
+
 from ..findings import RunFindings
 from ..plotting import Axis, Series, line_series
 from ..paths import shown
@@ -20,10 +22,8 @@ from ..widgets import CurvePlot, Plain, cells
 from .base import View
 
 #: Fitted parameter keys: the name people use and the unit.
-PARAM_NAMES = {
-    "r_on_ohm": ("R_on", "Ω"), "v0_v": ("V0", "V"), "ideality": ("n", ""), "i_s_a": ("Is", "A"),
-    "r_s_ohm": ("Rs", "Ω"), "v_knee_v": ("V_knee", "V"), "r_d_ohm": ("r_d", "Ω"),
-}
+PARAM_NAMES = {key: (label_of(key), unit_of(key)) for key in
+               ("r_on_ohm", "v0_v", "ideality", "i_s_a", "r_s_ohm", "v_knee_v", "r_d_ohm")}
 
 VERDICT_WORDS = {"pass": "PASS ✔", "fail": "FAIL ✘", "conditional": "COND ◆"}
 
@@ -105,6 +105,54 @@ def verdict_rule(check) -> str:
     return check.verdict.rule
 
 
+def sweep_lines(p) -> list[str]:
+    """The input and leakage sweeps in a few lines (`report.sweeps_data.sweeps_payload`)."""
+    if not p:
+        return []
+    lines: list[str] = []
+    if p.get("series"):
+        lines.append(f" input sweep at {si(p['operating_a'], 'A')}:")
+        for x in p["series"]:
+            what = "body diode" if x["r_on_ohm"] is None else f"R {si(x['r_on_ohm'], 'Ω')}"
+            loss = "—" if x["loss_w"] is None else si(x["loss_w"], "W")
+            lines.append(f"  {x['input_v']:>5g} V  {what:<14} loss {loss}")
+        take = p["takeover_v"]
+        lines.append("  takeover " + ("not within the sweep" if take is None else
+                                      f"{take:.3g} ± {p['takeover_u_v']:.2g} V")
+                     + (f" (predicted {p['predicted_takeover_v']:.3g} V)" if p.get("predicted_takeover_v") else ""))
+        if p.get("worst_input_v") is not None:
+            lines.append(f"  worst: {si(p['worst_loss_w'], 'W')} at {p['worst_input_v']:g} V")
+    s = p.get("leakage_sweep")
+    if s:
+        lines.append(f" leakage sweep {s['outcome'].upper()} at {s['temperature_c']:g} °C:")
+        for x in s["leakage"]:
+            lines.append(f"  {x['voltage_v']:>5g} V  {si(x['current_a'], 'A')}  limit {si(x['limit_a'], 'A')}"
+                         f"  {'ok' if x['passed'] else 'FAIL'}")
+        if s["runaway"] is not None:
+            lines.append(f"  {'RUNAWAY' if s['runaway']['runaway'] else 'no runaway'} at {s['runaway']['reverse_v']:g} V")
+    return lines
+
+
+def sweep_plot(p):
+    """(series, x axis, y axis) of the sweep's plot: R against input, else log10 of leakage against voltage."""
+    if not p:
+        return None
+    rows = [x for x in p.get("series") or () if x["r_on_ohm"] is not None]
+    if rows:
+        x = np.array([r["input_v"] for r in rows])
+        y = np.array([r["r_on_ohm"] for r in rows])
+        return [Series("R per input", x, y, kind="marks", glyph="o")], Axis("input", "V"), Axis("R", "Ω")
+    s = p.get("leakage_sweep")
+    if s and s["leakage"]:
+        v = np.array([x["voltage_v"] for x in s["leakage"]])
+        i = np.log10(np.maximum([x["current_a"] for x in s["leakage"]], 1e-15))
+        limit = np.log10([x["limit_a"] for x in s["leakage"]])
+        return ([Series("leakage", v, i, kind="marks", glyph="o"),
+                 Series("limit", v, limit, kind="marks", glyph="-", style="limit")],
+                Axis("reverse", "V"), Axis("log10 I/A", ""))
+    return None
+
+
 class ResultsView(View):
     TITLE_TEXT = "Results"
     BINDINGS = [
@@ -119,6 +167,7 @@ class ResultsView(View):
         super().__init__()
         self.show_residuals = False
         self.show_soak = False
+        self.show_sweep = False  # R against input, or leakage against reverse voltage (log), when the run has one
 
     def body(self) -> ComposeResult:
         with Horizontal(id="results-body"):
@@ -128,6 +177,7 @@ class ResultsView(View):
                 yield Plain("", id="fit-table")
                 yield Plain("", id="operating")
                 yield Plain("", id="warnings")
+                yield Plain("", id="sweeps")
             with Vertical(id="results-plot-box"):
                 yield CurvePlot(Axis("current", "A"), Axis("drop", "V"), id="results-plot")
 
@@ -138,9 +188,10 @@ class ResultsView(View):
         if findings is None:
             waiting = "analysing the run …" if self.app.state.findings_busy else "no run analysed yet"
             verdict.update(f" {waiting}\n Run a sweep (2 then r) or open one from the archive (6).")
-            for name in ("#fit-table", "#operating", "#warnings", "#soak"):
+            for name in ("#fit-table", "#operating", "#warnings", "#soak", "#sweeps"):
                 self.query_one(name, Static).update("")
             self.query_one("#soak", Static).display = False
+            self.query_one("#sweeps", Static).display = False
             self.query_one("#results-plot", CurvePlot).show([])
             return
         self._show_verdict(findings)
@@ -148,6 +199,14 @@ class ResultsView(View):
         self._show_operating(findings)
         self._show_warnings(findings)
         self._show_soak(findings)
+        lines = sweep_lines(findings.sweeps)
+        box = self.query_one("#sweeps", Static)
+        box.update("\n".join(lines))
+        box.display = bool(lines)  # a run without sweeps shows exactly what it did before
+        if self.show_sweep and not self.show_soak and sweep_plot(findings.sweeps) is not None:
+            series, x_axis, y_axis = sweep_plot(findings.sweeps)
+            self.query_one("#results-plot", CurvePlot).show(series, x_axis=x_axis, y_axis=y_axis)
+            return
         self._show_plot(findings)
 
     def _show_verdict(self, f: RunFindings) -> None:
@@ -199,7 +258,8 @@ class ResultsView(View):
         lines = []
         at = operating_current(f)
         if at is not None and f.fit is not None:
-            drop, u_drop = f.fit.drop_at(at)
+            drop, big_u, k = f.fit.drop_expanded_at(at)
+            p = f.fit.coverage_probability
             lines.append(f" at {si(at, 'A')} (operating point, no spec)")
             current = np.asarray(f.fit.current_a, dtype=float)
             outside = bool(current.size) and not (float(np.nanmin(current)) <= at <= float(np.nanmax(current)))
@@ -207,8 +267,9 @@ class ResultsView(View):
             if outside:
                 lines.append(f"  ⚠ extrapolated: {si(at, 'A')} is outside the fitted currents "
                              f"{si(float(np.nanmin(current)), 'A')}–{si(float(np.nanmax(current)), 'A')}")
-            lines.append(f"  drop ({how})   {with_uncertainty(drop, u_drop, 'V')}")
-            lines.append(f"  loss ({how})   {with_uncertainty(drop * at, u_drop * at, 'W')}")
+            # U of the drop's own budget, k_p for 95.45 % (GUM 6.3); with_uncertainty takes u and k
+            lines.append(f"  drop ({how})   {with_uncertainty(drop, big_u / k, 'V', k, p)}")
+            lines.append(f"  loss ({how})   {with_uncertainty(drop * at, big_u * at / k, 'W', k, p)}")
         if f.check_error:
             lines.append(f"  prediction: ✘ {f.check_error}")
         box.update("\n".join(lines))
@@ -272,8 +333,16 @@ class ResultsView(View):
                   x_axis=Axis("current", "A"), y_axis=Axis("drop", "V"))
 
     def action_toggle_plot(self) -> None:
-        self.show_residuals = not self.show_residuals
+        # curve -> residuals -> the sweep (when the run has one) -> curve; leaves the heat-soak plot
+        findings = self.app.state.findings
+        has_sweep = findings is not None and sweep_plot(findings.sweeps) is not None
         self.show_soak = False
+        if self.show_sweep:
+            self.show_sweep = self.show_residuals = False
+        elif self.show_residuals and has_sweep:
+            self.show_sweep = True
+        else:
+            self.show_residuals = not self.show_residuals
         self.refresh_view()
 
     def action_toggle_soak(self) -> None:
