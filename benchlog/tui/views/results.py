@@ -12,7 +12,7 @@ from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Static
 
-from benchlog.quantity import label_of, unit_of
+from benchlog.quantity import coverage_text, label_of, measured, unit_of
 
 from ..findings import RunFindings
 from ..plotting import Axis, Series, line_series
@@ -69,9 +69,18 @@ def check_lines(check) -> list[str]:
     lines = [f" at {si(check.current_a, 'A')} ({check.current_source}), ambient {check.ambient_c:g} °C"]
     if is_extrapolated(check):
         lines.append(f"  ⚠ {check.extrapolation.text()}")
+    j = getattr(check, "judgement", None)
+    if j is not None:  # the conditions the verdict is judged at come before the values judged there
+        lines.append(f"  judged at Tj          {j.tj.value_c:.2f} ± {j.tj.u_c:.2g} °C ({j.tj.source})")
+        if j.gate is not None:
+            vgs = "unknown" if j.gate.vgs_v is None else f"{j.gate.vgs_v:.4g} V"
+            lines.append(f"  gate drive |Vgs|      {vgs} (spec's maximum at {j.gate.spec_vgs_v:g} V)")
+        for bar in j.bars:
+            lines.append(f"  ! {bar}")
     p = check.coverage_probability
-    lines += [f"  drop {how}     {with_uncertainty(check.measured_drop_v, check.drop_std_u_v, 'V', k, p)}",
-              f"  loss {how}     {with_uncertainty(check.measured_loss_w, check.loss_std_u_w, 'W', k, p)}"]
+    lines += [f"  drop {how}     {measured(check.measured_drop_v, k * check.drop_std_u_v, 'V', None)}",
+              f"  loss {how}     {measured(check.measured_loss_w, k * check.loss_std_u_w, 'W', None)}",
+              f"  ± U                   {coverage_text(k, p)}"]
     predicted = check.predicted
     for label, point in (("typ", predicted.typical), ("max", predicted.maximum)):
         if point is None or point.loss_w is None:
@@ -81,14 +90,6 @@ def check_lines(check) -> list[str]:
     limit = check.verdict.limit
     if limit is not None:
         lines.append(f"  limit                 {si(limit, 'W')} ({check.verdict.limit_source})")
-    j = getattr(check, "judgement", None)
-    if j is not None:
-        lines.append(f"  judged at Tj          {j.tj.value_c:.2f} ± {j.tj.u_c:.2g} °C ({j.tj.source})")
-        if j.gate is not None:
-            vgs = "unknown" if j.gate.vgs_v is None else f"{j.gate.vgs_v:.4g} V"
-            lines.append(f"  gate drive |Vgs|      {vgs} (spec's maximum at {j.gate.spec_vgs_v:g} V)")
-        for bar in j.bars:
-            lines.append(f"  ! {bar}")
     if check.typical_comparison:
         lines.append(f"  {check.typical_comparison}")
     return lines
