@@ -35,7 +35,7 @@ import numpy as np
 from benchlog.quantity import engineering
 
 from .case_temperature import measured_case_temperature
-from .junction import JunctionTemperature, ambient_u, junction_temperature, sweep_heating
+from .junction import JunctionTemperature, ambient_u, junction_above_case, junction_temperature, sweep_heating
 from .predict import OperatingPoint, channel_model, predict
 from .reverse import judge_reverse
 
@@ -281,10 +281,17 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
                           None if channel else grad)
         if found is not None:
             zth_rise, zth_timing_u, scatter_ratio = found
+    case_rise = None
+    if case is not None:
+        i_pts, v_pts = column(data, "current_a"), column(data, "drop_v")
+        if i_pts is not None and v_pts is not None:
+            read = np.isfinite(case.values_c)
+            case_rise = junction_above_case((i_pts * v_pts)[read], spec.thermal.rth_jc_k_per_w,
+                                            spec.thermal.rth_ja_k_per_w, _pulse_zth(data, meta, spec, read))
     tj = junction_temperature(cond.ambient_c, u_amb, amb_why, heating, measured, steady, zth_rise,
                               sensor_u_c=case.u_c if case is not None else None,
                               sensor_why=case.describe() if case is not None else "",
-                              zth_u_pct=spec.thermal.zth_u_pct, zth_timing_u_c=zth_timing_u)
+                              zth_u_pct=spec.thermal.zth_u_pct, zth_timing_u_c=zth_timing_u, case_rise=case_rise)
     if tj.source == "inferred":
         notes.append(f"heating inside the sweep: the fitted value stands at Tj {tj.value_c:.2f} °C, "
                      f"{tj.value_c - cond.ambient_c:.3g} K above the ambient; the limit is taken there")
@@ -397,6 +404,24 @@ def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> tuple[f
     lo = projected_rise(fit, shortest[pos], sens, q_grad, dq_dt)
     rise = 0.5 * (longest[pos] + shortest[pos])
     return 0.5 * (hi + lo), abs(hi - lo) / math.sqrt(12.0), scatter_without_heating(fit, rise, sens)
+
+
+def _pulse_zth(data, meta, spec: PartSpec, rows) -> np.ndarray | None:
+    """Zth of each point's pulse, at its longest (from the previous stamp plus the cool-down), for `rows`."""
+    th = spec.thermal
+    t = column(data, "t_s")
+    if th.zth_t_s is None or t is None or t.size < 2:
+        return None
+    from .junction import zth_at
+
+    plan = meta.header.plan
+    cool = plan.table.get("cooldown") if plan is not None else None
+    off_s = cool.get("off_s") if hasattr(cool, "get") and isinstance(cool.get("off_s"), (int, float)) else 0.0
+    on = np.empty_like(t)
+    on[1:] = t[1:] - t[:-1] - float(off_s or 0.0)
+    on[0] = on[1]
+    on = np.where(np.isfinite(on) & (on > 0), on, np.inf)  # unknown: no tighter than RθJC
+    return zth_at(th.zth_t_s, th.zth_k_per_w, th.rth_ja_k_per_w, np.where(np.isfinite(on), on, 1e9))[rows]
 
 
 def reading_lag_s(header) -> float:

@@ -169,6 +169,40 @@ def scatter_without_heating(fit, rows_rise: np.ndarray, sensitivity) -> float | 
     return math.sqrt(float((e - z_perp) @ (e - z_perp)) / sse)
 
 
+def junction_above_case(power_w, rth_jc_k_per_w: float | None, rth_ja_k_per_w: float | None,
+                        pulse_zth_k_per_w=None) -> tuple[float, float, str] | None:
+    """How far the junction sits above a measured case: (estimate K, standard u K, why), None when unbounded.
+
+    Tj = Tc + P·RθJC in the steady state (the definition of junction-to-case thermal resistance,
+    JESD51 series). A sweep's pulses are mostly shorter than the junction–case time constant, so
+    the junction is above the case by somewhere between 0 and P·RθJC; with no transient data to
+    place it, the difference is taken as rectangular on that interval (GUM 4.3.7): P·RθJC/2 with
+    u = P·RθJC/√12. Without RθJC, RθJA bounds it the same way (the case lies between junction and
+    ambient), more loosely. With the spec's Zth curve, each point's pulse cannot lift the junction
+    above the case by more than P·Zth(pulse length) either (the case only lags the junction), so the
+    bound per point is P_i·min(R, Zth(t_i)) (`pulse_zth_k_per_w`, one per point). The bound used is
+    the mean over the points with a temperature reading.
+    """
+    p = np.abs(np.asarray(power_w, dtype=float))
+    if rth_jc_k_per_w is not None:
+        r, what = float(rth_jc_k_per_w), f"the spec's RθJC {float(rth_jc_k_per_w):g} K/W"
+    elif rth_ja_k_per_w is not None:
+        r, what = float(rth_ja_k_per_w), f"the spec's RθJA {float(rth_ja_k_per_w):g} K/W (no RθJC given)"
+    else:
+        return None
+    per_point = np.full(p.shape, r)
+    if pulse_zth_k_per_w is not None:
+        per_point = np.minimum(per_point, np.asarray(pulse_zth_k_per_w, dtype=float))
+        what += " and Zth of each pulse's length"
+    ok = np.isfinite(p) & np.isfinite(per_point)
+    if not ok.any():
+        return None
+    top = float(np.mean(p[ok] * per_point[ok]))
+    return (top / 2.0, top / math.sqrt(12.0),
+            f"the junction above the case by 0 to {top:.3g} K (P times {what}), taken as {top / 2.0:.3g} K, "
+            f"rectangular")
+
+
 def ambient_u(value: float | None, simulated: bool) -> tuple[float, str]:
     """Standard uncertainty of the recorded ambient (the plan's `ambient_u_c`, None: not stated), and why."""
     if value is not None and math.isfinite(value) and value >= 0:
@@ -237,6 +271,7 @@ def junction_temperature(
     sensor_why: str = "",
     zth_u_pct: float | None = None,
     zth_timing_u_c: float | None = None,
+    case_rise: tuple[float, float, str] | None = None,
 ) -> JunctionTemperature:
     """Choose Tj: measured temperatures when recorded, else inferred from the drop, else assumed (module docstring)."""
     if measured_c is not None:
@@ -250,10 +285,14 @@ def junction_temperature(
             u = math.hypot(spread, sensor)
             by = f" by the {sensor_why}" if sensor_why else ""
             stated = "its stated accuracy" if own is not None else "the default for an unstated probe"
-            return JunctionTemperature(float(t.mean()), u, "measured",
+            if case_rise is None:
+                jc, u_jc, jc_why = 0.0, 0.0, ("the case is taken as the junction (no junction-to-case rise added: "
+                                             "the spec gives neither RθJC nor RθJA to bound it)")
+            else:
+                jc, u_jc, jc_why = case_rise
+            return JunctionTemperature(float(t.mean()) + jc, math.hypot(u, u_jc), "measured",
                                        f"mean of {t.size} recorded temperature(s){by}, spread {spread:.2g} K "
-                                       f"and the sensor's {sensor:.2g} K ({stated}); the case is taken as "
-                                       f"the junction (no junction-to-case rise added)")
+                                       f"and the sensor's {sensor:.2g} K ({stated}); {jc_why}")
     if zth_rise_c is not None:
         stated = zth_u_pct is not None and math.isfinite(zth_u_pct)
         rel = zth_u_pct / 100.0 if stated else ZTH_RELATIVE_U

@@ -44,7 +44,7 @@ def test_demo_spec_zth_is_the_simulated_parts_own(kind, spec_file):
     z_ref = network_step_response(params, np.asarray(th.zth_t_s))
     # the spec's values are given to 4 significant digits
     assert np.asarray(th.zth_k_per_w) == pytest.approx(z_ref, rel=1e-3)
-    assert th.rth_ja_k_per_w == params.rth_ja_k_per_w
+    assert th.rth_ja_k_per_w == params.rth_ja_k_per_w and th.rth_jc_k_per_w == params.rth_jc_k_per_w
     # points close enough that log-log interpolation between them (analysis/junction.zth_at) stays within 5 %
     # of the network over the span a sweep lasts, up to 10 s (checked, not assumed; nearer the plateau,
     # 30–100 s, the interpolation is up to 7 % off, where no sweep of the demo plans reaches)

@@ -163,8 +163,26 @@ def test_tj_sources_and_their_uncertainty():
     # recorded temperatures make the source "measured"
     frame, meta = frame_and_meta(i, v)
     frame["temperature_c"] = 31.0 + 0.1 * np.arange(i.size) / i.size
-    j3 = judge_run(frame, meta, load_spec(PFET))
-    assert j3.tj.source == "measured" and j3.tj.value_c == pytest.approx(31.05, abs=0.01)
+    j3 = judge_run(frame, meta, no_zth(load_spec(PFET)))
+    # the junction sits above the measured case: Tj = Tc + P·RθJC in the steady state (JESD51's definition of
+    # RθJC); a sweep's pulses reach between 0 and that, taken as rectangular (GUM 4.3.7): + P̄·RθJC/2, u P̄·RθJC/√12
+    p_mean = float(np.mean(i * v))
+    top = p_mean * 12.0  # the demo spec's rth_jc_k_per_w
+    case_u = math.hypot(float(np.std(frame["temperature_c"], ddof=1)), 0.5)  # spread and the unstated probe's 0.5 K
+    assert j3.tj.source == "measured"
+    assert j3.tj.value_c == pytest.approx(31.05 + top / 2.0, abs=0.01)
+    assert j3.tj.u_c == pytest.approx(math.hypot(case_u, top / math.sqrt(12.0)), rel=1e-6)
+    assert "RθJC 12 K/W" in j3.tj.why
+    # without RθJC, RθJA bounds the junction-case difference the same way; without either, none is added
+    from dataclasses import replace
+
+    spec = no_zth(load_spec(PFET))
+    no_jc = replace(spec, thermal=replace(spec.thermal, rth_jc_k_per_w=None))
+    j4 = judge_run(frame, meta, no_jc)
+    assert j4.tj.value_c == pytest.approx(31.05 + p_mean * 62.5 / 2.0, abs=0.01) and "RθJA 62.5 K/W" in j4.tj.why
+    neither = replace(spec, thermal=replace(spec.thermal, rth_jc_k_per_w=None, rth_ja_k_per_w=None))
+    j5 = judge_run(frame, meta, neither)
+    assert j5.tj.value_c == pytest.approx(31.05, abs=0.01) and "the case is taken as the junction" in j5.tj.why
     with pytest.raises(ValueError):
         JunctionTemperature(25.0, 1.0, "guessed", "")
 
@@ -377,6 +395,20 @@ def test_check_judges_a_run_with_a_case_probe_at_the_probe_temperature(tmp_path)
     c = check_run(frame, meta, load_spec(demo / "specs" / "demo-rect-3a.toml"))
     temps = frame["temperature_c"].to_numpy(dtype=float)
     assert c.judgement.tj.source == "measured"
-    assert c.judgement.tj.value_c == pytest.approx(float(np.nanmean(temps)))
-    assert c.judgement.tj.u_c >= 0.6 / math.sqrt(3.0)
+    # Tj = Tc + the junction's rise above the case (JESD51's RθJC): each pulse lifts it by at most
+    # P·min(RθJC, Zth(pulse length)) (the case lags the junction), taken as half that, rectangular (GUM 4.3.7)
+    from benchlog.analysis.junction import zth_at
+
+    spec = load_spec(demo / "specs" / "demo-rect-3a.toml")
+    t = frame["t_s"].to_numpy(dtype=float)
+    on = np.empty_like(t)
+    on[1:] = np.diff(t) - plan.cooldown.off_s
+    on[0] = on[1]
+    zth = zth_at(spec.thermal.zth_t_s, spec.thermal.zth_k_per_w, spec.thermal.rth_ja_k_per_w, on)
+    power = (frame["current_a"] * frame["drop_v"]).to_numpy(dtype=float)
+    read = np.isfinite(temps)
+    top = float(np.mean(power[read] * np.minimum(spec.thermal.rth_jc_k_per_w, zth[read])))
+    assert 0.0 < top < 0.2  # 60 ms pulses: far below the steady P·RθJC
+    assert c.judgement.tj.value_c == pytest.approx(float(np.nanmean(temps)) + top / 2.0, rel=1e-9)
+    assert c.judgement.tj.u_c >= math.hypot(0.6 / math.sqrt(3.0), top / math.sqrt(12.0))
     assert meta.header.temperature.accuracy_c == 0.6

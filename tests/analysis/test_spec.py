@@ -53,6 +53,8 @@ def test_integers_are_numbers_and_defaults_apply():
         (PMOS.replace("vgs_th_v = 2.0", "vgs_th_v = 12.0"), "rds_on_vgs_v", "above threshold"),
         (PMOS + "rth_ja_k_per_w = -3\n", "rth_ja_k_per_w", "above 0"),
         (PMOS + "zth_u_pct = 5.0\n", "zth_u_pct", "zth_t_s and zth_k_per_w beside it"),
+        (PMOS + "rth_ja_k_per_w = 50\nrth_jc_k_per_w = 60\n", "rth_jc_k_per_w", "less than junction to ambient"),
+        (PMOS + "rth_jc_k_per_w = 0\n", "rth_jc_k_per_w", "above 0"),
         (PMOS + "zth_t_s = [0.1, 1.0]\nzth_k_per_w = [0.5, 4.8]\nzth_u_pct = 150\n", "zth_u_pct", "100"),
         (PMOS + "zth_t_s = [0.1, 1.0]\nzth_k_per_w = [0.5, 4.8]\nzth_u_pct = -1\n", "zth_u_pct", "0"),
     ],
