@@ -485,12 +485,7 @@ def _reverse(t: Table | None, limits: Limits) -> Reverse | None:
             raise t.fail(key, "is only used with start_v", "start_v, stop_v and count together")
     voltages: tuple[float, ...] = ()
     if t.has("voltages_v"):
-        voltages = t.numbers("voltages_v", unit="V")
-        if not 1 <= len(voltages) <= MAX_SERIES:
-            raise t.fail("voltages_v", f"has {len(voltages)} voltages", f"1 to {MAX_SERIES} voltages")
-        for i, v in enumerate(voltages):
-            if not v > 0:
-                raise t.fail(f"voltages_v[{i}]", f"is {v:g} V", "a reverse voltage > 0 V")
+        voltages = _voltages(t, fewest=1, what="reverse voltage")
     elif t.has("start_v"):
         start = t.number("start_v", positive=True, unit="V")
         stop = t.number("stop_v", positive=True, unit="V")
@@ -554,16 +549,23 @@ def _soak(t: Table | None, limits: Limits) -> Soak | None:
                      f"[limits].max_time_s {limits.max_time_s:g} s", "a soak the time limit allows")
     return soak
 
+
+def _voltages(t: Table, *, fewest: int, what: str) -> tuple[float, ...]:
+    """`voltages_v`: between `fewest` and MAX_SERIES voltages, each above 0 V."""
+    voltages = t.numbers("voltages_v", unit="V")
+    if not fewest <= len(voltages) <= MAX_SERIES:
+        raise t.fail("voltages_v", f"has {len(voltages)} voltage(s)", f"{fewest} to {MAX_SERIES} {what}s")
+    for i, v in enumerate(voltages):
+        if not v > 0:
+            raise t.fail(f"voltages_v[{i}]", f"is {v:g} V", f"a {what} > 0 V")
+    return voltages
+
+
 def _input(t: Table | None) -> InputSweep | None:
     if t is None:
         return None
     t.only(("voltages_v",))
-    voltages = t.numbers("voltages_v", unit="V")
-    if not 2 <= len(voltages) <= MAX_SERIES:
-        raise t.fail("voltages_v", f"has {len(voltages)} voltage(s)", f"2 to {MAX_SERIES} input voltages")
-    for i, v in enumerate(voltages):
-        if not v > 0:
-            raise t.fail(f"voltages_v[{i}]", f"is {v:g} V", "an input voltage > 0 V")
+    voltages = _voltages(t, fewest=2, what="input voltage")
     if len(set(voltages)) != len(voltages):
         raise t.fail("voltages_v", "repeats a voltage", "each input voltage once")
     return InputSweep(voltages_v=voltages)

@@ -30,6 +30,11 @@ TIMER_FACTOR = 1.5
 TIMER_EXTRA_S = 60.0
 
 
+def _at_most(level: float | None, most: float | None) -> float | None:
+    """A protection level capped at what the instrument's profile says it can be set to (None: not set / no cap)."""
+    return level if level is None or most is None else min(level, most)
+
+
 @dataclass(frozen=True)
 class ProtectionLevels:
     """What the supply's own protection is set to (None: not set from this plan)."""
@@ -55,10 +60,7 @@ def protection_levels(plan: Plan, rig: Any) -> ProtectionLevels:
     ovp = max(volts) * (1 + PROTECTION_MARGIN) if volts else None
     ocp = amps * (1 + PROTECTION_MARGIN) if amps else None
     most_v, most_a = profile.limits.max_voltage_v, profile.limits.max_current_a
-    if ovp is not None and most_v is not None:
-        ovp = min(ovp, most_v)
-    if ocp is not None and most_a is not None:
-        ocp = min(ocp, most_a)
+    ovp, ocp = _at_most(ovp, most_v), _at_most(ocp, most_a)
     timer = lim.max_time_s * TIMER_FACTOR + TIMER_EXTRA_S if lim.max_time_s is not None else None
     return ProtectionLevels(ovp, ocp, timer)
 
@@ -89,12 +91,8 @@ def load_protection_levels(plan: Plan, rig: Any) -> LoadProtectionLevels:
     ovp = volts * (1 + PROTECTION_MARGIN) if volts else None
     opp = volts * amps * (1 + PROTECTION_MARGIN) if volts else None
     most_v, most_a = profile.limits.max_voltage_v, profile.limits.max_current_a
-    if most_a is not None:
-        ocp = min(ocp, most_a)
-    if ovp is not None and most_v is not None:
-        ovp = min(ovp, most_v)
-    if opp is not None and most_v is not None and most_a is not None:
-        opp = min(opp, most_v * most_a)
+    most_w = most_v * most_a if most_v is not None and most_a is not None else None
+    ocp, ovp, opp = _at_most(ocp, most_a), _at_most(ovp, most_v), _at_most(opp, most_w)
     return LoadProtectionLevels(ocp, opp, ovp)
 
 
