@@ -58,14 +58,14 @@ def builtin_bench_starter() -> Callable[..., Any]:
 
 
 def machine_facts() -> dict[str, Any]:
-    """nproc, CPU, Python and the versions of the libraries the figures depend on."""
+    """nproc, RAM, Python and the versions of the libraries the figures depend on (no CPU name: no brands)."""
     import numpy
     import pandas
     import scipy
 
     facts: dict[str, Any] = {
         "nproc": os.cpu_count(),
-        "cpu": _cpu_model(),
+        "ram_gib": _ram_gib(),
         "python": platform.python_version(),
         "platform": platform.platform(),
         "numpy": numpy.__version__,
@@ -81,14 +81,15 @@ def machine_facts() -> dict[str, Any]:
     return facts
 
 
-def _cpu_model() -> str:
+def _ram_gib() -> float | None:
+    """Total memory from /proc/meminfo, in GiB (None where there is no /proc)."""
     try:
-        for line in Path("/proc/cpuinfo").read_text().splitlines():
-            if line.startswith("model name"):
-                return line.split(":", 1)[1].strip()
+        for line in Path("/proc/meminfo").read_text().splitlines():
+            if line.startswith("MemTotal:"):
+                return round(int(line.split()[1]) / 2**20, 1)
     except OSError:
         pass
-    return platform.processor() or "unknown"
+    return None
 
 
 def reproduce_command(argv: list[str] | None = None) -> str:

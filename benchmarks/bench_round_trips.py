@@ -134,6 +134,24 @@ def _per_point(stamps: list[float], log, skip_before: float) -> tuple[float, flo
     return (last - first) / n, msgs / n
 
 
+def point_timeline(stamps: list[float], log) -> list[tuple[str, str, float]] | None:
+    """Median time of each message after the previous point's record, over the points whose messages match.
+
+    Where the per-point time goes beyond the physics: what the message log shows between two point
+    records (setpoint, dwell, readings, read-backs, record). None if the points differ in their messages.
+    """
+    rows = []
+    for a, z in zip(stamps, stamps[1:]):
+        numbers_out = [(role, re.sub(r"(?<=\s)[-+\d.eE]+", "x", message)[:48], t - a)
+                       for t, role, message in log if a < t <= z]  # setpoints differ; the messages do not
+        rows.append(numbers_out + [("record", "point written", z - a)])
+    shape = [(r, m) for r, m, _ in rows[0]]
+    same = [r for r in rows if [(x, m) for x, m, _ in r] == shape]
+    if len(same) < max(2, len(rows) // 2):
+        return None
+    return [(role, msg, statistics.median(r[i][2] for r in same)) for i, (role, msg) in enumerate(shape)]
+
+
 def single_unit_profiles(tmp: Path) -> dict[str, str]:
     """Copies of the sim profiles with compound_queries off (one program unit per message)."""
     try:
@@ -186,7 +204,8 @@ def one_pair(latency_s: float, points: int, tmp: Path, k: int, timing: str) -> d
                 reads = float(statistics.fmean(arrays.settle_reads)) if hasattr(arrays, "settle_reads") else None
             per_s, msgs = _per_point(stamps, log, 0.0)
             result[side] = {"per_point_s": per_s, "messages_per_point": msgs, "messages_total": len(log),
-                            "settle_reads_mean": reads}
+                            "settle_reads_mean": reads,
+                            "timeline": point_timeline(stamps, log) if side == "ours" else None}
         finally:
             running.stop()
     m = plan.meter
@@ -220,6 +239,8 @@ def main() -> int:
             row["ratio_median"] = row["ours"]["median_ms"] / row["minimal"]["median_ms"]
             row["floor_ms"] = statistics.fmean(r["floor_s"] for r in runs) * 1e3
             row["ours_over_floor"] = row["ours"]["best_ms"] / row["floor_ms"]
+            best_run = min(runs, key=lambda r: r["ours"]["per_point_s"])
+            row["ours_timeline"] = best_run["ours"]["timeline"]
             figures[f"{latency_ms:g}ms"] = row
             print(f"latency {latency_ms:g} ms per reply ({args.sim_timing} sim timing, {points} points, "
                   f"best of {pairs}):")
@@ -230,6 +251,13 @@ def main() -> int:
                       f"{s['messages_per_point']:.2f} messages per point, {s['messages_total']:.0f} in all")
             print(f"  ratio ours / minimal {row['ratio_best']:.3f} (medians {row['ratio_median']:.3f}); "
                   f"physical floor {row['floor_ms']:.2f} ms, ours / floor {row['ours_over_floor']:.3f}")
+            if row["ours_timeline"]:
+                print("  a point of ours, from the message log (median over the points of the best run; "
+                      "time after the previous point's record, gap to the message before):")
+                before = 0.0
+                for role, msg, t in row["ours_timeline"]:
+                    print(f"    +{t * 1e3:7.2f} ms (gap {(t - before) * 1e3:6.2f})  {role:7s} {msg}")
+                    before = t
     print(f"reproduce: {_common.reproduce_command()}")
     if args.json:
         Path(args.json).write_text(json.dumps({"quick": args.quick, "sim_timing": args.sim_timing,

@@ -6,7 +6,10 @@ part, real instrument timing unless `--sim-timing instant`):
 - fixed: `benchlog/demo/plans/lot-inspection.toml`, all five points per part;
 - stop when decided: `benchlog/demo/plans/lot-inspection-sequential.toml`, the same
   points nearest the operating current first, a look after each from the third on
-  (O'Brien-Fleming group-sequential guard band, `benchlog.sweep.sequential`).
+  (O'Brien-Fleming group-sequential guard band, `benchlog.sweep.sequential`), and one
+  sample per reading where the lot plan takes four;
+- fixed, same meter: the lot plan with the sequential plan's meter setting, so the two
+  levers (fewer readings per point, fewer points per part) show apart.
 
 One warm-up part on each side first (not counted): imports and the boundary's
 one-time computation (about half a second, once per process). Bench time per part is the whole `run_sweep` (connect, configure, offset, the points,
@@ -14,7 +17,14 @@ outputs off and read back), what a board on the bench costs; parts per hour is 3
 over its mean. Each run is then judged by `benchlog check`'s own `check_run` against
 the demo spec, so the verdicts of the two plans are compared part by part.
 
-A second figure is the wrong-decision check at size: parts spread within three
+A second figure runs both plans on the simulated bench on parts near their limit:
+each seed's acceptance limit is set within three standard uncertainties of that
+part's true drop at the operating current (the simulator's element, so the meter's
+drawn gain and offset errors count against the decisions), the fixed plan decided
+once with k = 2 on all five points, inspection by its own looks; a pass of a part
+above its limit or a fail of one on or below it is wrong.
+
+A third figure is the wrong-decision check at size: parts spread within three
 standard uncertainties of the limit (numpy, seeded), fixed plan (one look, k = 2)
 against the inspection boundary over 5 looks.
 """
@@ -47,8 +57,12 @@ def bench_parts(parts: int, timing: str, tmp: Path) -> dict:
     builtin_bench = _common.builtin_bench_starter()
 
     spec = load_spec(SPEC)
-    plans = {"fixed": load_plan(PLANS / "lot-inspection.toml"),
-             "sequential": load_plan(PLANS / "lot-inspection-sequential.toml")}
+    import dataclasses
+
+    fixed = load_plan(PLANS / "lot-inspection.toml")
+    sequential = load_plan(PLANS / "lot-inspection-sequential.toml")
+    plans = {"fixed": fixed, "sequential": sequential,
+             "fixed_same_meter": dataclasses.replace(fixed, meter=sequential.meter)}
     times = {k: [] for k in plans}
     points = {k: [] for k in plans}
     verdicts = {k: [] for k in plans}
@@ -76,9 +90,60 @@ def bench_parts(parts: int, timing: str, tmp: Path) -> dict:
                      "verdicts": {v: verdicts[side].count(v) for v in ("pass", "fail", "conditional")}}
     out["ratio"] = out["sequential"]["parts_per_hour"] / out["fixed"]["parts_per_hour"]
     out["ratio_median"] = out["fixed"]["median_s"] / out["sequential"]["median_s"]
+    out["ratio_same_meter"] = out["sequential"]["parts_per_hour"] / out["fixed_same_meter"]["parts_per_hour"]
     out["same_verdicts"] = sum(a == b for a, b in zip(verdicts["fixed"], verdicts["sequential"]))
+    out["verdicts_by_part"] = verdicts
     out["parts"] = parts
     return out
+
+
+def near_limit(parts: int, timing: str, tmp: Path, seed: int = 14) -> dict:
+    """Both plans on `parts` simulated parts whose limit lies within 3 u of their true drop (see the docstring)."""
+    import dataclasses
+
+    import numpy as np
+
+    from benchlog.analysis.fit_resistive import fit_resistive
+    from benchlog.runs import load_points
+    from benchlog.sweep.plan import load_plan
+    from benchlog.sweep.session import run_sweep
+
+    builtin_bench = _common.builtin_bench_starter()
+    fixed = load_plan(PLANS / "lot-inspection.toml")
+    sequential = load_plan(PLANS / "lot-inspection-sequential.toml")
+    op = float(fixed.element.operating_a)
+    rng = np.random.default_rng(seed)
+    rows = []
+    u_scale = None
+    for part in range(parts):
+        setup, running = builtin_bench(fixed.element, seed=5000 + part, timing=timing)
+        try:
+            element = running.bench.element
+            truth = float(element.forward_drop_v(op, fixed.element.ambient_c, input_v=setup.wiring.input_v))
+            done = run_sweep(fixed, setup, tmp / "near-fixed")
+            arrays, meta = load_points(done.run_file)
+            fit = fit_resistive(np.asarray(arrays.current_a), np.asarray(arrays.drop_v), meta.header.accuracy)
+            value, u = fit.drop_at(op)
+            u_scale = u if u_scale is None else u_scale  # the first part's u sets the spread of the limits
+            limit = truth + float(rng.uniform(-3.0, 3.0)) * u_scale
+            fixed_says = "pass" if value + 2 * u <= limit else "fail" if value - 2 * u > limit else "conditional"
+            plan = dataclasses.replace(sequential, inspection=dataclasses.replace(sequential.inspection,
+                                                                                  max_drop_v=limit))
+            done = run_sweep(plan, setup, tmp / "near-seq")
+            text = Path(done.run_file).read_text(encoding="utf-8")
+            seq_says = ("pass" if "inspection: decided pass" in text else
+                        "fail" if "inspection: decided fail" in text else "conditional")
+        finally:
+            running.stop()
+        rows.append((truth > limit, fixed_says, seq_says, done.points))
+
+    def wrong(says: int) -> int:
+        return sum((r[says] == "pass" and r[0]) or (r[says] == "fail" and not r[0]) for r in rows)
+
+    return {"parts": parts, "u_v": u_scale, "fixed_wrong": wrong(1), "seq_wrong": wrong(2),
+            "fixed_undecided": sum(r[1] == "conditional" for r in rows),
+            "seq_undecided": sum(r[2] == "conditional" for r in rows),
+            "seq_mean_points": float(np.mean([r[3] for r in rows]))}
 
 
 def wrong_decisions(parts: int, seed: int = 2026) -> dict:
@@ -118,17 +183,26 @@ def main() -> int:
     p = _common.parser(__doc__.splitlines()[0])
     p.add_argument("--parts", type=int, default=20)
     p.add_argument("--sim-timing", choices=("real", "instant"), default="real")
+    p.add_argument("--near-limit", type=int, default=300, help="parts near their limit on the sim (instant timing; "
+                                                                 "default 300)")
     args = p.parse_args()
     args.sim_timing = _common.effective_timing(args.sim_timing)
     parts = 2 if args.quick else args.parts
     with tempfile.TemporaryDirectory() as d:
         lot = bench_parts(parts, args.sim_timing, Path(d))
-    for side in ("fixed", "sequential"):
+    for side in ("fixed", "sequential", "fixed_same_meter"):
         s = lot[side]
-        print(f"{side:10s}: {s['mean_s'] * 1e3:7.1f} ms per part (median {s['median_s'] * 1e3:.1f}), "
+        print(f"{side:16s}: {s['mean_s'] * 1e3:7.1f} ms per part (median {s['median_s'] * 1e3:.1f}), "
               f"{s['parts_per_hour']:7.0f} parts per hour, {s['mean_points']:.2f} points per part, verdicts {s['verdicts']}")
     print(f"ratio {lot['ratio']:.2f}x parts per hour (medians {lot['ratio_median']:.2f}x) ({parts} parts, {args.sim_timing} sim timing); "
           f"same verdict on {lot['same_verdicts']} of {parts} parts")
+    print(f"against the lot plan with the same meter setting (the stopping alone): {lot['ratio_same_meter']:.2f}x")
+    with tempfile.TemporaryDirectory() as d:
+        near = near_limit(4 if args.quick else args.near_limit, "instant", Path(d))
+    print(f"near the limit on the simulated bench ({near['parts']} parts, limits within 3 u = "
+          f"{3 * near['u_v'] * 1e3:.3g} mV of each part's true drop, instant sim timing): wrong decisions fixed "
+          f"{near['fixed_wrong']}, stop when decided {near['seq_wrong']}; undecided {near['fixed_undecided']} / "
+          f"{near['seq_undecided']}; {near['seq_mean_points']:.2f} points per part when stopping")
     size = 20_000 if args.quick else 1_000_000
     wrong = wrong_decisions(size)
     for key, row in wrong.items():
@@ -138,7 +212,7 @@ def main() -> int:
     print(f"reproduce: {_common.reproduce_command()}")
     if args.json:
         Path(args.json).write_text(json.dumps({"quick": args.quick, "sim_timing": args.sim_timing,
-                                               "figures": {"lot": lot, "wrong_decisions": wrong},
+                                               "figures": {"lot": lot, "near_limit": near, "wrong_decisions": wrong},
                                                "machine": _common.machine_facts()}, indent=2), encoding="utf-8")
     return 0
 

@@ -214,6 +214,14 @@ def ambient_u(value: float | None, simulated: bool) -> tuple[float, str]:
                f"u = {u:.2g} K; state ambient_u_c in the plan's [element] to change it)")
 
 
+def _own(a, *inputs) -> np.ndarray:
+    """`a` as a float array that may be changed in place: copied only if it could be one of `inputs`."""
+    out = np.asarray(a, dtype=float)
+    if out.ndim == 0 or not out.flags.writeable or any(np.may_share_memory(out, x) for x in inputs):
+        out = np.array(out, dtype=float, copy=True)
+    return out
+
+
 def sweep_heating(fit, sensitivity, quantity_gradient, dq_dt: float) -> SweepHeating | None:
     """The rise a fitted quantity stands at, from the fit's residuals (module docstring).
 
@@ -228,28 +236,39 @@ def sweep_heating(fit, sensitivity, quantity_gradient, dq_dt: float) -> SweepHea
     keep = ~fit.outliers
     if fit.excluded is not None:
         keep = keep & ~fit.excluded
-    e = fit.residuals_v[keep]
-    i = fit.current_a[keep]
-    v = fit.drop_v[keep]
+    every = bool(keep.all())  # the usual case: views of the fit's arrays, not copies of a long run
+    e = fit.residuals_v if every else fit.residuals_v[keep]
+    i = fit.current_a if every else fit.current_a[keep]
+    v = fit.drop_v if every else fit.drop_v[keep]
     p_params = fit.covariance.shape[0]
     dof = e.size - p_params - 1
     if dof < 3 or dq_dt == 0 or not math.isfinite(dq_dt):
         return None
-    z = np.asarray(sensitivity(i, v), dtype=float) * i * v
-    basis = fit.curve.gradient(i)
+    # run-long arrays are changed in place where they are our own (1e6 points: a few columns, not a dozen)
+    z = _own(sensitivity(i, v), i, v)
+    z *= i
+    z *= v
+    basis = _own(fit.curve.gradient(i), i, v)
     if fit.weights is not None:
-        sw = np.sqrt(fit.weights[keep])
-        e, z, basis = e * sw, z * sw, basis * sw[:, None]
-    norms = np.sqrt(np.einsum("ij,ij->j", basis, basis))
+        sw = np.sqrt(fit.weights if every else fit.weights[keep])
+        e = e * sw
+        z *= sw
+        basis *= sw[:, None]
+        del sw
+    # the normal equations scaled by the columns' norms (for their condition), on the small matrices only
+    gram = basis.T @ basis
+    norms = np.sqrt(np.diag(gram)).copy()
     norms[norms == 0] = 1.0
-    scaled = basis / norms
-    coef = np.linalg.solve(scaled.T @ scaled, scaled.T @ z) / norms
-    z_perp = z - basis @ coef
+    coef = np.linalg.solve(gram / np.outer(norms, norms), (basis.T @ z) / norms) / norms
+    z -= basis @ coef
+    del basis
+    z_perp = z
     szz = float(z_perp @ z_perp)
     if not szz > 0:
         return None
     theta = float(z_perp @ e) / szz  # K/W
-    rest = e - theta * z_perp
+    z_perp *= theta
+    rest = e - z_perp
     s2 = float(rest @ rest) / dof
     se = math.sqrt(s2 / szz) if s2 > 0 else 0.0
     t = theta / se if se > 0 else math.inf

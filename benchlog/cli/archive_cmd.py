@@ -16,7 +16,6 @@ including a malformed URL or an archive that cannot be opened (one line).
 
 from __future__ import annotations
 
-import argparse
 import sys
 
 
@@ -94,10 +93,10 @@ def _database_errors(handler):
             return handler(args)
         except DBAPIError as exc:
             from benchlog.store import resolve_url
-            from benchlog.store.connect import _shown, _parse
+            from benchlog.store.connect import shown_url
 
             reason = " ".join(str(getattr(exc, "orig", exc)).split())[:200]
-            raise BadInput(_shown(_parse(resolve_url(args.db))), "", f"the database refused: {reason}",
+            raise BadInput(shown_url(resolve_url(args.db)), "", f"the database refused: {reason}",
                            "a role allowed to do this (viewers may only read)") from None
 
     return run
@@ -183,48 +182,44 @@ def _describe(run: dict) -> str:
             f"serial={run['serial'] or '-'}  {run['outcome']}  {params}  {verdicts}  {run['path']}")
 
 
-def _find(args) -> int:
+def _listing(args, ask, describe_count, json_head: dict) -> int:
+    """Ask the archive (`ask(archive)` gives the runs) and print them: one line each, or one JSON object."""
     from benchlog.cli.output import print_json
+
+    archive = _open(args)
+    try:
+        found = ask(archive)
+    finally:
+        archive.close()
+    if args.json:
+        print_json({**json_head, "archive": archive.shown_url, "count": len(found), "runs": found})
+    else:
+        for run in found:
+            sys.stdout.write(_describe(run) + "\n")
+        sys.stdout.write(describe_count(len(found)) + "\n")
+    return 0
+
+
+def _find(args) -> int:
     from benchlog.store.queries import find_runs
 
     flt = _filter(args)
-    archive = _open(args)
-    try:
-        found = find_runs(archive, flt)
-    finally:
-        archive.close()
-    if args.json:
-        print_json({"archive": archive.shown_url, "count": len(found), "runs": found})
-    else:
-        for run in found:
-            sys.stdout.write(_describe(run) + "\n")
-        sys.stdout.write(f"{len(found)} runs\n")
-    return 0
+    return _listing(args, lambda archive: find_runs(archive, flt), lambda n: f"{n} runs", {})
 
 
 def _history(args) -> int:
-    from benchlog.cli.output import print_json
     from benchlog.store.queries import history
 
-    archive = _open(args)
-    try:
-        found = history(archive, args.serial)
-    finally:
-        archive.close()
-    if args.json:
-        print_json({"serial": args.serial, "count": len(found), "runs": found})
-    else:
-        for run in found:
-            sys.stdout.write(_describe(run) + "\n")
-        sys.stdout.write(f"{len(found)} measurements of serial {args.serial!r}\n")
-    return 0
+    return _listing(args, lambda archive: history(archive, args.serial),
+                    lambda n: f"{n} measurements of serial {args.serial!r}", {"serial": args.serial})
 
 
 def _trend(args) -> int:
     from benchlog.badinput import BadInput
     from benchlog.cli.output import print_json
-    from benchlog.store.control_chart import LIMITS_SOURCE, RULES, RULES_SOURCE, chart_from_stats
-    from benchlog.store.queries import RunFilter, known_quantities, subgroup_stats
+    from benchlog.store.control_chart import RULES
+    from benchlog.store.queries import RunFilter
+    from benchlog.store.trend import trend
 
     if args.output is None and not args.json:
         raise BadInput("argument", "-o", "no output given", "-o FILE.png, -o FILE.svg or --json")
@@ -236,28 +231,15 @@ def _trend(args) -> int:
         check_output_file(args.output, "-o")
     archive = _open(args)
     try:
-        stats = subgroup_stats(archive, args.quantity, args.by, RunFilter(kind=args.kind))
-        known = known_quantities(archive) if not stats.names else []
+        found = trend(archive, args.quantity, args.by, RunFilter(kind=args.kind))
     finally:
         archive.close()
-    if not stats.names:
-        raise BadInput(archive.shown_url, args.quantity, "no run in the archive has this fitted quantity",
-                       " or ".join(known) if known else "an archive with fitted runs")
-    try:
-        chart = chart_from_stats(stats.names, stats.sizes, stats.means, stats.ranges)
-    except ValueError as exc:
-        raise BadInput(archive.shown_url, args.quantity, str(exc), "more runs or another --by") from None
+    chart, stats = found.chart, found.stats
     if args.output is not None:
         from benchlog.store.chart_figure import draw
 
         draw(chart, args.quantity, args.by, args.output)
-    payload = {"quantity": args.quantity, "by": args.by, "chart": chart.kind, "limits_by": LIMITS_SOURCE,
-               "runs": stats.runs, "centre": chart.centre, "sigma": chart.sigma,
-               "subgroups": [{"name": chart.labels[i], "n": chart.sizes[i], "value": chart.values[i],
-                              "lcl": chart.lcl[i], "ucl": chart.ucl[i], "spread": chart.spread[i]}
-                             for i in range(len(chart.values))],
-               "rule_hits": [{"rule": h.rule, "text": h.text, "subgroup": chart.labels[h.index]} for h in chart.hits],
-               "rules_source": RULES_SOURCE}
+    payload = found.payload()
     if args.json:
         print_json(payload)
     else:
@@ -270,22 +252,14 @@ def _trend(args) -> int:
 
 
 def _compare(args) -> int:
-    from benchlog.badinput import BadInput
     from benchlog.cli.output import print_json
-    from benchlog.store.lots import compare
-    from benchlog.store.queries import RunFilter, quantity_values
+    from benchlog.store.lots import compare_lots
 
     archive = _open(args)
     try:
-        a = [v.value for v in quantity_values(archive, args.quantity, RunFilter(lot=args.lot_a))]
-        b = [v.value for v in quantity_values(archive, args.quantity, RunFilter(lot=args.lot_b))]
+        c = compare_lots(archive, args.quantity, args.lot_a, args.lot_b, args.usl, args.lsl)
     finally:
         archive.close()
-    for name, values in ((args.lot_a, a), (args.lot_b, b)):
-        if len(values) < 2:
-            raise BadInput(archive.shown_url, f"lot {name!r}", f"{len(values)} runs with {args.quantity}",
-                           "at least two fitted runs per lot")
-    c = compare(args.lot_a, a, args.lot_b, b, args.usl, args.lsl)
 
     def lot(s):
         return {"lot": s.name, "n": s.n, "mean": s.mean, "sd": s.sd, "capability": s.capability_name,

@@ -6,7 +6,6 @@ import argparse
 import math
 from typing import Any
 
-from benchlog.analysis.compare import comparison_lines
 from benchlog.quantity import measured, unit_of
 
 from .output import print_json
@@ -80,5 +79,7 @@ def run_compare(args: argparse.Namespace) -> int:
     if args.json:
         print_json(comparison_entry(c))
     else:
+        from benchlog.analysis.compare import comparison_lines  # here: other commands do not pay for it
+
         print("\n".join(comparison_lines(c)))
     return 0

@@ -65,21 +65,15 @@ def _trend_section(args):
     from benchlog.report.document import FigureBlock, Paragraph, Section
     from benchlog.store import open_archive
     from benchlog.store.chart_figure import chart_figure
-    from benchlog.store.control_chart import LIMITS_SOURCE, RULES_SOURCE, chart_from_stats
-    from benchlog.store.queries import subgroup_stats
+    from benchlog.store.control_chart import LIMITS_SOURCE, RULES_SOURCE
+    from benchlog.store.trend import trend
 
     archive = open_archive(args.db)
     try:
-        stats = subgroup_stats(archive, args.trend, args.trend_by)
+        found = trend(archive, args.trend, args.trend_by)  # the same chart as `archive trend` and the UI's
     finally:
         archive.close()
-    if not stats.names:
-        raise BadInput(archive.shown_url, "--trend", f"no run in the archive has the fitted quantity {args.trend!r}",
-                       "a fitted parameter's key such as r_on_ohm")
-    try:
-        chart = chart_from_stats(stats.names, stats.sizes, stats.means, stats.ranges)
-    except ValueError as exc:
-        raise BadInput(archive.shown_url, "--trend", str(exc), "more runs or another --trend-by") from None
+    chart, stats = found.chart, found.stats
     hits = "; ".join(f"rule {h.rule} ({h.text}) at {chart.labels[h.index]}" for h in chart.hits) or "none"
     return Section(f"Trend of {args.trend} by {args.trend_by} (archive)", blocks=(
         FigureBlock("trend", chart_figure(chart, args.trend, args.trend_by),

@@ -7,6 +7,9 @@ from typing import Any
 
 def soak_block(frame, meta, spec=None) -> tuple[dict[str, Any] | None, list[str]]:
     """(JSON block, text lines) for a run with heat-soak readings; (None, []) for a run without."""
+    plan = meta.header.plan
+    if plan is not None and not plan.soak:
+        return None, []  # the plan asked for no soak: no need to load the thermal analysis
     from benchlog.analysis.thermal_response import SoakError, analyse_soak, has_soak, soak_text
 
     if not has_soak(frame):

@@ -16,6 +16,10 @@ def focus_frame(frame, meta):
 
 def sweeps_payload(frame, meta, *, spec=None, operating_a: float | None = None) -> dict[str, Any]:
     """`report.sweeps_data.sweeps_payload`: `series`, `takeover_v` and `leakage` of a loaded run."""
+    plan = meta.header.plan
+    if plan is not None and not plan.input_voltages_v and not plan.source.get("reverse"):
+        # neither an input sweep nor a reverse step: nothing to analyse, and no reason to load the analyses
+        return {"series": [], "takeover_v": None, "leakage": [], "leakage_sweep": None}
     from benchlog.report.sweeps_data import sweeps_payload as payload
 
     return payload(frame, meta, spec=spec, operating_a=operating_a)

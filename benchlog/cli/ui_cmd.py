@@ -16,9 +16,14 @@ def register(sub) -> None:
         "of recorded runs (replay, re-fit, overlay).",
     )
     p.add_argument("--bench", metavar="BENCH.toml", help="the bench file (which instrument plays which role)")
-    p.add_argument("--runs", metavar="DIR", default="runs", help="folder of run files (default: ./runs)")
+    p.add_argument("--runs", metavar="DIR", help="folder of run files (default: ./runs); given, the Archive view "
+                   "lists it rather than ./benchlog-archive.sqlite (an archive named by --db, the bench file or "
+                   "BENCHLOG_DB still wins)")
     p.add_argument("--plan", metavar="PLAN.toml", action="append", help="a plan to offer (repeatable)")
     p.add_argument("--spec", metavar="SPEC.toml", action="append", help="a part spec to offer (repeatable)")
+    p.add_argument("--db", metavar="URL", help="the lab archive the Archive view lists (default: the bench "
+                   "file's [archive], else $BENCHLOG_DB, else ./benchlog-archive.sqlite when it exists, "
+                   "else the --runs folder)")
     p.set_defaults(handler=_ui)
 
     r = sub.add_parser(

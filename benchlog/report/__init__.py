@@ -12,8 +12,12 @@ render that one document.
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-from .document import Document, FigureBlock, Paragraph, Section, Table, VerdictBlock
+if TYPE_CHECKING:
+    from .document import Document
+
+_DOCUMENT_NAMES = ("Document", "FigureBlock", "Paragraph", "Section", "Table", "VerdictBlock")
 
 __all__ = [
     "Document", "FigureBlock", "Paragraph", "Section", "Table", "VerdictBlock",
@@ -23,7 +27,12 @@ __all__ = [
 
 def __getattr__(name: str):
     """`build_report` (the figures: matplotlib) and `plan_pages` / `write_pdf` (the PDF backend) load on
-    first use, not with the package: `benchlog lot` reads runs through `report.lot_runs` and draws nothing."""
+    first use, not with the package: `benchlog lot` reads runs through `report.lot_runs` and draws nothing,
+    so even the document's dataclasses wait until asked for."""
+    if name in _DOCUMENT_NAMES:
+        from . import document
+
+        return getattr(document, name)
     if name == "build_report":
         from .build import build_report
 
@@ -39,7 +48,7 @@ def __getattr__(name: str):
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
-def write_report(doc: Document, path: str | Path) -> Path:
+def write_report(doc: "Document", path: str | Path) -> Path:
     """Write `doc` as HTML (.html/.htm) or PDF (.pdf), picked by the file's suffix."""
     path = Path(path)
     suffix = path.suffix.lower()

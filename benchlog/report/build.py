@@ -557,6 +557,9 @@ def build_report(
     if len(runs) > 1:
         numbers = compare if compare is not None else len(runs) <= COMPARE_UP_TO
         sections.append(comparison_section(runs, with_numbers=numbers))
+        from .summary_section import summary_section
+
+        sections.append(summary_section(runs))
     sections += lots
     if review is not None:
         from .design_section import design_section

@@ -14,7 +14,7 @@ RFC 4122 4.3): the same file always gets the same id, and `run_id_derived` says 
 from __future__ import annotations
 
 import math
-import uuid
+import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from functools import cached_property
@@ -28,7 +28,16 @@ from .format import FORMAT_NAME, POINT_COLUMNS, SCHEMA_VERSION
 Table = Mapping[str, Any]
 
 #: Namespace of the ids derived for files written before run ids (schema 1); fixed for all time.
-DERIVED_ID_NAMESPACE = uuid.UUID("6f1c2d4e-58a3-4b7e-9f20-3c1d8e5a7b94")
+_DERIVED_ID_NAMESPACE_TEXT = "6f1c2d4e-58a3-4b7e-9f20-3c1d8e5a7b94"
+
+
+def __getattr__(name: str):
+    """`DERIVED_ID_NAMESPACE` (a uuid.UUID) made when asked: reading runs does not import uuid (~3 ms)."""
+    if name == "DERIVED_ID_NAMESPACE":
+        import uuid
+
+        return uuid.UUID(_DERIVED_ID_NAMESPACE_TEXT)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 #: The keys `to_table` writes from typed fields; any other key of a read header is kept in `extra`.
 TYPED_KEYS = ("record", "format", "schema", "point_columns", "tool_version", "started_utc", "run_id",
@@ -86,11 +95,15 @@ def _table(value: Any) -> Table:
 
 def derived_run_id(header_line: str) -> str:
     """The id of a run file that has none: the name-based UUID (version 5, a SHA-1 hash) of its header line."""
-    return str(uuid.uuid5(DERIVED_ID_NAMESPACE, header_line))
+    import uuid  # here, not at the top: a command that only reads runs does not pay for the module (~3 ms)
+
+    return str(uuid.uuid5(uuid.UUID(_DERIVED_ID_NAMESPACE_TEXT), header_line))
 
 
 def new_run_id() -> str:
     """A fresh random run id (UUID4), written in the header when a run starts."""
+    import uuid
+
     return str(uuid.uuid4())
 
 
@@ -447,9 +460,10 @@ class RunHeader:
         )
 
 
+_CANONICAL_UUID = re.compile(r"[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}")
+
+
 def is_run_id(value: Any) -> bool:
     """A run_id as written: a UUID in its canonical text form (lower-case hex, 8-4-4-4-12)."""
-    try:
-        return isinstance(value, str) and str(uuid.UUID(value)) == value
-    except ValueError:
-        return False
+    # the same test as str(uuid.UUID(value)) == value: every 128-bit value in this form is a UUID
+    return isinstance(value, str) and _CANONICAL_UUID.fullmatch(value) is not None

@@ -72,6 +72,11 @@ def _parse(text: str):
                              "sqlite:///FILE or postgresql://USER@HOST[:PORT]/DB")
 
 
+def shown_url(text: str) -> str:
+    """The archive URL `text` as it may be printed (a password masked); ArchiveUnreachable when malformed."""
+    return _shown(_parse(text))
+
+
 def _sqlite_engine(url):
     from sqlalchemy import create_engine, event
 

@@ -61,3 +61,23 @@ def compare(name_a: str, a, name_b: str, b, usl: float | None = None, lsl: float
     t = diff / u if u > 0 else math.copysign(math.inf, diff) if diff else 0.0
     p = float(2 * stats.t.sf(abs(t), dof)) if math.isfinite(t) else 0.0
     return LotComparison(sa, sb, diff, u, dof, float(stats.t.ppf(0.975, dof)) * u, t, p)
+
+
+def compare_lots(archive, quantity: str, lot_a: str, lot_b: str, usl: float | None = None,
+                 lsl: float | None = None, flt=None) -> LotComparison:
+    """Two lots of the archive compared on one fitted quantity (`archive compare-lots` and the UI's trend `c`);
+    BadInput when a lot holds fewer than two fitted runs. `flt` (a `queries.RunFilter`) narrows the runs."""
+    from dataclasses import replace
+
+    from benchlog.badinput import BadInput
+
+    from .queries import RunFilter, quantity_values
+
+    base = flt if flt is not None else RunFilter()
+    a = [v.value for v in quantity_values(archive, quantity, replace(base, lot=lot_a))]
+    b = [v.value for v in quantity_values(archive, quantity, replace(base, lot=lot_b))]
+    for name, values in ((lot_a, a), (lot_b, b)):
+        if len(values) < 2:
+            raise BadInput(archive.shown_url, f"lot {name!r}", f"{len(values)} runs with {quantity}",
+                           "at least two fitted runs per lot")
+    return compare(lot_a, a, lot_b, b, usl, lsl)

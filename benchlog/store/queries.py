@@ -8,44 +8,38 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from benchlog.badinput import BadInput
-
 from . import schema
-
-GROUPINGS = ("lot", "day", "bench")
-
-
-@dataclass(frozen=True)
-class RunFilter:
-    """What `find` selects on; None means "any". Dates are ISO 8601 (a day or a full UTC time)."""
-
-    lot: str | None = None
-    serial: str | None = None
-    kind: str | None = None
-    part: str | None = None  # the element's label
-    verdict: str | None = None
-    bench: str | None = None
-    since: str | None = None
-    until: str | None = None
-    limit: int | None = None
+from .filters import GROUPINGS, RunFilter, check_date, until_bound  # noqa: F401 -- the questions' vocabulary
 
 
-def check_date(text: str | None, option: str) -> str | None:
-    """A date or UTC time as `started_utc` holds it (so text order is time order); BadInput otherwise."""
-    from datetime import datetime
-
-    if text is None:
-        return None
-    try:
-        datetime.fromisoformat(text.removesuffix("Z"))
-    except ValueError:
-        raise BadInput("argument", option, f"{text!r} is not a date", "YYYY-MM-DD or YYYY-MM-DDTHH:MM:SSZ") from None
-    return text
+def _like_fragment(text: str) -> str:
+    """`text` as a LIKE pattern that matches it literally anywhere (its own % _ and \\ escaped)."""
+    escaped = text.replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_")
+    return f"%{escaped}%"
 
 
-def _until_bound(text: str) -> str:
-    """`--until 2025-03-01` includes that whole day: compare below the next character after the day."""
-    return text + "~" if len(text) == 10 else text
+def filtered(query, flt: RunFilter | None):
+    """`query` (over `runs`, perhaps joined) narrowed by every field `flt` gives: the one place a filter becomes SQL."""
+    from sqlalchemy import exists, func, or_
+
+    if flt is None:
+        return query
+    runs, verdicts = schema.runs, schema.verdicts
+    for column, value in ((runs.c.lot, flt.lot), (runs.c.serial, flt.serial), (runs.c.kind, flt.kind),
+                          (runs.c.label, flt.part), (runs.c.bench_host, flt.bench)):
+        if value is not None:
+            query = query.where(column == value)
+    if flt.since is not None:
+        query = query.where(runs.c.started_utc >= flt.since)
+    if flt.until is not None:
+        query = query.where(runs.c.started_utc < until_bound(flt.until))
+    if flt.verdict is not None:
+        query = query.where(exists().where(verdicts.c.run_pk == runs.c.id, verdicts.c.outcome == flt.verdict))
+    if flt.text:
+        pattern = _like_fragment(flt.text.lower())
+        query = query.where(or_(*(func.lower(c).like(pattern, escape="\\")
+                                  for c in (runs.c.serial, runs.c.lot, runs.c.label))))
+    return query
 
 
 def _run_row(row) -> dict:
@@ -84,22 +78,16 @@ def _verdicts_by_run(conn, run_pks: list[int]) -> dict[int, list]:
 
 
 def find_runs(archive, flt: RunFilter, *, with_fits: bool = True) -> list[dict]:
-    """Runs matching every given filter, oldest first, each with its fits and verdicts."""
-    from sqlalchemy import exists, select
+    """Runs matching every given filter, oldest first (or the newest `limit` of them, newest first, when
+    `flt.newest_first`), each with its fits and verdicts."""
+    from sqlalchemy import select
 
-    runs, verdicts = schema.runs, schema.verdicts
-    query = select(runs)
-    for column, value in ((runs.c.lot, flt.lot), (runs.c.serial, flt.serial), (runs.c.kind, flt.kind),
-                          (runs.c.label, flt.part), (runs.c.bench_host, flt.bench)):
-        if value is not None:
-            query = query.where(column == value)
-    if flt.since is not None:
-        query = query.where(runs.c.started_utc >= flt.since)
-    if flt.until is not None:
-        query = query.where(runs.c.started_utc < _until_bound(flt.until))
-    if flt.verdict is not None:
-        query = query.where(exists().where(verdicts.c.run_pk == runs.c.id, verdicts.c.outcome == flt.verdict))
-    query = query.order_by(runs.c.started_utc, runs.c.id)
+    runs = schema.runs
+    query = filtered(select(runs), flt)
+    if flt.newest_first:
+        query = query.order_by(runs.c.started_utc.desc(), runs.c.id.desc())
+    else:
+        query = query.order_by(runs.c.started_utc, runs.c.id)
     if flt.limit is not None:
         query = query.limit(flt.limit)
     with archive.reading() as conn:
@@ -158,16 +146,7 @@ def quantity_values(archive, quantity: str, flt: RunFilter | None = None) -> lis
     query = (select(runs.c.run_id, runs.c.started_utc, runs.c.lot, runs.c.bench_host, runs.c.serial,
                     fits.c.value, fits.c.std_u)
              .join(fits, fits.c.run_pk == runs.c.id).where(fits.c.parameter == quantity))
-    flt = flt or RunFilter()
-    for column, value in ((runs.c.lot, flt.lot), (runs.c.kind, flt.kind), (runs.c.bench_host, flt.bench),
-                          (runs.c.label, flt.part)):
-        if value is not None:
-            query = query.where(column == value)
-    if flt.since is not None:
-        query = query.where(runs.c.started_utc >= flt.since)
-    if flt.until is not None:
-        query = query.where(runs.c.started_utc < _until_bound(flt.until))
-    query = query.order_by(runs.c.started_utc, runs.c.id)
+    query = filtered(query, flt).order_by(runs.c.started_utc, runs.c.id)
     with archive.reading() as conn:
         return [QuantityValue(*row) for row in conn.execute(query)]
 
@@ -222,15 +201,7 @@ def subgroup_stats(archive, quantity: str, by: str, flt: RunFilter | None = None
                     (func.max(fits.c.value) - func.min(fits.c.value)).label("range"),
                     func.min(runs.c.started_utc).label("first"))
              .join(fits, fits.c.run_pk == runs.c.id).where(fits.c.parameter == quantity))
-    flt = flt or RunFilter()
-    for column, value in ((runs.c.lot, flt.lot), (runs.c.kind, flt.kind), (runs.c.bench_host, flt.bench),
-                          (runs.c.label, flt.part)):
-        if value is not None:
-            query = query.where(column == value)
-    if flt.since is not None:
-        query = query.where(runs.c.started_utc >= flt.since)
-    if flt.until is not None:
-        query = query.where(runs.c.started_utc < _until_bound(flt.until))
+    query = filtered(query, flt)
     query = query.group_by(key).order_by("first", "name")
     with archive.reading() as conn:
         rows = conn.execute(query).all()

@@ -7,6 +7,7 @@ thread drains it and redraws once per batch. Endings come back as messages.
 
 from __future__ import annotations
 
+import threading
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -17,6 +18,7 @@ from textual.app import App
 from textual.binding import Binding
 from textual.message import Message
 
+from .archive_query import ArchiveChoice
 from .collector import CollectorPolicy
 from .feed import EventFeed
 from .findings import MODELS, RunFindings, study_run
@@ -124,9 +126,13 @@ class BenchApp(App):
         replay: Path | None = None,
         replay_speed: float | None = 10.0,
         probe_on_start: bool = True,
+        archive: ArchiveChoice | None = None,
     ) -> None:
         super().__init__()
         self.session = session
+        self.archive_choice = archive  # None: the archive view lists the run folder
+        self._archive = None  # the open store.Archive, opened on first use by a worker
+        self._archive_lock = threading.Lock()
         self.runs_dir = Path(runs_dir)
         self.clock = clock
         self.feed = EventFeed()
@@ -328,6 +334,8 @@ class BenchApp(App):
         self.say(text + detail, severity="information" if outcome.outcome == "complete" and safe else "warning")
         if outcome.run_path is not None:
             self.analyse(outcome.run_path)
+            if self.archive_choice is not None:
+                self._publish_worker(outcome.run_path)
         if self.state.lot_pending_serial is not None:
             self._lot_part_done(outcome)
         self.redraw()
@@ -392,6 +400,33 @@ class BenchApp(App):
         if message.outcome.run_path is not None:
             self.analyse(message.outcome.run_path)
         self.redraw()
+
+    # -- the archive ---------------------------------------------------------------------
+    def archive_store(self):
+        """The open archive (`store.Archive`), opened on first use; call from a worker thread (it may wait on a
+        server). Raises BadInput (ArchiveUnreachable) when it cannot be opened; the next call tries again."""
+        from benchlog.store import open_archive
+
+        with self._archive_lock:
+            if self._archive is None:
+                self._archive = open_archive(self.archive_choice.url)
+            return self._archive
+
+    @work(thread=True, group="publish")
+    def _publish_worker(self, run_path: Path) -> None:
+        """A finished run goes into the archive the UI shows; if that fails the run file stands and `sync` catches up."""
+        from benchlog.store.ingest import add_run
+
+        try:
+            done = add_run(self.archive_store(), run_path)
+            text = f"{run_path.name}: {done.action} in the archive" + (f" ({done.note})" if done.note else "")
+            severity = "information"
+        except Exception as exc:  # noqa: BLE001 - any archive fault: the run file is complete, sync later
+            text = (f"{run_path.name} is not in the archive ({_sentence(exc)}); the run file is complete: "
+                    f"`benchlog archive sync {shown(self.runs_dir)}` adds it later.")
+            severity = "warning"
+        self.call_from_thread(self.say, text, severity=severity)
+        self.call_from_thread(self.redraw)
 
     # -- analysis --------------------------------------------------------------------
     def analyse(self, path: Path, *, model: str | None = None, spec: Path | None | str = "current") -> None:
@@ -638,6 +673,10 @@ class BenchApp(App):
         if self.session is not None:
             self.session.cancel()
         self._collector.stop()
+        with self._archive_lock:
+            if self._archive is not None:
+                self._archive.close()
+                self._archive = None
 
 
 class ReplayEnded(Message):

@@ -76,16 +76,29 @@ def run_demo_ui(args, start_sim) -> int:
 
 
 def run_ui(args) -> int:
-    """`benchlog ui [--bench BENCH.toml] [--runs DIR]`."""
+    """`benchlog ui [--bench BENCH.toml] [--runs DIR] [--db URL]`; the archive view lists the archive in force
+    (`archive_query.choose_archive`) or, with none, the run folder."""
     from .app import BenchApp
     from .session import BenchSession
 
-    runs = Path(args.runs)
+    from .archive_query import choose_archive
+
+    runs = Path(args.runs or "runs")
+    bench_url = None
+    if args.bench:
+        from benchlog.sweep.bench_file import load_bench
+
+        bench_url = load_bench(args.bench).archive_url  # a bad bench file is one line before any link opens
+    archive = choose_archive(getattr(args, "db", None), bench_url, default_file=args.runs is None)
+    if archive is not None:
+        from benchlog.store.connect import shown_url
+
+        shown_url(archive.url)  # a malformed URL is one line and exit 2, before the UI starts
     session = BenchSession.from_file(Path(args.bench), runs_dir=runs) if args.bench else None
     plans = [Path(p) for p in (args.plan or [])] or demo_plans()
     specs = [Path(p) for p in (args.spec or [])] or demo_specs()
     app = BenchApp(session, runs_dir=runs, plans=plans, specs=specs,
-                   start_view="instruments" if session is not None else "archive")
+                   start_view="instruments" if session is not None else "archive", archive=archive)
     try:
         app.run()
     finally:

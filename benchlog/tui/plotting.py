@@ -145,8 +145,11 @@ def render_plot(
     styles: PlotStyles | None = None,
     x_range: tuple[float, float] | None = None,
     y_range: tuple[float, float] | None = None,
+    whole_x: bool = False,
 ) -> Text:
-    """Draw the series into a `width`×`height` block of text: legend, y ticks, plot area, x ticks, x label."""
+    """Draw the series into a `width`×`height` block of text: legend, y ticks, plot area, x ticks, x label.
+
+    `whole_x`: the x axis counts things (subgroups), so only whole-number ticks are drawn."""
     styles = styles or PlotStyles()
     out = Text(no_wrap=True, overflow="crop")
     plot_w = width - Y_LABEL_WIDTH - 1
@@ -222,6 +225,8 @@ def render_plot(
 
     # x axis: a rule with tick marks, then the tick values, then the quantity and unit.
     x_ticks = nice_ticks(x_lo, x_hi, max(2, min(8, plot_w // 9 + 1)))
+    if whole_x:
+        x_ticks = [t for t in x_ticks if t == int(t)]
     rule = ["─"] * plot_w
     labels = [" "] * (plot_w + Y_LABEL_WIDTH + 1)
     for t in x_ticks:

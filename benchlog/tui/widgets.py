@@ -137,6 +137,8 @@ class CurvePlot(Widget):
         self.y_axis = y_axis
         self.series: list[Series] = []
         self.empty_text = "waiting for points"
+        self.whole_x = False  # only whole-number x ticks (an axis that counts)
+        self.x_range: tuple[float, float] | None = None
 
     def show(self, series: Sequence[Series], x_axis: Axis | None = None, y_axis: Axis | None = None) -> None:
         series = list(series)
@@ -155,7 +157,8 @@ class CurvePlot(Widget):
             label=self.get_component_rich_style("plot--label"),
             series={name: self.get_component_rich_style(f"plot--{name}") for name in ("series-a", "series-b", "model", "limit")},
         )
-        return render_plot(self.series, self.size.width, self.size.height, self.x_axis, self.y_axis, styles)
+        return render_plot(self.series, self.size.width, self.size.height, self.x_axis, self.y_axis, styles,
+                           x_range=self.x_range, whole_x=self.whole_x)
 
 
 def _same_series(new: Sequence[Series], old: Sequence[Series]) -> bool:

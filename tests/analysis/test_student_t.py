@@ -79,3 +79,31 @@ def test_median_matches_numpy_median():
     for n in (1, 2, 3, 10, 11, 1000):
         x = rng.normal(size=n)
         assert median_of(x) == float(np.median(x))  # reference: numpy.median
+
+
+def test_quantile_and_tail_over_a_wide_grid_against_scipy():
+    # reference: scipy.special.stdtrit and scipy.special.stdtr over a grid far wider than the tool uses:
+    # ν from 1 to 1e8 (60 values, log-spaced, mostly not integers) × p from 0.5 to 1 − 1e-10
+    import numpy as np
+
+    dofs = np.geomspace(1.0, 1e8, 60)
+    probs = np.concatenate([np.linspace(0.5, 0.99, 25), 1 - np.geomspace(1e-2, 1e-10, 25)])
+    worst_q = worst_sf = 0.0
+    for dof in dofs:
+        for p in probs:
+            ref = float(special.stdtrit(dof, p))
+            got = t_quantile(float(dof), float(p))
+            if ref == 0.0:
+                assert abs(got) < 1e-12
+                continue
+            # p itself is known to half an ulp: far out in the tail that alone moves the quantile by
+            # ulp(p) / density (the density of Student's t, a handbook formula, e.g. Abramowitz & Stegun 26.7.1)
+            log_pdf = (math.lgamma((dof + 1) / 2) - math.lgamma(dof / 2) - 0.5 * math.log(dof * math.pi)
+                       - (dof + 1) / 2 * math.log1p(ref * ref / dof))
+            conditioning = 4 * math.ulp(float(p)) / math.exp(log_pdf)
+            worst_q = max(worst_q, abs(got - ref) / max(abs(ref) * 1e-9, conditioning) * 1e-9)
+            # and back: the tail at the reference quantile is 1 − p (scipy.special.stdtr(ν, −t) = P(T > t))
+            tail = float(special.stdtr(dof, -ref))
+            worst_sf = max(worst_sf, abs(t_sf(ref, float(dof)) / tail - 1))
+    assert worst_q < 1e-9
+    assert worst_sf < 1e-9

@@ -34,3 +34,17 @@ def test_benchmark_runs_in_quick_mode(script: Path, tmp_path: Path):
     figures = json.loads(out.read_text())
     assert figures["quick"] is True and figures["figures"]
     assert figures["machine"]["nproc"] >= 1
+
+
+def test_the_one_sitting_driver_runs_its_steps_and_the_lot_report(tmp_path: Path):
+    # benchmarks/issue14_figures.py: a step's output and JSON land in --out, the lot report's size is read back
+    out = tmp_path / "figures"
+    done = subprocess.run([sys.executable, str(BENCHMARKS / "issue14_figures.py"), "--quick", "--out", str(out),
+                           "--only", "command_startup", "lot_report"], capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr[-3000:]
+    summary = json.loads((out / "summary.json").read_text())
+    assert set(summary["steps"]) == {"command_startup"} and summary["steps"]["command_startup"]["exit"] == 0
+    assert (out / "command_startup.json").exists() and "reproduce: python " in (out / "command_startup.txt").read_text()
+    lot = summary["lot_report"]
+    assert lot["runs"] == 20 and lot["size_b"] == (out / "lot20.html").stat().st_size > 0
+    assert "machine" in summary and "cpu" not in summary["machine"]  # no processor name (no brands)

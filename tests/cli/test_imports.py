@@ -77,3 +77,46 @@ def test_html_report_needs_neither_the_pdf_backend_nor_the_design_review(tmp_pat
     assert "matplotlib.backends.backend_pdf" not in modules
     assert "benchlog.analysis.design" not in modules
     assert not tops(modules) & {"scipy", "pandas", "textual"}
+
+
+def test_each_command_is_registered_by_the_module_the_table_names():
+    # `benchlog lot ...` builds only its module's subparsers (COMMAND_MODULE): the table must list
+    # every command of the full parser, and building one module must give that command the same options.
+    from benchlog.cli import COMMAND_MODULE, build_parser
+
+    full = build_parser()._subparsers._group_actions[0].choices
+    assert set(COMMAND_MODULE) == set(full)
+    for name in full:
+        alone = build_parser(name)._subparsers._group_actions[0].choices
+        assert name in alone
+        assert alone[name].format_help() == full[name].format_help()
+
+
+def test_an_unknown_command_still_names_every_command(capsys):
+    from benchlog.cli import COMMAND_MODULE, main
+
+    with pytest.raises(SystemExit) as exc:
+        main(["no-such-command"])
+    assert exc.value.code == 2
+    err = capsys.readouterr().err
+    assert all(repr(name) in err for name in COMMAND_MODULE)
+
+
+def test_check_of_a_plain_run_loads_no_soak_or_sweep_analysis():
+    modules = loaded("check", str(RUNS / "pmos-prototype.run"), "--spec", str(SPEC), "--json")
+    assert not modules & {"benchlog.analysis.thermal_response", "benchlog.analysis.input_sweep",
+                          "benchlog.analysis.leakage_sweep"}
+
+
+@pytest.mark.parametrize("run", sorted(p.relative_to(RUNS).as_posix() for p in RUNS.rglob("*.run")))
+def test_the_short_cut_gives_what_the_sweep_and_soak_analyses_give(run):
+    """A run whose plan has no input sweep, reverse step or soak skips those analyses: the answer is the same."""
+    from benchlog.analysis.thermal_response import has_soak
+    from benchlog.cli.soak_out import soak_block
+    from benchlog.cli.sweeps_out import sweeps_payload
+    from benchlog.report.sweeps_data import sweeps_payload as full_payload
+    from benchlog.runs import load_points
+
+    frame, meta = load_points(RUNS / run)
+    assert sweeps_payload(frame, meta) == full_payload(frame, meta)
+    assert (soak_block(frame, meta)[0] is None) == (not has_soak(frame))

@@ -75,3 +75,56 @@ def test_verdict_is_on_the_first_screen_above_the_first_table(tmp_path):
     assert verdict.size, "no verdict box drawn"
     assert verdict.min() < 800  # on the first screen of a laptop
     assert header_rows.size and verdict.min() < header_rows.min()
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="headless Chromium not installed (apt-get install chromium)")
+def test_a_lot_reports_dom_as_the_browser_builds_it_leads_with_the_verdict(tmp_path):
+    """The DOM after Chromium parsed and laid out the page (--dump-dom): the lot's verdict box comes before the
+    first table, and the one-row-per-run summary is there with a row per run."""
+    from html.parser import HTMLParser
+
+    root = Path(__file__).resolve().parents[2]
+    runs = sorted((root / "sample_runs" / "lot-demo-07").glob("*.run"))[:6]
+    spec = root / "benchlog" / "demo" / "specs" / "demo-pfet-10m.toml"
+    out = tmp_path / "lot.html"
+    assert main(["report", *map(str, runs), "--spec", str(spec), "-o", str(out)]) == 0
+    proc = subprocess.run(
+        [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--proxy-server=127.0.0.1:9",
+         "--proxy-bypass-list=<-loopback>", "--user-data-dir=" + str(tmp_path / "profile"), "--dump-dom",
+         out.as_uri()], capture_output=True, text=True, timeout=180)
+    assert proc.returncode == 0, proc.stderr[-2000:]
+
+    class Order(HTMLParser):
+        def __init__(self):
+            super().__init__()
+            self.seen: list[str] = []
+            self.caption = False
+            self.summary_rows = None
+
+        def handle_starttag(self, tag, attrs):
+            classes = (dict(attrs).get("class") or "").split()
+            if "verdict" in classes:
+                self.seen.append("verdict")
+            elif tag == "table":
+                self.seen.append("table")
+            elif tag == "caption":
+                self.caption = True
+            elif tag == "tr" and self.summary_rows is not None:
+                self.summary_rows += 1
+
+        def handle_endtag(self, tag):
+            if tag == "caption":
+                self.caption = False
+            elif tag == "table" and self.summary_rows is not None and self.summary_rows >= 0:
+                self.seen.append(f"summary:{self.summary_rows - 1}")  # less the header row
+                self.summary_rows = -10**6
+
+        def handle_data(self, data):
+            if self.caption and data.startswith("One row per run"):
+                self.summary_rows = 0
+
+    order = Order()
+    order.feed(proc.stdout)
+    assert "verdict" in order.seen and "table" in order.seen
+    assert order.seen.index("verdict") < order.seen.index("table")
+    assert f"summary:{len(runs)}" in order.seen

@@ -81,6 +81,19 @@ class _Server:
             c.execute(f'CREATE DATABASE "{name}"')  # our own generated name, not user input
         return f"postgresql://postgres@127.0.0.1:{self.port}/{name}"
 
+    def viewer_url(self, url: str) -> str:
+        """A read-only role for the database of `url`, as the README's viewer (SELECT only); its URL."""
+        import psycopg
+
+        dbname = url.rsplit("/", 1)[1]
+        role = f"viewer_{dbname}"
+        with psycopg.connect(f"host=127.0.0.1 port={self.port} user=postgres dbname={dbname}", autocommit=True) as c:
+            for statement in (f'CREATE ROLE "{role}" LOGIN', f'GRANT CONNECT ON DATABASE "{dbname}" TO "{role}"',
+                              f'GRANT USAGE ON SCHEMA public TO "{role}"',
+                              f'GRANT SELECT ON ALL TABLES IN SCHEMA public TO "{role}"'):
+                c.execute(statement)  # names generated here, not user input
+        return url.replace("postgres@", f"{role}@")
+
     def stop(self) -> None:
         if self.started:
             subprocess.run([*self.prefix, str(self.bindir / "pg_ctl"), "-D", str(self.data), "-m", "immediate", "stop"],

@@ -128,22 +128,12 @@ def test_a_bench_file_refuses_a_password_in_its_archive_url(tmp_path):
 
 def test_a_read_only_viewer_role_can_ask_but_not_publish(postgres_server, tmp_path, capsys):
     """The viewer role of the README: SELECT only. Its questions work; its `add` is one line, exit 2."""
-    import psycopg
-
     if not postgres_server.started:
         pytest.skip(postgres_server.skip_reason)
     url = postgres_server.new_database()
     run = write_run(tmp_path / "a.run", demo_header(serial="V1", lot="LV"), 0.01)
     assert main(["archive", "add", str(run), "--db", url]) == 0
-    dbname = url.rsplit("/", 1)[1]
-    role = f"viewer_{dbname}"
-    with psycopg.connect(f"host=127.0.0.1 port={postgres_server.port} user=postgres dbname={dbname}",
-                         autocommit=True) as c:
-        for statement in (f'CREATE ROLE "{role}" LOGIN', f'GRANT CONNECT ON DATABASE "{dbname}" TO "{role}"',
-                          f'GRANT USAGE ON SCHEMA public TO "{role}"',
-                          f'GRANT SELECT ON ALL TABLES IN SCHEMA public TO "{role}"'):
-            c.execute(statement)  # names generated here, not user input
-    viewer = url.replace("postgres@", f"{role}@")
+    viewer = postgres_server.viewer_url(url)
     capsys.readouterr()
     assert main(["archive", "find", "--serial", "V1", "--db", viewer, "--json"]) == 0
     assert [r["serial"] for r in _json(capsys)["runs"]] == ["V1"]

@@ -10,11 +10,13 @@ from pathlib import Path
 
 from . import scenes
 
-SHOTS = (("live", scenes.live_view), ("results", scenes.results_view), ("archive", scenes.archive_view))
+SHOTS = (("live", scenes.live_view), ("results", scenes.results_view), ("archive", scenes.archive_view),
+         ("trend", scenes.trend_view))
+APPS = {"trend": scenes.scene_trend_app}  # scenes on an archive; the others on the run folder
 
 
 async def shoot(target: Path, name: str, scene, size=(100, 30)) -> Path:
-    app = scenes.scene_app(Path.cwd())
+    app = APPS.get(name, scenes.scene_app)(Path.cwd())
     async with app.run_test(size=size) as pilot:
         await scene(pilot)
         app.save_screenshot(filename=f"{name}.svg", path=str(target))

@@ -21,6 +21,37 @@ def scene_app(root: Path, start_view: str = "instruments") -> BenchApp:
     return BenchApp(session, runs_dir=runs, plans=[plan], specs=[spec], start_view=start_view)
 
 
+def scene_archive_app(root: Path) -> BenchApp:
+    """The scene's two runs published to an SQLite archive here (`archive add`), the view reading from it."""
+    from benchlog.cli import main
+    from benchlog.tui.archive_query import ArchiveChoice
+
+    app = scene_app(root, start_view="archive")
+    runs = sorted(Path("runs").glob("*.run"))
+    if main(["archive", "add", *map(str, runs), "--db", "sqlite:///lab.sqlite"]) != 0:
+        raise AssertionError("archive add failed")
+    app.archive_choice = ArchiveChoice("sqlite:///lab.sqlite", "--db")
+    return app
+
+
+def scene_trend_app(root: Path) -> BenchApp:
+    """Eight invented lots of five (the last 8 % higher) in an SQLite archive here, the archive view on it."""
+    from benchlog.cli import main
+    from benchlog.tui.archive_query import ArchiveChoice
+
+    from tests.store.synthetic import write_lot
+
+    app = scene_app(root, start_view="archive")
+    paths = []
+    for i, lot in enumerate("ABCDEFGH"):
+        r = 0.0108 if lot == "H" else 0.0100
+        paths += write_lot(Path("lots") / lot, f"LOT-{lot}", r, 5, day=f"2025-03-0{i + 1}", spread=0.01, seed=i + 1)
+    if main(["archive", "add", *map(str, paths), "--db", "sqlite:///lab.sqlite"]) != 0:
+        raise AssertionError("archive add failed")
+    app.archive_choice = ArchiveChoice("sqlite:///lab.sqlite", "--db")
+    return app
+
+
 async def wait_for(pilot, condition, timeout: float = 15.0) -> None:
     waited = 0.0
     while not condition():
@@ -84,3 +115,20 @@ async def caution(pilot) -> None:
     await probed(pilot)
     await pilot.press("2", "r")
     await wait_for(pilot, lambda: isinstance(app.screen, CautionScreen))
+
+
+async def archive_db_view(pilot) -> None:
+    app = pilot.app
+    await probed(pilot)
+    screen = app.screen
+    await wait_for(pilot, lambda: len(getattr(screen, "entries", [])) == 2)
+
+
+async def trend_view(pilot) -> None:
+    from benchlog.tui.views.trend import TrendScreen
+
+    app = pilot.app
+    await probed(pilot)
+    await wait_for(pilot, lambda: len(getattr(app.screen, "entries", [])) == 40)
+    await pilot.press("t")
+    await wait_for(pilot, lambda: isinstance(app.screen, TrendScreen) and app.screen.trend is not None)

@@ -15,7 +15,7 @@ async def test_compare_two_marked_runs_with_the_footer_keys(scripted, runs_dir, 
     async with app.run_test(size=(140, 36)) as pilot:
         await settle(pilot, app, lambda: "A1" in screen_text(app) and "A2" in screen_text(app))
         footer = screen_text(app)
-        assert "Compare A−B" in footer and "Mark A" in footer and "Mark B" in footer
+        assert "c Compare" in footer and "Mark A" in footer and "Mark B" in footer
         await pilot.press("c")  # nothing marked yet: one sentence, no screen
         await pilot.pause(0.1)
         assert "Mark two runs first" in app.messages[-1]

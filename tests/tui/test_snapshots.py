@@ -24,6 +24,16 @@ def test_main_views_at_80x24(snap_compare, scene_dir, name):
     assert snap_compare(app, terminal_size=(80, 24), run_before=getattr(scenes, name))
 
 
+def test_archive_view_on_an_archive_at_80x24(snap_compare, scene_dir):
+    app = scenes.scene_archive_app(scene_dir)
+    assert snap_compare(app, terminal_size=(80, 24), run_before=scenes.archive_db_view)
+
+
+def test_trend_of_an_archive_at_80x24(snap_compare, scene_dir):
+    app = scenes.scene_trend_app(scene_dir)
+    assert snap_compare(app, terminal_size=(80, 24), run_before=scenes.trend_view)
+
+
 def test_results_view_at_120x36(snap_compare, scene_dir):
     app = scenes.scene_app(scene_dir)
     assert snap_compare(app, terminal_size=(120, 36), run_before=scenes.results_view)

@@ -1,7 +1,13 @@
-"""The archive view: the run files in a folder; open one, replay it, re-judge it, overlay two."""
+"""The archive view: the runs of the lab archive (or of a folder); filter, open, replay, re-judge, overlay, trend.
+
+With an archive in force (`archive_query.choose_archive`) the rows come from the
+database, newest first, narrowed by the filter typed after `/`; without one the
+run folder is scanned, as before, and the same filter applies to what was found.
+"""
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -9,15 +15,19 @@ from textual import work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import DataTable, Static
+from textual.widgets import DataTable, Input, Static
 
 from benchlog.badinput import BadInput
 from benchlog.runs.reader import read_summary
 from benchlog.runs.record import RunHeader
+from benchlog.store.filters import RunFilter
+
+from ..archive_query import LIST_LIMIT, filter_text, listing_filter, matches, parse_filter, worst_verdict
 
 from ..plotting import Axis, Series
 from ..paths import shown
 from ..widgets import CurvePlot, KeyBar, Plain, RowTable, cells
+from .asked import sentence
 from .base import View
 from .results import VERDICT_WORDS
 
@@ -39,6 +49,11 @@ class RunEntry:
     serial: str
     outcome: str
     header: RunHeader | None = None  # the run's typed header (None: unreadable), for the spec it goes with
+    lot: str = ""
+    label: str = ""
+    bench: str = ""
+    stored_verdict: str | None = None  # the verdict the archive holds (database rows only)
+    run_id: str = ""
 
 
 def scan_run(path: Path) -> RunEntry:
@@ -50,7 +65,16 @@ def scan_run(path: Path) -> RunEntry:
     if header is None:
         return RunEntry(path, "", "", "", "", outcome, None)
     e = header.element
-    return RunEntry(path, header.started_utc, e.id, e.kind or "", e.serial or "", outcome, header)
+    return RunEntry(path, header.started_utc, e.id, e.kind or "", e.serial or "", outcome, header,
+                    lot=e.lot or "", label=e.label or "", bench=header.host or "", run_id=header.run_id)
+
+
+def archived_entry(row: dict) -> RunEntry:
+    """A run as the archive's `find` returns it (the file path is where it was published from)."""
+    return RunEntry(Path(row["path"]), row["started_utc"] or "", row["element_id"] or "", row["kind"] or "",
+                    row["serial"] or "", row["outcome"] or "", None, lot=row["lot"] or "", label=row["label"] or "",
+                    bench=row["bench_host"] or "", stored_verdict=worst_verdict(v["verdict"] for v in row["verdicts"]),
+                    run_id=row["run_id"])
 
 
 def list_runs(folder: Path) -> list[RunEntry]:
@@ -65,23 +89,32 @@ def list_runs(folder: Path) -> list[RunEntry]:
 
 class ArchiveView(View):
     TITLE_TEXT = "Archive"
+    AUTO_FOCUS = "#runs"  # the table, never the hidden filter field (`/` opens that)
     BINDINGS = [
         Binding("o", "open_run", "Open"),
         Binding("p", "replay", "Replay"),
-        Binding("right_square_bracket", "faster", "Fast", key_display="]"),
-        Binding("left_square_bracket", "slower", "Slow", key_display="["),
+        # the replay speed keys are named in the head line beside the speed (room on the 80-column key bar)
+        Binding("right_square_bracket", "faster", "Fast", key_display="]", show=False),
+        Binding("left_square_bracket", "slower", "Slow", key_display="[", show=False),
         Binding("a", "mark('a')", "Mark A"),
         Binding("b", "mark('b')", "Mark B"),
-        Binding("v", "overlay", "Overlay A+B"),
-        Binding("c", "compare", "Compare A−B"),
+        Binding("v", "overlay", "Overlay"),
+        Binding("c", "compare", "Compare"),
         Binding("m", "refit_model", "Model"),
         Binding("k", "refit_spec", "Spec"),
-        Binding("g", "rescan", "Rescan"),
+        Binding("slash", "filter", "Filter", key_display="/"),
+        Binding("h", "history", "History"),
+        Binding("t", "trend", "Trend"),
+        Binding("w", "summary", "Summary"),
+        Binding("g", "rescan", "Rescan", show=False),  # the list is re-read on every visit; g forces it
     ]
 
     def __init__(self) -> None:
         super().__init__()
         self.entries: list[RunEntry] = []
+        self.found: list[RunEntry] = []  # before the filter (folder) or as the database returned them
+        self.filter = RunFilter()
+        self.problem = ""  # why the archive could not be read (shown in the head line)
         self.verdicts: dict[tuple[Path, Path | None], str] = {}
         self.marks: dict[str, Path] = {}
         self.spec_choice: dict[Path, Path] = {}  # a spec picked with k for one run, over the one it goes with
@@ -90,10 +123,19 @@ class ArchiveView(View):
         """The spec this run is judged against: one picked with k, else its own (app.spec_of_run)."""
         return self.spec_choice.get(entry.path) or self.app.spec_of_run(entry.header)
 
+    @property
+    def from_database(self) -> bool:
+        return self.app.archive_choice is not None
+
     def body(self) -> ComposeResult:
         yield Plain("", id="archive-head")
+        field = Input(placeholder="serial: lot: kind: verdict: date: since: until: bench: part: or words",
+                      id="archive-filter")
+        field.display = False
+        yield field
         table = RowTable(id="runs", cursor_type="row")
-        table.add_columns("date (UTC)", "element", "serial", "outcome", "verdict", "file")
+        last = "bench" if self.from_database else "file"
+        table.add_columns("date (UTC)", "element", "serial", "lot", "outcome", "verdict", last)
         yield table
 
     def on_mount(self) -> None:
@@ -101,10 +143,47 @@ class ArchiveView(View):
         super().on_mount()
 
     def rescan(self) -> None:
+        if self.from_database:
+            self._query_archive(self.filter)
+            return
         folder = self.app.runs_dir
-        self.entries = list_runs(folder) if folder.is_dir() else []
-        self._fill()
+        self.found = list_runs(folder) if folder.is_dir() else []
+        self._apply_filter()
         self._judge_all([(e, self.spec_for(e)) for e in self.entries])
+
+    def _apply_filter(self) -> None:
+        """The folder's runs that pass the filter (a verdict filter uses the verdicts judged so far)."""
+        self.entries = [e for e in self.found if matches(e, self.filter, self._verdict_of(e))]
+        self._fill()
+
+    @work(thread=True, exclusive=True, group="archive-query")
+    def _query_archive(self, flt: RunFilter) -> None:
+        from benchlog.store.queries import find_runs
+
+        try:
+            rows = find_runs(self.app.archive_store(), listing_filter(flt), with_fits=False)
+            entries, problem = [archived_entry(r) for r in rows], ""
+        except Exception as exc:  # unreachable, refused, malformed: one sentence in the head line
+            entries, problem = [], sentence(exc)
+        self.app.call_from_thread(self._archive_answered, entries, problem)
+
+    def _archive_answered(self, entries: list[RunEntry], problem: str) -> None:
+        self.found = self.entries = entries
+        self.problem = problem
+        if problem:
+            self.app.say(f"The archive cannot be read: {problem}", severity="error")
+        self._fill()
+        picked = [(e, self.spec_choice[e.path]) for e in entries if e.path in self.spec_choice]
+        if picked:
+            self._judge_all(picked)
+
+    def _verdict_of(self, entry: RunEntry) -> str | None:
+        spec = self.spec_for(entry)
+        if spec is not None and (entry.path, spec) in self.verdicts:
+            return self.verdicts[(entry.path, spec)]
+        if entry.path not in self.spec_choice:
+            return entry.stored_verdict
+        return None
 
     @work(thread=True, exclusive=True, group="archive-verdicts")
     def _judge_all(self, pairs: list[tuple[RunEntry, Path | None]]) -> None:
@@ -128,6 +207,8 @@ class ArchiveView(View):
                 verdict = "unreadable"
             self.verdicts[key] = verdict
             self.app.call_from_thread(self._fill)
+        if self.filter.verdict is not None and not self.from_database:
+            self.app.call_from_thread(self._apply_filter)
 
     def _fill(self) -> None:
         table = self.query_one("#runs", DataTable)
@@ -136,10 +217,14 @@ class ArchiveView(View):
         for entry in self.entries:
             spec = self.spec_for(entry)
             marks = "".join(k.upper() for k, p in sorted(self.marks.items()) if p == entry.path)
-            verdict = self.verdicts.get((entry.path, spec), "…" if spec else "— no spec")
+            verdict = self._verdict_of(entry)
+            if verdict is None:
+                verdict = "…" if spec else ("— none stored" if self.from_database else "— no spec")
+            last = entry.bench or "—" if self.from_database else entry.path.name
             table.add_row(*cells(entry.started_utc.replace("T", " ")[:19], f"{entry.element} {entry.kind}"[:18],
-                                 entry.serial or "—", entry.outcome, VERDICT_WORDS.get(verdict, verdict),
-                                 (f"[{marks}] " if marks else "") + entry.path.name), key=str(entry.path))
+                                 entry.serial or "—", entry.lot or "—", entry.outcome,
+                                 VERDICT_WORDS.get(verdict, verdict), (f"[{marks}] " if marks else "") + last),
+                          key=entry.run_id if self.from_database else str(entry.path))
         if self.entries:
             table.move_cursor(row=min(max(row, 0), len(self.entries) - 1))
         self._head()
@@ -154,9 +239,39 @@ class ArchiveView(View):
             how = "picked with k" if entry.path in self.spec_choice else "its own"
             spec = f"{shown(path)} ({how})" if path is not None else "none known (k picks one of its kind)"
         marks = "  ".join(f"{k.upper()}={p.name}" for k, p in sorted(self.marks.items())) or "none"
+        choice = self.app.archive_choice
+        if choice is not None:
+            source = f"archive {self._shown_url()} ({choice.how})"
+            if self.problem:
+                source += " UNREADABLE"
+        else:
+            source = f"folder {shown(self.app.runs_dir)}"
+        count = f"{len(self.entries)} run" + ("" if len(self.entries) == 1 else "s")
+        if self.from_database and len(self.entries) >= LIST_LIMIT:
+            count = f"newest {len(self.entries)} runs"
+        typed = filter_text(self.filter)
         self.query_one("#archive-head", Static).update(
-            f" folder {shown(self.app.runs_dir)} · {len(self.entries)} runs · replay {speed_text(state.replay_speed)}"
-            f" · marked {marks}\n selected run's spec: {spec}")
+            f" {source} · {count}" + (f" · filter {typed}" if typed else "")
+            + f"\n replay {speed_text(state.replay_speed)} ([ ]) · marked {marks} · selected run's spec: {spec}")
+
+    def _own_spec(self, entry: RunEntry) -> Path | None:
+        """`spec_for`, reading the header from the run file when the row came from the database without it
+        (or is not listed under the present filter)."""
+        if entry.header is None and entry.path not in self.spec_choice and entry.path.is_file():
+            try:
+                entry = scan_run(entry.path)
+            except (OSError, BadInput):
+                return None
+        return self.spec_for(entry)
+
+    def _shown_url(self) -> str:
+        """The archive URL as it may be printed (a password, if any, masked)."""
+        from benchlog.store.connect import shown_url
+
+        try:  # the driver (+pysqlite, +psycopg) is ours to pick, not the user's: left out
+            return re.sub(r"^(\w+)\+\w+:", r"\1:", shown_url(self.app.archive_choice.url))
+        except BadInput:
+            return "(malformed URL)"
 
     def on_data_table_row_highlighted(self, _event) -> None:
         self._head()
@@ -176,10 +291,23 @@ class ArchiveView(View):
         table = self.query_one("#runs", DataTable)
         return self.entries[min(max(table.cursor_row, 0), len(self.entries) - 1)]
 
+    def here(self, path: Path) -> bool:
+        """Whether a run's file can be read on this machine; if not, say so (the archive indexes runs of
+        every bench, their files stay where they were recorded)."""
+        if path.is_file():
+            return True
+        entry = next((e for e in self.entries if e.path == path), None)
+        bench = f" (recorded on {entry.bench})" if entry is not None and entry.bench else ""
+        self.app.say(f"{shown(path)} is not on this machine{bench}: the archive indexes it, the run file is "
+                     "where it was recorded.", severity="warning")
+        return False
+
     def action_open_run(self) -> None:
         entry = self.selected()
         if entry is None:
-            self.app.say("No runs in this folder.")
+            self.app.say("No runs listed." if self.from_database else "No runs in this folder.")
+            return
+        if not self.here(entry.path):
             return
         self.app.state.findings = None
         self.app.state.model = "auto"  # every run opens on the automatic choice
@@ -191,7 +319,7 @@ class ArchiveView(View):
 
     def action_replay(self) -> None:
         entry = self.selected()
-        if entry is not None:
+        if entry is not None and self.here(entry.path):
             self.app.say(f"Replaying {entry.path.name} at {speed_text(self.app.state.replay_speed)} …")
             self.app.start_replay(entry.path)
 
@@ -223,11 +351,15 @@ class ArchiveView(View):
         if len(self.marks) < 2 or self.marks["a"] == self.marks["b"]:
             self.app.say("Mark two runs first: a on one, b on another, then v.")
             return
+        if not (self.here(self.marks["a"]) and self.here(self.marks["b"])):
+            return
         self.app.push_screen(OverlayScreen(self.marks["a"], self.marks["b"]))
 
     def action_compare(self) -> None:
         if len(self.marks) < 2:
             self.app.say("Mark two runs first: a on one, b on another, then c.")
+            return
+        if not (self.here(self.marks["a"]) and self.here(self.marks["b"])):
             return
         from .compare import CompareScreen
 
@@ -235,7 +367,7 @@ class ArchiveView(View):
 
     def action_refit_model(self) -> None:
         entry = self.selected()
-        if entry is not None:
+        if entry is not None and self.here(entry.path):
             model = self.app.next_model()
             self.app.say(f"Re-fitting {entry.path.name} with the {model} model …")
             self.app.analyse(entry.path, model=model, spec=self.spec_for(entry))
@@ -243,7 +375,7 @@ class ArchiveView(View):
 
     def action_refit_spec(self) -> None:
         entry = self.selected()
-        if entry is None:
+        if entry is None or not self.here(entry.path):
             return
         spec = self.app.next_spec(kind=entry.kind, current=self.spec_for(entry))
         if spec is None:
@@ -256,6 +388,90 @@ class ArchiveView(View):
 
     def action_rescan(self) -> None:
         self.rescan()
+
+    # -- filter, history, trend, summary ------------------------------------------------
+    def action_filter(self) -> None:
+        """/: the filter field; Enter applies what was typed, Esc leaves it unchanged."""
+        field = self.query_one("#archive-filter", Input)
+        field.value = filter_text(self.filter)
+        field.display = True
+        field.focus()
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        if event.input.id != "archive-filter":
+            return
+        try:
+            flt = parse_filter(event.value)
+        except BadInput as exc:
+            self.app.say(f"Filter not applied: {exc.line()}", severity="warning")
+            return
+        self._close_filter()
+        self.filter = flt
+        typed = filter_text(flt)
+        self.app.say(f"Filter: {typed}." if typed else "Filter cleared: every run.")
+        if self.from_database:
+            self._query_archive(flt)
+        else:
+            self._apply_filter()
+
+    def on_key(self, event) -> None:
+        field = self.query_one("#archive-filter", Input)
+        if event.key == "escape" and field.has_focus:
+            event.stop()
+            self._close_filter()
+
+    def _close_filter(self) -> None:
+        field = self.query_one("#archive-filter", Input)
+        field.display = False
+        self.query_one("#runs", DataTable).focus()
+
+    def action_history(self) -> None:
+        """h: every measurement of the selected run's serial (from the archive; in a folder, the filter)."""
+        entry = self.selected()
+        if entry is None or not entry.serial:
+            self.app.say("Select a run with a serial first: history follows one part by its serial.")
+            return
+        if not self.from_database:
+            self.filter = RunFilter(serial=entry.serial)
+            self._apply_filter()
+            self.app.say(f"Runs of serial {entry.serial} in this folder (filter serial:{entry.serial}; "
+                         "/ then Enter on an empty field shows every run).")
+            return
+        from .history import HistoryScreen
+
+        self.app.push_screen(HistoryScreen(entry.serial))
+
+    def action_trend(self) -> None:
+        """t: the control chart of a fitted quantity over the runs the filter selects (archive only)."""
+        if not self.from_database:
+            self.app.say("The trend chart reads the lab archive: start with --db URL (or set BENCHLOG_DB, or name "
+                         "one in the bench file's [archive]).", severity="warning")
+            return
+        from .trend import TrendScreen
+
+        self.app.push_screen(TrendScreen(self.filter))
+
+    def action_summary(self) -> None:
+        """w: one row per run (the summary's CSV, and xlsx when openpyxl is there) of the marked runs, or of
+        every listed run when none is marked."""
+        marked = [p for _, p in sorted(self.marks.items())]
+        by_path = {e.path: e for e in self.entries}
+        paths = marked or [e.path for e in self.entries]
+        if not paths:
+            self.app.say("No runs listed: nothing to sum up.")
+            return
+        missing = [p for p in paths if not p.is_file()]
+        if missing:
+            self.app.say(f"Summary not written: {len(missing)} of {len(paths)} run files are not on this machine, "
+                         f"{shown(missing[0])} the first.", severity="warning")
+            return
+        specs = [self._own_spec(by_path.get(p) or RunEntry(p, "", "", "", "", "")) for p in paths]
+        which = "marked" if marked else "listed"
+        self.app.say(f"Writing the summary of {len(paths)} {which} run(s) …")
+        from ..summary_export import export_summary
+
+        self.run_worker(lambda: export_summary(self.app, paths, specs, which), thread=True, exclusive=True,
+                        group="summary")
 
 
 class OverlayScreen(Screen):

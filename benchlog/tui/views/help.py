@@ -34,7 +34,7 @@ class HelpView(View):
         for name, view in self.app.MODES.items():  # the app's views, in their key order
             if name == "help":
                 continue
-            keys = [b for b in view.BINDINGS if getattr(b, "show", True)]
+            keys = [b for b in view.BINDINGS if b.description]  # also the keys a view names elsewhere than its bar
             lines.append(f"\n{view.TITLE_TEXT}:")
             for binding in keys:
                 lines.append(f"  {self.app.get_key_display(binding):>6}  {binding.description}")

@@ -26,6 +26,7 @@ class LotView(View):
         Binding("n", "focus_serial", "Next serial"),
         Binding("r", "remeasure", "Re-measure part"),
         Binding("x", "remove", "Remove part"),
+        Binding("w", "summary", "Summary"),
         Binding("escape", "leave_field", "Leave field", show=False),
     ]
 
@@ -71,6 +72,19 @@ class LotView(View):
         serial = self._selected_serial()
         if serial is not None:
             self.app.remove_lot_part(serial)
+
+    def action_summary(self) -> None:
+        """w: one row per part of the lot (its current run), judged against the lot's spec, as .csv and .xlsx."""
+        paths = [e.run_path for e in self.app.state.lot if e.run_path is not None and e.run_path.is_file()]
+        if not paths:
+            self.app.say("No part of the lot has a run yet: nothing to sum up.")
+            return
+        from ..summary_export import export_summary
+
+        spec = self.app.state.spec_path
+        self.app.say(f"Writing the summary of the lot's {len(paths)} run(s) …")
+        self.run_worker(lambda: export_summary(self.app, paths, [spec] * len(paths), "lot"), thread=True,
+                        exclusive=True, group="summary")
 
     def refresh_view(self) -> None:
         super().refresh_view()
