@@ -22,7 +22,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 #: Datasheet keys every part spec may carry, whatever its kind.
-SPEC_COMMON_KEYS = ("name", "kind", "note", "rth_ja_k_per_w", "tj_max_c", "zth_t_s", "zth_k_per_w")
+SPEC_COMMON_KEYS = ("name", "kind", "note", "rth_ja_k_per_w", "tj_max_c", "zth_t_s", "zth_k_per_w", "zth_u_pct",
+                    "rth_jc_k_per_w")
 
 #: Datasheet keys by spec family (each ends in its SI unit; see analysis/spec.py for their meaning).
 SPEC_FAMILY_KEYS: dict[str, tuple[str, ...]] = {

@@ -124,19 +124,30 @@ def engineering(value: float | None, unit: str = "", digits: int = 4, trim: bool
     return f"{text} {symbol}{unit}".strip()
 
 
-def measured(value: float | None, expanded_u: float | None, unit: str = "", k: float | None = 2.0) -> str:
-    """`10.514 ± 0.012 mΩ (k = 2)`: the GUM 7.2.4 form with the coverage factor stated.
+def coverage_text(k: float, coverage: float | None = None) -> str:
+    """`k = 1.73, 95.45 % coverage` (GUM 7.2.4: U is stated with k and the coverage probability p it is for);
+    without p, `k = 2` alone (a factor chosen, not derived from a distribution)."""
+    if coverage is None:
+        return f"k = {k:g}"
+    return f"k = {k:.2f}, {coverage * 100:g} % coverage"
 
-    Without a known uncertainty the value is written alone with "(no uncertainty)";
-    when U exceeds |value| the text ends "— not determined". `k=None` leaves the
-    coverage factor out, for a table whose heading states it.
+
+def measured(value: float | None, expanded_u: float | None, unit: str = "", k: float | None = 2.0,
+             coverage: float | None = None) -> str:
+    """`10.514 ± 0.012 mΩ (k = 1.73, 95.45 % coverage)`: the GUM 7.2.4 form with the coverage factor stated.
+
+    `coverage` is the coverage probability U was expanded for (k then is k_p of that p); without it
+    the factor is written alone, `(k = 2)`. Without a known uncertainty the value is written alone
+    with "(no uncertainty)"; when U exceeds |value| the text ends "— not determined". `k=None` leaves
+    the coverage factor out, for a table whose heading states it.
     """
     if not _finite(value):
         return "—"
     if not _finite(expanded_u) or float(expanded_u) <= 0.0:
         return f"{engineering(value, unit)} (no uncertainty)"
     r = round_together(float(value), float(expanded_u), unit)
-    text = f"{r.value} ± {r.uncertainty} {r.unit_text}".rstrip() + (f" (k = {k:g})" if k is not None else "")
+    text = f"{r.value} ± {r.uncertainty} {r.unit_text}".rstrip() + (
+        f" ({coverage_text(k, coverage)})" if k is not None else "")
     return text if r.determined else f"{text} — {NOT_DETERMINED}"
 
 

@@ -47,11 +47,21 @@ def spec_from_table(t: Table, path: str = "") -> PartSpec:
             raise t.fail("zth_t_s", "is not strictly rising", "pulse lengths in rising order")
         if any(b < a for a, b in zip(zth, zth[1:])):
             raise t.fail("zth_k_per_w", "falls with a longer pulse", "a thermal impedance that rises with time")
+    zth_u = t.number("zth_u_pct", None, min=0.0, max=100.0, unit="%")
+    if zth_u is not None and zth is None:
+        raise t.fail("zth_u_pct", "is given without a Zth curve", "zth_t_s and zth_k_per_w beside it")
+    rth_jc = t.number("rth_jc_k_per_w", None, positive=True, unit="K/W")
+    rth_ja = t.number("rth_ja_k_per_w", None, positive=True, unit="K/W")
+    if rth_jc is not None and rth_ja is not None and rth_jc >= rth_ja:
+        raise t.fail("rth_jc_k_per_w", f"is {rth_jc:g} K/W, not below rth_ja_k_per_w {rth_ja:g} K/W",
+                     "junction to case less than junction to ambient (the case lies between)")
     thermal = Thermal(
-        rth_ja_k_per_w=t.number("rth_ja_k_per_w", None, positive=True, unit="K/W"),
+        rth_ja_k_per_w=rth_ja,
         tj_max_c=t.number("tj_max_c", None, min=-55.0, max=400.0, unit="°C"),
         zth_t_s=None if zth_t is None else tuple(zth_t),
         zth_k_per_w=None if zth is None else tuple(zth),
+        zth_u_pct=zth_u,
+        rth_jc_k_per_w=rth_jc,
     )
     part = _PART_READERS[family](t)
     return PartSpec(name=name, kind=kind, thermal=thermal, part=part, note=t.string("note", ""), path=path)

@@ -127,24 +127,7 @@ SAMPLES: tuple[SampleRun, ...] = (
 ) + _lot()
 
 
-# -- the bench clock ------------------------------------------------------------------------------
-
-
-class BenchClock:
-    """Time shared by the runner and the simulated bench; it moves only when the runner sleeps."""
-
-    def __init__(self) -> None:
-        self.now_s = 0.0
-        self.rig: Any = None
-
-    def __call__(self) -> float:
-        return self.now_s
-
-    def sleep(self, seconds: float) -> None:
-        if self.rig is not None:
-            for role in self.rig.roles():
-                role.transport.query("*OPC?")  # every setting sent so far is now in the circuit
-        self.now_s += max(0.0, float(seconds))
+# -- the bench clock: benchlog.cli.simbench.BenchClock, shared with the heat-soak tests ------------
 
 
 class _KillAfter:
@@ -195,15 +178,9 @@ def record(sample: SampleRun, out_dir: str | Path, *, port: int = DEFAULT_PORT, 
 
 
 def _record_here(sample: SampleRun, path: Path, port: int, kill_after: int | None) -> None:
-    from benchlog.runs.writer import RunWriter
     from benchlog.sim.config import SimConfig
-    from benchlog.sim.server import serve_bench
-    from benchlog.sweep.bench_file import BenchSetup, RoleSpec
-    from benchlog.sweep.feasibility import check_plan_on_bench, check_plan_on_rig
     from benchlog.sweep.plan import load_plan
-    from benchlog.sweep.rig import open_rig
-    from benchlog.sweep.runner import SweepRunner
-    from benchlog.cli.simbench import SIM_PROFILES, sim_wiring
+    from benchlog.cli.simbench import sim_wiring, sweep_on_bench_clock
 
     plan = load_plan(DEMO_PLANS / f"{sample.plan}.toml")
     if sample.serial is not None:
@@ -212,31 +189,13 @@ def _record_here(sample: SampleRun, path: Path, port: int, kill_after: int | Non
     wiring = sim_wiring(plan.element, current_from="meter" if plan.reverse is not None else "supply")
     if sample.input_v is not None:
         wiring = replace(wiring, input_v=sample.input_v)
-    clock = BenchClock()
     config = SimConfig(element=plan.element.kind, seed=sample.seed, ambient_c=plan.element.ambient_c,
                        port=port, element_params=dict(sample.element_params),
                        current_meter=wiring.current_from in ("meter", "shunt"), timing="instant")
-    with serve_bench(config, clock=clock) as running:
-        bench = BenchSetup(
-            roles={name: RoleSpec(role=name, resource=resource, profile=SIM_PROFILES[name])
-                   for name, resource in running.resources.items()},
-            wiring=wiring, line_frequency_hz=config.line_frequency_hz,
-            source="built-in simulated bench", simulated=True,
-        )
-        warnings = check_plan_on_bench(plan, bench)
-        rig = open_rig(bench)
-        try:
-            clock.rig = rig
-            warnings += check_plan_on_rig(plan, rig)
-            runner = SweepRunner(plan, rig, clock=clock, sleep=clock.sleep, warnings=warnings)
-            runner.header = replace(runner.header, started_utc=sample.started_utc, host=HOST,
-                                    run_id=sample_run_id(sample.name))
-            with RunWriter(path) as writer:
-                runner.writer = writer if kill_after is None else _KillAfter(writer, kill_after)
-                runner.run()
-        finally:
-            clock.rig = None
-            rig.close()
+    sweep_on_bench_clock(plan, config, path, wiring=wiring, source="built-in simulated bench",
+                         check_feasibility=True,
+                         header={"started_utc": sample.started_utc, "host": HOST, "run_id": sample_run_id(sample.name)},
+                         wrap_writer=None if kill_after is None else (lambda w: _KillAfter(w, kill_after)))
 
 
 def _record_in_killed_child(sample: SampleRun, out_dir: Path, port: int) -> None:

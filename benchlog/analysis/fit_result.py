@@ -18,7 +18,8 @@ from typing import Mapping, Protocol
 
 import numpy as np
 
-from .uncertainty import Budget, Component, MeasurementAccuracy, combine
+from .tempco import TEMPERATURE_SHAPE, TEMPERATURE_TERM
+from .uncertainty import COVERAGE_P, Budget, Component, MeasurementAccuracy, combine
 
 #: Outlier rule: the Bonferroni outlier test on externally studentised residuals (Weisberg, "Applied
 #: Linear Regression", 3rd ed., §9.1.3; Cook & Weisberg 1982): a point is flagged when |t_i| exceeds the
@@ -127,7 +128,6 @@ class FitResult:
     dof: int  # points − parameters: the ν of every type A term
     accuracy: MeasurementAccuracy | None = None
     offset_removed: bool = False  # the zero-current offset was subtracted, so o_V has cancelled
-    k: float = 2.0
     outlier_rule: str = OUTLIER_RULE
     criterion: dict[str, float] = field(default_factory=dict)  # AICc per candidate, when chosen automatically
     excluded: np.ndarray | None = None  # zero weight: unresolved points, and outliers when asked to refit without
@@ -140,6 +140,17 @@ class FitResult:
     # each type B error's shift of the fitted parameters (the data's shift projected through the fit,
     # GUM 5.1.3 to first order): the fit's own response to it, used for the drop at a current
     b_shifts: tuple[tuple[str, np.ndarray], ...] | None = None
+
+    @property
+    def k(self) -> float:
+        """The coverage factor of the headline (first) parameter's U, for one caption; each parameter's own
+        k_p is `budgets[key].k` (GUM 6.3: k_p of that quantity's combined distribution)."""
+        return float(next(iter(self.budgets.values())).k) if self.budgets else 2.0
+
+    @property
+    def coverage_probability(self) -> float:
+        """The coverage probability every U of this fit is stated for."""
+        return float(next(iter(self.budgets.values())).coverage_probability) if self.budgets else COVERAGE_P
 
     @property
     def points(self) -> int:
@@ -174,8 +185,14 @@ class FitResult:
         if self.tj is not None and self.drop_tempco is not None:
             how, tc = self.drop_tempco
             sens = abs(value * tc) if how == "relative" else abs(tc)
-            comps.append(Component("junction temperature", "B", sens * self.tj.u_c))
-        return combine(comps, self.k)
+            comps.append(Component(TEMPERATURE_TERM, "B", sens * self.tj.u_c, shape=TEMPERATURE_SHAPE))
+        return combine(comps)
+
+    def drop_expanded_at(self, current_a: float) -> tuple[float, float, float]:
+        """(drop_v, expanded U, k_p) of the element at `current_a`: U from the drop's own budget (GUM 6.3)."""
+        value = float(self.curve.value(np.array([float(current_a)]))[0])
+        b = self.drop_budget_at(current_a)
+        return value, b.expanded_u, b.k
 
     def drop_at(self, current_a: float) -> tuple[float, float]:
         """(drop_v, standard uncertainty) of the element at `current_a`."""

@@ -160,7 +160,7 @@ def with_temperature_term(fit: FitResult, frame, meta) -> FitResult:
     from dataclasses import replace
 
     from .fit_result import budgets_to_dicts
-    from .tempco import TEMPERATURE_TERM, default_sensitivity
+    from .tempco import TEMPERATURE_SHAPE, TEMPERATURE_TERM, default_sensitivity
     from .junction import ambient_u, junction_temperature, sweep_heating
     from .uncertainty import combine
 
@@ -194,8 +194,8 @@ def with_temperature_term(fit: FitResult, frame, meta) -> FitResult:
         else:
             continue
         comps = [c for c in b.components if c.name != TEMPERATURE_TERM]
-        comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c))
-        budgets[key] = combine(comps, b.k)
+        comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c, shape=TEMPERATURE_SHAPE))
+        budgets[key] = combine(comps, b.coverage_probability)
     std_u, expanded = budgets_to_dicts(budgets)
     note = f"junction temperature: {tj.text()}; temperature coefficient: {why}"
     return replace(fit, budgets=budgets, std_u=std_u, expanded_u=expanded, tj=tj, drop_tempco=drop_tempco,

@@ -53,7 +53,7 @@ class InputSeries:
     points: int
     conduction: str  # "channel" | "body_diode"
     r_on_ohm: float | None  # fitted while the channel conducts
-    r_on_u_ohm: float | None  # expanded uncertainty (k = 2)
+    r_on_u_ohm: float | None  # expanded uncertainty (k_p of its budget, 95.45 % coverage)
     drop_v: float | None  # at the operating current
     loss_w: float | None  # at the operating current
     vgs_v: float | None  # |Vgs| = Vin − drop at the operating current

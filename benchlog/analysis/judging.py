@@ -35,7 +35,7 @@ import numpy as np
 from benchlog.quantity import engineering
 
 from .case_temperature import measured_case_temperature
-from .junction import JunctionTemperature, ambient_u, junction_temperature, sweep_heating
+from .junction import JunctionTemperature, ambient_u, junction_above_case, junction_temperature, sweep_heating
 from .predict import OperatingPoint, channel_model, predict
 from .reverse import judge_reverse
 
@@ -54,7 +54,7 @@ from .verdict import (
     run_state,
 )
 from .columns import column
-from .tempco import TEMPERATURE_TERM, default_sensitivity  # noqa: F401 - one name for the budget term
+from .tempco import TEMPERATURE_SHAPE, TEMPERATURE_TERM, default_sensitivity  # noqa: F401 - one name for the budget term
 
 #: A test |Vgs| within 2 % of a datasheet point counts as that point (a gate supply's setting and
 #: the drop across the element move it by about that much; ours).
@@ -62,6 +62,7 @@ GATE_MATCH_FRACTION = 0.02
 
 TRANSLATION_TERM = "gate-drive translation of the limit"
 OFFSET_NOISE_TERM = "zero-offset reading noise"
+FIT_RESIDUALS_TERM = "fit residuals"
 
 
 def is_channel(spec: PartSpec, body_diode: bool) -> bool:
@@ -274,13 +275,23 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
     steady = None
     if spec.thermal.rth_ja_k_per_w is not None and fit.current_a.size:
         steady = float(np.max(np.abs(fit.current_a * fit.drop_v))) * spec.thermal.rth_ja_k_per_w
-    zth_rise = None
+    zth_rise = zth_timing_u = scatter_ratio = None
     if spec.thermal.zth_t_s is not None and measured is None:
-        zth_rise = _zth_rise(fit, data, meta, spec, value if channel else None, alpha if channel else tc,
-                             None if channel else grad)
+        found = _zth_rise(fit, data, meta, spec, value if channel else None, alpha if channel else tc,
+                          None if channel else grad)
+        if found is not None:
+            zth_rise, zth_timing_u, scatter_ratio = found
+    case_rise = None
+    if case is not None:
+        i_pts, v_pts = column(data, "current_a"), column(data, "drop_v")
+        if i_pts is not None and v_pts is not None:
+            read = np.isfinite(case.values_c)
+            case_rise = junction_above_case((i_pts * v_pts)[read], spec.thermal.rth_jc_k_per_w,
+                                            spec.thermal.rth_ja_k_per_w, _pulse_zth(data, meta, spec, read))
     tj = junction_temperature(cond.ambient_c, u_amb, amb_why, heating, measured, steady, zth_rise,
                               sensor_u_c=case.u_c if case is not None else None,
-                              sensor_why=case.describe() if case is not None else "")
+                              sensor_why=case.describe() if case is not None else "",
+                              zth_u_pct=spec.thermal.zth_u_pct, zth_timing_u_c=zth_timing_u, case_rise=case_rise)
     if tj.source == "inferred":
         notes.append(f"heating inside the sweep: the fitted value stands at Tj {tj.value_c:.2f} °C, "
                      f"{tj.value_c - cond.ambient_c:.3g} K above the ambient; the limit is taken there")
@@ -290,10 +301,16 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
     else:
         sens = abs(tc)
     comps = [c for c in base.components if c.name != TEMPERATURE_TERM]
-    comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c))
+    if tj.source == "inferred" and zth_rise is not None and scatter_ratio is not None:
+        # the heating the judged value is corrected for is taken out of the type A scatter (GUM 3.2.3)
+        comps = [replace(c, u=c.u * scatter_ratio) if c.name == FIT_RESIDUALS_TERM else c for c in comps]
+        if abs(scatter_ratio - 1.0) > 0.05:
+            notes.append(f"the fit's residual scatter with the Zth heating taken out is {scatter_ratio:.2f} of its "
+                         "own; the type A term uses that")
+    comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c, shape=TEMPERATURE_SHAPE))
     if not channel and fit.offset_removed:
         comps.append(Component(OFFSET_NOISE_TERM, "A", _reading_sd(fit), float(fit.dof)))
-    budget = combine(comps, fit.k)
+    budget = combine(comps)
 
     gate = None
     bars: list[str] = []
@@ -322,16 +339,18 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
                          f"|Vgs| {gate.spec_vgs_v:g} V")
     if not spec.has_max:
         notes.append("the spec gives no maximum: judged against the typical value")
-    decision = combine(decision_comps, fit.k)
-    k = float(fit.k)
+    decision = combine(decision_comps)
+    k = float(decision.k)  # the guard band U = k_p·u of the comparison's own distribution (ILAC-G8)
+    p = decision.coverage_probability
     if limit is None:
-        v = Verdict("conditional", rule_text("upper", k), quantity, value, decision.expanded_u, k, None, "upper",
-                    f"no limit at the conditions ({limit_at})")
+        v = Verdict("conditional", rule_text("upper", k, p), quantity, value, decision.expanded_u, k, None, "upper",
+                    f"no limit at the conditions ({limit_at})", coverage_probability=p)
     else:
-        v = decide(value, decision.expanded_u, limit, k=k, quantity=quantity, limit_source=limit_at)
+        v = decide(value, decision.expanded_u, limit, k=k, quantity=quantity, limit_source=limit_at,
+                   coverage_probability=p)
         if limit_min is not None:
             low = decide(value, decision.expanded_u, limit_min, side="lower", k=k, quantity=quantity,
-                         limit_source=limit_at)
+                         limit_source=limit_at, coverage_probability=p)
             v = _worse(v, low)
     ext = extrapolation(fit, i_op)
     v = _with_bars(_extrapolated(v, ext), bars)
@@ -339,9 +358,18 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
                      limit_at, v, tuple(bars), ext, tuple(notes))
 
 
-def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> float | None:
-    """The rise the fitted value stands at, from every recorded point's power through the spec's Zth."""
-    from .junction import projected_rise, rise_at_points, zth_at
+def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> tuple[float, float, float | None] | None:
+    """The rise the fitted value stands at, from every recorded point's power through the spec's Zth, its
+    standard uncertainty from the pulses' unknown on-times, and the residual scatter's ratio once that
+    heating is taken out (`junction.scatter_without_heating`).
+
+    A run file knows each point's time stamp, not when the current came on. Each pulse lasted at most
+    from the previous stamp plus the cool-down (`off_s`) to its own stamp, at least the settle dwell
+    plus the readings (the current must be on for those); the command round trips in between fall
+    somewhere. The rise is taken as the mean of the two ends, with the rectangular u of half their
+    difference (GUM 4.3.7; the full range over √12).
+    """
+    from .junction import projected_rise, rise_at_points, scatter_without_heating, zth_at
 
     t, i, v = column(data, "t_s"), column(data, "current_a"), column(data, "drop_v")
     if t is None or i is None or v is None:
@@ -353,20 +381,65 @@ def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> float |
     plan = meta.header.plan
     cool = plan.table.get("cooldown") if plan is not None else None
     off_s = cool.get("off_s") if hasattr(cool, "get") and isinstance(cool.get("off_s"), (int, float)) else 0.0
-    rise_all = np.zeros(t.size)
-    rise_all[ok] = rise_at_points(t[ok], np.where(np.isfinite(i * v), i * v, 0.0)[ok],
-                                  lambda lag: zth_at(th.zth_t_s, th.zth_k_per_w, th.rth_ja_k_per_w, lag),
-                                  float(off_s or 0.0))
+    settle_rule = plan.table.get("settle") if plan is not None else None
+    dwell = settle_rule.get("dwell_s") if hasattr(settle_rule, "get") else None
+    dwell = float(dwell) if isinstance(dwell, (int, float)) and not isinstance(dwell, bool) else 0.0
+    lag = reading_lag_s(meta.header)
+    power = np.where(np.isfinite(i * v), i * v, 0.0)[ok]
+    zth = lambda s: zth_at(th.zth_t_s, th.zth_k_per_w, th.rth_ja_k_per_w, s)  # noqa: E731
+    longest = np.zeros(t.size)
+    longest[ok] = rise_at_points(t[ok], power, zth, float(off_s or 0.0), lag)
+    shortest = np.zeros(t.size)
+    shortest[ok] = rise_at_points(t[ok], power, zth, float(off_s or 0.0), lag, on_s=dwell + 2.0 * lag)
     index = column(data, "index")
     index = index.astype(np.int64) if index is not None else np.arange(t.size)
     pos = np.searchsorted(index, fit.point_index)  # a run's index increases strictly (runs/format.py)
     if pos.size == 0 or pos.max() >= index.size or not np.array_equal(index[pos], fit.point_index):
         return None
-    rise = rise_all[pos]
     if r_value is not None:  # a resistance: s_i = R·α·I_i, Q = R
-        return projected_rise(fit, rise, lambda ii, vv: r_value * tempco * ii, np.array([0.0, 1.0]),
-                              r_value * tempco)
-    return projected_rise(fit, rise, lambda ii, vv: np.full_like(ii, tempco), grad, tempco)
+        sens, q_grad, dq_dt = (lambda ii, vv: r_value * tempco * ii), np.array([0.0, 1.0]), r_value * tempco
+    else:
+        sens, q_grad, dq_dt = (lambda ii, vv: np.full_like(ii, tempco)), grad, tempco
+    hi = projected_rise(fit, longest[pos], sens, q_grad, dq_dt)
+    lo = projected_rise(fit, shortest[pos], sens, q_grad, dq_dt)
+    rise = 0.5 * (longest[pos] + shortest[pos])
+    return 0.5 * (hi + lo), abs(hi - lo) / math.sqrt(12.0), scatter_without_heating(fit, rise, sens)
+
+
+def _pulse_zth(data, meta, spec: PartSpec, rows) -> np.ndarray | None:
+    """Zth of each point's pulse, at its longest (from the previous stamp plus the cool-down), for `rows`."""
+    th = spec.thermal
+    t = column(data, "t_s")
+    if th.zth_t_s is None or t is None or t.size < 2:
+        return None
+    from .junction import zth_at
+
+    plan = meta.header.plan
+    cool = plan.table.get("cooldown") if plan is not None else None
+    off_s = cool.get("off_s") if hasattr(cool, "get") and isinstance(cool.get("off_s"), (int, float)) else 0.0
+    on = np.empty_like(t)
+    on[1:] = t[1:] - t[:-1] - float(off_s or 0.0)
+    on[0] = on[1]
+    on = np.where(np.isfinite(on) & (on > 0), on, np.inf)  # unknown: no tighter than RθJC
+    return zth_at(th.zth_t_s, th.zth_k_per_w, th.rth_ja_k_per_w, np.where(np.isfinite(on), on, 1e9))[rows]
+
+
+def reading_lag_s(header) -> float:
+    """How long before its time stamp a point's drop was read, on average: the recorded drop is the
+    mean of the settle rule's last `consecutive` readings, each `samples` integrations of NPLC/f_line
+    (NPLC: integration time in power-line cycles), so its centre lies half of those windows before
+    the last reading ended. 0 when the run does not say; the read-back query after the readings adds
+    a few ms more, left inside the Zth rise's u."""
+    m = header.meter
+    f = header.line_frequency_hz
+    if m is None or m.nplc is None or not f or not math.isfinite(m.nplc) or m.nplc <= 0:
+        return 0.0
+    plan = header.plan
+    rule = plan.table.get("settle") if plan is not None else None
+    consecutive = rule.get("consecutive") if hasattr(rule, "get") else None
+    consecutive = consecutive if isinstance(consecutive, int) and not isinstance(consecutive, bool) \
+        and consecutive >= 1 else 1
+    return 0.5 * consecutive * (m.samples or 1) * m.nplc / float(f)
 
 
 def _worse(upper: Verdict, lower: Verdict) -> Verdict:
@@ -429,7 +502,7 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
     s = j.scale()
     drop, u_drop = j.drop_v, j.std_u * s
     loss, u_loss = drop * i, u_drop * i
-    k = float(fit.k)
+    k = float(j.budget.k)  # the measurement's own k_p (the verdict's is the comparison's, j.decision_budget.k)
 
     def scaled(v: Verdict, factor: float, quantity: str) -> Verdict:
         return replace(v, quantity=quantity, measured=v.measured * factor, expanded_u=v.expanded_u * factor,
@@ -446,6 +519,7 @@ def check_run(frame, meta, spec: PartSpec, at_a: float | None = None) -> Check:
         part=spec.name, run=str(meta.path), current_a=i,
         current_source=cond.current_source, ambient_c=cond.ambient_c, model=fit.model,
         measured_drop_v=drop, drop_std_u_v=u_drop, measured_loss_w=loss, loss_std_u_w=u_loss, k=k,
+        coverage_probability=j.budget.coverage_probability,
         predicted=heated, unheated=cold, verdict=scaled(j.verdict, s * i, "loss_w"),
         drop_verdict=scaled(j.verdict, s, "drop_v"),
         typical_comparison=typical_comparison(loss, k * u_loss, heated.typical, cold.typical),

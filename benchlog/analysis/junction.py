@@ -11,8 +11,9 @@ Three sources, in order of preference:
     pulses, ΔT(t_k) = Σ_j P_j·(Zth(t_k − s_j) − Zth(t_k − e_j)) (the superposition
     of step responses, common practice for pulse trains; e.g. JESD51-14's use of
     the thermal step response, from memory), and the rise the fitted value stands
-    at by projecting s_i·ΔT_i on the model as below; u is 20 % of that rise
-    (a datasheet's Zth curve is typical, parts differ by about that much, from memory);
+    at by projecting s_i·ΔT_i on the model as below; u is the spec's `zth_u_pct`
+    of that rise, else 20 % (a datasheet's Zth curve is typical, parts differ by
+    about that much, from memory);
   - `inferred` from the sweep's own heating seen in the drop — the residuals of the
     fit regressed on the heating shape s(I)·P (s the drop's temperature
     sensitivity at each point, P = I·V; ΔT = θ·P in the steady state), after
@@ -95,12 +96,17 @@ def zth_at(zth_t_s, zth_k_per_w, rth_ja_k_per_w, t_s: np.ndarray) -> np.ndarray:
     return out
 
 
-def rise_at_points(t_s, power_w, zth, off_s: float = 0.0) -> np.ndarray:
-    """ΔT at each point's reading time by superposing its power pulses through Zth (module docstring).
+def rise_at_points(t_s, power_w, zth, off_s: float = 0.0, lag_s: float = 0.0, on_s: float | None = None) -> np.ndarray:
+    """ΔT at each point's drop reading by superposing its power pulses through Zth (module docstring).
 
-    Point k's power is on from the previous reading plus the plan's cool-down `off_s` (the output
-    is off that long between points; the first: one step interval earlier) up to its own reading;
-    a pulse [s, e] adds P·(Zth(t − s) − Zth(t − e)) at a later time t.
+    Point k's power is on from the previous point's time stamp plus the plan's cool-down `off_s` (the
+    output is off that long between points; the first: one step interval earlier) up to its own time
+    stamp; a pulse [s, e] adds P·(Zth(t − s) − Zth(t − e)) at a later time t, and while on,
+    P·Zth(t − s). The drop is read `lag_s` before the stamp (the middle of the meter's integration
+    window: the point is stamped after the drop reading and the current read-back), so each rise
+    is taken at t_k − lag_s. Early in a short pulse the rise grows about in proportion to the time
+    on, so reading it at the stamp instead overstates it (by 20 % for a 60 ms pulse read 10 ms early).
+    `on_s`, when given, is each pulse's length instead (the current on that long before its stamp).
     """
     t = np.asarray(t_s, dtype=float)
     p = np.nan_to_num(np.asarray(power_w, dtype=float), nan=0.0)
@@ -109,10 +115,13 @@ def rise_at_points(t_s, power_w, zth, off_s: float = 0.0) -> np.ndarray:
     starts = np.empty_like(t)
     starts[1:] = t[:-1] + off_s
     starts[0] = t[0] - (t[1] - t[0] if t.size > 1 else 0.0) + off_s
+    if on_s is not None:
+        starts = np.maximum(starts, t - on_s)
     starts = np.minimum(starts, t)
+    read = t - min(max(lag_s, 0.0), float(np.min(t - starts)) if t.size else 0.0)  # never before its pulse
     on = np.arange(t.size)[None, :] <= np.arange(t.size)[:, None]  # pulses up to the reading
-    since_start = np.where(on, t[:, None] - starts[None, :], 0.0)
-    since_end = np.where(on, t[:, None] - t[None, :], 0.0)  # 0 for the pulse being read
+    since_start = np.where(on, read[:, None] - starts[None, :], 0.0)
+    since_end = np.where(on, np.clip(read[:, None] - t[None, :], 0.0, None), 0.0)  # 0 for the pulse being read
     return ((zth(since_start) - zth(since_end)) * p[None, :] * on).sum(axis=1)
 
 
@@ -130,6 +139,68 @@ def projected_rise(fit, rows_rise: np.ndarray, sensitivity, quantity_gradient, d
         z, basis = z * sw, basis * sw[:, None]
     coef, *_ = np.linalg.lstsq(basis, z, rcond=None)
     return float(np.asarray(quantity_gradient, dtype=float) @ coef) / dq_dt
+
+
+def scatter_without_heating(fit, rows_rise: np.ndarray, sensitivity) -> float | None:
+    """s'/s: the fit's residual scatter once the known heating is taken out of the residuals, over its own.
+
+    Heating inside a sweep bends the drop by s_i·ΔT_i; the part of that bend the model cannot follow
+    (its component orthogonal to the model's directions, as in `projected_rise`) stays in the
+    residuals and would be counted again in the type A term, although the judged value already stands
+    at the Tj that heating reached (GUM 3.2.3: a known systematic effect is corrected, not counted as
+    scatter). The type A term scales with s (GUM H.3: the covariance is s²·(XᵀWX)⁻¹), so it is
+    multiplied by this ratio. None when there is nothing to compare.
+    """
+    keep = ~fit.outliers
+    if fit.excluded is not None:
+        keep = keep & ~fit.excluded
+    i, v = fit.current_a[keep], fit.drop_v[keep]
+    e = np.asarray(fit.residuals_v, dtype=float)[keep]
+    z = np.asarray(sensitivity(i, v), dtype=float) * rows_rise[keep]
+    basis = fit.curve.gradient(i)
+    if fit.weights is not None:
+        sw = np.sqrt(fit.weights[keep])
+        z, basis, e = z * sw, basis * sw[:, None], e * sw
+    coef, *_ = np.linalg.lstsq(basis, z, rcond=None)
+    z_perp = z - basis @ coef
+    sse = float(e @ e)
+    if not sse > 0 or e.size <= basis.shape[1]:
+        return None
+    return math.sqrt(float((e - z_perp) @ (e - z_perp)) / sse)
+
+
+def junction_above_case(power_w, rth_jc_k_per_w: float | None, rth_ja_k_per_w: float | None,
+                        pulse_zth_k_per_w=None) -> tuple[float, float, str] | None:
+    """How far the junction sits above a measured case: (estimate K, standard u K, why), None when unbounded.
+
+    Tj = Tc + P·RθJC in the steady state (the definition of junction-to-case thermal resistance,
+    JESD51 series). A sweep's pulses are mostly shorter than the junction–case time constant, so
+    the junction is above the case by somewhere between 0 and P·RθJC; with no transient data to
+    place it, the difference is taken as rectangular on that interval (GUM 4.3.7): P·RθJC/2 with
+    u = P·RθJC/√12. Without RθJC, RθJA bounds it the same way (the case lies between junction and
+    ambient), more loosely. With the spec's Zth curve, each point's pulse cannot lift the junction
+    above the case by more than P·Zth(pulse length) either (the case only lags the junction), so the
+    bound per point is P_i·min(R, Zth(t_i)) (`pulse_zth_k_per_w`, one per point). The bound used is
+    the mean over the points with a temperature reading.
+    """
+    p = np.abs(np.asarray(power_w, dtype=float))
+    if rth_jc_k_per_w is not None:
+        r, what = float(rth_jc_k_per_w), f"the spec's RθJC {float(rth_jc_k_per_w):g} K/W"
+    elif rth_ja_k_per_w is not None:
+        r, what = float(rth_ja_k_per_w), f"the spec's RθJA {float(rth_ja_k_per_w):g} K/W (no RθJC given)"
+    else:
+        return None
+    per_point = np.full(p.shape, r)
+    if pulse_zth_k_per_w is not None:
+        per_point = np.minimum(per_point, np.asarray(pulse_zth_k_per_w, dtype=float))
+        what += " and Zth of each pulse's length"
+    ok = np.isfinite(p) & np.isfinite(per_point)
+    if not ok.any():
+        return None
+    top = float(np.mean(p[ok] * per_point[ok]))
+    return (top / 2.0, top / math.sqrt(12.0),
+            f"the junction above the case by 0 to {top:.3g} K (P times {what}), taken as {top / 2.0:.3g} K, "
+            f"rectangular")
 
 
 def ambient_u(value: float | None, simulated: bool) -> tuple[float, str]:
@@ -217,6 +288,9 @@ def junction_temperature(
     *,
     sensor_u_c: float | None = None,
     sensor_why: str = "",
+    zth_u_pct: float | None = None,
+    zth_timing_u_c: float | None = None,
+    case_rise: tuple[float, float, str] | None = None,
 ) -> JunctionTemperature:
     """Choose Tj: measured temperatures when recorded, else inferred from the drop, else assumed (module docstring)."""
     if measured_c is not None:
@@ -230,17 +304,26 @@ def junction_temperature(
             u = math.hypot(spread, sensor)
             by = f" by the {sensor_why}" if sensor_why else ""
             stated = "its stated accuracy" if own is not None else "the default for an unstated probe"
-            return JunctionTemperature(float(t.mean()), u, "measured",
+            if case_rise is None:
+                jc, u_jc, jc_why = 0.0, 0.0, ("the case is taken as the junction (no junction-to-case rise added: "
+                                             "the spec gives neither RθJC nor RθJA to bound it)")
+            else:
+                jc, u_jc, jc_why = case_rise
+            return JunctionTemperature(float(t.mean()) + jc, math.hypot(u, u_jc), "measured",
                                        f"mean of {t.size} recorded temperature(s){by}, spread {spread:.2g} K "
-                                       f"and the sensor's {sensor:.2g} K ({stated}); the case is taken as "
-                                       f"the junction (no junction-to-case rise added)")
+                                       f"and the sensor's {sensor:.2g} K ({stated}); {jc_why}")
     if zth_rise_c is not None:
-        u_rise = ZTH_RELATIVE_U * abs(zth_rise_c)
-        u = math.hypot(ambient_u_c, u_rise)
+        stated = zth_u_pct is not None and math.isfinite(zth_u_pct)
+        rel = zth_u_pct / 100.0 if stated else ZTH_RELATIVE_U
+        u_rise = rel * abs(zth_rise_c)
+        timing = zth_timing_u_c if zth_timing_u_c is not None and math.isfinite(zth_timing_u_c) else 0.0
+        u = math.sqrt(ambient_u_c ** 2 + u_rise ** 2 + timing ** 2)
+        whence = "the spec's zth_u_pct" if stated else "a datasheet's typical curve, the default"
+        on_times = f", ± {timing:.2g} K for the pulses' on-times" if timing > 0 else ""
         return JunctionTemperature(ambient_c + zth_rise_c, u, "inferred",
                                    f"ambient {ambient_c:g} °C plus the sweep's own heating {zth_rise_c:.3g} K "
-                                   f"(± {ZTH_RELATIVE_U * 100:g} %) from the recorded power and the spec's "
-                                   f"transient thermal impedance; {ambient_why}")
+                                   f"(u {rel * 100:g} % for the curve, {whence}{on_times}) from the recorded power "
+                                   f"and the spec's transient thermal impedance; {ambient_why}")
     if heating is not None and heating.significant:
         u = math.hypot(ambient_u_c, heating.u_c)
         return JunctionTemperature(ambient_c + heating.rise_c, u, "inferred",

@@ -31,6 +31,7 @@ from benchlog.badinput import BadInput
 from .capability import CAPABILITY_CONFIDENCE, CAPABILITY_MIN, capability_index, capability_with_bound
 from .spec import PartSpec
 from .fits import fit_points  # noqa: F401 - the lot's fit of one run's arrays
+from .reverse import worse
 from .student_t import t_quantile
 from .verdict import RunConditions, decide_many, median_of, rule_text, run_conditions
 
@@ -155,6 +156,7 @@ def summarize(
     notes: Sequence[str] = (),
     outcomes: Sequence[str] | None = None,
     expanded_u: Sequence[float] | None = None,
+    coverage_probability: float | None = None,
 ) -> LotSummary:
     """Summarise one value per part against the spec limits (module docstring).
 
@@ -209,7 +211,8 @@ def summarize(
         usl=usl, lsl=lsl, limit_source=limit_source, capability_name=name, capability=cap,
         capability_lower=capable.lower, capability_confidence=capable.confidence, capability_method=capable.method,
         outlier_rule=outlier_rule_text(r), outliers=int(outliers.sum()), counts=counts, outcome=lot,
-        rule=LOT_RULE, part_rule=rule_text(side, k), parts=parts, notes=tuple(more),
+        rule=LOT_RULE, part_rule=rule_text(side, None if coverage_probability is not None else k, coverage_probability),
+        parts=parts, notes=tuple(more),
     )
 
 
@@ -233,6 +236,14 @@ class PartFit:
     conditions: RunConditions
     judgement: object  # judging.Judgement: the part's verdict at its own Tj and gate drive
     started_utc: str = ""  # with the serial, what tells one recording from another
+    reverse: object = None  # reverse.ReverseVerdict of the run's reverse step, None without one
+
+    @property
+    def outcome(self) -> str:
+        """The part's verdict: the worse of forward and reverse, as `check` gives it (judging.check_run)."""
+        if self.reverse is None:
+            return self.judgement.outcome
+        return worse(self.judgement.outcome, self.reverse.outcome)
 
 
 def lot_model(spec: PartSpec, body_diode: bool = False) -> str:
@@ -247,6 +258,7 @@ def fit_part(points, meta, run: str, spec: PartSpec, at_a: float | None, model: 
     `model` None means this is the first run: the model and the Vf current come from it.
     """
     from .judging import judge
+    from .reverse import judge_reverse
 
     cond = run_conditions(points.current_a, points.supply_v, meta, spec, at_a)
     if model is None:
@@ -257,7 +269,8 @@ def fit_part(points, meta, run: str, spec: PartSpec, at_a: float | None, model: 
     fit = fit_points(points, meta, model)
     j = judge(fit, points, meta, spec, cond)
     serial = meta.header.serial or meta.header.element.id or PurePath(run).stem
-    return PartFit(float(j.value), float(j.std_u), float(fit.k), serial, run, cond, j, meta.header.started_utc)
+    return PartFit(float(j.value), float(j.std_u), float(j.decision_budget.k), serial, run, cond, j,
+                   meta.header.started_utc, judge_reverse(meta.reverse, spec, points, meta))
 
 
 def same_recordings(parts: Sequence[PartFit]) -> list[str]:
@@ -329,6 +342,12 @@ def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
     else:
         notes.append(f"each part's Vf at {cond.current_a:.4g} A from its diode-law fit, as the spec is {kind}; "
                      "not the automatic model choice of benchlog fit")
+    reversed_ = [p for p in parts if p.reverse is not None]
+    if reversed_:
+        failed = [p.serial for p in reversed_ if p.reverse.outcome != "pass"]
+        notes.append(f"{len(reversed_)} part(s) have a reverse step: each such part's verdict is the worse of forward "
+                     f"and reverse, as in check" + (f"; reverse not passed: {', '.join(failed[:5])}"
+                                                    + (" ..." if len(failed) > 5 else "") if failed else ""))
     if twice:
         more = f" (and {len(twice) - 3} more)" if len(twice) > 3 else ""
         notes.append(f"the same recording given twice counts twice in the statistics: {'; '.join(twice[:3])}{more}")
@@ -338,4 +357,5 @@ def lot_summary(parts: Sequence[PartFit], spec: PartSpec) -> LotSummary:
     return summarize([p.value for p in parts], [p.std_u for p in parts], usl=usl, lsl=lsl,
                      k=max(p.k for p in parts), serials=[p.serial for p in parts], runs=[p.run for p in parts],
                      part=spec.name, quantity=quantity, limit_source=source, notes=notes,
-                     outcomes=[j.outcome for j in judged], expanded_u=[j.decision_u for j in judged])
+                     outcomes=[p.outcome for p in parts], expanded_u=[j.decision_u for j in judged],
+                     coverage_probability=judged[0].decision_budget.coverage_probability)

@@ -15,11 +15,12 @@ too; the tighter of the two decides, and the result says which.
 Temperature of the test: the element's case temperature recorded on the points
 (`measured`; with no forward current the junction sits at its case), else the
 run's ambient (`assumed`). Decision rule: ILAC-G8:09/2019 §4.2.2 guard bands on
-both sides. The reading's expanded uncertainty U = 2·a/√3 comes from the reader's
+both sides. The reading's expanded uncertainty U = k_p·a/√3 comes from the reader's
 accuracy on the reverse range (header `accuracy.reverse_current`; a/√3 is GUM
-4.3.7), and the temperature's uncertainty moves the limit: pass needs
-I + U ≤ limit at T − 2u(T); fail needs I − U > limit at T + 2u(T); between them
-the result is conditional. A run recorded before the header kept the reverse
+4.3.7), with k_p of that one rectangular term for 95.45 % coverage (√3·0.9545 =
+1.653, GUM G.1.3; `coverage`), and the temperature's uncertainty (taken as normal:
+k = 2 is its 95.45 %) moves the limit: pass needs I + U ≤ limit at T − 2u(T); fail
+needs I − U > limit at T + 2u(T); between them the result is conditional. A run recorded before the header kept the reverse
 accuracy is judged with U = 0 and says so.
 
 A supply that could not hold the reverse voltage (the runner's `passed` false
@@ -46,7 +47,7 @@ U_ASSUMED_K = 2.0
 K = 2.0
 
 REVERSE_RULE = (f"pass if I + U ≤ limit at T − {K:g}·u(T); fail if I − U > limit at T + {K:g}·u(T) "
-                f"(ILAC-G8:09/2019 guard bands, U = {K:g}·u(I)); otherwise conditional")
+                f"(ILAC-G8:09/2019 guard bands, U = k_p·u(I) for 95.45 % coverage); otherwise conditional")
 
 _RANK = {"pass": 0, "conditional": 1, "fail": 2}
 
@@ -64,7 +65,7 @@ class ReverseVerdict:
     duration_s: float
     current_a: float
     limit_a: float  # at the test's temperature (centre value)
-    expanded_u_a: float | None  # U of the reading (k = 2), None when the run kept no reverse accuracy
+    expanded_u_a: float | None  # U of the reading (95.45 % coverage), None when the run kept no reverse accuracy
     outcome: str
     limit_at: str  # the conditions and source of the limit, in words
     tj_c: float
@@ -170,12 +171,18 @@ def judge_reverse(record, spec: PartSpec | None = None, points=None, meta=None) 
 
 
 def reading_expanded_u_a(meta, current_a: float) -> float | None:
-    """U (k = 2) of the reverse reading from header `accuracy.reverse_current`: 2·a/√3 (GUM 4.3.7); None without it."""
+    """U of the reverse reading from header `accuracy.reverse_current`: k_p·a/√3 (GUM 4.3.7, G.1.3), k_p that of
+    one rectangular term for 95.45 % coverage; None without it."""
+    from .coverage import COVERAGE_P, coverage_factor
+
     accuracy = meta.header.accuracy.reverse_current if meta is not None else None
     if accuracy is None:
         return None
     a = accuracy.half_width(current_a)
-    return K * a / math.sqrt(3.0) if math.isfinite(a) and a >= 0 else None
+    if not (math.isfinite(a) and a >= 0):
+        return None
+    u = a / math.sqrt(3.0)
+    return coverage_factor([("rectangular", u, math.inf)], COVERAGE_P) * u if u > 0 else 0.0
 
 
 def reverse_entry(r: ReverseVerdict | None) -> dict | None:

@@ -48,6 +48,8 @@ class Thermal:
     tj_max_c: float | None = None
     zth_t_s: tuple[float, ...] | None = None  # transient thermal impedance curve: pulse lengths...
     zth_k_per_w: tuple[float, ...] | None = None  # ...and Zth(t) junction to ambient
+    zth_u_pct: float | None = None  # relative standard uncertainty of that curve for this part (None: the default)
+    rth_jc_k_per_w: float | None = None  # junction to case: how far a measured case temperature sits below Tj
 
 
 @dataclass(frozen=True)

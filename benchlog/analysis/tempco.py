@@ -12,6 +12,11 @@ from .spec import DEFAULT_RDS_ON_TEMPCO_PER_K, ResistorSpec
 
 TEMPERATURE_TERM = "junction temperature"
 
+#: How the coverage factor models that term: normal. u(Tj) mixes the ambient (rectangular), a rise from a
+#: typical Zth curve (± 20 %, a judgement) or a regression's standard error (t-like); for a given u the normal
+#: has the wider coverage interval of the two common shapes, so it is the cautious choice (ours).
+TEMPERATURE_SHAPE = "normal"
+
 
 def default_sensitivity(kind: str, model: str, body_diode: bool = False) -> tuple[float, str] | None:
     """A fit without a spec: the kind's common-practice coefficient (relative /K for a line, V/K for a diode)."""

@@ -5,9 +5,13 @@ spec ±(% of reading + % of range), read as a rectangular distribution with
 half-width a, so u = a/√3 (GUM 4.3.7). Uncorrelated components add in
 quadrature (GUM 5.1.2), the effective degrees of freedom follow
 Welch–Satterthwaite (GUM G.4.1, eq. G.2b), and the expanded uncertainty is
-U = k·u_c with k = 2 (GUM 6.2, 6.3.3). The coverage factor from Student's t
-for ν_eff at p = 95.45 % (GUM G.3, table G.2) is reported beside it as
-information: k = 2 is what the issue and common practice ask for.
+U = k_p·u_c for a coverage probability p = 95.45 % (GUM 6.2, 6.3), with k_p the
+coverage factor of the combined distribution of the budget's terms, each as the
+budget models it (`coverage`: type A terms Student t with their ν, type B terms
+from a spec or tolerance rectangular, a term stated normal normal). A fixed k = 2
+gives 95.45 % only when that distribution is normal; one dominant rectangular term
+makes k_p near 1.65 (GUM G.1.3), so k = 2 would cover nearly all of it. The
+Welch–Satterthwaite t factor k_t (GUM G.4, table G.2) stays beside it for information.
 """
 
 from __future__ import annotations
@@ -19,8 +23,7 @@ from typing import Iterable
 # The accuracy type is the leaf `benchlog.accuracy`, shared with profiles and the run header.
 from benchlog.accuracy import SQRT3, Accuracy, MeasurementAccuracy  # noqa: F401 - re-exported
 
-#: Coverage probability that k = 2 stands for with a normal distribution (GUM G.3, table G.2).
-COVERAGE_P = 0.9545
+from .coverage import COVERAGE_P, coverage_factor  # noqa: F401 - COVERAGE_P re-exported
 
 
 def type_b_u(value: float, acc: Accuracy) -> float:
@@ -36,6 +39,16 @@ class Component:
     kind: str  # "A" (statistics of the data) or "B" (other information, e.g. the accuracy spec)
     u: float
     dof: float = math.inf  # a rectangular with well-known limits has ν = ∞ (GUM G.4.2)
+    shape: str = ""  # "rectangular" | "normal" | "t"; "" = by kind: A a t with ν (normal at ν = ∞), B rectangular
+
+    @property
+    def distribution(self) -> str:
+        """How the coverage factor models this term (module docstring)."""
+        if self.shape:
+            return self.shape
+        if self.kind == "A":
+            return "t" if math.isfinite(self.dof) else "normal"
+        return "rectangular"
 
 
 @dataclass(frozen=True)
@@ -45,9 +58,10 @@ class Budget:
     components: tuple[Component, ...]
     u: float
     dof: float
-    k: float
+    k: float  # k_p of the combined distribution for `coverage_probability`
     expanded_u: float
-    k_t: float  # t-based coverage factor for ν_eff at p = 95.45 %, for information
+    k_t: float  # Welch–Satterthwaite t coverage factor for ν_eff at the same p, for information
+    coverage_probability: float = COVERAGE_P
 
     def component(self, name: str) -> Component:
         for item in self.components:
@@ -76,9 +90,10 @@ def t_coverage_factor(dof: float, p: float = COVERAGE_P) -> float:
     return t_quantile(dof if math.isfinite(dof) and dof <= 1e12 else math.inf, 0.5 + p / 2.0)
 
 
-def combine(components: Iterable[Component], k: float = 2.0) -> Budget:
-    """Combine uncorrelated components in quadrature (GUM 5.1.2) and expand with k (GUM 6.2.1)."""
+def combine(components: Iterable[Component], p: float = COVERAGE_P) -> Budget:
+    """Combine uncorrelated components in quadrature (GUM 5.1.2) and expand with k_p for p (GUM 6.2, 6.3)."""
     items = tuple(c for c in components if c.u > 0.0 or c.kind == "A")
     u = math.sqrt(sum(c.u * c.u for c in items))
     dof = welch_satterthwaite((c.u for c in items), (c.dof for c in items))
-    return Budget(items, u, dof, k, k * u, t_coverage_factor(dof))
+    k = coverage_factor(((c.distribution, c.u, c.dof) for c in items), p)
+    return Budget(items, u, dof, k, k * u, t_coverage_factor(dof, p), p)

@@ -2,7 +2,8 @@
 
 Decision rule: ILAC-G8:09/2019 ("Guidelines on decision rules and statements
 of conformity"), simple acceptance with a guard band w = U (section 4.2.2,
-guarded acceptance / guarded rejection), U = k·u with k = 2:
+guarded acceptance / guarded rejection), U = k_p·u with k_p the coverage factor of the
+compared quantity's combined distribution for p = 95.45 % (`uncertainty.combine`, GUM 6.3):
   upper limit L:  pass if x + U ≤ L;  fail if x − U > L;  otherwise conditional;
   lower limit L:  pass if x − U ≥ L;  fail if x + U < L;  otherwise conditional.
 A value exactly on an acceptance limit is accepted; the zone between the
@@ -29,6 +30,7 @@ import numpy as np
 
 from benchlog.ambient import DEFAULT_AMBIENT_C
 from benchlog.badinput import BadInput
+from benchlog.quantity import coverage_text
 
 from .predict import Prediction
 from .reverse import ReverseVerdict, worse
@@ -52,12 +54,17 @@ OUTCOMES = ("pass", "fail", "conditional")
 EXTRAPOLATION_MARGIN = 0.10
 
 
-def rule_text(side: str, k: float) -> str:
+def rule_text(side: str, k: float | None, coverage: float | None = None) -> str:
+    """The guard-band rule in words; `k` None: each value's own k_p (a lot of parts, one budget each)."""
     if side == "upper":
         test = "pass if x + U ≤ limit, fail if x − U > limit, otherwise conditional"
     else:
         test = "pass if x − U ≥ limit, fail if x + U < limit, otherwise conditional"
-    return f"ILAC-G8:09/2019 guard band w = U (U = k·u, k = {k:g}): {test}"
+    if k is None:
+        factor = "U = k_p·u of each part's own budget" + (f", {coverage * 100:g} % coverage" if coverage else "")
+    else:
+        factor = f"U = k·u, {coverage_text(k, coverage)}"
+    return f"ILAC-G8:09/2019 guard band w = U ({factor}): {test}"
 
 
 @dataclass(frozen=True)
@@ -74,6 +81,7 @@ class Verdict:
     side: str  # "upper" | "lower"
     limit_source: str
     caveat: str = ""  # what else decided or qualifies the outcome (e.g. an extrapolated value)
+    coverage_probability: float | None = None  # the p that k is k_p of; None: a k given as a number
 
     def explain(self) -> str:
         caveat = f" {self.caveat}" if self.caveat else ""
@@ -81,7 +89,8 @@ class Verdict:
             return f"{self.outcome}: no limit for {self.quantity} ({self.limit_source}).{caveat}"
         op = "≤" if self.side == "upper" else "≥"
         return (
-            f"{self.outcome}: {self.quantity} = {self.measured:.6g} ± {self.expanded_u:.3g} (k = {self.k:g}) "
+            f"{self.outcome}: {self.quantity} = {self.measured:.6g} ± {self.expanded_u:.3g} "
+            f"({coverage_text(self.k, self.coverage_probability)}) "
             f"against {'maximum' if self.side == 'upper' else 'minimum'} {self.limit:.6g} "
             f"[{self.limit_source}]; needed x {'+' if self.side == 'upper' else '−'} U {op} limit to pass.{caveat} "
             f"Rule: {self.rule}"
@@ -103,6 +112,7 @@ def decide(
     k: float = 2.0,
     quantity: str = "value",
     limit_source: str = "",
+    coverage_probability: float | None = None,
 ) -> Verdict:
     """Apply the guard-band rule (module docstring) to one value."""
     value, expanded_u, limit = _finite("value", value), _finite("expanded_u", expanded_u), _finite("limit", limit)
@@ -111,7 +121,8 @@ def decide(
     if side not in ("upper", "lower"):
         raise BadInput("argument", "side", f"is {side!r}", "'upper' or 'lower'")
     outcome = str(decide_many(np.array([value]), np.array([expanded_u]), limit, side=side)[0])
-    return Verdict(outcome, rule_text(side, k), quantity, value, expanded_u, k, limit, side, limit_source)
+    return Verdict(outcome, rule_text(side, k, coverage_probability), quantity, value, expanded_u, k, limit, side,
+                   limit_source, coverage_probability=coverage_probability)
 
 
 def decide_many(values: np.ndarray, expanded_u: np.ndarray, limit: float, *, side: str = "upper") -> np.ndarray:
@@ -165,6 +176,7 @@ class Check:
     run_outcome: str = "complete"
     judgement: object = None  # judging.Judgement: the one judging path's result (`judging.judge`)
     reverse: "ReverseVerdict | None" = None  # the reverse step judged at the test's temperature (`reverse`)
+    coverage_probability: float | None = None  # the p that `k` is k_p of (None: a k given as a number)
 
     @property
     def outcome(self) -> str:

@@ -14,7 +14,7 @@ import math
 from typing import Any
 
 from benchlog.ambient import DEFAULT_AMBIENT_C
-from benchlog.quantity import engineering, label_of, measured, unit_of
+from benchlog.quantity import coverage_text, engineering, label_of, measured, unit_of
 
 from .output import print_json
 
@@ -147,7 +147,9 @@ def _extrapolation(c) -> dict[str, Any]:
 
 
 def _budget(b) -> list[dict[str, Any]]:
-    return [{"name": x.name, "type": x.kind, "u": x.u, "dof": x.dof} for x in b.components]
+    from .fit_cmd import budget_entries
+
+    return budget_entries(b)
 
 
 def conditions_entry(j) -> dict[str, Any]:
@@ -163,7 +165,9 @@ def conditions_entry(j) -> dict[str, Any]:
             "input_for_spec_vgs_v": g.input_for_spec_v},
         "limit_at": j.limit_at,
         "judged": {"quantity": j.quantity, j.quantity: j.value, "std_u": j.std_u, "expanded_u": j.expanded_u,
-                   "decision_expanded_u": j.decision_u, f"limit_{unit}": j.limit, f"limit_min_{unit}": j.limit_min,
+                   "decision_expanded_u": j.decision_u,
+                   "k": j.budget.k, "decision_k": j.decision_budget.k,
+                   "coverage_probability": j.budget.coverage_probability, f"limit_{unit}": j.limit, f"limit_min_{unit}": j.limit_min,
                    "budget": _budget(j.budget), "decision_budget": _budget(j.decision_budget)},
         "bars": list(j.bars),
     }
@@ -183,7 +187,8 @@ def check_entry(c) -> dict[str, Any]:
         "ambient_c": c.ambient_c, "model": c.model,
         "measured_drop_v": c.measured_drop_v, "measured_loss_w": c.measured_loss_w,
         "std_u": {"measured_drop_v": c.drop_std_u_v, "measured_loss_w": c.loss_std_u_w},
-        "k": c.k,
+        "k": c.k,  # k_p of the measurement's budget; the verdict's guard band uses the comparison's, "decision_k"
+        "coverage_probability": c.coverage_probability,
         "expanded_u": {"measured_drop_v": c.k * c.drop_std_u_v, "measured_loss_w": c.k * c.loss_std_u_w},
         "predicted_loss_w": p.loss_w, "predicted_drop_v": p.drop_v, "predicted_tj_c": p.tj_c,
         "predicted_max_loss_w": p.maximum.loss_w if p.maximum else None,
@@ -235,15 +240,16 @@ def _check(args) -> int:
             if j.gate is not None:
                 print(f"  gate drive: {j.gate.text()}")
             unit = unit_of(j.quantity)
-            print(f"  {label_of(j.quantity)} = {measured(j.value, j.expanded_u, unit, c.k)}"
+            print(f"  {label_of(j.quantity)} = {measured(j.value, j.expanded_u, unit, c.k, c.coverage_probability)}"
                   f" against {engineering(j.limit, unit, 5)} [{j.limit_at}]")
         flagged = [n for n in c.notes if n.startswith(("extrapolated:", "the run is incomplete", "the run ended"))]
         flagged += [n for n in c.notes if c.judgement is not None and n in c.judgement.bars + c.judgement.notes
                     and n not in flagged]
         for note in flagged:  # what qualifies the verdict comes first, not among the notes
             print(f"  ! {note}")
-        print(f"  measured drop {measured(c.measured_drop_v, c.k * c.drop_std_u_v, 'V', c.k)}, "
-              f"loss {measured(c.measured_loss_w, c.k * c.loss_std_u_w, 'W', c.k)}")
+        p = c.coverage_probability
+        print(f"  measured drop {measured(c.measured_drop_v, c.k * c.drop_std_u_v, 'V', c.k, p)}, "
+              f"loss {measured(c.measured_loss_w, c.k * c.loss_std_u_w, 'W', c.k, p)}")
         print(f"  limit {engineering(c.verdict.limit, 'W', 5)}: {c.verdict.limit_source}")
         print(f"  predicted in service (typical, self-heated): {engineering(c.predicted.loss_w, 'W')} "
               f"at Tj {_fmt(c.predicted.tj_c, '.1f', '°C')}")
@@ -302,10 +308,10 @@ def _lot(args) -> int:
     unit = unit_of(s.quantity)
     width = max(6, *(len(p.serial) for p in s.parts))
     print(f"{s.outcome.upper()}  lot of {s.n} × {s.part}: {label_of(s.quantity)} ({s.quantity})")
-    print(f"  {'serial':<{width}}  {'value (k = 2)':<28}  verdict")
+    print(f"  {'serial':<{width}}  {'value ± U (95.45 % coverage)':<28}  verdict")
     for p in s.parts:
         flag = "  OUTLIER" if p.outlier else ""
-        value = measured(p.value, p.expanded_u, unit).removesuffix(" (k = 2)")
+        value = measured(p.value, p.expanded_u, unit, k=None)  # the heading states the coverage
         print(f"  {p.serial:<{width}}  {value:<28}  {p.outcome}{flag}")
     print(f"  mean {engineering(s.mean, unit, 5)}, σ {engineering(s.std, unit, 3)}, "
           f"min {engineering(s.min, unit, 5)}, max {engineering(s.max, unit, 5)}")

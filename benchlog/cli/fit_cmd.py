@@ -32,7 +32,8 @@ def register(sub) -> None:
             "Fit the drop-versus-current points of a run file: V = V0 + R·I (resistive), the Shockley "
             "law with series resistance (diode), or the straight line above the knee (knee). 'auto' "
             "picks resistive or diode by AICc and says why. Uncertainties follow the GUM: type A from "
-            "the fit, type B from the meters' accuracy in the run header; expanded with k = 2."
+            "the fit, type B from the meters' accuracy in the run header; expanded for 95.45 % coverage with "
+            "the coverage factor k_p of the budget's combined distribution (GUM 6.3)."
         ),
     )
     p.add_argument("run", metavar="RUN", help="run file (*.run)")
@@ -59,6 +60,12 @@ def _check_args(args: argparse.Namespace) -> None:
         raise BadInput("argument", "--tempco", f"is {args.tempco!r}", "a finite, non-zero coefficient")
 
 
+def budget_entries(budget) -> list[dict[str, Any]]:
+    """A budget's terms for JSON: name, type A/B, u, ν and the distribution k_p models it by."""
+    return [{"name": c.name, "type": c.kind, "u": c.u, "dof": c.dof, "distribution": c.distribution}
+            for c in budget.components]
+
+
 def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
     """Fit the run and build the JSON-ready result (also what the human output prints from)."""
     from benchlog.analysis.fits import detect_self_heating, fit_knee, fit_run
@@ -75,16 +82,17 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         "model": fit.model,
         "params": dict(fit.params),
         "std_u": dict(fit.std_u),
+        # k: the headline parameter's coverage factor; every parameter's own k_p is in "k_p"
         "k": fit.k,
+        "coverage_probability": fit.coverage_probability,
+        "k_p": {key: b.k for key, b in fit.budgets.items()},
         "expanded_u": dict(fit.expanded_u),
-        "text": {key: measured(v, fit.expanded_u.get(key), _LABELS.get(key, (key, ""))[1], fit.k)
+        "text": {key: measured(v, fit.expanded_u.get(key), _LABELS.get(key, (key, ""))[1], fit.budgets[key].k,
+                               fit.budgets[key].coverage_probability)
                  for key, v in fit.params.items()},
         "dof_eff": {key: b.dof for key, b in fit.budgets.items()},
         "k_t": {key: b.k_t for key, b in fit.budgets.items()},
-        "budget": {
-            key: [{"name": c.name, "type": c.kind, "u": c.u, "dof": c.dof} for c in b.components]
-            for key, b in fit.budgets.items()
-        },
+        "budget": {key: budget_entries(b) for key, b in fit.budgets.items()},
         "reason": fit.reason,
         "criterion_aicc": dict(fit.criterion),
         "outliers": [int(x) for x in fit.point_index[fit.outliers]],
@@ -114,16 +122,18 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
         budget = fit.drop_budget_at(current)
         value, _ = fit.drop_at(current)
         payload["drop_at"].append({"current_a": current, "drop_v": value, "std_u_v": budget.u,
-                                   "expanded_u_v": budget.expanded_u, "loss_w": value * current,
-                                   "budget": [{"name": c.name, "type": c.kind, "u": c.u, "dof": c.dof}
-                                              for c in budget.components],
-                                   "text": measured(value, budget.expanded_u, "V", fit.k)})
+                                   "expanded_u_v": budget.expanded_u, "k": budget.k,
+                                   "coverage_probability": budget.coverage_probability, "loss_w": value * current,
+                                   "budget": budget_entries(budget),
+                                   "text": measured(value, budget.expanded_u, "V", budget.k,
+                                                    budget.coverage_probability)})
     if fit.model == "diode":
         # the straight-line form for the operating range, beside the diode law (issue 4, item 1)
         knee = fit_knee(fit.current_a, fit.drop_v, fit.accuracy, offset_removed=fit.offset_removed,
                         point_index=fit.point_index)
         payload["knee"] = {"params": dict(knee.params), "std_u": dict(knee.std_u),
-                           "expanded_u": dict(knee.expanded_u), "points": knee.points,
+                           "expanded_u": dict(knee.expanded_u), "k_p": {k: b.k for k, b in knee.budgets.items()},
+                           "points": knee.points,
                            "points_used": knee.points_used,
                            "unresolved": [int(x) for x in knee.unresolved_index],
                            "above_a": float(knee.current_a.min())}
@@ -141,9 +151,9 @@ def fit_payload(frame, meta, args: argparse.Namespace) -> dict[str, Any]:
     return payload
 
 
-def _value(key: str, value: float, u: float | None = None, expanded: float | None = None) -> str:
+def _value(key: str, value: float, expanded: float | None, k: float, coverage: float) -> str:
     label, unit = _LABELS.get(key, (key, ""))
-    return f"{label:<7}= {measured(value, expanded, unit)}"
+    return f"{label:<7}= {measured(value, expanded, unit, k, coverage)}"
 
 
 def _in_print_order(params: dict[str, float], first: tuple[str, ...]) -> list[str]:
@@ -163,7 +173,7 @@ def print_human(payload: dict[str, Any]) -> None:
     of = f"{payload['points']} points" + ("" if used == payload["points"] else f" ({used} with weight)")
     print(f"{payload['run']}: {payload['model']} fit of {of}")
     for key, value in payload["params"].items():
-        print("  " + _value(key, value, payload["std_u"][key], payload["expanded_u"][key]))
+        print("  " + _value(key, value, payload["expanded_u"][key], payload["k_p"][key], payload["coverage_probability"]))
     print(f"  model: {payload['reason']}")
     outliers = payload["outliers"]
     print(f"  outliers: {', '.join(map(str, outliers)) if outliers else 'none'} ({payload['outlier_rule']})")
@@ -172,13 +182,15 @@ def print_human(payload: dict[str, Any]) -> None:
     heating = payload["self_heating"]
     print(f"  self-heating: {'yes' if heating['detected'] else 'no'} - {heating['reason']}")
     for row in payload["drop_at"]:
-        print(f"  at {engineering(row['current_a'], 'A')}: drop {measured(row['drop_v'], row['expanded_u_v'], 'V')}, "
-              f"loss {measured(row['loss_w'], row['expanded_u_v'] * row['current_a'], 'W')}")
+        k, p = row["k"], row["coverage_probability"]
+        print(f"  at {engineering(row['current_a'], 'A')}: drop {measured(row['drop_v'], row['expanded_u_v'], 'V', k, p)}, "
+              f"loss {measured(row['loss_w'], row['expanded_u_v'] * row['current_a'], 'W', k, p)}")
     if "knee" in payload:
         knee = payload["knee"]
         print(f"  knee line above {knee['above_a']:.4g} A:")
         for key in _in_print_order(knee["params"], ("v_knee_v", "r_d_ohm")):
-            print("    " + _value(key, knee["params"][key], knee["std_u"][key], knee["expanded_u"][key]))
+            print("    " + _value(key, knee["params"][key], knee["expanded_u"][key], knee["k_p"][key],
+                               payload["coverage_probability"]))
     rev = payload.get("reverse")
     if rev is not None:
         from benchlog.analysis.reverse import reverse_line

@@ -96,3 +96,69 @@ def sweep_on_builtin_bench(plan: Plan, out_dir: str | Path, *, seed: int = 0,
         return run_sweep(plan, bench, out_dir, **run_options)
     finally:
         running.stop()
+
+
+class BenchClock:
+    """Time shared by the runner and the simulated bench; it moves only while the runner waits.
+
+    A minute of thermal time then takes a moment of wall time, and the sim's junction follows
+    exactly the time the runner records: how the sample runs and the heat-soak tests are recorded
+    byte for byte the same.
+    """
+
+    def __init__(self) -> None:
+        self.now_s = 0.0
+        self.rig: Any = None
+
+    def __call__(self) -> float:
+        return self.now_s
+
+    def sleep(self, seconds: float) -> None:
+        if self.rig is not None:
+            for role in self.rig.roles():
+                role.transport.query("*OPC?")  # every setting sent so far is now in the circuit
+        self.now_s += max(0.0, float(seconds))
+
+
+def sweep_on_bench_clock(plan: Plan, config: Any, path: Path, *, wiring: Wiring, source: str = "bench",
+                         sim_settings: dict[str, Any] | None = None, check_feasibility: bool = False,
+                         header: dict[str, Any] | None = None, wrap_writer: Any = None) -> tuple[Any, dict]:
+    """Run `plan` on a simulated bench (`config`, a sim.config.SimConfig) whose clock is the runner's
+    (`BenchClock`), writing `path`; returns (the runner, the sim's truth).
+
+    `header` replaces fields of the run header (fixed start time, host, run id); `wrap_writer(writer)`
+    may wrap the run writer (a test that kills the process part way).
+    """
+    from dataclasses import replace
+
+    from benchlog.runs.writer import RunWriter
+    from benchlog.sim.server import serve_bench
+    from benchlog.sweep.feasibility import check_plan_on_bench, check_plan_on_rig
+    from benchlog.sweep.rig import open_rig
+    from benchlog.sweep.runner import SweepRunner
+
+    clock = BenchClock()
+    with serve_bench(config, clock=clock) as running:
+        bench = BenchSetup(
+            roles={name: RoleSpec(role=name, resource=resource, profile=SIM_PROFILES[name])
+                   for name, resource in running.resources.items()},
+            wiring=wiring, line_frequency_hz=config.line_frequency_hz, source=source, simulated=True,
+            sim_settings=sim_settings,
+        )
+        warnings = check_plan_on_bench(plan, bench) if check_feasibility else []
+        rig = open_rig(bench)
+        try:
+            clock.rig = rig
+            if check_feasibility:
+                warnings += check_plan_on_rig(plan, rig)
+            runner = SweepRunner(plan, rig, clock=clock, sleep=clock.sleep, warnings=warnings)
+            if header:
+                runner.header = replace(runner.header, **header)
+            with RunWriter(path) as writer:
+                runner.writer = writer if wrap_writer is None else wrap_writer(writer)
+                runner.run()
+        finally:
+            clock.rig = None
+            rig.close()
+        truth = running.truth()
+    return runner, truth

@@ -15,7 +15,7 @@ def register(sub) -> None:
         help="one row per run (serial, lot, kind, time, outcome, fitted values ± U, loss, Tj, verdict) as CSV or xlsx",
         description=(
             "Write one row per run: serial, lot, kind, start time, outcome, each fitted value with its expanded "
-            "uncertainty (k = 2), the loss at the plan's operating current and, with --spec, the predicted "
+            "uncertainty (95.45 % coverage), the loss at the plan's operating current and, with --spec, the predicted "
             "junction temperature and the verdict. The format follows the extension of -o: .csv, or .xlsx "
             f"(needs the optional extra: {XLSX_HINT}). An input file is never overwritten."
         ),

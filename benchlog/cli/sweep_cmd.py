@@ -411,7 +411,9 @@ def _analysis_summary(run_file: Path, plan) -> dict[str, Any]:
 
     out["fit"] = {"model": fit.model, "params": dict(fit.params), "std_u": dict(fit.std_u),
                   "expanded_u": dict(fit.expanded_u), "k": fit.k, "reason": fit.reason,
-                  "text": {k: measured(v, fit.expanded_u.get(k), unit_of(k), fit.k) for k, v in fit.params.items()}}
+                  "coverage_probability": fit.coverage_probability,
+                  "text": {k: measured(v, fit.expanded_u.get(k), unit_of(k), fit.budgets[k].k,
+                                       fit.budgets[k].coverage_probability) for k, v in fit.params.items()}}
     spec_path = _demo_spec_for(plan)
     if spec_path is None:
         return out

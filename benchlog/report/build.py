@@ -203,8 +203,9 @@ def _fit_blocks(ra: RunAnalysis) -> list:
         u = fit.std_u.get(key)
         U = fit.expanded_u.get(key)
         rows.append((key, number(value, unit), number(u, unit), number(U, unit),
-                     with_uncertainty(value, U, unit, fit.k)))
-    blocks.append(Table(("parameter", "value", "standard u", f"expanded U (k = {fit.k:g})", "result"),
+                     with_uncertainty(value, U, unit, fit.budgets[key].k, fit.budgets[key].coverage_probability)))
+    blocks.append(Table(("parameter", "value", "standard u",
+                         f"expanded U ({fit.coverage_probability * 100:g} % coverage)", "result"),
                         tuple(rows), caption=f"Fit: {fit.model} model, {fit.points} points, ν = {fit.dof}"))
     blocks.append(Paragraph(f"Model choice: {fit.reason}"))
     if fit.criterion:
@@ -215,11 +216,12 @@ def _fit_blocks(ra: RunAnalysis) -> list:
         f"Outliers: {n_out} of {fit.points} point(s) flagged by the rule '{fit.outlier_rule}'; "
         "flagged points stay in the data and in this report."))
     if ra.operating_current_a is not None:
-        v, u = fit.drop_at(ra.operating_current_a)
+        v, big_u, k = fit.drop_expanded_at(ra.operating_current_a)
         i = ra.operating_current_a
+        p = fit.coverage_probability
         blocks.append(Paragraph(
-            f"At the operating current {number(i, 'A')}: drop {with_uncertainty(v, fit.k * u, 'V', fit.k)}, "
-            f"loss {with_uncertainty(i * v, fit.k * i * u, 'W', fit.k)} (expanded)."))
+            f"At the operating current {number(i, 'A')}: drop {with_uncertainty(v, big_u, 'V', k, p)}, "
+            f"loss {with_uncertainty(i * v, i * big_u, 'W', k, p)} (expanded)."))
     if fit.notes:
         blocks.append(Paragraph("Fit notes: " + "; ".join(fit.notes) + ".", "note"))
     if ra.heating is not None:
@@ -302,7 +304,7 @@ def _figures(ra: RunAnalysis, spec: PartSpec | None) -> list:
         spec_v, spec_w = fa.spec_curves(spec, grid, ambient, cond.vin_v, cond.zener_v)
     corrected = " (zero-current offset subtracted)" if fit is not None and fit.offset_removed else ""
     blocks = [FigureBlock("vi", figures.vi_figure(series, curve, spec_v, title=f"Drop against current: {ra.label}"),
-                          caption=f"Measured drop{corrected} with the fit and its k = 2 band"
+                          caption=f"Measured drop{corrected} with the fit and its 95.45 % coverage band"
                           + (f"; the spec's typical and maximum at ambient {ambient:g} °C with self-heating."
                              if spec is not None else "."))]
     if fit is not None or spec is not None:
@@ -383,8 +385,9 @@ def comparison_section(runs: Sequence[RunAnalysis], with_numbers: bool = True) -
         e = ra.element
         drop = "—"
         if ra.fit is not None and ra.operating_current_a is not None:
-            v, u = ra.fit.drop_at(ra.operating_current_a)
-            drop = f"{with_uncertainty(v, ra.fit.k * u, 'V', ra.fit.k)} at {number(ra.operating_current_a, 'A')}"
+            v, big_u, k = ra.fit.drop_expanded_at(ra.operating_current_a)
+            drop = (f"{with_uncertainty(v, big_u, 'V', k, ra.fit.coverage_probability)} "
+                    f"at {number(ra.operating_current_a, 'A')}")
         outcome = getattr(ra.check, "outcome", None)  # the Check's: the worse of forward and reverse
         rows.append((ra.path.name, e.serial or e.id or "—", e.kind or "—",
                      "complete" if ra.meta.complete else "INCOMPLETE", str(len(ra.frame)),

@@ -91,7 +91,7 @@ def vi_figure(
         _plot_measured(ax, measured, measured.drop_v, style.MEASURED, f"measured ({measured.label})")
     if fit is not None:
         _band(ax, fit.current_a, fit.band_lo_v, fit.band_hi_v,
-              f"fit uncertainty band (k = {fit.k:g})", style.FIT.color)
+              "fit uncertainty band (95.45 % coverage)", style.FIT.color)
         ax.plot(fit.current_a, fit.drop_v, **style.FIT.line_kwargs(), label=plain(f"fit: {fit.label}"))
     if predicted is not None:
         ax.plot(predicted.current_a, predicted.typical, **style.PREDICTED_TYPICAL.line_kwargs(),
@@ -123,7 +123,7 @@ def loss_figure(
     if fit is not None:
         i = fit.current_a
         _band(ax, i, i * fit.band_lo_v, i * fit.band_hi_v,
-              f"fit uncertainty band (k = {fit.k:g})", style.FIT.color)
+              "fit uncertainty band (95.45 % coverage)", style.FIT.color)
         ax.plot(i, i * fit.drop_v, **style.FIT.line_kwargs(), label=plain(f"from fit: {fit.label}"))
     if predicted is not None:
         ax.plot(predicted.current_a, predicted.typical, **style.PREDICTED_TYPICAL.line_kwargs(),

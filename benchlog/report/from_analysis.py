@@ -28,11 +28,13 @@ def current_grid(max_current_a: float, points: int = GRID_POINTS) -> np.ndarray:
 
 
 def fit_label(fit: FitResult) -> str:
-    """The headline parameter of a fit, e.g. "resistive, r_on_ohm = 0.02612 ± 0.00026 Ω (k = 2)"."""
+    """The headline parameter of a fit, e.g. "resistive, r_on_ohm = 26.12 ± 0.26 mΩ (k = 1.73, 95.45 % coverage)"."""
     key = {"resistive": "r_on_ohm", "knee": "r_d_ohm", "diode": "ideality"}.get(fit.model)
     if key is None or key not in fit.params:
         return fit.model
-    return f"{fit.model}, {key} = {with_uncertainty(fit.params[key], fit.expanded_u.get(key), unit_of(key), fit.k)}"
+    b = fit.budgets.get(key)
+    return (f"{fit.model}, {key} = "
+            f"{with_uncertainty(fit.params[key], fit.expanded_u.get(key), unit_of(key), fit.k, b and b.coverage_probability)}")
 
 
 def measured_series(frame, fit: FitResult | None, label: str, offset_v: float | None = None) -> MeasuredSeries:
@@ -51,10 +53,10 @@ def measured_series(frame, fit: FitResult | None, label: str, offset_v: float | 
 
 
 def fit_curve(fit: FitResult, grid: np.ndarray) -> FitCurve:
-    """The fitted drop and its ±k·u band over `grid`, u the combined standard uncertainty (GUM) at each current."""
-    values, us = zip(*(fit.drop_at(float(i)) for i in grid))
+    """The fitted drop and its ±U band over `grid`, U = k_p·u of the drop's own budget (GUM 6.3) at each current."""
+    values, half, _ = zip(*(fit.drop_expanded_at(float(i)) for i in grid))
     values = np.asarray(values)
-    half = fit.k * np.asarray(us)
+    half = np.asarray(half)
     return FitCurve(fit_label(fit), grid, values, values - half, values + half, k=fit.k)
 
 
@@ -93,11 +95,11 @@ def spec_curves(spec: PartSpec, grid: np.ndarray, ambient_c: float, vin_v: float
 
 
 def operating_point(fit: FitResult | None, current_a: float, prediction=None) -> OperatingPoint:
-    """Measured loss at the operating current from the fit (P = I·V, U = k·I·u(V)) and the predicted ones."""
+    """Measured loss at the operating current from the fit (P = I·V, U = I·U(V)) and the predicted ones."""
     measured = u_w = None
     if fit is not None:
-        v, u = fit.drop_at(current_a)
-        measured, u_w = current_a * v, fit.k * current_a * u
+        v, big_u, _ = fit.drop_expanded_at(current_a)
+        measured, u_w = current_a * v, current_a * big_u
     typ = mx = None
     if prediction is not None:
         typ = prediction.typical.loss_w

@@ -10,7 +10,8 @@ from .text import number, with_uncertainty
 
 def verdict_block(check: Check) -> VerdictBlock:
     v = check.verdict
-    measured = with_uncertainty(v.measured, v.expanded_u, "W" if v.quantity.endswith("_w") else "V", v.k)
+    measured = with_uncertainty(v.measured, v.expanded_u, "W" if v.quantity.endswith("_w") else "V", v.k,
+                                v.coverage_probability)
     limit = "no limit" if v.limit is None else number(v.limit, "W" if v.quantity.endswith("_w") else "V")
     headline = (f"{check.part} at {number(check.current_a, 'A')}: measured {v.quantity} {measured} "
                 f"against the limit {limit}")

@@ -115,20 +115,21 @@ def answer_blocks(runs, lot_verdicts: Sequence[VerdictBlock], spec, detail_up_to
         loss = "—"
         if v is not None:
             unit = "W" if v.quantity.endswith("_w") else "V"
-            loss = f"{measured(v.measured, v.expanded_u, unit, v.k)} vs {engineering(v.limit, unit) if v.limit is not None else 'no limit'}"
+            loss = f"{measured(v.measured, v.expanded_u, unit, v.k, v.coverage_probability)} vs {engineering(v.limit, unit) if v.limit is not None else 'no limit'}"
         rows.append((ra.element.serial or ra.element.id or "—", ra.path.name,
                      v.outcome.upper() if v is not None else (f"none: {ra.check_problem}" if ra.check_problem else "—"),
                      loss, _reverse_text(ra.meta) or "not tested",
                      "complete" if ra.meta.complete else "INCOMPLETE"))
     rule = next((ra.check.verdict.rule for ra in runs if ra.check is not None), "")
-    blocks.append(Table(("serial", "run", "verdict", "measured (k = 2) vs limit", "reverse test", "run"),
+    blocks.append(Table(("serial", "run", "verdict", "measured ± U vs limit", "reverse test", "run"),
                         tuple(rows), caption="Verdict of each part" + (f". Rule: {rule}" if rule else "")))
     return blocks
 
 
 def _fit_headline(ra) -> str:
     fit = ra.fit
-    parts = [f"{k} = {measured(v, fit.expanded_u.get(k), _unit(k), fit.k)}" for k, v in fit.params.items()]
+    parts = [f"{k} = {measured(v, fit.expanded_u.get(k), _unit(k), fit.budgets[k].k, fit.budgets[k].coverage_probability)}"
+             for k, v in fit.params.items()]
     return f"{fit.model} fit: " + "; ".join(parts)
 
 

@@ -45,8 +45,8 @@ def summary_section(lot: str, summary: LotSummary) -> Section:
         ("parts pass / conditional / fail",
          f"{summary.counts.get('pass', 0)} / {summary.counts.get('conditional', 0)} / {summary.counts.get('fail', 0)}"),
     ), caption=f"Lot {lot}")
-    parts = Table(("serial", "run", "value (expanded U)", "verdict", "outlier"), tuple(
-        (p.serial, p.run, with_uncertainty(p.value, p.expanded_u, unit), p.outcome, "OUTLIER" if p.outlier else "")
+    parts = Table(("serial", "run", "value ± U (95.45 % coverage)", "verdict", "outlier"), tuple(
+        (p.serial, p.run, with_uncertainty(p.value, p.expanded_u, unit, None), p.outcome, "OUTLIER" if p.outlier else "")
         for p in summary.parts), caption="Parts of the lot")
     blocks: list = [
         VerdictBlock(summary.outcome, f"lot {lot}: {summary.n} parts of {summary.part}, "

@@ -45,16 +45,17 @@ def row_of(path, meta, fit, fit_problem: str, check, check_problem: str, current
     for key, value in fit.params.items():
         row[key] = value
         row[f"expanded_u_{key}"] = fit.expanded_u.get(key)
-        row[f"{key}{TEXT_SUFFIX}"] = measured(value, fit.expanded_u.get(key), unit_of(key), fit.k)
+        row[f"{key}{TEXT_SUFFIX}"] = measured(value, fit.expanded_u.get(key), unit_of(key), fit.budgets[key].k,
+                                              fit.budgets[key].coverage_probability)
     top = float(fit.current_a.max())
     current = current_a if current_a is not None else (e.operating_a if e.operating_a is not None else top)
     if current_a is None and e.operating_a is None:
         notes.append("no operating_a in the plan: loss at the largest measured current")
     elif current > top * 1.0001:
         notes.append(f"loss extrapolated beyond the largest measured current {top:g} A")
-    drop, u_drop = fit.drop_at(current)
-    row.update({"operating_a": current, "loss_w": drop * current, "expanded_u_loss_w": fit.k * u_drop * current,
-                "loss": measured(drop * current, fit.k * u_drop * current, "W", fit.k)})
+    drop, big_u, k = fit.drop_expanded_at(current)  # U of the drop's own budget (k_p, GUM 6.3)
+    row.update({"operating_a": current, "loss_w": drop * current, "expanded_u_loss_w": big_u * current,
+                "loss": measured(drop * current, big_u * current, "W", k, fit.coverage_probability)})
     if check is not None:
         row["tj_c"] = check.predicted.tj_c
         row["verdict"] = check.outcome  # the worse of the forward verdict and the reverse result

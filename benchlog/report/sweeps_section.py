@@ -18,7 +18,8 @@ def _r_figure(p: dict[str, Any]):
     ax = fig.add_subplot(1, 1, 1)
     rows = [x for x in p["series"] if x["r_on_ohm"] is not None]
     ax.errorbar([x["input_v"] for x in rows], [x["r_on_ohm"] * 1e3 for x in rows],
-                yerr=[x["r_on_expanded_u_ohm"] * 1e3 for x in rows], fmt="o", capsize=3, label="measured (k = 2)")
+                yerr=[x["r_on_expanded_u_ohm"] * 1e3 for x in rows], fmt="o", capsize=3,
+                label="measured ± U (95.45 % coverage)")
     spec = [x for x in rows if x["spec_r_on_ohm"] is not None]
     if spec:
         ax.plot([x["input_v"] for x in spec], [x["spec_r_on_ohm"] * 1e3 for x in spec], "s--", label="spec, typical")
@@ -61,7 +62,7 @@ def sweep_sections(p: dict[str, Any]) -> list[Section]:
                       number(x["spec_r_on_ohm"], "Ω", 4), number(x["drop_v"], "V", 4), number(x["loss_w"], "W", 4))
                      for x in p["series"])
         blocks: list = [
-            Table(("input", "|Vgs|", "conduction", "R (k = 2)", "spec R typical", "drop", "loss"), rows,
+            Table(("input", "|Vgs|", "conduction", "R ± U (95.45 %)", "spec R typical", "drop", "loss"), rows,
                   caption=f"One series per input voltage; drop and loss at {p['operating_a']:g} A"),
             Paragraph(f"Takeover: {p['takeover_note']}."),
         ]

@@ -27,9 +27,10 @@ def number(value: Any, unit: str = "", digits: int = 6) -> str:
     return f"{value} {unit}".strip()
 
 
-def with_uncertainty(value: float | None, expanded_u: float | None, unit: str = "", k: float | None = 2.0) -> str:
-    """`value ± U unit (k = 2)` written the one way (benchlog.quantity, GUM 7.2.6)."""
-    return measured(value, expanded_u, unit, k)
+def with_uncertainty(value: float | None, expanded_u: float | None, unit: str = "", k: float | None = 2.0,
+                     coverage: float | None = None) -> str:
+    """`value ± U unit (k = 1.73, 95.45 % coverage)` written the one way (benchlog.quantity, GUM 7.2.6)."""
+    return measured(value, expanded_u, unit, k, coverage)
 
 
 def flatten(data: Any, prefix: str = "") -> list[tuple[str, str]]:

@@ -1,6 +1,6 @@
 """Numbers for people: SI prefixes, values with their uncertainty, short durations.
 
-The uncertainty is shown as `value ± U (k=2)` with U rounded to two significant
+The uncertainty is shown as `value ± U (k = 1.73, 95.45 % coverage)` with U rounded to two significant
 digits and the value to the same decimal place, as JCGM 100:2008 (GUM) 7.2.6 advises
 ("the numerical values ... should not be given with an excessive number of digits").
 """
@@ -30,10 +30,10 @@ def si(value: float | None, unit: str, digits: int = 4) -> str:
     return engineering(value, unit, digits)
 
 
-def with_uncertainty(value: float, std_u: float, unit: str, k: float = 2.0) -> str:
-    """`value ± k·u unit (k = 2)` written the one way (benchlog.quantity, GUM 7.2.6)."""
+def with_uncertainty(value: float, std_u: float, unit: str, k: float = 2.0, coverage: float | None = None) -> str:
+    """`value ± k·u unit (k = 1.73, 95.45 % coverage)` written the one way (benchlog.quantity, GUM 7.2.6)."""
     expanded = k * std_u if std_u is not None and math.isfinite(std_u) else None
-    return measured(value, expanded, unit, k)
+    return measured(value, expanded, unit, k, coverage)
 
 
 def duration(seconds: float | None) -> str:

@@ -8,32 +8,11 @@ records (the same arrangement the sample runs use).
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
 
 from benchlog import runs
-from benchlog.runs.writer import RunWriter
 from benchlog.sim.config import SimConfig
-from benchlog.sim.server import serve_bench
-from benchlog.sweep.bench_file import BenchSetup, RoleSpec
 from benchlog.sweep.plan import parse_plan
-from benchlog.sweep.rig import open_rig
-from benchlog.sweep.runner import SweepRunner
-from benchlog.cli.simbench import SIM_PROFILES, sim_wiring
-
-
-class SharedClock:
-    def __init__(self) -> None:
-        self.now_s = 0.0
-        self.rig: Any = None
-
-    def __call__(self) -> float:
-        return self.now_s
-
-    def sleep(self, seconds: float) -> None:
-        if self.rig is not None:
-            for role in self.rig.roles():
-                role.transport.query("*OPC?")  # every setting sent so far is in the circuit
-        self.now_s += max(0.0, float(seconds))
+from benchlog.cli.simbench import sim_wiring, sweep_on_bench_clock  # the clock shared with tools/sample_runs.py
 
 
 def soak_plan(kind: str = "pmos", *, current_a: float = 5.0, duration_s: float = 60.0, interval_s: float = 0.25,
@@ -67,27 +46,12 @@ def record_soak(tmp_path: Path, plan_text: str, *, seed: int = 3, element_params
                 thermal_time_scale: float = 1.0) -> tuple[Path, dict]:
     """Run the plan; returns (run file, the sim's truth)."""
     plan = parse_plan(plan_text, "soak-plan")
-    wiring = sim_wiring(plan.element)
-    clock = SharedClock()
     config = SimConfig(element=plan.element.kind, seed=seed, ambient_c=plan.element.ambient_c,
                        element_params=dict(element_params or {}), thermal_time_scale=thermal_time_scale)
     path = tmp_path / f"soak-{seed}.run"
-    with serve_bench(config, clock=clock) as running:
-        bench = BenchSetup(roles={n: RoleSpec(role=n, resource=r, profile=SIM_PROFILES[n])
-                                  for n, r in running.resources.items()},
-                           wiring=wiring, line_frequency_hz=config.line_frequency_hz, simulated=True,
-                           sim_settings={"thermal_time_scale": thermal_time_scale})
-        rig = open_rig(bench)
-        try:
-            clock.rig = rig
-            runner = SweepRunner(plan, rig, clock=clock, sleep=clock.sleep)
-            with RunWriter(path) as writer:
-                runner.writer = writer
-                outcome = runner.run()
-        finally:
-            clock.rig = None
-            rig.close()
-        truth = running.truth()
+    runner, truth = sweep_on_bench_clock(plan, config, path, wiring=sim_wiring(plan.element),
+                                         sim_settings={"thermal_time_scale": thermal_time_scale})
+    outcome = runner.outcome
     assert outcome == "complete", runner.message
     return path, truth
 

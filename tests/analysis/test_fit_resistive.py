@@ -8,6 +8,8 @@ import pytest
 from benchlog.analysis.fits import FitError, fit_knee, fit_resistive, studentised_residuals
 from benchlog.analysis.uncertainty import Accuracy, MeasurementAccuracy
 
+from .monte_carlo import monte_carlo_k
+
 ACC = MeasurementAccuracy(Accuracy(0.0040, 0.0007, 1.0), Accuracy(0.05, 0.05, 10.0))
 
 
@@ -59,7 +61,12 @@ def test_type_b_budget_follows_the_gain_rules():
     assert b.u == pytest.approx(math.sqrt(sum(x * x for x in us)))
     u_a = b.component("fit residuals").u
     assert b.dof == pytest.approx(b.u**4 / (u_a**4 / (i.size - 2)))
-    assert fit.k == 2.0 and fit.expanded_u["r_on_ohm"] == pytest.approx(2 * b.u)
+    # U = k_p·u with k_p of the budget's combined distribution (GUM 6.3; the t term with its ν, the
+    # gains rectangular), checked against a JCGM 101 Monte Carlo with numpy
+    terms = [(c.distribution, c.u, c.dof) for c in b.components]
+    assert [t[0] for t in terms] == ["t", "rectangular", "rectangular"]
+    assert b.k == pytest.approx(monte_carlo_k(terms), abs=4e-3)
+    assert fit.k == b.k and fit.expanded_u["r_on_ohm"] == pytest.approx(b.k * b.u)
 
 
 def test_the_sensitivities_are_what_the_data_do():

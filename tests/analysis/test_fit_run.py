@@ -13,6 +13,9 @@ from benchlog.cli import main
 from benchlog.runs import Offset, Point, RunFinished, RunStarted, RunWriter, load
 from benchlog.runs.record import RunHeader, new_run_id
 
+
+from .monte_carlo import monte_carlo_k
+
 ACCURACY = {"drop": {"reading_pct": 0.0040, "range_pct": 0.0007, "range_v": 1.0},
             "current": {"reading_pct": 0.05, "range_pct": 0.05, "range_a": 10.0}}
 
@@ -124,10 +127,16 @@ def test_cli_json_output(tmp_path, capsys):
     path = write_run(tmp_path / "c.run", i, v, offset_v=0.0, directions=directions)
     assert main(["fit", str(path), "--json", "--at", "2.0"]) == 0
     out = json.loads(capsys.readouterr().out)
-    assert out["model"] == "resistive" and out["k"] == 2
-    assert set(out["params"]) == {"r_on_ohm", "v0_v"} == set(out["std_u"]) == set(out["expanded_u"])
+    assert out["model"] == "resistive" and out["coverage_probability"] == 0.9545
+    assert set(out["params"]) == {"r_on_ohm", "v0_v"} == set(out["std_u"]) == set(out["expanded_u"]) == set(out["k_p"])
     assert out["params"]["r_on_ohm"] == pytest.approx(np.polyfit(i, v, 1)[0], rel=1e-9)  # numpy.polyfit reference
-    assert out["expanded_u"]["r_on_ohm"] == pytest.approx(2 * out["std_u"]["r_on_ohm"])
+    # U = k_p·u, k_p of the budget's terms as listed (GUM 6.3), against a JCGM 101 Monte Carlo with numpy
+    for key in ("r_on_ohm", "v0_v"):
+        terms = [(c["distribution"], c["u"], c["dof"]) for c in out["budget"][key]]
+        assert out["k_p"][key] == pytest.approx(monte_carlo_k(terms), abs=4e-3)
+        assert out["expanded_u"][key] == pytest.approx(out["k_p"][key] * out["std_u"][key])
+        assert f"(k = {out['k_p'][key]:.2f}, 95.45 % coverage)" in out["text"][key]
+    assert out["k"] == out["k_p"]["r_on_ohm"]
     assert out["points"] == i.size and out["outliers"] == []
     assert isinstance(out["self_heating"]["detected"], bool)
     assert "AICc" in out["reason"]

@@ -36,6 +36,8 @@ from benchlog.sweep.plan import load_plan, parse_plan
 from benchlog.sweep.session import run_sweep
 from benchlog.cli.simbench import builtin_bench
 
+from .monte_carlo import monte_carlo_k
+
 DEMO = Path(benchlog.__file__).parent / "demo"
 PFET = DEMO / "specs" / "demo-pfet-10m.toml"
 
@@ -115,13 +117,38 @@ def test_pulse_heating_through_zth_matches_the_first_order_thermal_model_solved_
                     t_eval=t, max_step=0.002, rtol=1e-9, atol=1e-12)
     ours = rise_at_points(t, power, lambda lag: r_th * (1.0 - np.exp(-lag / tau)), off)
     assert ours == pytest.approx(sol.y[0], rel=2e-3, abs=1e-6)
+    # shorter pulses (on 15 ms before each stamp) and the rise taken 5 ms before the stamp: the same ODE
+    on, lag = 0.015, 0.005
+    starts = t - on
+
+    def p_short(time):
+        k = np.searchsorted(t, time)
+        return power[k] if k < t.size and time >= starts[k] else 0.0
+
+    sol = solve_ivp(lambda time, y: [(p_short(time) * r_th - y[0]) / tau], (starts[0], t[-1]), [0.0],
+                    t_eval=t - lag, max_step=0.001, rtol=1e-9, atol=1e-12)
+    ours = rise_at_points(t, power, lambda s: r_th * (1.0 - np.exp(-s / tau)), off, lag_s=lag, on_s=on)
+    assert ours == pytest.approx(sol.y[0], rel=2e-3, abs=1e-6)
 
 
 def test_zth_from_the_spec_makes_tj_inferred_with_its_stated_u():
     i, v = line(0.010)
     j = judge_run(*frame_and_meta(i, v, ambient_u_c=0.0), load_spec(PFET))  # the demo spec has a Zth curve
     assert j.tj.source == "inferred" and j.tj.value_c > 25.0
-    assert j.tj.u_c == pytest.approx(0.20 * (j.tj.value_c - 25.0), rel=1e-9)  # ZTH_RELATIVE_U, from memory
+    rise = j.tj.value_c - 25.0
+    # u² = (zth_u_pct·rise)² + u(on-times)² (GUM 5.1.2); the demo spec states 3 %; without the key 20 %
+    # (ZTH_RELATIVE_U, from memory). The on-time term is the same for both: it depends on the run alone.
+    from dataclasses import replace
+
+    spec = load_spec(PFET)
+    assert spec.thermal.zth_u_pct == 3.0
+    default = replace(spec, thermal=replace(spec.thermal, zth_u_pct=None))
+    j20 = judge_run(*frame_and_meta(i, v, ambient_u_c=0.0), default)
+    assert j20.tj.value_c == j.tj.value_c
+    timing2 = j.tj.u_c ** 2 - (0.03 * rise) ** 2
+    assert timing2 >= 0.0
+    assert j20.tj.u_c ** 2 - (0.20 * rise) ** 2 == pytest.approx(timing2, rel=1e-6, abs=1e-15)
+    assert "the spec's zth_u_pct" in j.tj.why and "default" in j20.tj.why
 
 
 def test_tj_sources_and_their_uncertainty():
@@ -136,8 +163,26 @@ def test_tj_sources_and_their_uncertainty():
     # recorded temperatures make the source "measured"
     frame, meta = frame_and_meta(i, v)
     frame["temperature_c"] = 31.0 + 0.1 * np.arange(i.size) / i.size
-    j3 = judge_run(frame, meta, load_spec(PFET))
-    assert j3.tj.source == "measured" and j3.tj.value_c == pytest.approx(31.05, abs=0.01)
+    j3 = judge_run(frame, meta, no_zth(load_spec(PFET)))
+    # the junction sits above the measured case: Tj = Tc + P·RθJC in the steady state (JESD51's definition of
+    # RθJC); a sweep's pulses reach between 0 and that, taken as rectangular (GUM 4.3.7): + P̄·RθJC/2, u P̄·RθJC/√12
+    p_mean = float(np.mean(i * v))
+    top = p_mean * 12.0  # the demo spec's rth_jc_k_per_w
+    case_u = math.hypot(float(np.std(frame["temperature_c"], ddof=1)), 0.5)  # spread and the unstated probe's 0.5 K
+    assert j3.tj.source == "measured"
+    assert j3.tj.value_c == pytest.approx(31.05 + top / 2.0, abs=0.01)
+    assert j3.tj.u_c == pytest.approx(math.hypot(case_u, top / math.sqrt(12.0)), rel=1e-6)
+    assert "RθJC 12 K/W" in j3.tj.why
+    # without RθJC, RθJA bounds the junction-case difference the same way; without either, none is added
+    from dataclasses import replace
+
+    spec = no_zth(load_spec(PFET))
+    no_jc = replace(spec, thermal=replace(spec.thermal, rth_jc_k_per_w=None))
+    j4 = judge_run(frame, meta, no_jc)
+    assert j4.tj.value_c == pytest.approx(31.05 + p_mean * 62.5 / 2.0, abs=0.01) and "RθJA 62.5 K/W" in j4.tj.why
+    neither = replace(spec, thermal=replace(spec.thermal, rth_jc_k_per_w=None, rth_ja_k_per_w=None))
+    j5 = judge_run(frame, meta, neither)
+    assert j5.tj.value_c == pytest.approx(31.05, abs=0.01) and "the case is taken as the junction" in j5.tj.why
     with pytest.raises(ValueError):
         JunctionTemperature(25.0, 1.0, "guessed", "")
 
@@ -180,7 +225,13 @@ def test_a_lower_gate_drive_translates_the_limit_within_the_specs_points():
     # the translation's uncertainty is in the comparison's budget: half the correction, rectangular (GUM 4.3.7)
     t = j.decision_budget.component(TRANSLATION_TERM)
     assert t.u == pytest.approx(j.value * abs(factor - 1) / 2 / math.sqrt(3), rel=1e-9)
-    assert j.verdict.expanded_u == pytest.approx(2 * math.hypot(j.std_u, t.u), rel=1e-9)
+    # GUM 5.1.2: the comparison's u adds the translation in quadrature; U = k_p·u of that budget, k_p checked
+    # against a JCGM 101 Monte Carlo with numpy
+    u_dec = math.hypot(j.std_u, t.u)
+    assert j.decision_budget.u == pytest.approx(u_dec, rel=1e-9)
+    k_p = monte_carlo_k([(c.distribution, c.u, c.dof) for c in j.decision_budget.components])
+    assert j.verdict.k == j.decision_budget.k == pytest.approx(k_p, abs=4e-3)
+    assert j.verdict.expanded_u == pytest.approx(j.verdict.k * u_dec, rel=1e-9)
     assert j.outcome == decide(j.value, j.verdict.expanded_u, j.limit).outcome  # ILAC-G8 on those numbers
 
 
@@ -344,6 +395,20 @@ def test_check_judges_a_run_with_a_case_probe_at_the_probe_temperature(tmp_path)
     c = check_run(frame, meta, load_spec(demo / "specs" / "demo-rect-3a.toml"))
     temps = frame["temperature_c"].to_numpy(dtype=float)
     assert c.judgement.tj.source == "measured"
-    assert c.judgement.tj.value_c == pytest.approx(float(np.nanmean(temps)))
-    assert c.judgement.tj.u_c >= 0.6 / math.sqrt(3.0)
+    # Tj = Tc + the junction's rise above the case (JESD51's RθJC): each pulse lifts it by at most
+    # P·min(RθJC, Zth(pulse length)) (the case lags the junction), taken as half that, rectangular (GUM 4.3.7)
+    from benchlog.analysis.junction import zth_at
+
+    spec = load_spec(demo / "specs" / "demo-rect-3a.toml")
+    t = frame["t_s"].to_numpy(dtype=float)
+    on = np.empty_like(t)
+    on[1:] = np.diff(t) - plan.cooldown.off_s
+    on[0] = on[1]
+    zth = zth_at(spec.thermal.zth_t_s, spec.thermal.zth_k_per_w, spec.thermal.rth_ja_k_per_w, on)
+    power = (frame["current_a"] * frame["drop_v"]).to_numpy(dtype=float)
+    read = np.isfinite(temps)
+    top = float(np.mean(power[read] * np.minimum(spec.thermal.rth_jc_k_per_w, zth[read])))
+    assert 0.0 < top < 0.2  # 60 ms pulses: far below the steady P·RθJC
+    assert c.judgement.tj.value_c == pytest.approx(float(np.nanmean(temps)) + top / 2.0, rel=1e-9)
+    assert c.judgement.tj.u_c >= math.hypot(0.6 / math.sqrt(3.0), top / math.sqrt(12.0))
     assert meta.header.temperature.accuracy_c == 0.6

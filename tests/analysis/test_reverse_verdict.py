@@ -81,8 +81,9 @@ def test_worse_of():
 
 
 def test_check_and_fit_carry_the_reverse_result():
-    # The sample run leaks 10.3 µA at 12 V, read on the series meter's 100 mA range. U (k = 2) of
-    # that reading by hand from the header's accuracy: 2·(0.05 %·I + 0.01 %·0.1 A)/√3 (GUM 4.3.7).
+    # The sample run leaks 10.3 µA at 12 V, read on the series meter's 100 mA range. U of that reading by
+    # hand from the header's accuracy: k_p·(0.05 %·I + 0.01 %·0.1 A)/√3 (GUM 4.3.7), k_p = √3·0.9545 for one
+    # rectangular term at 95.45 % coverage (GUM G.1.3), i.e. U = 0.9545·a.
     # The rectifier spec allows 5 µA at 200 V, 25 °C, doubling every 22 K; with u(T) = 2 K the
     # limit spans 5·2^(−4/22) … 5·2^(4/22) µA. I − U is below the warm end and I + U above the cool
     # end: the reading cannot decide, so the run is conditional on its reverse result (exit 3),
@@ -94,7 +95,7 @@ def test_check_and_fit_carry_the_reverse_result():
     # the reverse current as the file recorded it (the simulator's leakage moves when its physics does)
     i = next(json.loads(line)["current_a"] for line in SAMPLE.read_text(encoding="utf-8").splitlines()
              if line.startswith('{"record":"reverse"'))
-    big_u = 2 * (acc["reading_pct"] / 100 * i + acc["range_pct"] / 100 * acc["range_a"]) / math.sqrt(3)
+    big_u = 0.9545 * (acc["reading_pct"] / 100 * i + acc["range_pct"] / 100 * acc["range_a"])
     lo, hi = 5e-6 * 2 ** (-4 / 22), 5e-6 * 2 ** (4 / 22)
     assert i - big_u <= hi and i + big_u > lo  # the by-hand reason for "conditional"
     code, out, _ = cli("check", SAMPLE, "--spec", RECT, "--json")
@@ -116,15 +117,15 @@ def test_check_and_fit_carry_the_reverse_result():
 
 
 def test_reading_uncertainty_is_a_guard_band_on_the_current():
-    # ILAC-G8:09/2019 §4.2.2 with U from the header: a reading 1 µA under the limit passes only when
-    # U ≤ 1 µA. Accuracy 0 % of reading + 0.001 % of 0.1 A: a = 1 µA, U = 2/√3 µA ≈ 1.15 µA.
+    # ILAC-G8:09/2019 §4.2.2 with U from the header. Accuracy 0 % of reading + 0.001 % of 0.1 A: a = 1 µA,
+    # u = a/√3 (GUM 4.3.7), one rectangular term, so U = √3·0.9545·u = 0.9545 µA (GUM G.1.3, 95.45 %).
     acc = meta(25.0, Accuracy(reading_pct=0.0, range_pct=0.001, range=0.1))
-    plan_only = judge_reverse(record(99e-6, limit_a=100e-6), None, None, acc)
-    assert plan_only.expanded_u_a == pytest.approx(2e-6 / math.sqrt(3))
-    assert plan_only.outcome == "conditional"
-    assert judge_reverse(record(98e-6, limit_a=100e-6), None, None, acc).outcome == "pass"
-    assert judge_reverse(record(101e-6, limit_a=100e-6), None, None, acc).outcome == "conditional"
-    assert judge_reverse(record(102e-6, limit_a=100e-6), None, None, acc).outcome == "fail"
+    plan_only = judge_reverse(record(99.1e-6, limit_a=100e-6), None, None, acc)
+    assert plan_only.expanded_u_a == pytest.approx(0.9545e-6, rel=2e-4)
+    assert plan_only.outcome == "conditional"  # 99.1 + 0.95 > 100
+    assert judge_reverse(record(99e-6, limit_a=100e-6), None, None, acc).outcome == "pass"  # 99 + 0.95 ≤ 100
+    assert judge_reverse(record(100.9e-6, limit_a=100e-6), None, None, acc).outcome == "conditional"
+    assert judge_reverse(record(101e-6, limit_a=100e-6), None, None, acc).outcome == "fail"  # 101 − 0.95 > 100
     # without the header's accuracy: U = 0, and the result says so
     bare = judge_reverse(record(99e-6, limit_a=100e-6), None, None, meta())
     assert bare.expanded_u_a is None and bare.outcome == "pass" and "U = 0" in bare.reason
@@ -143,3 +144,28 @@ def test_report_headline_names_the_reverse_result(tmp_path):
 
     verdict = next(b for b in blocks(doc.sections) if isinstance(b, VerdictBlock))
     assert verdict.outcome == "conditional" and "reverse CONDITIONAL" in verdict.headline
+
+
+def test_a_lot_part_whose_reverse_leakage_fails_fails_the_lot(tmp_path):
+    # One judging path: a part's verdict in `lot` is the worse of forward and reverse, as `check` gives it.
+    # The sample's reverse reading, raised to 1 mA at 12 V: 200× the spec's 5 µA at 25 °C (the plan's own
+    # limit of 0.1 mA is exceeded too), so the reverse verdict fails whatever the guard band.
+    text = SAMPLE.read_text(encoding="utf-8")
+    line = next(s for s in text.splitlines() if s.startswith('{"record":"reverse"'))
+    leaky = json.loads(line)
+    leaky.update(current_a=1e-3, passed=False)
+    bad = tmp_path / "rectifier-leaky.run"
+    bad.write_text(text.replace(line, json.dumps(leaky, separators=(",", ":"))), encoding="utf-8")
+    good = SAMPLE.parent / "rectifier-prototype.run"
+    code, out, _ = cli("check", bad, "--spec", RECT, "--json")
+    c = json.loads(out)
+    assert c["forward_verdict"] == "pass" and c["reverse"]["verdict"] == "fail" and c["verdict"] == "fail"
+    code, out, _ = cli("lot", good, SAMPLE, bad, "--spec", RECT, "--json")
+    lot = json.loads(out)
+    by_run = {Path(p["run"]).name: p["verdict"] for p in lot["parts"]}
+    # the same verdict as check gives each run: the leaky part fails, the sample's conditional reverse stays
+    assert by_run == {good.name: "pass", SAMPLE.name: "conditional", bad.name: "fail"}
+    assert lot["verdict"] == "fail" and code != 0
+    assert any("worse of forward and reverse" in n and "reverse not passed" in n for n in lot["notes"])
+    code, text_out, _ = cli("lot", good, bad, "--spec", RECT)
+    assert text_out.startswith("FAIL")

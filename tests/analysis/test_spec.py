@@ -24,6 +24,12 @@ def test_keys_land_in_the_right_places(tmp_path):
     assert s.has_max and s.element.has_gate and isinstance(s.part, MosfetSpec)
 
 
+def test_zth_curve_with_its_stated_uncertainty(tmp_path):
+    s = spec(PMOS + "zth_t_s = [0.1, 1.0]\nzth_k_per_w = [0.5, 4.8]\nzth_u_pct = 5\n")
+    assert s.thermal.zth_u_pct == 5.0 and s.thermal.zth_k_per_w == (0.5, 4.8)
+    assert spec(PMOS + "zth_t_s = [0.1, 1.0]\nzth_k_per_w = [0.5, 4.8]\n").thermal.zth_u_pct is None
+
+
 def test_integers_are_numbers_and_defaults_apply():
     s = spec(RECT.replace("vf_at_a = 2.0", "vf_at_a = 2"))
     assert s.part.vf_at_a == 2.0 and s.part.vf_at_c == 25.0 and s.part.rs_ohm == 0.0
@@ -46,6 +52,11 @@ def test_integers_are_numbers_and_defaults_apply():
         (PMOS + "rds_on_2_ohm = 0.020\nrds_on_2_vgs_v = 4.5\n", "rds_on_2_ohm", "higher R_DS(on)"),
         (PMOS.replace("vgs_th_v = 2.0", "vgs_th_v = 12.0"), "rds_on_vgs_v", "above threshold"),
         (PMOS + "rth_ja_k_per_w = -3\n", "rth_ja_k_per_w", "above 0"),
+        (PMOS + "zth_u_pct = 5.0\n", "zth_u_pct", "zth_t_s and zth_k_per_w beside it"),
+        (PMOS + "rth_ja_k_per_w = 50\nrth_jc_k_per_w = 60\n", "rth_jc_k_per_w", "less than junction to ambient"),
+        (PMOS + "rth_jc_k_per_w = 0\n", "rth_jc_k_per_w", "above 0"),
+        (PMOS + "zth_t_s = [0.1, 1.0]\nzth_k_per_w = [0.5, 4.8]\nzth_u_pct = 150\n", "zth_u_pct", "100"),
+        (PMOS + "zth_t_s = [0.1, 1.0]\nzth_k_per_w = [0.5, 4.8]\nzth_u_pct = -1\n", "zth_u_pct", "0"),
     ],
 )
 def test_faults_name_file_key_and_expectation(text, where, expected):

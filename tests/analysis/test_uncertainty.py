@@ -15,6 +15,8 @@ from benchlog.analysis.uncertainty import (
 )
 from benchlog.badinput import BadInput
 
+from .monte_carlo import monte_carlo_k
+
 
 def test_type_b_dmm_worked_example():
     # Issue 4 reference: 5 V on the 10 V range at ±(0.0020 % of reading + 0.0005 % of range)
@@ -40,7 +42,11 @@ def test_quadrature_and_welch_satterthwaite_by_hand():
     budget = combine([Component("a", "A", 3.0, 4), Component("b", "B", 4.0)])
     assert budget.u == pytest.approx(5.0)
     assert budget.dof == pytest.approx(625 * 4 / 81)
-    assert budget.expanded_u == pytest.approx(10.0)
+    # U = k_p·u_c with k_p of t₄ (scale 3) plus a rectangular (u 4), by a JCGM 101 Monte Carlo with numpy: the
+    # t term's tails make it larger than 2 here, though the rectangular term has the larger u
+    k_p = monte_carlo_k([("t", 3.0, 4.0), ("rectangular", 4.0, math.inf)])
+    assert budget.k == pytest.approx(k_p, abs=4e-3) and budget.k > 2.0
+    assert budget.expanded_u == pytest.approx(5.0 * budget.k)
     assert welch_satterthwaite([1.0, 1.0], [math.inf, math.inf]) == math.inf
 
 

@@ -56,7 +56,8 @@ def test_check_text_writes_the_judged_value_as_the_formatter_does(capsys):
     text = _run(capsys, *args)
     judged = data["judged"]
     q = judged["quantity"]
-    expected = f"{label_of(q)} = {measured(judged[q], judged['expanded_u'], unit_of(q), data['k'])}"
+    expected = (f"{label_of(q)} = "
+                f"{measured(judged[q], judged['expanded_u'], unit_of(q), data['k'], data['coverage_probability'])}")
     assert expected in text, (expected, text)
 
 

@@ -37,7 +37,8 @@ def test_csv_one_row_per_run_with_the_fit_and_the_loss(tmp_path, capsys):
     assert float(first["loss_w"]) == pytest.approx(at["drop_v"] * at["current_a"], rel=1e-12)
     assert float(first["expanded_u_loss_w"]) == pytest.approx(at["expanded_u_v"] * at["current_a"], rel=1e-9)
     assert first["verdict"] in ("pass", "fail", "conditional") and float(first["tj_c"]) > 25.0
-    assert "mΩ (k = 2)" in first["r_on_ohm (text)"]
+    # the text states the coverage factor of that parameter's budget and its coverage probability (GUM 7.2.4)
+    assert f"mΩ (k = {fit['k_p']['r_on_ohm']:.2f}, 95.45 % coverage)" in first["r_on_ohm (text)"]
     # the spec is for a P-MOSFET: the Schottky row says why it has no verdict instead of failing the table
     assert rows[1]["verdict"] == "" and "no verdict" in rows[1]["note"]
     assert "extrapolated" in rows[2]["note"]

@@ -67,8 +67,10 @@ def test_registry_spec_keys_are_the_spec_part_fields():
     assert set(PART_TYPES) == set(SPEC_FAMILY_KEYS)
     for family, keys in SPEC_FAMILY_KEYS.items():
         assert set(keys) == {f.name for f in fields(PART_TYPES[family])}
-    assert set(SPEC_COMMON_KEYS) == {"name", "kind", "note", "rth_ja_k_per_w", "tj_max_c", "zth_t_s", "zth_k_per_w"}
-    assert {"rth_ja_k_per_w", "tj_max_c", "zth_t_s", "zth_k_per_w"} == {f.name for f in fields(Thermal)}
+    assert set(SPEC_COMMON_KEYS) == {"name", "kind", "note", "rth_ja_k_per_w", "tj_max_c", "zth_t_s", "zth_k_per_w",
+                                     "zth_u_pct", "rth_jc_k_per_w"}
+    assert {"rth_ja_k_per_w", "tj_max_c", "zth_t_s", "zth_k_per_w", "zth_u_pct", "rth_jc_k_per_w"} == \
+        {f.name for f in fields(Thermal)}
 
 
 @pytest.mark.parametrize("name", ELEMENT_KINDS)

@@ -15,6 +15,11 @@ def test_gum_7_2_2_standard_uncertainty_form():
 def test_gum_7_2_4_expanded_uncertainty_form():
     # JCGM 100:2008 (GUM) 7.2.4 example: m_S = (100.021 47 ± 0.000 79) g, k = 2.26
     assert measured(100.02147, 0.00079, "g", k=2.26) == "100.02147 ± 0.00079 g (k = 2.26)"
+    # the same example states the coverage probability with k (there "about 95 percent", from t for ν = 9)
+    assert measured(100.02147, 0.00079, "g", k=2.26, coverage=0.95) == "100.02147 ± 0.00079 g (k = 2.26, 95 % coverage)"
+    # k_p of a budget is written to two decimals with its p (GUM G.1.3: one rectangular term, k_p = √3·p)
+    assert measured(0.0105145, 0.0000123, "Ω", k=1.7320508 * 0.9545, coverage=0.9545) == \
+        "10.514 ± 0.012 mΩ (k = 1.65, 95.45 % coverage)"
 
 
 def test_two_significant_digits_and_value_to_the_same_place():

@@ -31,23 +31,24 @@ PFET = SPECS / "demo-pfet-10m.toml"
 
 
 def reference(paths, spec, model):
-    """Per-part (value, std_u, k) by the path `check` takes: load + fit_run, judged by `judging.judge_run`."""
+    """Per-part (value, std_u, U) by the path `check` takes: load + fit_run, judged by `judging.judge_run`
+    (U the one the verdict used: k_p·u of the comparison's budget)."""
     out, vf_at = [], None
     for path in paths:
         frame, meta = load(path)
         vf_at = vf_at or run_conditions(frame["current_a"].to_numpy(), frame["supply_v"].to_numpy(), meta, spec).current_a  # the first run's current
         j = judge_run(frame, meta, spec, at_a=vf_at)
         assert fit_run(frame, meta, model).model == model
-        out.append((j.value, j.std_u, 2.0))
+        out.append((j.value, j.std_u, j.decision_u))
     return out
 
 
 def assert_parts_match(summary, expected, paths):
     assert [p.run for p in summary.parts] == [str(p) for p in paths]  # the order given
-    for part, (value, u, k) in zip(summary.parts, expected):
+    for part, (value, u, big_u) in zip(summary.parts, expected):
         assert part.value == pytest.approx(value, rel=1e-12, abs=0)
         assert part.std_u == pytest.approx(u, rel=1e-12, abs=0)
-        assert part.expanded_u == pytest.approx(k * u, rel=1e-12, abs=0)
+        assert part.expanded_u == pytest.approx(big_u, rel=1e-12, abs=0)
 
 
 def test_lot_demo_07_matches_fit_run_part_by_part():

@@ -61,7 +61,9 @@ def test_single_run_report_shows_metadata_fit_verdict_and_escaped_user_text(tmp_
     assert verdict_divs == [check.verdict.outcome]
     assert check.verdict.rule in text
     fit = fit_run(frame, meta, check.model)
-    assert with_uncertainty(fit.params["r_on_ohm"], fit.expanded_u["r_on_ohm"], "Ω") in text
+    b = fit.budgets["r_on_ohm"]
+    assert with_uncertainty(fit.params["r_on_ohm"], fit.expanded_u["r_on_ohm"], "Ω", b.k, b.coverage_probability) in text
+    assert f"(k = {b.k:.2f}, 95.45 % coverage)" in text
 
     # events, limit hits and the safety note
     assert "1 limit hit(s) during this run" in text

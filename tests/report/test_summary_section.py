@@ -9,6 +9,7 @@ U(P) = I·U(V), is checked against `benchlog fit --at` in tests/cli/test_summary
 from __future__ import annotations
 
 import csv
+import re
 from pathlib import Path
 
 from benchlog.cli import main
@@ -46,7 +47,9 @@ def test_a_lot_report_holds_the_cli_summary_row_by_row(tmp_path, capsys):
         assert shown[col["loss (expanded U)"]] == row["loss"]
         assert shown[col["verdict"]] == row["verdict"] and row["verdict"] in ("pass", "fail", "conditional")
         # the text is the one formatter's (GUM 7.2.6 rounding) applied to the numbers the CSV keeps
-        assert row["loss"] == measured(float(row["loss_w"]), float(row["expanded_u_loss_w"]), "W", 2.0)
+        # with the drop's own k_p and the coverage probability stated (GUM 7.2.4, 6.3)
+        bare = measured(float(row["loss_w"]), float(row["expanded_u_loss_w"]), "W", None)
+        assert re.fullmatch(re.escape(bare) + r" \(k = \d\.\d\d, 95\.45 % coverage\)", row["loss"]), row["loss"]
     assert "fail" in [r[col["verdict"]] for r in table.rows]  # L07-0006 fails the lot's spec
     # each value once, as text with its U: the bare numbers stay in the CSV / xlsx
     assert "expanded_u_r_on_ohm" not in table.columns and "loss_w" not in table.columns

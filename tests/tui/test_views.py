@@ -6,9 +6,10 @@ flow over the real runner and simulated bench is in test_flow_sim.py.
 
 from __future__ import annotations
 
-import pytest
-
+import re
 from pathlib import Path
+
+import pytest
 
 from benchlog.sweep.plan import load_plan, plan_spec_path
 from benchlog.tui.app import VIEW_KEYS, BenchApp
@@ -171,7 +172,8 @@ async def test_results_show_fit_uncertainty_verdict_and_rule(scripted, runs_dir,
         text = screen_text(app)
         assert "VERDICT:" in text and any(w in text for w in ("PASS ✔", "FAIL ✘", "COND ◆"))
         assert "rule:" in text and "ILAC" in text
-        assert "R_on" in text and "± " in text and "(k = 2)" in text
+        # U stated with its coverage factor and probability (GUM 7.2.4; k_p of the budget, GUM 6.3)
+        assert "R_on" in text and "± " in text and re.search(r"\(k = \d\.\d\d, 95\.45 % coverage\)", text)
         assert "loss measured" in text and "predicted loss" in text
         await pilot.press("t")
         await pilot.pause(0.2)

@@ -10,6 +10,8 @@ from textual.containers import Horizontal, Vertical
 from textual.widgets import DataTable, Input, Static
 
 from ..plotting import Axis
+from benchlog.quantity import measured
+
 from ..units import si, with_uncertainty
 from ..lotview import QUANTITY_NAMES
 from ..widgets import HistogramPlot, Plain, RowTable, cells
@@ -96,6 +98,8 @@ class LotView(View):
             part = by_run.get(str(entry.run_path)) if entry.run_path else None
             if entry.value is None:
                 value = entry.message[:30] if entry.message else ("…" if entry.run_path else "no run")
+            elif part is not None:  # the U the part's verdict used (k_p of its comparison, 95.45 % coverage)
+                value = measured(entry.value, part.expanded_u, entry.unit, k=None)
             else:
                 value = with_uncertainty(entry.value, entry.std_u or 0.0, entry.unit).replace(" (k = 2)", "")
             outcome = part.outcome if part is not None else entry.verdict

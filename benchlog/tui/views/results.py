@@ -12,7 +12,7 @@ from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Static
 
-from benchlog.quantity import label_of, unit_of
+from benchlog.quantity import coverage_text, label_of, measured, unit_of
 
 from ..findings import RunFindings
 from ..plotting import Axis, Series, line_series
@@ -69,8 +69,18 @@ def check_lines(check) -> list[str]:
     lines = [f" at {si(check.current_a, 'A')} ({check.current_source}), ambient {check.ambient_c:g} °C"]
     if is_extrapolated(check):
         lines.append(f"  ⚠ {check.extrapolation.text()}")
-    lines += [f"  drop {how}     {with_uncertainty(check.measured_drop_v, check.drop_std_u_v, 'V', k)}",
-              f"  loss {how}     {with_uncertainty(check.measured_loss_w, check.loss_std_u_w, 'W', k)}"]
+    j = getattr(check, "judgement", None)
+    if j is not None:  # the conditions the verdict is judged at come before the values judged there
+        lines.append(f"  judged at Tj          {j.tj.value_c:.2f} ± {j.tj.u_c:.2g} °C ({j.tj.source})")
+        if j.gate is not None:
+            vgs = "unknown" if j.gate.vgs_v is None else f"{j.gate.vgs_v:.4g} V"
+            lines.append(f"  gate drive |Vgs|      {vgs} (spec's maximum at {j.gate.spec_vgs_v:g} V)")
+        for bar in j.bars:
+            lines.append(f"  ! {bar}")
+    p = check.coverage_probability
+    lines += [f"  drop {how}     {measured(check.measured_drop_v, k * check.drop_std_u_v, 'V', None)}",
+              f"  loss {how}     {measured(check.measured_loss_w, k * check.loss_std_u_w, 'W', None)}",
+              f"  ± U                   {coverage_text(k, p)}"]
     predicted = check.predicted
     for label, point in (("typ", predicted.typical), ("max", predicted.maximum)):
         if point is None or point.loss_w is None:
@@ -80,14 +90,6 @@ def check_lines(check) -> list[str]:
     limit = check.verdict.limit
     if limit is not None:
         lines.append(f"  limit                 {si(limit, 'W')} ({check.verdict.limit_source})")
-    j = getattr(check, "judgement", None)
-    if j is not None:
-        lines.append(f"  judged at Tj          {j.tj.value_c:.2f} ± {j.tj.u_c:.2g} °C ({j.tj.source})")
-        if j.gate is not None:
-            vgs = "unknown" if j.gate.vgs_v is None else f"{j.gate.vgs_v:.4g} V"
-            lines.append(f"  gate drive |Vgs|      {vgs} (spec's maximum at {j.gate.spec_vgs_v:g} V)")
-        for bar in j.bars:
-            lines.append(f"  ! {bar}")
     if check.typical_comparison:
         lines.append(f"  {check.typical_comparison}")
     return lines
@@ -238,11 +240,12 @@ class ResultsView(View):
         fit = f.fit
         chosen = "CHOSEN with m; a new run starts on auto" if f.model != "auto" else "automatic choice"
         lines = [f" fit: {fit.model} ({chosen}), {fit.points} points", f"  why: {fit.reason}"]
-        k = getattr(fit, "k", 2.0)
         for key, value in fit.params.items():
             name, unit = PARAM_NAMES.get(key, (key, ""))
             u = fit.std_u.get(key)
-            shown = with_uncertainty(value, u, unit, k) if u is not None else si(value, unit)
+            b = fit.budgets.get(key)  # each parameter's own k_p (GUM 6.3)
+            shown = (with_uncertainty(value, u, unit, b.k, b.coverage_probability) if u is not None and b is not None
+                     else si(value, unit))
             lines.append(f"  {name:<7}{shown}")
         outliers = int(np.count_nonzero(fit.outliers)) if fit.outliers is not None else 0
         lines.append(f"  outliers: {outliers} flagged (kept in the file)")
@@ -256,7 +259,8 @@ class ResultsView(View):
         lines = []
         at = operating_current(f)
         if at is not None and f.fit is not None:
-            drop, u_drop = f.fit.drop_at(at)
+            drop, big_u, k = f.fit.drop_expanded_at(at)
+            p = f.fit.coverage_probability
             lines.append(f" at {si(at, 'A')} (operating point, no spec)")
             current = np.asarray(f.fit.current_a, dtype=float)
             outside = bool(current.size) and not (float(np.nanmin(current)) <= at <= float(np.nanmax(current)))
@@ -264,8 +268,9 @@ class ResultsView(View):
             if outside:
                 lines.append(f"  ⚠ extrapolated: {si(at, 'A')} is outside the fitted currents "
                              f"{si(float(np.nanmin(current)), 'A')}–{si(float(np.nanmax(current)), 'A')}")
-            lines.append(f"  drop ({how})   {with_uncertainty(drop, u_drop, 'V')}")
-            lines.append(f"  loss ({how})   {with_uncertainty(drop * at, u_drop * at, 'W')}")
+            # U of the drop's own budget, k_p for 95.45 % (GUM 6.3); with_uncertainty takes u and k
+            lines.append(f"  drop ({how})   {with_uncertainty(drop, big_u / k, 'V', k, p)}")
+            lines.append(f"  loss ({how})   {with_uncertainty(drop * at, big_u * at / k, 'W', k, p)}")
         if f.check_error:
             lines.append(f"  prediction: ✘ {f.check_error}")
         box.update("\n".join(lines))
