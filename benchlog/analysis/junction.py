@@ -334,10 +334,13 @@ def junction_temperature(
         # a bend of the other sign is not heating (the model fits less well there): only a rise counts
         unresolved = math.hypot(max(heating.rise_c, 0.0), heating.u_c)
         u = math.hypot(ambient_u_c, unresolved)
-        return JunctionTemperature(ambient_c, u, "assumed",
-                                   f"the ambient; the sweep's own heating is below resolution "
-                                   f"({with_standard(heating.rise_c, heating.u_c, 'K')}, {p_value(heating.p_value)}) "
-                                   f"and kept in u; {ambient_why}")
+        seen = f"({with_standard(heating.rise_c, heating.u_c, 'K')}, {p_value(heating.p_value)})"
+        if heating.rise_c < 0 and heating.p_value < _alpha():
+            # a firm bend the other way: the model does not fit the drop, so no rise can be read from it
+            why = f"the drop bends the other way from heating {seen}: the model does not fit, no rise read from it"
+        else:
+            why = f"the sweep's own heating is below resolution {seen}"
+        return JunctionTemperature(ambient_c, u, "assumed", f"the ambient; {why}; kept in u; {ambient_why}")
     if steady_rise_c is not None and steady_rise_c > 0:
         # untested: the steady-state rise P·RθJA bounds what any sweep can reach (rectangular, GUM 4.3.7)
         u = math.hypot(ambient_u_c, steady_rise_c / math.sqrt(3.0))
@@ -347,3 +350,9 @@ def junction_temperature(
     return JunctionTemperature(ambient_c, ambient_u_c, "assumed",
                                f"the ambient (too few points to test the sweep's heating, no RθJA to bound it); "
                                f"{ambient_why}")
+
+
+def _alpha() -> float:
+    from .self_heating import ALPHA
+
+    return ALPHA

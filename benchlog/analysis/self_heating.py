@@ -160,8 +160,8 @@ def _updown(e, i, direction, setpoint, sign, resistive, r_value, tempco, alpha, 
             out["updown_delta_t_c"] = float(diffs @ curr / (curr @ curr)) / (r_value * tempco)
         else:
             out["updown_delta_t_c"] = shift / tempco
-    sign = "+" if shift >= 0 else "−"
-    text = (f"down-sweep minus up-sweep {sign}{engineering(abs(shift), 'V')} over {common.size} setpoints "
+    mark = "+" if shift >= 0 else "−"
+    text = (f"down-sweep minus up-sweep {mark}{engineering(abs(shift), 'V')} over {common.size} setpoints "
             f"(paired t test {p_value(p)})")
     if "updown_delta_t_c" in out:
         text += f", the down pass {out['updown_delta_t_c']:.3g} K warmer"
