@@ -182,3 +182,11 @@ LABELS = {
 def label_of(key: str) -> str:
     """The symbol for a quantity's JSON key (`r_on_ohm` -> `R_on`); the key itself when none is known."""
     return LABELS.get(key, key)
+
+
+def p_value(p: float | None) -> str:
+    """A test's p-value in words: `p = 0.012`, and `p < 0.001` below that (common practice in reporting tests)."""
+    if not _finite(p):
+        return "p —"
+    p = float(p)
+    return "p < 0.001" if p < 0.001 else f"p = {p:.2g}"

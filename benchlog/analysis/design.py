@@ -30,7 +30,7 @@ from dataclasses import dataclass
 from . import eseries
 from .predict import Prediction, predict, reverse_leakage
 from benchlog.kinds import kind as element_kind
-from benchlog.quantity import margin as quantity_margin
+from benchlog.quantity import engineering, margin as quantity_margin
 
 from .low_input import Takeover, guaranteed_vgs_v, takeover_input_v
 from .spec import PartSpec
@@ -359,8 +359,8 @@ def review_candidate(design: Design, cand: Candidate, clamp: ClampSizing | None)
             else:
                 checks.append(DesignCheck(
                     "reverse leakage", leak_a <= m.leakage_max_a,
-                    f"{leak_a * 1e6:.3g} µA at {design.reverse_v:g} V reversed, Tj {rev_tj:.1f} °C "
-                    f"(wanted ≤ {m.leakage_max_a * 1e6:g} µA){'; ' + leak.note if leak.note else ''}"))
+                    f"{engineering(leak_a, 'A', 3)} at {design.reverse_v:g} V reversed, Tj {rev_tj:.1f} °C "
+                    f"(wanted ≤ {engineering(m.leakage_max_a, 'A', trim=True)}){'; ' + leak.note if leak.note else ''}"))
     current_rating, check_name, symbol = spec.part.current_rating
     if current_rating is not None:
         checks.append(DesignCheck(check_name, design.load_max_a <= current_rating,

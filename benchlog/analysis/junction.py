@@ -39,7 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from benchlog.ambient import DEFAULT_AMBIENT_HALF_WIDTH_K
-from benchlog.quantity import with_standard
+from benchlog.quantity import p_value, with_standard
 
 TJ_SOURCES = ("measured", "inferred", "assumed")
 
@@ -328,16 +328,19 @@ def junction_temperature(
         u = math.hypot(ambient_u_c, heating.u_c)
         return JunctionTemperature(ambient_c + heating.rise_c, u, "inferred",
                                    f"ambient {ambient_c:g} °C plus the sweep's own heating "
-                                   f"{heating.rise_c:.3g} ± {heating.u_c:.2g} K seen in the drop "
-                                   f"(p = {heating.p_value:.2g}); {ambient_why}")
+                                   f"{with_standard(heating.rise_c, heating.u_c, 'K')} seen in the drop "
+                                   f"({p_value(heating.p_value)}); {ambient_why}")
     if heating is not None:
         # a bend of the other sign is not heating (the model fits less well there): only a rise counts
         unresolved = math.hypot(max(heating.rise_c, 0.0), heating.u_c)
         u = math.hypot(ambient_u_c, unresolved)
-        return JunctionTemperature(ambient_c, u, "assumed",
-                                   f"the ambient; the sweep's own heating is below resolution "
-                                   f"({heating.rise_c:+.2g} ± {heating.u_c:.2g} K, p = {heating.p_value:.2g}) "
-                                   f"and kept in u; {ambient_why}")
+        seen = f"({with_standard(heating.rise_c, heating.u_c, 'K')}, {p_value(heating.p_value)})"
+        if heating.rise_c < 0 and heating.p_value < _alpha():
+            # a firm bend the other way: the model does not fit the drop, so no rise can be read from it
+            why = f"the drop bends the other way from heating {seen}: the model does not fit, no rise read from it"
+        else:
+            why = f"the sweep's own heating is below resolution {seen}"
+        return JunctionTemperature(ambient_c, u, "assumed", f"the ambient; {why}; kept in u; {ambient_why}")
     if steady_rise_c is not None and steady_rise_c > 0:
         # untested: the steady-state rise P·RθJA bounds what any sweep can reach (rectangular, GUM 4.3.7)
         u = math.hypot(ambient_u_c, steady_rise_c / math.sqrt(3.0))
@@ -347,3 +350,9 @@ def junction_temperature(
     return JunctionTemperature(ambient_c, ambient_u_c, "assumed",
                                f"the ambient (too few points to test the sweep's heating, no RθJA to bound it); "
                                f"{ambient_why}")
+
+
+def _alpha() -> float:
+    from .self_heating import ALPHA
+
+    return ALPHA

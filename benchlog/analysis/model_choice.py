@@ -32,6 +32,8 @@ calls unresolved (the junction's rule, drop resolved above zero, included).
 
 from __future__ import annotations
 
+from benchlog.quantity import with_standard
+
 import math
 
 import numpy as np
@@ -149,7 +151,7 @@ def fit_auto(
     elif quick and tie_break != "diode":
         c, u_c = concave_curvature(i[used], v[used], None if line.weights is None else line.weights[used])
         if math.isfinite(c) and u_c > 0 and c > -CURVATURE_T * u_c:
-            why_not_diode = (f"no concave bend (quadratic term {c:.3g} ± {u_c:.2g} V/A², above −{CURVATURE_T:g} u): "
+            why_not_diode = (f"no concave bend (quadratic term {with_standard(c, u_c, 'V/A²')}, above −{CURVATURE_T:g} u): "
                              "the diode law, concave everywhere, cannot win; not fitted")
     if temperature_c is not None and not why_not_diode:
         try:

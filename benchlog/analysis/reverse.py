@@ -29,6 +29,8 @@ with a current inside the plan's limit) means the element conducted: fail.
 
 from __future__ import annotations
 
+from benchlog.quantity import engineering, measured
+
 import math
 from dataclasses import dataclass
 
@@ -75,9 +77,16 @@ class ReverseVerdict:
     reason: str
 
     def text(self) -> str:
-        u = f" ± {self.expanded_u_a:.2g}" if self.expanded_u_a else ""
-        return (f"reverse {self.outcome.upper()}: {self.current_a:.3g}{u} A at {self.voltage_v:g} V reversed for "
-                f"{self.duration_s:g} s against {self.limit_a:.3g} A ({self.limit_at}); {self.reason}")
+        return reverse_line(self.outcome, self.current_a, self.expanded_u_a, self.voltage_v, self.duration_s,
+                            self.limit_a, self.limit_at, self.reason)
+
+
+def reverse_line(outcome: str, current_a: float, expanded_u_a: float | None, voltage_v: float, duration_s: float,
+                 limit_a: float, limit_at: str, reason: str) -> str:
+    """The reverse verdict in one line (`fit` writes it from `--json`'s entry, `check` from the verdict)."""
+    current = measured(current_a, expanded_u_a, "A", None) if expanded_u_a else engineering(current_a, "A")
+    return (f"reverse {outcome.upper()}: {current} at {voltage_v:g} V reversed for {duration_s:g} s "
+            f"against {engineering(limit_a, 'A', 3)} ({limit_at}); {reason}")
 
 
 def reverse_test_temperature_c(points, meta) -> tuple[float, float, str]:
@@ -128,7 +137,7 @@ def judge_reverse(record, spec: PartSpec | None = None, points=None, meta=None) 
             return value * scale * 2.0 ** ((temp - at_c) / doubling)
 
         spec_limit, lo, hi = at(t), at(t - K * u_t), at(t + K * u_t)
-        spec_words = (f"spec {name} {value:.3g} A at {at_v:g} V, {at_c:g} °C, moved to {t:.1f} °C ({source}, "
+        spec_words = (f"spec {name} {engineering(value, 'A', 3)} at {at_v:g} V, {at_c:g} °C, moved to {t:.1f} °C ({source}, "
                       f"u = {u_t:g} K) by doubling every {doubling:g} K ({words})")
         if above_stated:
             spec_words += f"; the test's {v:g} V is above the stated {at_v:g} V: scaled in proportion, cannot pass"
@@ -136,9 +145,9 @@ def judge_reverse(record, spec: PartSpec | None = None, points=None, meta=None) 
         limit, limit_at = spec_limit, spec_words
     else:
         limit, lo, hi = plan_limit, plan_limit, plan_limit
-        limit_at = f"plan's [reverse].max_current_a {plan_limit:.3g} A"
+        limit_at = f"plan's [reverse].max_current_a {engineering(plan_limit, 'A', 3)}"
         if spec_limit is not None:
-            limit_at += f" (tighter than the {spec_limit:.3g} A of the {spec_words})"
+            limit_at += f" (tighter than the {engineering(spec_limit, 'A', 3)} of the {spec_words})"
         elif spec is not None:
             limit_at += "; the spec gives no reverse leakage"
     big_u = reading_expanded_u_a(meta, i)
@@ -147,14 +156,14 @@ def judge_reverse(record, spec: PartSpec | None = None, points=None, meta=None) 
     if not held:
         outcome, reason = "fail", (f"the supply could not hold {v:g} V reversed: the element conducts in reverse")
     elif not math.isfinite(i) or i - u > hi:
-        outcome, reason = "fail", f"{i:.3g} A − U is above the limit even at the warm end ({hi:.3g} A)"
+        outcome, reason = "fail", f"{engineering(i, 'A', 3)} − U is above the limit even at the warm end ({engineering(hi, 'A', 3)})"
     elif i + u <= lo and not above_stated:
-        outcome, reason = "pass", f"{i:.3g} A + U is within the limit even at the cool end ({lo:.3g} A)"
+        outcome, reason = "pass", f"{engineering(i, 'A', 3)} + U is within the limit even at the cool end ({engineering(lo, 'A', 3)})"
     elif above_stated:
         outcome, reason = "conditional", "tested above the voltage the spec's limit is stated at"
     else:
-        outcome, reason = "conditional", (f"{i:.3g} A ± U overlaps the limit between the cool and warm ends of the "
-                                          f"test temperature ({lo:.3g}–{hi:.3g} A)")
+        outcome, reason = "conditional", (f"{engineering(i, 'A', 3)} ± U overlaps the limit between the cool and warm ends of the "
+                                          f"test temperature ({engineering(lo, 'A', 3)} to {engineering(hi, 'A', 3)})")
     if big_u is None:
         reason += "; the run kept no accuracy for the reverse reading: judged with U = 0"
     return ReverseVerdict(v, float(record.duration_s), i, float(limit), big_u, outcome, limit_at, t, u_t, source,

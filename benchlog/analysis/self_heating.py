@@ -21,6 +21,8 @@ the rise at the highest power, the hysteresis the extra heat of the down pass.
 
 from __future__ import annotations
 
+from benchlog.quantity import engineering, p_value
+
 import math
 from dataclasses import dataclass
 
@@ -158,7 +160,9 @@ def _updown(e, i, direction, setpoint, sign, resistive, r_value, tempco, alpha, 
             out["updown_delta_t_c"] = float(diffs @ curr / (curr @ curr)) / (r_value * tempco)
         else:
             out["updown_delta_t_c"] = shift / tempco
-    text = f"down-sweep minus up-sweep {shift * 1e3:+.4g} mV over {common.size} setpoints (paired t test p = {p:.2g})"
+    mark = "+" if shift >= 0 else "−"
+    text = (f"down-sweep minus up-sweep {mark}{engineering(abs(shift), 'V')} over {common.size} setpoints "
+            f"(paired t test {p_value(p)})")
     if "updown_delta_t_c" in out:
         text += f", the down pass {out['updown_delta_t_c']:.3g} K warmer"
     if p < alpha:
@@ -219,7 +223,7 @@ def _trend(fit, keep, e, i, v, sign, resistive, r_value, tempco, alpha, found, q
         theta = b / (r_cold * tempco) if resistive else b / tempco  # K/W
         out["trend_delta_t_c"] = float(theta * np.max(power))
     shape = "I·P (apparent R rising with I²)" if resistive else "P = I·V"
-    text = f"residuals trend with {shape}: t = {t:.3g}, p = {p:.2g}"
+    text = f"residuals trend with {shape}: t = {t:.3g}, {p_value(p)}"
     if "trend_delta_t_c" in out:
         text += f", rise at the highest power {out['trend_delta_t_c']:.3g} K"
     if p < alpha and math.copysign(1.0, b) == sign:

@@ -39,6 +39,7 @@ import numpy as np
 
 from benchlog.ambient import DEFAULT_AMBIENT_C, DEFAULT_AMBIENT_HALF_WIDTH_K
 from benchlog.kinds import ELEMENT_KINDS, kind as element_kind
+from benchlog.quantity import engineering, measured, with_standard
 from .columns import column
 
 # The run record's words for a soak (benchlog.runs.events; analysis imports no other layer, a test keeps
@@ -175,7 +176,7 @@ class SoakResult:
             return None
         ratio = self.rth_k_per_w / self.spec_rth_ja_k_per_w
         return (f"the spec's RθJA {self.spec_rth_ja_k_per_w:g} K/W is measured on {TEST_BOARDS}; this board measures "
-                f"{self.rth_k_per_w:.3g} ± {2 * self.rth_u_k_per_w:.2g} K/W (k = 2), {ratio * 100:.0f} % of it")
+                f"{measured(self.rth_k_per_w, 2 * self.rth_u_k_per_w, 'K/W', 2)}, {ratio * 100:.0f} % of it")
 
     def to_json(self) -> dict[str, Any]:
         return {
@@ -521,13 +522,14 @@ def analyse_soak(frame: Any, meta: Any, spec: Any = None) -> SoakResult:
 def soak_text(result: SoakResult) -> list[str]:
     """The heat-soak's lines for `fit` and `check`."""
     r = result
-    taus = ", ".join(f"{t:.3g} ± {2 * u:.2g} s" for t, u in zip(r.tau_s, r.tau_u_s))
+    taus = ", ".join(measured(t, 2 * u, "s", None) for t, u in zip(r.tau_s, r.tau_u_s))
     lines = [
-        f"heat-soak at {r.current_a:.4g} A ({r.power_w:.4g} W): RθJA on this board {r.rth_k_per_w:.4g} ± "
-        f"{2 * r.rth_u_k_per_w:.2g} K/W (k = 2), {r.chosen.poles} time constant(s) by AICc: {taus}",
-        f"  ΔTj from the drift with the {r.tempco.source} tempco {r.tempco.value:.4g} ± {r.tempco.u:.2g} "
-        f"{r.tempco.unit} ({r.tempco.note})",
-        f"  Tj at steady state {r.tj_steady_c:.1f} ± {2 * r.tj_steady_u_c:.1f} °C (k = 2) at ambient "
+        f"heat-soak at {engineering(r.current_a, 'A')} ({engineering(r.power_w, 'W')}): RθJA on this board "
+        f"{measured(r.rth_k_per_w, 2 * r.rth_u_k_per_w, 'K/W', 2)}, {r.chosen.poles} time constant(s) by AICc "
+        f"(k = 2): {taus}",
+        f"  ΔTj from the drift with the {r.tempco.source} tempco "
+        f"{with_standard(r.tempco.value, r.tempco.u, r.tempco.unit)} ({r.tempco.note})",
+        f"  Tj at steady state {measured(r.tj_steady_c, 2 * r.tj_steady_u_c, '°C', 2)} at ambient "
         f"{r.ambient_c:.1f} °C ({r.ambient_source})"
         + (f"; margin to Tj max {r.tj_max_c:g} °C: {r.tj_margin_c:.1f} K" if r.tj_max_c is not None else ""),
         "  budget of Rθ (standard u): " + ", ".join(f"{name} {u:.2g} K/W" for name, u in r.budget),

@@ -125,7 +125,7 @@ def _estimate(args) -> int:
             if op is None:
                 continue
             state = op.message if not op.converged else f"{op.iterations} iterations, {op.conduction}"
-            print(f"  {op.variant:<8} drop {_fmt(op.drop_v, '.4g', 'V'):>10}  loss {_fmt(op.loss_w, '.4g', 'W'):>10}  "
+            print(f"  {op.variant:<8} drop {engineering(op.drop_v, 'V'):>10}  loss {engineering(op.loss_w, 'W'):>10}  "
                   f"Tj {_fmt(op.tj_c, '.1f', '°C'):>9}  ({state})")
             if op.over_tj_max or op.runaway:
                 print(f"  ! {op.message}")
@@ -382,10 +382,10 @@ def _design(args) -> int:
           + (f", reverse {d.reverse_v:g} V" if d.reverse_v else "")
           + f"; load {d.load_nominal_a:g} A (max {d.load_max_a:g} A); ambient up to {d.ambient_max_c:g} °C")
     rows = [
-        ("drop (nominal)", lambda c: _fmt(c.drop_v, ".3g", "V")),
-        ("loss (nominal)", lambda c: _fmt(c.loss_w, ".3g", "W")),
+        ("drop (nominal)", lambda c: engineering(c.drop_v, "V", 3)),
+        ("loss (nominal)", lambda c: engineering(c.loss_w, "W", 3)),
         ("efficiency", lambda c: _fmt(None if c.efficiency is None else c.efficiency * 100, ".2f", "%")),
-        ("loss (worst)", lambda c: _fmt(c.worst_loss_w, ".3g", "W")),
+        ("loss (worst)", lambda c: engineering(c.worst_loss_w, "W", 3)),
         ("Tj (worst)", lambda c: _fmt(c.tj_c, ".0f", "°C")),
         ("Tj margin", lambda c: _fmt(c.tj_margin_k, ".0f", "K")),
         ("blocking headroom", lambda c: _fmt(c.blocking_headroom_v, ".3g", "V")),
@@ -394,8 +394,8 @@ def _design(args) -> int:
         ("threshold margin", lambda c: _fmt(c.threshold_margin_v, ".2f", "V")),
         ("R_DS(on) down to", lambda c: _fmt(c.guaranteed_vgs_v, ".3g", "V")),
         ("takeover below", lambda c: _fmt(c.takeover_v, ".3g", "V")),
-        ("loss below it", lambda c: _fmt(None if c.takeover is None else c.takeover.body_loss_w, ".3g", "W")),
-        ("reverse leakage", lambda c: _fmt(None if c.leakage_a is None else c.leakage_a * 1e6, ".3g", "µA")),
+        ("loss below it", lambda c: engineering(None if c.takeover is None else c.takeover.body_loss_w, "W", 3)),
+        ("reverse leakage", lambda c: engineering(c.leakage_a, "A", 3)),
         ("meets every check", lambda c: "yes" if c.acceptable else "no"),
     ]
     width = max(14, *(len(c.label) for c in r.candidates))
@@ -409,8 +409,8 @@ def _design(args) -> int:
     if r.clamp is not None:
         k = r.clamp
         print(f"  gate clamp: {k.zener_v:g} V zener, {k.resistor_ohm:g} Ω ({k.series}); at {k.at_vin_v:g} V: "
-              f"{k.zener_current_a * 1e3:.3g} mA, zener {k.zener_power_w * 1e3:.3g} mW, "
-              f"resistor {k.resistor_power_w * 1e3:.3g} mW (≥ {k.resistor_rating_w:g} W part)"
+              f"{engineering(k.zener_current_a, 'A', 3)}, zener {engineering(k.zener_power_w, 'W', 3)}, "
+              f"resistor {engineering(k.resistor_power_w, 'W', 3)} (≥ {k.resistor_rating_w:g} W part)"
               + (f"; {k.note}" if k.note else ""))
     print(f"  {r.recommendation}")
     for reason in r.reasons:

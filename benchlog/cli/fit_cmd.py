@@ -193,9 +193,10 @@ def print_human(payload: dict[str, Any]) -> None:
                                payload["coverage_probability"]))
     rev = payload.get("reverse")
     if rev is not None:
-        u = f" ± {rev['expanded_u_a']:.2g}" if rev.get("expanded_u_a") else ""
-        print(f"  reverse {rev['verdict'].upper()}: {rev['current_a']:.3g}{u} A at {rev['voltage_v']:g} V reversed "
-              f"for {rev['duration_s']:g} s against {rev['limit_a']:.3g} A ({rev['limit_at']}); {rev['reason']}")
+        from benchlog.analysis.reverse import reverse_line
+
+        print("  " + reverse_line(rev["verdict"], rev["current_a"], rev.get("expanded_u_a"), rev["voltage_v"],
+                                  rev["duration_s"], rev["limit_a"], rev["limit_at"], rev["reason"]))
     from .sweeps_out import print_sweeps
 
     print_sweeps(payload)

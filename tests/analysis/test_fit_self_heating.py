@@ -66,7 +66,7 @@ def test_lagging_heating_splits_up_and_down():
     frame = add_noise(updown_frame(np.linspace(0.25, 5, 20), resistor, tau_steps=4.0), 2e-5, 3)
     fit = fit_resistive(frame.current_a, frame.drop_v, point_index=frame["index"])
     result = detect_self_heating(frame, fit, tempco_per_k=ALPHA_R)
-    assert result.detected and "hysteresis" in result.reason
+    assert result.detected and "hysteresis: " in result.reason and "hysteresis of the sign opposite" not in result.reason
     assert result.updown_shift_v > 0  # R rises with T, so the warmer down pass drops more
     assert result.updown_delta_t_c > 0
     # without a tempco it is still detected, but no rise is claimed
@@ -83,7 +83,8 @@ def test_diode_heating_lowers_the_down_pass():
     frame = add_noise(updown_frame(np.linspace(0.1, 3, 20), diode, tau_steps=4.0), 2e-4, 4)
     fit = fit_diode(frame.current_a, frame.drop_v, temperature_c=25.0, point_index=frame["index"])
     result = detect_self_heating(frame, fit, tempco_per_k=tc)
-    assert result.detected and "hysteresis" in result.reason
+    assert result.detected and "hysteresis: " in result.reason
+    assert "hysteresis of the sign opposite" not in result.reason  # a lower down pass is a diode's heating, not the other sign
     assert result.updown_shift_v < 0 and result.updown_delta_t_c > 0
     clean = add_noise(updown_frame(np.linspace(0.1, 3, 20), lambda i, r: diode(i, 0.0)), 2e-4, 5)
     fit_c = fit_diode(clean.current_a, clean.drop_v, temperature_c=25.0, point_index=clean["index"])

@@ -67,3 +67,25 @@ def test_lot_text_writes_each_number_one_way(capsys):
     table = [line for line in text.splitlines() if line.startswith(("  mean", "  limits"))]
     assert table, text
     _numbers_are_written_one_way("\n".join(table))
+
+
+@pytest.mark.parametrize("run", sorted(p.name for p in SAMPLES.glob("*.run")))
+def test_fit_text_writes_each_number_one_way(capsys, run):
+    _numbers_are_written_one_way(_run(capsys, "fit", str(SAMPLES / run)))
+
+
+def test_estimate_and_design_text_write_each_number_one_way(capsys):
+    specs = sorted(str(p) for p in SPECS.glob("*.toml"))
+    _numbers_are_written_one_way(_run(capsys, "estimate", "--at", "2", *specs))
+    _numbers_are_written_one_way(_run(capsys, "design", str(SPECS.parent / "design.toml")))
+
+
+def test_p_values_are_written_as_tests_report_them():
+    """`p < 0.001` below a thousandth, two significant digits above (common practice in reporting tests)."""
+    from benchlog.quantity import p_value
+
+    assert p_value(4.4e-13) == "p < 0.001"
+    assert p_value(0.00036) == "p < 0.001"
+    assert p_value(0.0012) == "p = 0.0012"
+    assert p_value(0.0789) == "p = 0.079"
+    assert p_value(float("nan")) == "p —"
