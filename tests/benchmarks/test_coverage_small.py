@@ -32,7 +32,7 @@ def test_the_lower_bound_of_the_band_is_rare_for_a_right_interval():
 @pytest.mark.slow
 def test_expanded_uncertainty_covers_the_truth_on_the_simulated_bench(tmp_path):
     out = tmp_path / "figures.json"
-    done = subprocess.run([sys.executable, str(SCRIPT), "--sweeps", "30", "--jobs", "3", "--dir",
+    done = subprocess.run([sys.executable, str(SCRIPT), "--sweeps", "30", "--jobs", "10", "--dir",
                            str(tmp_path / "runs"), "--json", str(out)], cwd=tmp_path, capture_output=True, text=True,
                           timeout=900)
     assert done.returncode == 0, done.stderr[-3000:]
