@@ -155,6 +155,7 @@ def main() -> int:
         import tempfile
 
         args.sweeps = 3
+        args.jobs = max(args.jobs, 3)  # the three sweeps of an element at once: they wait, not compute
         if args.dir == DEFAULT_DIR:  # never mix a quick check with kept full-size recordings
             args.dir = tempfile.mkdtemp(prefix="benchlog-coverage-quick-")
     args.dir = args.dir.format(timing=args.sim_timing)
