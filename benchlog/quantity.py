@@ -128,7 +128,7 @@ def coverage_text(k: float, coverage: float | None = None) -> str:
     """`k = 1.73, 95.45 % coverage` (GUM 7.2.4: U is stated with k and the coverage probability p it is for);
     without p, `k = 2` alone (a factor chosen, not derived from a distribution)."""
     if coverage is None:
-        return f"k = {k:g}"
+        return f"k = {k:.3g}"
     return f"k = {k:.2f}, {coverage * 100:g} % coverage"
 
 

@@ -82,3 +82,12 @@ def test_units_without_prefix_and_keys():
 def test_margin_never_a_double_negative():
     assert margin(21.0, "K", "Tj max") == "21.0 K below Tj max"
     assert margin(-3.04, "K", "Tj max") == "3.0 K above Tj max"
+
+
+def test_a_chosen_coverage_factor_is_written_with_three_digits_at_most():
+    # GUM 7.2.4 states k beside U; a factor such as a t quantile (2.30769...) is written 2.31, not to six digits
+    from benchlog.quantity import coverage_text
+
+    assert coverage_text(2.0) == "k = 2"
+    assert coverage_text(2.3076923) == "k = 2.31"
+    assert coverage_text(1.7143, 0.9545) == "k = 1.71, 95.45 % coverage"
