@@ -71,30 +71,6 @@ def register(sub) -> None:
     p.set_defaults(handler=run)
 
 
-def _trend_section(args):
-    """The archive's control chart of one fitted quantity, as a report section (composed here: cli sees both)."""
-    from benchlog.report.document import FigureBlock, Paragraph, Section
-    from benchlog.store import open_archive
-    from benchlog.store.chart_figure import chart_figure
-    from benchlog.store.control_chart import LIMITS_SOURCE, RULES_SOURCE
-    from benchlog.store.trend import trend
-
-    archive = open_archive(args.db)
-    try:
-        found = trend(archive, args.trend, args.trend_by)  # the same chart as `archive trend` and the UI's
-    finally:
-        archive.close()
-    chart, stats = found.chart, found.stats
-    hits = "; ".join(f"rule {h.rule} ({h.text}) at {chart.labels[h.index]}" for h in chart.hits) or "none"
-    return Section(f"Trend of {args.trend} by {args.trend_by} (archive)", blocks=(
-        FigureBlock("trend", chart_figure(chart, args.trend, args.trend_by),
-                    caption=f"{LIMITS_SOURCE} ({chart.kind}) of {stats.runs} archived runs in "
-                            f"{len(chart.values)} subgroups; ringed points complete a run rule ({RULES_SOURCE})."),
-        Paragraph(f"Archive {archive.shown_url}. Centre {chart.centre:.6g}, σ̂ {chart.sigma:.3g}. "
-                  f"Run-rule hits: {hits}."),
-    ))
-
-
 def run(args) -> int:
     out = Path(args.output)
     if out.suffix.lower() not in SUFFIXES:
@@ -120,12 +96,13 @@ def run(args) -> int:
     from benchlog.report.build import build_report
     from benchlog.report.figures import save
 
-    archived = [_trend_section(args)] if args.trend else []
-    if args.history is not None or args.compare_lots is not None or args.find is not None:
+    archived = []
+    if asks_archive:
         from benchlog.report.archive_sections import archive_sections
 
-        archived += archive_sections(args.db, serial=args.history, lots=args.compare_lots,
-                                     quantity=args.lots_quantity, usl=args.usl, lsl=args.lsl, find=args.find)
+        archived = archive_sections(args.db, trend=args.trend, trend_by=args.trend_by, serial=args.history,
+                                    lots=args.compare_lots, quantity=args.lots_quantity, usl=args.usl,
+                                    lsl=args.lsl, find=args.find)
     doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a, design_path=args.design,
                        compare=True if args.compare else None, archived=archived)
     try:

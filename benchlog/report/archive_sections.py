@@ -1,8 +1,9 @@
-"""Report sections that ask the lab archive: a part's history, two lots compared, the runs a filter selects.
+"""Report sections that ask the lab archive: a quantity's trend, a part's history, two lots compared, the runs
+a filter selects.
 
-Each section asks through the very functions `benchlog archive history / compare-lots / find`
-use (`store.queries.history`, `store.lots.compare_lots`, `store.queries.find_runs`), so the
-report and the CLI give one answer. Every string is plain text; the renderers escape it.
+Each section asks through the very functions `benchlog archive trend / history / compare-lots / find`
+use (`store.trend.trend`, `store.queries.history`, `store.lots.compare_lots`, `store.queries.find_runs`),
+so the report, the CLI and the UI give one answer. Every string is plain text; the renderers escape it.
 """
 
 from __future__ import annotations
@@ -10,7 +11,7 @@ from __future__ import annotations
 from benchlog.badinput import BadInput
 from benchlog.quantity import engineering, label_of, measured, p_value, unit_of
 
-from .document import Paragraph, Section, Table
+from .document import FigureBlock, Paragraph, Section, Table
 
 #: At most this many runs are listed by a `--find` section; the rest are counted.
 FIND_ROWS = 200
@@ -33,6 +34,24 @@ def _rows(runs: list[dict]) -> tuple[tuple[str, ...], ...]:
 
 
 COLUMNS = ("started (UTC)", "bench", "serial", "lot", "run", "outcome", "fitted values (± U)", "verdict")
+
+
+def trend_section(archive, quantity: str, by: str) -> Section:
+    """The archive's control chart of one fitted quantity (the same chart as `archive trend` and the UI's)."""
+    from benchlog.store.chart_figure import chart_figure
+    from benchlog.store.control_chart import LIMITS_SOURCE, RULES_SOURCE
+    from benchlog.store.trend import trend
+
+    found = trend(archive, quantity, by)
+    chart, stats = found.chart, found.stats
+    hits = "; ".join(f"rule {h.rule} ({h.text}) at {chart.labels[h.index]}" for h in chart.hits) or "none"
+    return Section(f"Trend of {quantity} by {by} (archive)", blocks=(
+        FigureBlock("trend", chart_figure(chart, quantity, by),
+                    caption=f"{LIMITS_SOURCE} ({chart.kind}) of {stats.runs} archived runs in "
+                            f"{len(chart.values)} subgroups; ringed points complete a run rule ({RULES_SOURCE})."),
+        Paragraph(f"Archive {archive.shown_url}. Centre {chart.centre:.6g}, σ̂ {chart.sigma:.3g}. "
+                  f"Run-rule hits: {hits}."),
+    ))
 
 
 def history_section(archive, serial: str) -> Section:
@@ -78,11 +97,12 @@ def lots_section(archive, quantity: str, lot_a: str, lot_b: str, usl: float | No
         Paragraph(f"Archive {archive.shown_url}; lot A is {lot_a}, lot B is {lot_b}."), lots, test))
 
 
-def find_section(archive, text: str, rows: int = FIND_ROWS) -> Section:
+def find_section(archive, text: str, rows: int | None = None) -> Section:
     """The runs a filter (typed as in the UI's archive view) selects, oldest first, at most `rows` of them."""
     from benchlog.store.filters import parse_filter
     from benchlog.store.queries import find_runs
 
+    rows = FIND_ROWS if rows is None else rows
     runs = find_runs(archive, parse_filter(text))
     blocks = [Paragraph(f"Filter {text!r} selects {len(runs)} runs in archive {archive.shown_url}"
                         f" (at most {rows} listed, oldest first).")]
@@ -93,8 +113,8 @@ def find_section(archive, text: str, rows: int = FIND_ROWS) -> Section:
     return Section(f"Runs found: {text}", tuple(blocks))
 
 
-def archive_sections(url: str | None, *, serial: str | None = None, lots: tuple[str, str] | None = None,
-                     quantity: str = "r_on_ohm", usl: float | None = None, lsl: float | None = None,
+def archive_sections(url: str | None, *, trend: str | None = None, trend_by: str = "lot",
+                     serial: str | None = None, lots: tuple[str, str] | None = None, quantity: str = "r_on_ohm", usl: float | None = None, lsl: float | None = None,
                      find: str | None = None) -> list[Section]:
     """The archive sections asked for, from one connection; a database that refuses is BadInput (one line)."""
     from sqlalchemy.exc import DBAPIError
@@ -108,6 +128,8 @@ def archive_sections(url: str | None, *, serial: str | None = None, lots: tuple[
     archive = open_archive(url)
     out: list[Section] = []
     try:
+        if trend is not None:
+            out.append(trend_section(archive, trend, trend_by))
         if serial is not None:
             out.append(history_section(archive, serial))
         if lots is not None:
