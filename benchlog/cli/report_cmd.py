@@ -98,7 +98,7 @@ def run(args) -> int:
 
     archived = []
     if asks_archive:
-        from benchlog.report.archive_sections import archive_sections
+        from benchlog.cli.report_archive import archive_sections
 
         archived = archive_sections(args.db, trend=args.trend, trend_by=args.trend_by, serial=args.history,
                                     lots=args.compare_lots, quantity=args.lots_quantity, usl=args.usl,

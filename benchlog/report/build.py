@@ -502,7 +502,7 @@ def build_report(
     archived: Sequence[Section] = (),
 ) -> Document:
     """Analyse the runs (and review the design, when given) and lay out the report; `archived` are sections
-    already read from the lab archive (`report.archive_sections`), placed after the runs' own.
+    already read from the lab archive (composed by `cli/report_archive.py`), placed after the runs' own.
 
     Bad run, spec or design files raise BadInput.
     """

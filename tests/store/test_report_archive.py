@@ -143,7 +143,7 @@ def test_find_section_lists_what_archive_find_finds_and_counts_the_rest(filled, 
     assert [(r[0], r[4]) for r in rows] == [(r["started_utc"], r["path"]) for r in cli["runs"]]
     assert len(rows) == 3  # sample_runs: pmos prototype, killed and heat-soak runs
 
-    import benchlog.report.archive_sections as sections
+    import benchlog.cli.report_archive as sections
 
     monkeypatch.setattr(sections, "FIND_ROWS", 5)
     capped = tmp_path / "capped.html"

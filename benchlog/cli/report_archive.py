@@ -4,6 +4,7 @@ a filter selects.
 Each section asks through the very functions `benchlog archive trend / history / compare-lots / find`
 use (`store.trend.trend`, `store.queries.history`, `store.lots.compare_lots`, `store.queries.find_runs`),
 so the report, the CLI and the UI give one answer. Every string is plain text; the renderers escape it.
+Composed here because `cli/` is the layer that sees both `store/` and `report/` (DESIGN.md).
 """
 
 from __future__ import annotations
@@ -11,7 +12,7 @@ from __future__ import annotations
 from benchlog.badinput import BadInput
 from benchlog.quantity import engineering, label_of, measured, p_value, unit_of
 
-from .document import FigureBlock, Paragraph, Section, Table
+from benchlog.report.document import FigureBlock, Paragraph, Section, Table
 
 #: At most this many runs are listed by a `--find` section; the rest are counted.
 FIND_ROWS = 200
