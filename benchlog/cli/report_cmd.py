@@ -55,33 +55,20 @@ def register(sub) -> None:
     p.add_argument("--trend", metavar="QUANTITY", help="add the archive's control chart of a fitted quantity "
                                                        "(e.g. r_on_ohm; see `benchlog archive trend`)")
     p.add_argument("--trend-by", choices=("lot", "day", "bench"), default="lot", help="subgroups of the trend")
-    p.add_argument("--db", metavar="URL", help="archive for --trend (default: $BENCHLOG_DB, else "
-                                               "sqlite:///benchlog-archive.sqlite)")
+    p.add_argument("--history", metavar="SERIAL", help="add every archived measurement of this part "
+                                                       "(see `benchlog archive history`)")
+    p.add_argument("--compare-lots", nargs=2, metavar=("A", "B"), help="add two archived lots compared: "
+                   "difference of means ± U, Welch's test, capability (see `benchlog archive compare-lots`)")
+    p.add_argument("--lots-quantity", default="r_on_ohm", metavar="Q",
+                   help="fitted parameter --compare-lots compares (default r_on_ohm)")
+    p.add_argument("--usl", type=float, help="upper specification limit for --compare-lots' Cpk / Cpu")
+    p.add_argument("--lsl", type=float, help="lower specification limit for --compare-lots' Cpk / Cpl")
+    p.add_argument("--find", metavar="FILTER", help="add the archived runs a filter selects, typed as in the UI: "
+                   "'lot:L07 verdict:fail since:2025-03-01' (serial: lot: kind: part: verdict: bench: since: "
+                   "until: date:, bare words search serial, lot and part)")
+    p.add_argument("--db", metavar="URL", help="archive for --trend, --history, --compare-lots and --find "
+                                               "(default: $BENCHLOG_DB, else sqlite:///benchlog-archive.sqlite)")
     p.set_defaults(handler=run)
-
-
-def _trend_section(args):
-    """The archive's control chart of one fitted quantity, as a report section (composed here: cli sees both)."""
-    from benchlog.report.document import FigureBlock, Paragraph, Section
-    from benchlog.store import open_archive
-    from benchlog.store.chart_figure import chart_figure
-    from benchlog.store.control_chart import LIMITS_SOURCE, RULES_SOURCE
-    from benchlog.store.trend import trend
-
-    archive = open_archive(args.db)
-    try:
-        found = trend(archive, args.trend, args.trend_by)  # the same chart as `archive trend` and the UI's
-    finally:
-        archive.close()
-    chart, stats = found.chart, found.stats
-    hits = "; ".join(f"rule {h.rule} ({h.text}) at {chart.labels[h.index]}" for h in chart.hits) or "none"
-    return Section(f"Trend of {args.trend} by {args.trend_by} (archive)", blocks=(
-        FigureBlock("trend", chart_figure(chart, args.trend, args.trend_by),
-                    caption=f"{LIMITS_SOURCE} ({chart.kind}) of {stats.runs} archived runs in "
-                            f"{len(chart.values)} subgroups; ringed points complete a run rule ({RULES_SOURCE})."),
-        Paragraph(f"Archive {archive.shown_url}. Centre {chart.centre:.6g}, σ̂ {chart.sigma:.3g}. "
-                  f"Run-rule hits: {hits}."),
-    ))
 
 
 def run(args) -> int:
@@ -95,8 +82,10 @@ def run(args) -> int:
     at_a = _current(args.at) if args.at is not None else None
     for path in args.runs:
         check_input(path, "run file")
-    if not args.runs and args.design is None:
-        raise BadInput("argument", "RUN", "no run file given", "one or more .run files, or --design DESIGN.toml")
+    asks_archive = any(x is not None for x in (args.trend, args.history, args.compare_lots, args.find))
+    if not args.runs and args.design is None and not asks_archive:
+        raise BadInput("argument", "RUN", "no run file given", "one or more .run files, --design DESIGN.toml, "
+                       "or an archive section (--trend, --history, --compare-lots, --find)")
     if args.design is not None:
         check_input(args.design, "design file (.toml)")
     if args.spec is not None:
@@ -107,12 +96,15 @@ def run(args) -> int:
     from benchlog.report.build import build_report
     from benchlog.report.figures import save
 
-    doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a, design_path=args.design,
-                       compare=True if args.compare else None)
-    if args.trend:
-        from dataclasses import replace
+    archived = []
+    if asks_archive:
+        from benchlog.cli.report_archive import archive_sections
 
-        doc = replace(doc, sections=(*doc.sections, _trend_section(args)))
+        archived = archive_sections(args.db, trend=args.trend, trend_by=args.trend_by, serial=args.history,
+                                    lots=args.compare_lots, quantity=args.lots_quantity, usl=args.usl,
+                                    lsl=args.lsl, find=args.find)
+    doc = build_report(args.runs, spec_path=args.spec, model=args.model, at_a=at_a, design_path=args.design,
+                       compare=True if args.compare else None, archived=archived)
     try:
         write_report(doc, out)
     except OSError as exc:

@@ -499,12 +499,14 @@ def build_report(
     design_path: str | Path | None = None,
     generated_utc: str | None = None,
     compare: bool | None = None,
+    archived: Sequence[Section] = (),
 ) -> Document:
-    """Analyse the runs (and review the design, when given) and lay out the report.
+    """Analyse the runs (and review the design, when given) and lay out the report; `archived` are sections
+    already read from the lab archive (composed by `cli/report_archive.py`), placed after the runs' own.
 
     Bad run, spec or design files raise BadInput.
     """
-    if not run_paths and design_path is None:
+    if not run_paths and design_path is None and not archived:
         raise BadInput("argument", "RUN", "no run file given", "one or more .run files, or --design")
     spec = load_spec(spec_path) if spec_path is not None else None
     review = None
@@ -515,7 +517,8 @@ def build_report(
         review = design_review(load_design(design_path))
     runs = [analyse_run(p, spec, model=model, at_a=at_a) for p in run_paths]
     when = generated_utc or datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
-    rid = report_id([ra.meta.header.run_id for ra in runs] or [str(design_path)], when)
+    rid = report_id([ra.meta.header.run_id for ra in runs]
+                    or ([str(design_path)] if design_path is not None else [s.title for s in archived]), when)
     lots = lot_sections(runs, spec, at_a) if spec is not None else []
     lot_verdicts = [b for sec in lots for b in sec.blocks if isinstance(b, VerdictBlock)]
     lots = [Section(sec.title, tuple(b for b in sec.blocks if not isinstance(b, VerdictBlock)), sec.subsections,
@@ -532,7 +535,7 @@ def build_report(
         f"{len(runs)} run(s)" + (f", {len(incomplete)} of them incomplete" if incomplete else "")
         + (f"; judged against the part spec {spec.name} ({spec_path})" if spec is not None else "; no part spec given")
         + ". Read the safety note at the end before repeating any measurement.", "note"))
-    sections: list[Section] = [Section("Verdict", tuple(answer))]
+    sections: list[Section] = [Section("Verdict", tuple(answer))] if runs or review is not None else []
 
     # 2. the plots
     plots: list = []
@@ -566,11 +569,14 @@ def build_report(
 
         sections.append(design_section(review))
     sections += [run_section(ra, spec) for ra in runs]
+    sections += archived
     operators = [str(lab_fields(ra.meta.header)["operator"] or "") for ra in runs]
     if runs:
         sections.append(Section("Lab record and sign-off", (lab_table(runs, rid, when), sign_off_table(rid, operators))))
     sections.append(Section("Safety", (Paragraph(SAFETY_NOTE, "safety"),)))
-    if not runs:
+    if not runs and review is None:
+        title = "benchlog report: " + "; ".join(s.title for s in archived)
+    elif not runs:
         title = f"benchlog report: design review of {review.design.name}"
     elif len(runs) == 1:
         title = f"benchlog report: {runs[0].label}"

@@ -17,13 +17,8 @@ import os
 from dataclasses import dataclass, fields, replace
 from pathlib import Path
 
-from benchlog.badinput import BadInput
-from benchlog.store.filters import RunFilter, check_date, until_bound
+from benchlog.store.filters import FILTER_KEYS, VERDICTS, RunFilter, parse_filter, until_bound  # noqa: F401 (the UI's names)
 
-#: The filter's keys, and what each selects on.
-FILTER_KEYS = {"serial": "serial", "lot": "lot", "kind": "kind", "part": "part", "verdict": "verdict",
-               "bench": "bench", "since": "since", "until": "until", "date": "date"}
-VERDICTS = ("pass", "fail", "conditional")
 #: At most this many runs are listed from a database (the newest that match); the filter narrows the rest.
 LIST_LIMIT = 500
 
@@ -53,38 +48,6 @@ def choose_archive(db: str | None, bench_url: str | None, *, environ=None, here:
     if default_file and ((here or Path.cwd()) / DEFAULT_FILE).is_file():
         return ArchiveChoice(DEFAULT_URL, "the default file here")
     return None
-
-
-def parse_filter(text: str) -> RunFilter:
-    """The typed filter as a `RunFilter`; BadInput names the word that is wrong and what is expected."""
-    values: dict[str, str] = {}
-    words: list[str] = []
-    for word in text.split():
-        key, sep, value = word.partition(":")
-        if not sep:
-            words.append(word)
-            continue
-        key = key.lower()
-        if key not in FILTER_KEYS:
-            raise BadInput("filter", word, f"{key!r} is not a filter key", "one of " + ", ".join(FILTER_KEYS))
-        if not value:
-            raise BadInput("filter", word, "has no value", f"{key}:VALUE")
-        if key in values:
-            raise BadInput("filter", word, f"{key} is given twice", f"one {key}:VALUE")
-        values[key] = value
-    if "verdict" in values:
-        values["verdict"] = values["verdict"].lower()
-        if values["verdict"] not in VERDICTS:
-            raise BadInput("filter", f"verdict:{values['verdict']}", "is not a verdict", " or ".join(VERDICTS))
-    for key in ("since", "until", "date"):
-        if key in values:
-            check_date(values[key], f"{key}:")
-    if "date" in values:
-        if "since" in values or "until" in values:
-            raise BadInput("filter", f"date:{values['date']}", "is given with since: or until:", "date: alone")
-        day = values.pop("date")[:10]
-        values["since"] = values["until"] = day
-    return RunFilter(**values, text=" ".join(words) or None)
 
 
 def filter_text(flt: RunFilter) -> str:
