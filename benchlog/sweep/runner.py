@@ -433,6 +433,10 @@ class SweepRunner:
         stop: _Stop | None = None
         expected = rig.expected_mode()
         if mode in ("CV", "CC") and mode != expected:
+            if self._load_tripped(step.setpoint_a, None):
+                # the load's protection opened the loop: that, not the supply's limit, is why its mode moved
+                rig.element_off()
+                return None, _load_trip_stop(step.setpoint_a)
             flags.append(FLAG_COMPLIANCE)
             if expected == "CC":
                 stop = _Stop("limit", "limit", f"compliance_v: the supply left CC at {step.setpoint_a:g} A "
