@@ -153,7 +153,12 @@ def send(resource: str, *commands: str) -> list[str]:
         try:
             link = rm.open_resource(resource, read_termination="\n", write_termination="\n", timeout=3000)
             try:
-                return [link.query(c).strip() if c.endswith("?") else (link.write(c), "")[1] for c in commands]
+                replies = [link.query(c).strip() if c.endswith("?") else (link.write(c), "")[1] for c in commands]
+                if commands and not commands[-1].endswith("?"):
+                    # IEEE 488.2 *OPC?: the writes are done before this link closes, so the next client's
+                    # query (on another link) cannot overtake them
+                    link.query("*OPC?")
+                return replies
             finally:
                 link.close()
         finally:
