@@ -25,7 +25,7 @@ from typing import Iterable, Sequence
 
 from benchlog.quantity import measured, unit_of
 
-#: components of a fit budget that come from one reading's accuracy, and which reading (fit_result.meter_components)
+#: components of a fit budget that come from one reading's accuracy, and which reading (fit_result.error_shapes)
 READING_OF_TERM = {
     "drop meter gain": "drop", "drop meter offset": "drop",
     "current meter gain": "current", "current meter offset": "current",

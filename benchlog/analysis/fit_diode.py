@@ -5,8 +5,13 @@ scipy.constants; they are written out so that a resistive fit never imports scip
 comes from the linear form V ≈ a·ln I + b + c·I (a = n·Vt, b = −n·Vt·ln Is,
 c = Rs, valid for I ≫ Is) solved with numpy.linalg.lstsq; scipy's
 least_squares then refines (n, ln Is, Rs) — ln Is, because Is spans decades.
-Type A covariance: s²·(JᵀWJ)⁻¹ with s² = Σw·e²/(n−3), the same as
-scipy.optimize.curve_fit with absolute_sigma=False.
+Type A covariance: with the drop's own weights, s²·(JᵀWJ)⁻¹ with s² = Σw·e²/ν, as
+scipy.optimize.curve_fit with absolute_sigma=False. With weights built from the current
+meter's accuracy (below), whose offset is fixed rather than noise, the relative weights are
+not the points' real variances, and the covariance is the sandwich with the points' own
+scatter told apart into drop and current noise (`point_noise`). Either way the scatter leaves
+out the bends of the meters' fixed errors the law cannot follow (a current offset bends its
+low end; those are type B terms already, `fit_result.unfollowed_shapes`).
 
 Weights: the current is a reading too, and on the steep part of the curve a
 small current error is a large drop error; W holds the effective variances
@@ -27,13 +32,19 @@ import math
 
 import numpy as np
 
+from benchlog.quantity import engineering
+
 from .fit_result import (
     FitError,
     FitResult,
     Shockley,
     budgets_to_dicts,
+    error_shapes,
     externally_studentised,
     outlier_flags,
+    scatter_shapes,
+    unfollowed_shapes,
+    without,
 )
 from .effective_variance import (
     MAX_ITERATIONS,
@@ -43,6 +54,7 @@ from .effective_variance import (
     unresolved_points,
     weights_converged,
 )
+from .point_noise import point_noise
 from .uncertainty import Component, MeasurementAccuracy, combine
 
 from .si_constants import BOLTZMANN_J_PER_K, ELEMENTARY_CHARGE_C, ZERO_C_K
@@ -202,28 +214,36 @@ def fit_diode(
         notes.append(f"{int(flags_u.sum())} outlier(s) flagged and kept in the fit")
     if pu.errors_in_current:
         notes += describe(int(unres.sum()), iterations, converged, idx[unres])
-    cov = s2 * jtj_inv
-
     # Type B: project each meter error's shift of the data onto the parameters.
     iw = iu[fit_rows]
     sw_u = None if w is None else np.sqrt(w[fit_rows])
-    shifts: list[tuple[str, np.ndarray]] = []
-    if accuracy is not None and accuracy.drop is not None:
-        shifts.append(("drop meter gain", curve.value(iw) * accuracy.drop.gain_u))
-        if not offset_removed:
-            shifts.append(("drop meter offset", np.full(iw.size, accuracy.drop.offset_u)))
-    if accuracy is not None:
-        slope = curve.slope(iw)
-        for name, rel in accuracy.current_gain_terms():
-            shifts.append((name, slope * iw * rel))
-        if accuracy.current is not None:
-            shifts.append((f"{accuracy.current_name} offset", slope * accuracy.current.offset_u))
+    shifts = error_shapes(curve, accuracy, offset_removed, iw)
     if not shifts:
         notes.append("no accuracy spec: type B omitted, uncertainty is type A only")
-    projected = []
-    for name, dv in shifts:
-        dvw = dv if sw_u is None else dv * sw_u
-        projected.append((name, jtj_inv @ (jw.T @ dvw)))
+    weighted = [(name, dv if sw_u is None else dv * sw_u) for name, dv in shifts]
+    projected = [(name, jtj_inv @ (jw.T @ dvw)) for name, dvw in weighted]
+
+    # Type A: the scatter without the bends of those errors the law cannot follow (counted above).
+    bends = unfollowed_shapes(jw, [dv if sw_u is None else dv * sw_u
+                                   for dv in scatter_shapes(curve, accuracy, offset_removed, iw)], dof)
+    e_rows = vu[fit_rows] - curve.value(iw)
+    w_rows = None if w is None else w[fit_rows]
+    noise = point_noise(e_rows, curve.slope(iw), curve.gradient(iw), w_rows, bends)
+    if bends.shape[1]:
+        notes.append(f"the residual scatter leaves out the bend {bends.shape[1]} meter error(s) give the data "
+                     "(already type B terms)")
+    if pu.errors_in_current:
+        # the weights hold the meters' accuracy, not the points' noise: the sandwich with their own scatter
+        meat = jw.T @ ((w_rows * noise.variances(curve.slope(iw)))[:, None] * jw)
+        cov = jtj_inv @ meat @ jtj_inv
+        dof = noise.dof
+        notes.append(f"type A from the points' own scatter: drop {engineering(noise.drop_sd_v, 'V', 3)}, current "
+                     f"{engineering(noise.current_sd_a, 'A', 3)} per point (ν = {dof})")
+    else:
+        ew = without(bends, e_rows if sw_u is None else e_rows * sw_u)
+        dof -= bends.shape[1]
+        s2 = float(ew @ ew) / dof
+        cov = s2 * jtj_inv
 
     n, ln_is, rs = curve.ideality, curve.ln_i_s, curve.r_s_ohm
     i_s = math.exp(ln_is)
@@ -274,4 +294,5 @@ def fit_diode(
         unresolved=unres if some_unresolved else None,
         weights=weights,
         b_shifts=tuple((name, np.asarray(dp, dtype=float)) for name, dp in projected),
+        point_noise=noise,
     )

@@ -91,6 +91,11 @@ class Shockley:
         i = np.asarray(current_a, dtype=float)
         return self.ideality * self.vt_v / (i + np.exp(self.ln_i_s)) + self.r_s_ohm
 
+    def curvature(self, current_a):
+        """d²V/dI² = −n·Vt/(I + Is)²."""
+        i = np.asarray(current_a, dtype=float)
+        return -self.ideality * self.vt_v / (i + np.exp(self.ln_i_s)) ** 2
+
     def gradient(self, current_a):
         i = np.atleast_1d(np.asarray(current_a, dtype=float))
         x = i * np.exp(-self.ln_i_s)
@@ -125,7 +130,7 @@ class FitResult:
     point_index: np.ndarray
     curve: Curve
     covariance: np.ndarray  # type A covariance of the curve's internal parameters
-    dof: int  # points − parameters: the ν of every type A term
+    dof: int  # the ν of every type A term (points − parameters, less what the scatter leaves out)
     accuracy: MeasurementAccuracy | None = None
     offset_removed: bool = False  # the zero-current offset was subtracted, so o_V has cancelled
     outlier_rule: str = OUTLIER_RULE
@@ -140,6 +145,8 @@ class FitResult:
     # each type B error's shift of the fitted parameters (the data's shift projected through the fit,
     # GUM 5.1.3 to first order): the fit's own response to it, used for the drop at a current
     b_shifts: tuple[tuple[str, np.ndarray], ...] | None = None
+    # a diode fit's point scatter told apart into the drop and current readings' (`point_noise.PointNoise`)
+    point_noise: object = None
 
     @property
     def k(self) -> float:
@@ -172,7 +179,6 @@ class FitResult:
         """The GUM budget of the drop at a true current (see the module docstring)."""
         i = float(current_a)
         value = float(self.curve.value(np.array([i]))[0])
-        slope = float(self.curve.slope(np.array([i]))[0])
         g = self.curve.gradient(np.array([i]))[0]
         u_a = math.sqrt(max(float(g @ self.covariance @ g), 0.0))
         comps = [Component("fit residuals", "A", u_a, float(self.dof))]
@@ -181,7 +187,8 @@ class FitResult:
             # its effect at I is ∇f(I)·Δp, not the first-order f'(I)·o of a curve that does not move
             comps += [Component(name, "B", abs(float(g @ dp))) for name, dp in self.b_shifts]
         else:
-            comps += meter_components(self.accuracy, value, slope, i, self.offset_removed)
+            comps += [Component(name, "B", abs(float(dv[0])))
+                      for name, dv in error_shapes(self.curve, self.accuracy, self.offset_removed, np.array([i]))]
         if self.tj is not None and self.drop_tempco is not None:
             how, tc = self.drop_tempco
             sens = abs(value * tc) if how == "relative" else abs(tc)
@@ -200,22 +207,71 @@ class FitResult:
         return value, self.drop_budget_at(current_a).u
 
 
-def meter_components(
-    accuracy: MeasurementAccuracy | None, value: float, slope: float, current_a: float, offset_removed: bool
-) -> list[Component]:
-    """Type B terms of a drop f(I) from the meters' gain and offset (module docstring)."""
+def error_shapes(curve, accuracy: MeasurementAccuracy | None, offset_removed: bool, current_a) -> list[
+        tuple[str, np.ndarray]]:
+    """Each meter error's shift of the drop at these currents, at its standard uncertainty (δV_i).
+
+    The first-order sensitivities of the module docstring, one column per error: drop gain
+    f(I)·u(g_V), drop offset u(o_V) (unless subtracted), current gain f'(I)·I·u(g_I), current offset
+    f'(I)·u(o_I).
+    """
+    i = np.asarray(current_a, dtype=float)
+    shapes: list[tuple[str, np.ndarray]] = []
     if accuracy is None:
-        return []
-    comps: list[Component] = []
+        return shapes
     if accuracy.drop is not None:
-        comps.append(Component("drop meter gain", "B", abs(value) * accuracy.drop.gain_u))
+        shapes.append(("drop meter gain", curve.value(i) * accuracy.drop.gain_u))
         if not offset_removed:
-            comps.append(Component("drop meter offset", "B", accuracy.drop.offset_u))
+            shapes.append(("drop meter offset", np.full(i.size, accuracy.drop.offset_u)))
+    slope = curve.slope(i)
     for name, rel in accuracy.current_gain_terms():
-        comps.append(Component(name, "B", abs(slope * current_a) * rel))
+        shapes.append((name, slope * i * rel))
     if accuracy.current is not None:
-        comps.append(Component(f"{accuracy.current_name} offset", "B", abs(slope) * accuracy.current.offset_u))
-    return comps
+        shapes.append((f"{accuracy.current_name} offset", slope * accuracy.current.offset_u))
+    return shapes
+
+
+def scatter_shapes(curve, accuracy: MeasurementAccuracy | None, offset_removed: bool, current_a) -> list[np.ndarray]:
+    """The shapes the fit's scatter leaves out: each meter error's (`error_shapes`), and the current
+    offset's second order f''(I)·u(o_I)²/2, which on a junction's low end, where the offset is a
+    sizeable part of the current, is as large as the noise.
+    """
+    i = np.asarray(current_a, dtype=float)
+    shapes = [dv for _, dv in error_shapes(curve, accuracy, offset_removed, i)]
+    if accuracy is not None and accuracy.current is not None and hasattr(curve, "curvature"):
+        shapes.append(curve.curvature(i) * accuracy.current.offset_u ** 2 / 2.0)
+    return shapes
+
+
+#: A shape whose part the model cannot follow is below this fraction of its own size is one the
+#: model follows (a gain is taken up by n and Rs, or by R; an offset by a line's intercept).
+UNFOLLOWED_MIN = 1e-3
+
+
+def unfollowed_shapes(model_directions: np.ndarray, shapes: list[np.ndarray], dof: int) -> np.ndarray:
+    """An orthonormal basis of the parts of the (weighted) error shapes the fitted model cannot follow.
+
+    A fixed meter error with a shape the model cannot take up (a current offset bends a diode's
+    log law at its low end) leaves that bend in the residuals; it is already a type B term, so the
+    type A scatter leaves it out, one degree of freedom for each direction (as a fitted nuisance
+    parameter would, GUM H.3). At most ν − 2 directions, the largest first, so a scatter remains.
+    """
+    n = model_directions.shape[0]
+    if not shapes or dof <= 2:
+        return np.zeros((n, 0))
+    m = np.column_stack(shapes)
+    size = np.linalg.norm(m, axis=0)
+    m = m[:, size > 0] / size[size > 0]
+    if m.shape[1] == 0:
+        return np.zeros((n, 0))
+    coef, *_ = np.linalg.lstsq(model_directions, m, rcond=None)
+    left, sv, _ = np.linalg.svd(m - model_directions @ coef, full_matrices=False)
+    return left[:, sv > UNFOLLOWED_MIN][:, : dof - 2]
+
+
+def without(basis: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """`values` with their components along the orthonormal `basis` removed."""
+    return values - basis @ (basis.T @ values) if basis.shape[1] else values
 
 
 def externally_studentised(residuals: np.ndarray, leverage: np.ndarray, weights, dof: int) -> np.ndarray:

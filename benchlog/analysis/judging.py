@@ -40,6 +40,7 @@ from .predict import OperatingPoint, channel_model, predict
 from .reverse import judge_reverse
 
 from .spec import MosfetSpec, PartSpec, ResistorSpec
+from .fit_result import FitError
 from .uncertainty import Budget, Component, combine
 from .verdict import (
     Check,
@@ -307,9 +308,13 @@ def judge(fit, data, meta, spec: PartSpec, cond: RunConditions) -> Judgement:
         if abs(scatter_ratio - 1.0) > 0.05:
             notes.append(f"the fit's residual scatter with the Zth heating taken out is {scatter_ratio:.2f} of its "
                          "own; the type A term uses that")
+    if not channel and zth_rise is not None and tj.source == "inferred":
+        comps = _offset_through_tj(comps, fit, data, meta, spec, tc, i_op, zth_rise)
     comps.append(Component(TEMPERATURE_TERM, "B", sens * tj.u_c, shape=TEMPERATURE_SHAPE))
     if not channel and fit.offset_removed:
-        comps.append(Component(OFFSET_NOISE_TERM, "A", _reading_sd(fit), float(fit.dof)))
+        noise = fit.point_noise  # the offset is one reading of the same meter as each point's drop
+        if noise is not None:
+            comps.append(Component(OFFSET_NOISE_TERM, "A", noise.drop_sd_v, float(noise.dof)))
     budget = combine(comps)
 
     gate = None
@@ -406,6 +411,43 @@ def _zth_rise(fit, data, meta, spec: PartSpec, r_value, tempco, grad) -> tuple[f
     return 0.5 * (hi + lo), abs(hi - lo) / math.sqrt(12.0), scatter_without_heating(fit, rise, sens)
 
 
+def _offset_through_tj(comps: list[Component], fit, data, meta, spec: PartSpec, tempco: float, i_op: float,
+                       rise: float) -> list[Component]:
+    """`comps` with the current offset's term on the judged error when the rise is inferred.
+
+    The current reading's offset moves the fitted drop and also the rise the value is said to stand
+    at (through the fit's weights and the recorded power); the truth at that Tj moves with it by
+    dVf/dT·ΔTj. One input reaching the result by two paths has the sensitivity of their sum (GUM
+    5.1.3): Δvalue − dVf/dT·ΔTj, found by refitting with the current shifted by u(o) (the response
+    is linear to 0.4 % over the offset's bound on the simulated bench). On that bench the two paths
+    cancel about 6 % of the drop's own shift.
+    """
+    acc = fit.accuracy
+    if fit.model != "diode" or acc is None or acc.current is None or not acc.current.offset_u > 0:
+        return comps
+    name = f"{acc.current_name} offset"
+    if not any(c.name == name for c in comps):
+        return comps
+    from types import SimpleNamespace
+
+    from .fits import fit_diode
+
+    h = acc.current.offset_u
+    try:
+        moved = fit_diode(fit.current_a + h, fit.drop_v, acc, temperature_c=fit.temperature_c,
+                          offset_removed=fit.offset_removed, point_index=fit.point_index)
+    except FitError:
+        return comps
+    at = np.array([i_op])
+    shifted = SimpleNamespace(t_s=column(data, "t_s"), current_a=column(data, "current_a") + h,
+                              drop_v=column(data, "drop_v"), index=column(data, "index"))
+    found = _zth_rise(moved, shifted, meta, spec, None, tempco, moved.curve.gradient(at)[0])
+    if found is None:
+        return comps
+    error_shift = float(moved.curve.value(at)[0] - fit.curve.value(at)[0]) - tempco * (found[0] - rise)
+    return [replace(c, u=abs(error_shift)) if c.name == name else c for c in comps]
+
+
 def _pulse_zth(data, meta, spec: PartSpec, rows) -> np.ndarray | None:
     """Zth of each point's pulse, at its longest (from the previous stamp plus the cool-down), for `rows`."""
     th = spec.thermal
@@ -445,27 +487,6 @@ def reading_lag_s(header) -> float:
 def _worse(upper: Verdict, lower: Verdict) -> Verdict:
     order = {"fail": 0, "conditional": 1, "pass": 2}
     return upper if order[upper.outcome] <= order[lower.outcome] else lower
-
-
-def _reading_sd(fit) -> float:
-    """One reading's scatter, for the zero-offset reading's own noise.
-
-    From the residuals in current order by the mean square successive difference,
-    σ² = Σ(e_{i+1} − e_i)²/(2(n − 1)) (von Neumann et al., Ann. Math. Stat. 12, 1941), which a
-    smooth misfit of the model (a bend the law does not follow) barely raises; over the upper half of
-    the currents, where the drop's slope is least and the current reading's own noise adds least.
-    """
-    keep = ~fit.outliers
-    if fit.excluded is not None:
-        keep = keep & ~fit.excluded
-    i = fit.current_a[keep]
-    upper = i >= np.median(i)  # where a junction's slope is least, the current's own noise shows least
-    order = np.argsort(i[upper], kind="stable")
-    e = fit.residuals_v[keep][upper][order]
-    if e.size < 3:
-        return 0.0
-    d = np.diff(e)
-    return math.sqrt(float(d @ d) / (2.0 * d.size))
 
 
 def judge_run(data, meta, spec: PartSpec, at_a: float | None = None) -> Judgement:

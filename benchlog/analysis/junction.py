@@ -40,6 +40,7 @@ import numpy as np
 
 from benchlog.ambient import DEFAULT_AMBIENT_HALF_WIDTH_K
 from benchlog.quantity import p_value, with_standard
+from .fit_result import scatter_shapes, unfollowed_shapes, without
 
 TJ_SOURCES = ("measured", "inferred", "assumed")
 
@@ -163,6 +164,12 @@ def scatter_without_heating(fit, rows_rise: np.ndarray, sensitivity) -> float | 
         z, basis, e = z * sw, basis * sw[:, None], e * sw
     coef, *_ = np.linalg.lstsq(basis, z, rcond=None)
     z_perp = z - basis @ coef
+    # the meters' bends the fit's own scatter already leaves out (`fit_result.unfollowed_shapes`)
+    shapes = scatter_shapes(fit.curve, fit.accuracy, fit.offset_removed, i)
+    if fit.weights is not None:
+        shapes = [dv * sw for dv in shapes]
+    bends = unfollowed_shapes(basis, shapes, e.size - basis.shape[1])
+    e, z_perp = without(bends, e), without(bends, z_perp)
     sse = float(e @ e)
     if not sse > 0 or e.size <= basis.shape[1]:
         return None
