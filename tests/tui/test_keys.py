@@ -227,6 +227,7 @@ async def test_lot_parts_are_remeasured_or_removed_and_an_outlier_is_named_in_wo
                          and app.state.lot_summary is not None and app.state.lot_summary.n == k + 1, timeout=20)
         outlier_row = next(row for row in screen_text(app).splitlines() if "L5" in row)
         assert "OUTLIER" in outlier_row
+        assert "value ± U (95.45 %)" in screen_text(app)  # what U means, on the table itself
         await pilot.press("n", *"L2", "enter")
         await pilot.pause(0.2)
         assert "already in this lot" in app.messages[-1] and "r to re-measure" in app.messages[-1]
