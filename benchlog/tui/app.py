@@ -44,7 +44,7 @@ class LotEntry:
     serial: str
     run_path: Path | None
     value: float | None = None
-    std_u: float | None = None
+    expanded_u: float | None = None  # U for 95.45 % coverage (the budget's own k_p)
     verdict: str | None = None
     outcome: str = ""
     message: str = ""

@@ -11,19 +11,27 @@ from .findings import study_run
 
 
 def part_quantity(findings) -> tuple[str, str, float | None, float | None]:
-    """The number a lot is judged on: R_on for a channel, else the drop at the operating current (Vf)."""
+    """The number a lot is judged on and its expanded U (95.45 %, the budget's own k_p): R_on for a channel,
+    else the drop at the operating current (Vf). With a spec, the judgement's own value and U (its Tj
+    term included, as `check` and `lot` state them); without one, the fit's."""
     fit = findings.fit
     if fit is None:
         return ("value", "", None, None)
+    check = findings.check
+    if check is not None and check.judgement is not None:
+        j = check.judgement
+        unit = unit_of(j.quantity)
+        return (label_of(j.quantity) if j.quantity == "r_on_ohm" else "Vf", unit, float(j.value),
+                float(j.budget.expanded_u))
     if "r_on_ohm" in fit.params:
-        return (label_of("r_on_ohm"), "Ω", fit.params["r_on_ohm"], fit.std_u.get("r_on_ohm"))
+        return (label_of("r_on_ohm"), "Ω", fit.params["r_on_ohm"], fit.budgets["r_on_ohm"].expanded_u)
     from .views.results import operating_current
 
     at = operating_current(findings)
     if at is None:
         return ("Vf", "V", None, None)
-    value, u = fit.drop_at(at)
-    return ("Vf", "V", float(value), float(u))
+    value, expanded, _ = fit.drop_expanded_at(at)
+    return ("Vf", "V", float(value), float(expanded))
 
 
 def judge_part(entry: Any, spec_path: Path | None) -> None:
@@ -37,7 +45,7 @@ def judge_part(entry: Any, spec_path: Path | None) -> None:
     entry.quantity = name
     entry.unit = unit
     entry.value = value
-    entry.std_u = u
+    entry.expanded_u = u
     entry.verdict = findings.verdict
     if findings.fit_error:
         entry.message = findings.fit_error

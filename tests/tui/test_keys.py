@@ -14,7 +14,6 @@ from benchlog.tui.app import BenchApp
 from benchlog.tui.launch import DEMO_DIR, demo_plans, demo_specs
 from benchlog.tui.paths import shown
 from benchlog.tui.views.caution import CautionScreen, QuitDuringRunScreen
-from benchlog.tui.views.results import not_determined
 
 from .synthetic import PLAN_TEXT, SPEC_TEXT, ScriptedSession, screen_text, write_run
 from .test_views import make_app, run_a_sweep, settle
@@ -145,14 +144,6 @@ async def test_an_extrapolated_value_says_so_and_a_chosen_model_ends_with_its_ru
         assert "model" not in screen_text(app).split("date (UTC)")[0]  # no model carried into the archive's header
 
 
-def test_not_determined_is_an_expanded_uncertainty_above_the_value():
-    # GUM 6.2.1 (U = k·u_c) with k = 2; "U exceeds the value" is the flag's own definition
-    assert not_determined(218e-12, 5730e-12, 2.0)  # Is 218 ± 11460 pA: the example
-    assert not not_determined(0.0105, 6.2e-6, 2.0)  # 10.5 mΩ ± 12 µΩ
-    assert not_determined(-1e-6, 6e-7, 2.0) and not not_determined(1e-6, 4e-7, 2.0)  # boundary either side
-    assert not not_determined(1.0, None)
-
-
 async def test_a_fitted_value_smaller_than_its_uncertainty_is_flagged_not_determined(scripted, runs_dir, demo_files):
     # 1 µΩ under 20 µV of noise: the slope is not resolved (invented demo data)
     write_run(runs_dir, serial="FLAT", r_ohm=1e-6, started_utc="2025-03-06T09:00:00.000Z")
@@ -162,7 +153,7 @@ async def test_a_fitted_value_smaller_than_its_uncertainty_is_flagged_not_determ
         await pilot.press("o")
         await settle(pilot, app, lambda: app.state.findings is not None and app.state.findings.fit is not None)
         fit = app.state.findings.fit
-        assert 2 * fit.std_u["r_on_ohm"] > abs(fit.params["r_on_ohm"])
+        assert fit.expanded_u["r_on_ohm"] > abs(fit.params["r_on_ohm"])  # U (its own k_p) exceeds the value
         line = next(row for row in screen_text(app).splitlines() if "R_on" in row)
         assert "not determined" in line.lower()  # the one result formatter writes it (quantity.py)
 
@@ -227,6 +218,7 @@ async def test_lot_parts_are_remeasured_or_removed_and_an_outlier_is_named_in_wo
                          and app.state.lot_summary is not None and app.state.lot_summary.n == k + 1, timeout=20)
         outlier_row = next(row for row in screen_text(app).splitlines() if "L5" in row)
         assert "OUTLIER" in outlier_row
+        assert "value ± U (95.45 %)" in screen_text(app)  # what U means, on the table itself
         await pilot.press("n", *"L2", "enter")
         await pilot.pause(0.2)
         assert "already in this lot" in app.messages[-1] and "r to re-measure" in app.messages[-1]

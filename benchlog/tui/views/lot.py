@@ -12,7 +12,7 @@ from textual.widgets import DataTable, Input, Static
 from ..plotting import Axis
 from benchlog.quantity import measured
 
-from ..units import si, with_uncertainty
+from ..units import si
 from ..lotview import QUANTITY_NAMES
 from ..widgets import HistogramPlot, Plain, RowTable, cells
 from .base import View
@@ -36,7 +36,7 @@ class LotView(View):
             yield Input(placeholder="n, then type the serial; Enter runs it", id="lot-serial", compact=True)
         with Horizontal(id="lot-body"):
             table = RowTable(id="lot-parts", cursor_type="row")
-            table.add_columns("serial", "value ± U", "verdict")
+            table.add_columns("serial", "value ± U (95.45 %)", "verdict")
             yield table
             with Vertical(id="lot-side"):
                 yield Plain("", id="lot-stats")
@@ -100,8 +100,8 @@ class LotView(View):
                 value = entry.message[:30] if entry.message else ("…" if entry.run_path else "no run")
             elif part is not None:  # the U the part's verdict used (k_p of its comparison, 95.45 % coverage)
                 value = measured(entry.value, part.expanded_u, entry.unit, k=None)
-            else:
-                value = with_uncertainty(entry.value, entry.std_u or 0.0, entry.unit).replace(" (k = 2)", "")
+            else:  # not summed up yet (or no spec): the part's own U, the same coverage
+                value = measured(entry.value, entry.expanded_u, entry.unit, k=None)
             outcome = part.outcome if part is not None else entry.verdict
             verdict = VERDICT_WORDS.get(outcome or "", "—" if entry.outcome == "complete" else entry.outcome)
             if part is not None and part.outlier:

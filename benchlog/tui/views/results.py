@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 
 import numpy as np
@@ -93,13 +92,6 @@ def check_lines(check) -> list[str]:
     if check.typical_comparison:
         lines.append(f"  {check.typical_comparison}")
     return lines
-
-
-def not_determined(value: float, std_u: float | None, k: float = 2.0) -> bool:
-    """A fitted parameter whose expanded uncertainty exceeds its magnitude: the run does not determine it."""
-    if std_u is None or value is None or not (math.isfinite(value) and math.isfinite(std_u)):
-        return False
-    return k * std_u > abs(value)
 
 
 def verdict_rule(check) -> str:
