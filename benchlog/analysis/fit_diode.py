@@ -203,6 +203,9 @@ def fit_diode(
     fit_rows = np.ones(iu.size, dtype=bool)  # rows of the used points that carry weight in the final fit
     if exclude_outliers and flags_u.any():
         fit_rows = ~flags_u
+        if fit_rows.sum() < 4:
+            raise FitError(f"{int(fit_rows.sum())} point(s) left without the {int(flags_u.sum())} outlier(s); "
+                           "the diode law with its scatter needs at least 4")
         (curve, _, dof, s2, jtj_inv, _, jw, _), w_keep, it2, converged = _solve_weighted(
             iu[fit_rows], vu[fit_rows], puu.subset(fit_rows), vt)
         iterations += it2
@@ -232,7 +235,7 @@ def fit_diode(
     if bends.shape[1]:
         notes.append(f"the residual scatter leaves out the bend {bends.shape[1]} meter error(s) give the data "
                      "(already type B terms)")
-    if pu.errors_in_current:
+    if pu.errors_in_current and noise is not None:
         # the weights hold the meters' accuracy, not the points' noise: the sandwich with their own scatter
         meat = jw.T @ ((w_rows * noise.variances(curve.slope(iw)))[:, None] * jw)
         cov = jtj_inv @ meat @ jtj_inv

@@ -38,6 +38,9 @@ import numpy as np
 from .fit_result import without
 
 EXACT_MAX = 2000  # points; above it the n×n map is not formed
+#: Below this many residual degrees of freedom the two noises are not told apart (two variances from
+#: two or three differences are mostly noise): all the scatter is taken as the drop's, σ_I = 0.
+SPLIT_MIN_DOF = 4
 ITERATIONS = 5
 
 
@@ -54,17 +57,20 @@ class PointNoise:
         return self.drop_sd_v**2 + np.asarray(slope, dtype=float) ** 2 * self.current_sd_a**2
 
 
-def point_noise(residuals_v, slope, gradient, weights, bends) -> PointNoise:
+def point_noise(residuals_v, slope, gradient, weights, bends) -> PointNoise | None:
     """Estimate σ_V and σ_I from a fit's residuals (see the module docstring).
 
     The points come in the order they were recorded. `gradient` is the law's (unweighted) gradient in its parameters at the points, `weights` the fit's
     (None: equal), `bends` the orthonormal basis (in the weighted space) of the meter bends left out.
-    ν: the residual degrees of freedom less one, for the second variance.
+    ν: the residual degrees of freedom, less one for the second variance when the two are told apart.
+    None when no degree of freedom is left.
     """
     n, p = gradient.shape
-    dof = max(1, n - p - bends.shape[1] - 1)
-    if n - p - bends.shape[1] < 2:
-        return PointNoise(0.0, 0.0, dof)
+    left = n - p - bends.shape[1]  # the residuals' own degrees of freedom
+    if left < 1:
+        return None
+    split = left >= SPLIT_MIN_DOF
+    dof = left - 1 if split else left
     sw = np.ones(n) if weights is None else np.sqrt(np.asarray(weights, dtype=float))
     e = without(bends, np.asarray(residuals_v, dtype=float) * sw) / sw
     s2 = np.asarray(slope, dtype=float) ** 2
@@ -78,7 +84,11 @@ def point_noise(residuals_v, slope, gradient, weights, bends) -> PointNoise:
         to_residuals = ((keep_bends * sw[None, :]) / sw[:, None]) @ (np.eye(n) - hat)
         c = np.diff(to_residuals, axis=0)
         a, b = (c * c).sum(axis=1), (c * c) @ s2
-    var_v, var_i = _components(np.diff(e) ** 2, a, b)
+    d2 = np.diff(e) ** 2
+    if split:
+        var_v, var_i = _components(d2, a, b)
+    else:  # too few to tell two noises apart: all of it taken as the drop's (the larger term for the offset)
+        var_v, var_i = float(d2.sum() / a.sum()), 0.0
     return PointNoise(math.sqrt(var_v), math.sqrt(var_i), dof)
 
 

@@ -58,3 +58,16 @@ def test_type_a_degrees_of_freedom_are_the_scatters_less_the_bends_and_the_secon
     f = fit(0, 2e-3)
     # the law's 3 parameters, the current offset's bend to first and second order, σ_I beside σ_V
     assert f.point_noise.dof == f.dof == f.points_used - 3 - 2 - 1
+
+
+@pytest.mark.parametrize("points", [4, 5, 6, 8])
+def test_a_short_sweep_still_has_a_type_a_and_a_zero_reading_term(points):
+    # too few points to tell the two noises apart: all the scatter is taken as the drop's, never none of it
+    rng = np.random.default_rng(points)
+    i = np.geomspace(0.05, 2.0, points)
+    v = shockley_drop_v(i, PART["ideality"], PART["i_s_a"], PART["r_s_ohm"], T_C) + rng.normal(0, 20e-6, points)
+    f = fit_diode(i + rng.normal(0, 1e-4, points), v, ACC, temperature_c=T_C, offset_removed=True)
+    assert f.point_noise.drop_sd_v > 0 and f.point_noise.dof >= 1
+    assert f.drop_budget_at(1.0).component("fit residuals").u > 0
+    if points - 3 < 4:
+        assert f.point_noise.current_sd_a == 0.0
