@@ -41,8 +41,8 @@ from .fit_result import (
     budgets_to_dicts,
     error_shapes,
     externally_studentised,
+    offset_curvature_shapes,
     outlier_flags,
-    scatter_shapes,
     unfollowed_shapes,
     without,
 )
@@ -227,8 +227,8 @@ def fit_diode(
     projected = [(name, jtj_inv @ (jw.T @ dvw)) for name, dvw in weighted]
 
     # Type A: the scatter without the bends of those errors the law cannot follow (counted above).
-    bends = unfollowed_shapes(jw, [dv if sw_u is None else dv * sw_u
-                                   for dv in scatter_shapes(curve, accuracy, offset_removed, iw)], dof)
+    second = [dv if sw_u is None else dv * sw_u for dv in offset_curvature_shapes(curve, accuracy, iw)]
+    bends = unfollowed_shapes(jw, [dvw for _, dvw in weighted] + second, dof)
     e_rows = vu[fit_rows] - curve.value(iw)
     w_rows = None if w is None else w[fit_rows]
     noise = point_noise(e_rows, curve.slope(iw), curve.gradient(iw), w_rows, bends)
@@ -240,8 +240,11 @@ def fit_diode(
         meat = jw.T @ ((w_rows * noise.variances(curve.slope(iw)))[:, None] * jw)
         cov = jtj_inv @ meat @ jtj_inv
         dof = noise.dof
-        notes.append(f"type A from the points' own scatter: drop {engineering(noise.drop_sd_v, 'V', 3)}, current "
-                     f"{engineering(noise.current_sd_a, 'A', 3)} per point (ν = {dof})")
+        drop = engineering(noise.drop_sd_v, "V", 3)
+        notes.append(f"type A from the points' own scatter: drop {drop}, current "
+                     f"{engineering(noise.current_sd_a, 'A', 3)} per point (ν = {dof})" if noise.split else
+                     f"type A from the points' own scatter: {drop} per point, all taken as the drop's (too few "
+                     f"points to tell the current reading's noise apart; ν = {dof})")
     else:
         ew = without(bends, e_rows if sw_u is None else e_rows * sw_u)
         dof -= bends.shape[1]

@@ -231,16 +231,19 @@ def error_shapes(curve, accuracy: MeasurementAccuracy | None, offset_removed: bo
     return shapes
 
 
+def offset_curvature_shapes(curve, accuracy: MeasurementAccuracy | None, current_a) -> list[np.ndarray]:
+    """The current offset's second order f''(I)·u(o_I)²/2 (none for a line): on a junction's low end,
+    where the offset is a sizeable part of the current, it is as large as the noise."""
+    if accuracy is None or accuracy.current is None or not hasattr(curve, "curvature"):
+        return []
+    return [curve.curvature(np.asarray(current_a, dtype=float)) * accuracy.current.offset_u ** 2 / 2.0]
+
+
 def scatter_shapes(curve, accuracy: MeasurementAccuracy | None, offset_removed: bool, current_a) -> list[np.ndarray]:
-    """The shapes the fit's scatter leaves out: each meter error's (`error_shapes`), and the current
-    offset's second order f''(I)·u(o_I)²/2, which on a junction's low end, where the offset is a
-    sizeable part of the current, is as large as the noise.
-    """
-    i = np.asarray(current_a, dtype=float)
-    shapes = [dv for _, dv in error_shapes(curve, accuracy, offset_removed, i)]
-    if accuracy is not None and accuracy.current is not None and hasattr(curve, "curvature"):
-        shapes.append(curve.curvature(i) * accuracy.current.offset_u ** 2 / 2.0)
-    return shapes
+    """The shapes the fit's scatter leaves out: each meter error's (`error_shapes`) and the current
+    offset's second order (`offset_curvature_shapes`)."""
+    return ([dv for _, dv in error_shapes(curve, accuracy, offset_removed, current_a)]
+            + offset_curvature_shapes(curve, accuracy, current_a))
 
 
 #: A shape whose part the model cannot follow is below this fraction of its own size is one the

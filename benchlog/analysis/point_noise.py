@@ -51,6 +51,7 @@ class PointNoise:
     drop_sd_v: float
     current_sd_a: float
     dof: int
+    split: bool = True  # False: too few points to tell them apart, all the scatter taken as the drop's
 
     def variances(self, slope: np.ndarray) -> np.ndarray:
         """Σ_k = σ_V² + f'_k²·σ_I²: each point's noise variance as a drop."""
@@ -60,8 +61,9 @@ class PointNoise:
 def point_noise(residuals_v, slope, gradient, weights, bends) -> PointNoise | None:
     """Estimate σ_V and σ_I from a fit's residuals (see the module docstring).
 
-    The points come in the order they were recorded. `gradient` is the law's (unweighted) gradient in its parameters at the points, `weights` the fit's
-    (None: equal), `bends` the orthonormal basis (in the weighted space) of the meter bends left out.
+    The points come in the order they were recorded. `gradient` is the law's (unweighted) gradient in
+    its parameters at the points, `weights` the fit's (None: equal), `bends` the orthonormal basis (in
+    the weighted space) of the meter bends left out.
     ν: the residual degrees of freedom, less one for the second variance when the two are told apart.
     None when no degree of freedom is left.
     """
@@ -89,7 +91,7 @@ def point_noise(residuals_v, slope, gradient, weights, bends) -> PointNoise | No
         var_v, var_i = _components(d2, a, b)
     else:  # too few to tell two noises apart: all of it taken as the drop's (the larger term for the offset)
         var_v, var_i = float(d2.sum() / a.sum()), 0.0
-    return PointNoise(math.sqrt(var_v), math.sqrt(var_i), dof)
+    return PointNoise(math.sqrt(var_v), math.sqrt(var_i), dof, split)
 
 
 def _components(d2: np.ndarray, a: np.ndarray, b: np.ndarray) -> tuple[float, float]:

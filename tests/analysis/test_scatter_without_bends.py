@@ -69,5 +69,7 @@ def test_a_short_sweep_still_has_a_type_a_and_a_zero_reading_term(points):
     f = fit_diode(i + rng.normal(0, 1e-4, points), v, ACC, temperature_c=T_C, offset_removed=True)
     assert f.point_noise.drop_sd_v > 0 and f.point_noise.dof >= 1
     assert f.drop_budget_at(1.0).component("fit residuals").u > 0
-    if points - 3 < 4:
-        assert f.point_noise.current_sd_a == 0.0
+    if points - 3 < 4:  # and says so, rather than stating a current noise of 0 A
+        assert f.point_noise.current_sd_a == 0.0 and not f.point_noise.split
+        assert any("all taken as the drop's" in n for n in f.notes)
+        assert not any("current 0 A" in n for n in f.notes)
